@@ -1,0 +1,326 @@
+"""The equation a u_xx + b u_xy + c u_yy + (lower order) = 0 and its compiled evaluator.
+
+An ``Equation`` is plain text (coefficients, named definitions, parameters) as a user typed it. Compiling it
+parses every text through the whitelist parser, orders the definitions (they may use each other in any order,
+without cycles) and turns each into a numexpr program over internal names. The compiled form is built once per
+text change; parameter values are inputs of every evaluation, so a parameter change costs no recompilation.
+Evaluation works on any broadcastable arrays of points: a whole grid, a tile, a list of cells or one point.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Protocol
+
+import numexpr
+import numpy as np
+import sympy
+
+from core.expr import ExpressionError, check_name, data_derivative_key, parse_expression
+from core.numexpr_code import INF_NAME, NAN_NAME, CodegenError, to_numexpr
+
+__all__ = [
+    "COEFFICIENT_NAMES",
+    "Parameter",
+    "Equation",
+    "QuantitySource",
+    "CompiledEquation",
+    "compile_equation",
+]
+
+COEFFICIENT_NAMES = ("a", "b", "c")
+MAX_DEFINITIONS = 200
+MAX_PARAMETERS = 100
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """A named number in the equation, with an optional slider range, unit and description."""
+
+    value: float
+    minimum: float | None = None
+    maximum: float | None = None
+    unit: str = ""
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Equation:
+    """a u_xx + b u_xy + c u_yy + ... = 0 in two independent variables, as text.
+
+    ``definitions`` maps names to expressions usable in a, b, c and in each other; ``parameters`` maps names
+    to numbers. ``variables`` are the names of the first and second independent variable.
+    """
+
+    a: str
+    b: str
+    c: str
+    variables: tuple[str, str] = ("x", "y")
+    definitions: Mapping[str, str] = field(default_factory=dict)
+    parameters: Mapping[str, Parameter] = field(default_factory=dict)
+    name: str = "equation"
+    description: str = ""
+
+    def coefficient_text(self, which: str) -> str:
+        return {"a": self.a, "b": self.b, "c": self.c}[which]
+
+    def parameter_values(self) -> dict[str, float]:
+        return {name: float(p.value) for name, p in self.parameters.items()}
+
+
+class QuantitySource(Protocol):
+    """Supplies background-data quantities (and their first derivatives) at points.
+
+    ``key`` is a quantity name or ``diff(NAME,VAR)``; the result has the broadcast shape of x and y and is NaN
+    wherever the data do not define the quantity.
+    """
+
+    def sample(self, key: str, x: np.ndarray, y: np.ndarray) -> np.ndarray: ...
+
+
+@dataclass(frozen=True)
+class _Step:
+    name: str            # user-facing name: a definition, or "a", "b", "c"
+    target: str          # internal numexpr name
+    code: str            # numexpr text over internal names
+    pointwise: bool      # depends on the variables or on data (else on parameters only)
+    alias: str | None    # the code is just another internal name: copy, do not evaluate
+
+
+@dataclass(frozen=True, eq=False)
+class CompiledEquation:
+    """An equation ready to evaluate: definitions in dependency order, each as a numexpr program."""
+
+    equation: Equation
+    variables: tuple[str, str]
+    parameter_defaults: Mapping[str, float]
+    definition_order: tuple[str, ...]
+    data_keys: tuple[str, ...]
+    symbolic: Mapping[str, sympy.Expr]
+    symbols: Mapping[str, sympy.Symbol]
+    _steps: tuple[_Step, ...]
+    _internal: Mapping[str, str]
+
+    # -- evaluation -------------------------------------------------------------------------------------
+    def evaluate(self, x, y, *, parameters: Mapping[str, float] | None = None,
+                 data: QuantitySource | None = None) -> dict[str, np.ndarray]:
+        """Every definition and a, b, c at the points (x, y), broadcast together (float64 arrays).
+
+        Non-finite values are returned as they come (NaN, inf): classification maps them to ``undefined``.
+        """
+        shape = np.broadcast_shapes(np.shape(x), np.shape(y))
+        raw = self.evaluate_raw(x, y, parameters=parameters, data=data)
+        return {name: np.broadcast_to(value, shape) for name, value in raw.items()}
+
+    def evaluate_raw(self, x, y, *, parameters: Mapping[str, float] | None = None,
+                     data: QuantitySource | None = None,
+                     prepared: Mapping[str, object] | None = None) -> dict[str, np.ndarray]:
+        """Like ``evaluate`` but each value keeps the smallest shape that broadcasts to the points' shape.
+
+        A coefficient that depends on y alone stays a column; a constant stays 0-d. ``prepared`` (from
+        ``prepare``) skips re-evaluating what depends on parameters only: hot loops over blocks use both.
+        """
+        x = np.asarray(x, dtype=np.float64)
+        y = np.asarray(y, dtype=np.float64)
+        env = dict(prepared if prepared is not None else self.prepare(parameters))
+        env[self._internal[self.variables[0]]] = x
+        env[self._internal[self.variables[1]]] = y
+        if self.data_keys:
+            if data is None:
+                raise ExpressionError(f"background data are needed for {', '.join(self.data_keys)}")
+            for key in self.data_keys:
+                env[self._internal[key]] = np.asarray(data.sample(key, x, y), dtype=np.float64)
+        values: dict[str, np.ndarray] = {}
+        for step in self._steps:
+            if step.pointwise:
+                if step.alias is not None:
+                    env[step.target] = env[step.alias]
+                else:
+                    env[step.target] = numexpr.evaluate(step.code, local_dict=env)
+            values[step.name] = env[step.target]
+        return values
+
+    def prepare(self, parameters: Mapping[str, float] | None = None) -> dict[str, object]:
+        """Parameter values and every parameter-only step, evaluated once for many blocks of points."""
+        env: dict[str, object] = {NAN_NAME: np.float64(np.nan), INF_NAME: np.float64(np.inf)}
+        for name, value in self.parameter_vector(parameters).items():
+            env[self._internal[name]] = np.float64(value)
+        with np.errstate(all="ignore"):
+            for step in self._steps:
+                if not step.pointwise:
+                    env[step.target] = np.float64(numexpr.evaluate(step.code, local_dict=env))
+        return env
+
+    def coefficients(self, x, y, *, parameters: Mapping[str, float] | None = None,
+                     data: QuantitySource | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(a, b, c) at the points, each an array of the broadcast shape of x and y."""
+        values = self.evaluate(x, y, parameters=parameters, data=data)
+        return values["a"], values["b"], values["c"]
+
+    def coefficients_raw(self, x, y, *, parameters: Mapping[str, float] | None = None,
+                         data: QuantitySource | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(a, b, c) at the points, each in its smallest broadcastable shape (see ``evaluate_raw``)."""
+        values = self.evaluate_raw(x, y, parameters=parameters, data=data)
+        return values["a"], values["b"], values["c"]
+
+    def discriminant(self, x, y, *, parameters: Mapping[str, float] | None = None,
+                     data: QuantitySource | None = None) -> np.ndarray:
+        """D = b^2 - 4ac at the points (NaN where a coefficient is undefined)."""
+        a, b, c = self.coefficients(x, y, parameters=parameters, data=data)
+        with np.errstate(all="ignore"):
+            d = b * b - 4.0 * a * c
+        return np.where(np.isfinite(d), d, np.nan)
+
+    def parameter_vector(self, parameters: Mapping[str, float] | None) -> dict[str, float]:
+        """Defaults overridden by ``parameters``; unknown names or non-finite values are rejected."""
+        values = dict(self.parameter_defaults)
+        for name, value in (parameters or {}).items():
+            if name not in values:
+                raise ExpressionError(f"unknown parameter {name!r}")
+            value = float(value)
+            if not math.isfinite(value):
+                raise ExpressionError(f"parameter {name!r} must be a finite number, got {value}")
+            values[name] = value
+        return values
+
+    # -- symbolic views -----------------------------------------------------------------------------------
+    @cached_property
+    def substituted(self) -> dict[str, sympy.Expr]:
+        """a, b, c with every definition substituted: expressions in variables, parameters and data."""
+        resolved: dict[sympy.Symbol, sympy.Expr] = {}
+        for name in self.definition_order:
+            resolved[self.symbols[name]] = self.symbolic[name].xreplace(resolved)
+        return {k: self.symbolic[k].xreplace(resolved) for k in COEFFICIENT_NAMES}
+
+    @cached_property
+    def coefficient_matrix(self) -> sympy.Matrix:
+        """The symmetric second-order coefficient matrix [[a, b/2], [b/2, c]]."""
+        a, b, c = (self.substituted[k] for k in COEFFICIENT_NAMES)
+        return sympy.Matrix([[a, b / 2], [b / 2, c]])
+
+    @cached_property
+    def symbolic_discriminant(self) -> sympy.Expr:
+        """D = b^2 - 4ac = -4 det of the coefficient matrix, with definitions substituted."""
+        return -4 * self.coefficient_matrix.det()
+
+    @property
+    def depends_on_data(self) -> bool:
+        return bool(self.data_keys)
+
+
+def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozenset[str] = ()
+                     ) -> CompiledEquation:
+    """Parse and order everything in ``equation``; raise ExpressionError naming the field at fault.
+
+    ``data_names`` are names of background-data quantities available to expressions (see core.data).
+    """
+    variables = tuple(equation.variables)
+    if len(variables) != 2:
+        raise ExpressionError(f"an equation has exactly two independent variables, got {len(variables)}",
+                              field="variables")
+    if variables[0] == variables[1]:
+        raise ExpressionError(f"the two variables must differ, both are {variables[0]!r}", field="variables")
+    for v in variables:
+        _checked(lambda v=v: check_name(v, what="variable"), "variables")
+    if len(equation.definitions) > MAX_DEFINITIONS:
+        raise ExpressionError(f"more than {MAX_DEFINITIONS} definitions", field="definitions")
+    if len(equation.parameters) > MAX_PARAMETERS:
+        raise ExpressionError(f"more than {MAX_PARAMETERS} parameters", field="parameters")
+
+    kinds: dict[str, str] = {v: "variable" for v in variables}
+    for group, names in (("parameter", equation.parameters), ("definition", equation.definitions),
+                         ("data quantity", data_names)):
+        for name in names:
+            field_name = {"parameter": "parameters", "definition": "definitions",
+                          "data quantity": "data"}[group] + f".{name}"
+            _checked(lambda name=name, group=group: check_name(name, what=group), field_name)
+            if name in kinds or name in COEFFICIENT_NAMES:
+                other = kinds.get(name, "coefficient")
+                raise ExpressionError(f"{group} {name!r} has the same name as a {other}", field=field_name)
+            kinds[name] = group
+    for name, p in equation.parameters.items():
+        if not isinstance(p.value, int | float) or not math.isfinite(p.value):
+            raise ExpressionError(f"value must be a finite number, got {p.value!r}",
+                                  field=f"parameters.{name}")
+
+    symbols = {name: sympy.Symbol(name, real=True) for name in kinds}
+    for quantity in data_names:
+        for v in variables:
+            key = data_derivative_key(quantity, v)
+            symbols[key] = sympy.Symbol(key, real=True)
+
+    parsed: dict[str, sympy.Expr] = {}
+    uses: dict[str, frozenset[str]] = {}
+    sources = [(f"definitions.{n}", n, t) for n, t in equation.definitions.items()]
+    sources += [(k, k, equation.coefficient_text(k)) for k in COEFFICIENT_NAMES]
+    for field_name, name, text in sources:
+        try:
+            result = parse_expression(text, symbols, data_names=data_names, variables=variables)
+        except ExpressionError as error:
+            raise error.in_field(field_name) from None
+        parsed[name] = result.value
+        uses[name] = result.names
+
+    order = _definition_order(equation.definitions, uses)
+    used_data = sorted({n for k in parsed for n in uses[k]
+                        if kinds.get(n) == "data quantity" or n.startswith("diff(")})
+    internal = {name: f"q{i}" for i, name in enumerate(list(symbols) + list(COEFFICIENT_NAMES))}
+    by_symbol = {symbols[name]: internal[name] for name in symbols}
+    steps = []
+    pointwise_names = set(variables) | set(used_data)
+    for name in (*order, *COEFFICIENT_NAMES):
+        try:
+            code = to_numexpr(parsed[name], by_symbol)
+        except CodegenError as error:
+            prefix = "definitions." if name not in COEFFICIENT_NAMES else ""
+            raise ExpressionError(str(error), field=prefix + name) from None
+        pointwise = bool(uses[name] & pointwise_names)
+        if pointwise:
+            pointwise_names.add(name)
+        alias = code if code in internal.values() else None
+        steps.append(_Step(name=name, target=internal[name], code=code, pointwise=pointwise, alias=alias))
+    return CompiledEquation(
+        equation=equation,
+        variables=variables,  # type: ignore[arg-type]
+        parameter_defaults=equation.parameter_values(),
+        definition_order=tuple(order),
+        data_keys=tuple(used_data),
+        symbolic=parsed,
+        symbols=symbols,
+        _steps=tuple(steps),
+        _internal=internal,
+    )
+
+
+def _checked(check, field_name: str) -> None:
+    try:
+        check()
+    except ExpressionError as error:
+        raise error.in_field(field_name) from None
+
+
+def _definition_order(definitions: Mapping[str, str], uses: Mapping[str, frozenset[str]]) -> list[str]:
+    """Definitions sorted so each comes after those it uses; a cycle is reported with its path."""
+    order: list[str] = []
+    state: dict[str, int] = {}  # 1 = in progress, 2 = done
+
+    def visit(name: str, path: list[str]) -> None:
+        if state.get(name) == 2:
+            return
+        if state.get(name) == 1:
+            cycle = path[path.index(name):] + [name]
+            raise ExpressionError("definitions form a cycle: " + " -> ".join(cycle),
+                                  field=f"definitions.{cycle[0]}")
+        state[name] = 1
+        for used in sorted(uses[name]):
+            if used in definitions:
+                visit(used, path + [name])
+        state[name] = 2
+        order.append(name)
+
+    for name in definitions:
+        visit(name, [])
+    return order

@@ -1,0 +1,423 @@
+"""Safe parsing of user-typed expressions into sympy objects.
+
+Text is parsed with Python's ``ast`` module and every node is checked against a whitelist before a sympy
+object is built from it directly. Nothing is ever passed to eval, exec, sympify or parse_expr. Constant
+sub-expressions are folded to floats here (sympy's own evaluation of huge constants can hang), and the size,
+depth and exponents of an expression are bounded.
+"""
+
+from __future__ import annotations
+
+import ast
+import keyword
+import math
+import re
+from collections.abc import Callable, Collection, Mapping
+from dataclasses import dataclass
+
+import sympy
+
+__all__ = [
+    "ExpressionError",
+    "FUNCTION_NAMES",
+    "CONSTANT_NAMES",
+    "MAX_TEXT_LENGTH",
+    "check_name",
+    "parse_expression",
+    "data_derivative_key",
+    "ParsedExpression",
+]
+
+MAX_TEXT_LENGTH = 2000
+MAX_NODES = 600
+MAX_DEPTH = 60
+MAX_ABS_EXPONENT = 64
+MAX_NAME_LENGTH = 40
+
+
+class ExpressionError(ValueError):
+    """A user expression or name is not acceptable; the message says what and where (1-based column)."""
+
+    def __init__(self, message: str, *, column: int | None = None, field: str = "") -> None:
+        self.message = message
+        self.column = column
+        self.field = field
+        where = []
+        if field:
+            where.append(field)
+        if column is not None:
+            where.append(f"column {column}")
+        prefix = f"{', '.join(where)}: " if where else ""
+        super().__init__(prefix + message)
+
+    def in_field(self, field: str) -> ExpressionError:
+        """The same error, attributed to ``field`` (e.g. ``definitions.u``)."""
+        return ExpressionError(self.message, column=self.column, field=field)
+
+
+def _heaviside(value: float) -> float:
+    if value > 0:
+        return 1.0
+    if value < 0:
+        return 0.0
+    return 0.5 if value == 0 else math.nan
+
+
+def _sign(value: float) -> float:
+    return float((value > 0) - (value < 0)) if not math.isnan(value) else math.nan
+
+
+# name -> (number of arguments, sympy builder, float evaluator for constant folding)
+_FUNCTIONS: dict[str, tuple[int, Callable, Callable]] = {
+    "sin": (1, sympy.sin, math.sin),
+    "cos": (1, sympy.cos, math.cos),
+    "tan": (1, sympy.tan, math.tan),
+    "asin": (1, sympy.asin, math.asin),
+    "acos": (1, sympy.acos, math.acos),
+    "atan": (1, sympy.atan, math.atan),
+    "atan2": (2, sympy.atan2, math.atan2),
+    "sinh": (1, sympy.sinh, math.sinh),
+    "cosh": (1, sympy.cosh, math.cosh),
+    "tanh": (1, sympy.tanh, math.tanh),
+    "exp": (1, sympy.exp, math.exp),
+    "log": (1, sympy.log, math.log),
+    "sqrt": (1, sympy.sqrt, math.sqrt),
+    "abs": (1, sympy.Abs, abs),
+    "sign": (1, sympy.sign, _sign),
+    "heaviside": (1, lambda v: sympy.Heaviside(v, sympy.Rational(1, 2)), _heaviside),
+    "min": (-2, sympy.Min, min),
+    "max": (-2, sympy.Max, max),
+}
+FUNCTION_NAMES = frozenset(_FUNCTIONS) | {"piecewise", "diff"}
+CONSTANT_NAMES = frozenset({"pi", "e"})
+_CONSTANTS = {"pi": math.pi, "e": math.e}
+_IDENTIFIER = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+
+_COMPARISONS = {
+    ast.Lt: sympy.StrictLessThan,
+    ast.LtE: sympy.LessThan,
+    ast.Gt: sympy.StrictGreaterThan,
+    ast.GtE: sympy.GreaterThan,
+}
+_FLOAT_COMPARISONS = {
+    ast.Lt: lambda p, q: p < q,
+    ast.LtE: lambda p, q: p <= q,
+    ast.Gt: lambda p, q: p > q,
+    ast.GtE: lambda p, q: p >= q,
+}
+
+
+def data_derivative_key(name: str, variable: str) -> str:
+    """The symbol name standing for the first derivative of data quantity ``name`` along ``variable``."""
+    return f"diff({name},{variable})"
+
+
+def check_name(name: str, *, what: str = "name") -> None:
+    """Reject names that are not plain ASCII identifiers or that shadow a function, constant or keyword."""
+    if not isinstance(name, str) or not _IDENTIFIER.match(name):
+        raise ExpressionError(
+            f"{what} {name!r} must start with a letter and hold only ASCII letters, digits and '_'"
+        )
+    if len(name) > MAX_NAME_LENGTH:
+        raise ExpressionError(f"{what} {name!r} is longer than {MAX_NAME_LENGTH} characters")
+    if name in FUNCTION_NAMES or name in CONSTANT_NAMES:
+        raise ExpressionError(f"{what} {name!r} is the name of a built-in function or constant")
+    if keyword.iskeyword(name) or keyword.issoftkeyword(name) or name in {"True", "False", "None"}:
+        raise ExpressionError(f"{what} {name!r} is a reserved word")
+
+
+@dataclass(frozen=True)
+class ParsedExpression:
+    """A parsed expression and the names it uses (variables, parameters, definitions, data)."""
+
+    text: str
+    value: sympy.Basic
+    names: frozenset[str]
+
+
+class _Builder:
+    """Walks a checked AST and builds sympy objects, folding constants to floats."""
+
+    def __init__(self, symbols: Mapping[str, sympy.Symbol], data_names: Collection[str],
+                 variables: Collection[str]) -> None:
+        self.symbols = symbols
+        self.data_names = set(data_names)
+        self.variables = set(variables)
+        self.used: set[str] = set()
+        self.nodes = 0
+
+    # Constants are carried as Python floats until they meet a symbol.
+    def build(self, node: ast.AST, depth: int = 0):
+        self.nodes += 1
+        if self.nodes > MAX_NODES:
+            raise ExpressionError(f"expression is too large (more than {MAX_NODES} parts)")
+        if depth > MAX_DEPTH:
+            raise ExpressionError(f"expression is nested too deeply (more than {MAX_DEPTH} levels)",
+                                  column=_column(node))
+        method = getattr(self, f"_build_{type(node).__name__}", None)
+        if method is None:
+            raise ExpressionError(_describe_forbidden(node), column=_column(node))
+        return method(node, depth + 1)
+
+    def _build_Constant(self, node: ast.Constant, depth: int):
+        value = node.value
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise ExpressionError(f"only numbers are allowed here, not {value!r}", column=_column(node))
+        if isinstance(value, int):
+            if abs(value) > 2**53:
+                raise ExpressionError("integer is too large", column=_column(node))
+            return int(value)
+        return float(value)
+
+    def _build_Name(self, node: ast.Name, depth: int):
+        name = node.id
+        if name in _CONSTANTS:
+            return _CONSTANTS[name]
+        if name in self.symbols:
+            self.used.add(name)
+            return self.symbols[name]
+        if name in _FUNCTIONS or name in ("piecewise", "diff"):
+            raise ExpressionError(f"{name!r} is a function: call it like {name}(...)", column=_column(node))
+        raise ExpressionError(f"unknown name {name!r}", column=_column(node))
+
+    def _build_UnaryOp(self, node: ast.UnaryOp, depth: int):
+        operand = self.build(node.operand, depth)
+        if isinstance(node.op, ast.USub):
+            return -operand
+        if isinstance(node.op, ast.UAdd):
+            return operand
+        if isinstance(node.op, ast.Not):
+            raise ExpressionError("'not' is not supported; compare with <, <=, >, >= instead",
+                                  column=_column(node))
+        raise ExpressionError(_describe_forbidden(node), column=_column(node))
+
+    def _build_BinOp(self, node: ast.BinOp, depth: int):
+        op = node.op
+        if isinstance(op, ast.BitXor):
+            raise ExpressionError("'^' is not a power here: write x**2 for x squared", column=_column(node))
+        if not isinstance(op, ast.Add | ast.Sub | ast.Mult | ast.Div | ast.Pow):
+            raise ExpressionError(f"operator {_OPERATOR_TEXT.get(type(op), '?')!r} is not supported; "
+                                  "use + - * / **", column=_column(node))
+        left = self.build(node.left, depth)
+        right = self.build(node.right, depth)
+        constant = _is_number(left) and _is_number(right)
+        if isinstance(op, ast.Pow):
+            if _is_number(right) and abs(right) > MAX_ABS_EXPONENT and not constant:
+                raise ExpressionError(f"exponent {right:g} is larger than {MAX_ABS_EXPONENT}",
+                                      column=_column(node))
+            if constant:
+                return _fold(lambda p, q: math.pow(p, q), (left, right), node, "**")
+            return sympy.Pow(_to_sympy(left), _to_sympy(right))
+        if constant:
+            if isinstance(op, ast.Div):
+                return _fold(lambda p, q: p / q, (left, right), node, "/")
+            function = {ast.Add: lambda p, q: p + q, ast.Sub: lambda p, q: p - q,
+                        ast.Mult: lambda p, q: p * q}[type(op)]
+            return _fold(function, (left, right), node, "arithmetic")
+        left, right = _to_sympy(left), _to_sympy(right)
+        if isinstance(op, ast.Add):
+            return left + right
+        if isinstance(op, ast.Sub):
+            return left - right
+        if isinstance(op, ast.Mult):
+            return left * right
+        return left / right
+
+    def _build_Compare(self, node: ast.Compare, depth: int):
+        terms = [self.build(node.left, depth)] + [self.build(c, depth) for c in node.comparators]
+        conditions = []
+        for op, left, right in zip(node.ops, terms, terms[1:], strict=False):
+            if type(op) not in _COMPARISONS:
+                raise ExpressionError("only <, <=, >, >= comparisons are allowed (no == or !=)",
+                                      column=_column(node))
+            if _is_number(left) and _is_number(right):
+                conditions.append(sympy.true if _FLOAT_COMPARISONS[type(op)](left, right) else sympy.false)
+            else:
+                conditions.append(_COMPARISONS[type(op)](_to_sympy(left), _to_sympy(right)))
+        return sympy.And(*conditions) if len(conditions) > 1 else conditions[0]
+
+    def _build_BoolOp(self, node: ast.BoolOp, depth: int):
+        values = [self.build(v, depth) for v in node.values]
+        for value, sub in zip(values, node.values, strict=True):
+            if not _is_condition(value):
+                raise ExpressionError("'and'/'or' join comparisons, not numbers", column=_column(sub))
+        return sympy.And(*values) if isinstance(node.op, ast.And) else sympy.Or(*values)
+
+    def _build_Call(self, node: ast.Call, depth: int):
+        if not isinstance(node.func, ast.Name):
+            raise ExpressionError("only plain function names can be called, e.g. sin(x)",
+                                  column=_column(node))
+        name = node.func.id
+        if node.keywords:
+            raise ExpressionError(f"{name}() takes no keyword arguments", column=_column(node))
+        if any(isinstance(a, ast.Starred) for a in node.args):
+            raise ExpressionError("'*' unpacking is not allowed", column=_column(node))
+        if name == "piecewise":
+            return self._piecewise(node, depth)
+        if name == "diff":
+            return self._data_derivative(node)
+        if name not in _FUNCTIONS:
+            hint = " (names are case-sensitive)" if name.lower() in _FUNCTIONS else ""
+            raise ExpressionError(f"unknown function {name!r}{hint}", column=_column(node))
+        arity, builder, evaluator = _FUNCTIONS[name]
+        args = [self.build(a, depth) for a in node.args]
+        if arity > 0 and len(args) != arity:
+            raise ExpressionError(f"{name}() takes {arity} argument{'s' * (arity > 1)}, got {len(args)}",
+                                  column=_column(node))
+        if arity < 0 and len(args) < -arity:
+            raise ExpressionError(f"{name}() takes at least {-arity} arguments", column=_column(node))
+        for arg, sub in zip(args, node.args, strict=True):
+            if _is_condition(arg):
+                raise ExpressionError(f"{name}() takes numbers, not a comparison", column=_column(sub))
+        if all(_is_number(a) for a in args):
+            return _fold(evaluator, args, node, f"{name}()")
+        return builder(*[_to_sympy(a) for a in args])
+
+    def _piecewise(self, node: ast.Call, depth: int):
+        """piecewise(cond1, value1, cond2, value2, ..., otherwise): the first true condition wins."""
+        args = node.args
+        if len(args) < 3 or len(args) % 2 == 0:
+            raise ExpressionError("piecewise() takes pairs (condition, value) and a final 'otherwise' value, "
+                                  "e.g. piecewise(x < 0, 1, x**2)", column=_column(node))
+        pairs = []
+        for index in range(0, len(args) - 1, 2):
+            condition = self.build(args[index], depth)
+            if not _is_condition(condition):
+                raise ExpressionError("piecewise() conditions must be comparisons such as x < 0",
+                                      column=_column(args[index]))
+            value = self._number_argument(args[index + 1], depth, "piecewise()")
+            pairs.append((_to_sympy(value), condition))
+        otherwise = self._number_argument(args[-1], depth, "piecewise()")
+        pairs.append((_to_sympy(otherwise), sympy.true))
+        result = sympy.Piecewise(*pairs)
+        return float(result) if result.is_Number else result
+
+    def _number_argument(self, node: ast.AST, depth: int, where: str):
+        value = self.build(node, depth)
+        if _is_condition(value):
+            raise ExpressionError(f"{where} values must be numbers, not comparisons", column=_column(node))
+        return value
+
+    def _data_derivative(self, node: ast.Call):
+        """diff(NAME, VAR): first derivative of a data quantity, supplied by the data layer."""
+        args = node.args
+        if len(args) != 2 or not all(isinstance(a, ast.Name) for a in args):
+            raise ExpressionError("diff() takes a data quantity and a variable, e.g. diff(u, x)",
+                                  column=_column(node))
+        quantity, variable = args[0].id, args[1].id
+        if quantity not in self.data_names:
+            raise ExpressionError(f"diff() applies to data quantities; {quantity!r} is not one",
+                                  column=_column(args[0]))
+        if variable not in self.variables:
+            raise ExpressionError(f"diff() needs an independent variable, not {variable!r}",
+                                  column=_column(args[1]))
+        key = data_derivative_key(quantity, variable)
+        self.used.add(key)
+        return self.symbols[key]
+
+
+_OPERATOR_TEXT = {ast.Mod: "%", ast.FloorDiv: "//", ast.MatMult: "@", ast.BitAnd: "&", ast.BitOr: "|",
+                  ast.LShift: "<<", ast.RShift: ">>"}
+
+
+def _describe_forbidden(node: ast.AST) -> str:
+    kind = type(node).__name__
+    friendly = {
+        "Attribute": "attribute access ('.') is not allowed",
+        "Subscript": "indexing with [] is not allowed",
+        "Lambda": "lambda is not allowed",
+        "IfExp": "'if ... else' is not allowed; use piecewise(condition, value, otherwise)",
+        "List": "lists are not allowed", "Tuple": "tuples are not allowed", "Dict": "dicts are not allowed",
+        "Set": "sets are not allowed", "JoinedStr": "strings are not allowed",
+        "NamedExpr": "':=' is not allowed", "Await": "'await' is not allowed",
+        "ListComp": "comprehensions are not allowed", "GeneratorExp": "comprehensions are not allowed",
+    }
+    return friendly.get(kind, f"{kind} is not allowed in an expression")
+
+
+def _column(node: ast.AST) -> int | None:
+    offset = getattr(node, "col_offset", None)
+    return None if offset is None else offset + 1
+
+
+def _is_condition(value) -> bool:
+    """True for comparisons and their and/or combinations (sympy's Symbol is a Boolean too, so test kinds)."""
+    return isinstance(value, sympy.core.relational.Relational | sympy.logic.boolalg.BooleanFunction
+                      | sympy.logic.boolalg.BooleanAtom)
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _to_sympy(value):
+    if isinstance(value, bool):
+        return sympy.true if value else sympy.false
+    if isinstance(value, int):
+        return sympy.Integer(value)
+    if isinstance(value, float):
+        return sympy.Float(value)
+    return value
+
+
+def _fold(function: Callable, args, node: ast.AST, what: str) -> float:
+    """Evaluate a constant sub-expression in double precision; reject results that are not finite reals."""
+    try:
+        result = function(*[float(a) for a in args])
+    except ZeroDivisionError:
+        raise ExpressionError(f"division by zero in a constant ({what})", column=_column(node)) from None
+    except OverflowError:
+        raise ExpressionError(f"constant {what} overflows double precision", column=_column(node)) from None
+    except ValueError:
+        raise ExpressionError(f"constant {what} has no real value (e.g. sqrt or log of a negative number)",
+                              column=_column(node)) from None
+    if isinstance(result, complex) or not math.isfinite(result):
+        raise ExpressionError(f"constant {what} is not a finite real number", column=_column(node))
+    return float(result)
+
+
+_IMPLICIT_PRODUCT = re.compile(r"(?<![A-Za-z_0-9.])(\d+(?:\.\d*)?)([A-Za-z_(])")
+
+
+def parse_expression(text: str, symbols: Mapping[str, sympy.Symbol], *, data_names: Collection[str] = (),
+                     variables: Collection[str] = ()) -> ParsedExpression:
+    """Parse ``text`` into a sympy expression over ``symbols``.
+
+    ``symbols`` maps every name the expression may use (variables, parameters, definitions, data quantities,
+    and ``diff(NAME,VAR)`` keys) to its sympy Symbol. Raises ExpressionError with a 1-based column.
+    """
+    if not isinstance(text, str):
+        raise ExpressionError(f"expected text, got {type(text).__name__}")
+    if len(text) > MAX_TEXT_LENGTH:
+        raise ExpressionError(f"expression is longer than {MAX_TEXT_LENGTH} characters")
+    if not text.strip():
+        raise ExpressionError("expression is empty")
+    if not text.isascii():
+        bad = next(i for i, ch in enumerate(text) if not ch.isascii())
+        raise ExpressionError(f"character {text[bad]!r} is not allowed (ASCII only)", column=bad + 1)
+    if "\n" in text.strip() or "\r" in text:
+        raise ExpressionError("an expression is a single line")
+    source = text.strip()
+    try:
+        tree = ast.parse(source, mode="eval")
+    except SyntaxError as error:
+        implicit = _IMPLICIT_PRODUCT.search(source)
+        if implicit:
+            number, name = implicit.groups()
+            raise ExpressionError(f"write {number}*{name} for a product, not {number}{name}",
+                                  column=implicit.start() + 1) from None
+        column = error.offset if error.offset else None
+        raise ExpressionError(f"syntax error: {error.msg}", column=column) from None
+    except (RecursionError, MemoryError, ValueError):
+        raise ExpressionError("expression is nested too deeply or is malformed") from None
+    builder = _Builder(symbols, data_names, variables)
+    try:
+        value = builder.build(tree.body)
+    except RecursionError:
+        raise ExpressionError("expression is nested too deeply") from None
+    except TypeError:
+        raise ExpressionError("a comparison is used where a number is expected; "
+                              "comparisons belong inside piecewise()") from None
+    if _is_condition(value):
+        raise ExpressionError("expression is a comparison, not a number; use it inside piecewise()")
+    return ParsedExpression(text=text, value=_to_sympy(value), names=frozenset(builder.used))

@@ -1,0 +1,136 @@
+"""Translation of the sympy expressions that core.expr builds into numexpr source text.
+
+The input is a sympy tree made only of whitelisted nodes (never raw user text), and every symbol is renamed
+to an internal name, so the generated text can neither clash with numexpr's own names nor carry anything a
+user typed. Semantics follow IEEE doubles: a square root or logarithm of a negative number gives NaN, a
+division by zero gives infinity, and NaN in any argument of min, max, sign, heaviside or a piecewise
+condition gives NaN. The caller turns non-finite results into the ``undefined`` type.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import sympy
+
+__all__ = ["to_numexpr", "NAN_NAME", "INF_NAME", "CodegenError"]
+
+NAN_NAME = "qnan"
+INF_NAME = "qinf"
+
+_DIRECT = {
+    sympy.sin: "sin", sympy.cos: "cos", sympy.tan: "tan",
+    sympy.asin: "arcsin", sympy.acos: "arccos", sympy.atan: "arctan", sympy.atan2: "arctan2",
+    sympy.sinh: "sinh", sympy.cosh: "cosh", sympy.tanh: "tanh",
+    sympy.asinh: "arcsinh", sympy.acosh: "arccosh", sympy.atanh: "arctanh",
+    sympy.exp: "exp", sympy.log: "log", sympy.Abs: "abs",
+}
+
+
+class CodegenError(ValueError):
+    """A sympy construct has no numexpr translation (a bug, or an expression simplified into one)."""
+
+
+def _number(value: float) -> str:
+    if value != value:
+        return NAN_NAME
+    if value in (float("inf"), float("-inf")):
+        return INF_NAME if value > 0 else f"(-{INF_NAME})"
+    text = repr(float(value))
+    return f"({text})" if value < 0 else text
+
+
+def to_numexpr(expr: sympy.Basic, names: Mapping[sympy.Symbol, str]) -> str:
+    """numexpr text for ``expr``; ``names`` maps each free symbol to its internal variable name."""
+    return _Printer(names).emit(expr)
+
+
+class _Printer:
+    def __init__(self, names: Mapping[sympy.Symbol, str]) -> None:
+        self.names = names
+
+    def emit(self, e: sympy.Basic) -> str:
+        if e is sympy.nan or e is sympy.zoo:
+            return NAN_NAME
+        if e is sympy.oo:
+            return INF_NAME
+        if e is sympy.S.NegativeInfinity:
+            return f"(-{INF_NAME})"
+        if e is sympy.true:
+            return "True"
+        if e is sympy.false:
+            return "False"
+        if e.is_Symbol:
+            try:
+                return self.names[e]
+            except KeyError:
+                raise CodegenError(f"no value for symbol {e}") from None
+        if e.is_Number or e.is_NumberSymbol:
+            return _number(float(e))
+        if e.is_Add:
+            return "(" + " + ".join(self.emit(t) for t in e.args) + ")"
+        if e.is_Mul:
+            return "(" + " * ".join(self.emit(t) for t in e.args) + ")"
+        if e.is_Pow:
+            return self._power(e)
+        if isinstance(e, sympy.Piecewise):
+            return self._piecewise(e)
+        if isinstance(e, sympy.Min | sympy.Max):
+            return self._extremum(e)
+        if isinstance(e, sympy.sign):
+            v = self.emit(e.args[0])
+            return f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))"
+        if isinstance(e, sympy.Heaviside):
+            v = self.emit(e.args[0])
+            at_zero = _number(float(e.args[1])) if len(e.args) > 1 else "0.5"
+            return f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))"
+        if isinstance(e, sympy.Rel):
+            op = {"<": "<", "<=": "<=", ">": ">", ">=": ">=", "==": "==", "!=": "!="}[e.rel_op]
+            return f"({self.emit(e.lhs)} {op} {self.emit(e.rhs)})"
+        if isinstance(e, sympy.And):
+            return "(" + " & ".join(self.emit(t) for t in e.args) + ")"
+        if isinstance(e, sympy.Or):
+            return "(" + " | ".join(self.emit(t) for t in e.args) + ")"
+        if isinstance(e, sympy.Not):
+            return f"(~{self.emit(e.args[0])})"
+        function = _DIRECT.get(type(e))
+        if function is not None:
+            return f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
+        raise CodegenError(f"cannot evaluate {type(e).__name__} numerically")
+
+    def _power(self, e: sympy.Pow) -> str:
+        base, exponent = e.args
+        if exponent == sympy.Rational(1, 2):
+            return f"sqrt({self.emit(base)})"
+        if exponent == sympy.Rational(-1, 2):
+            return f"(1.0 / sqrt({self.emit(base)}))"
+        if exponent == -1:
+            return f"(1.0 / {self.emit(base)})"
+        if base is sympy.E:
+            return f"exp({self.emit(exponent)})"
+        return f"({self.emit(base)} ** {self.emit(exponent)})"
+
+    def _extremum(self, e: sympy.Basic) -> str:
+        keep = ">=" if isinstance(e, sympy.Max) else "<="
+        args = [self.emit(t) for t in e.args]
+        result = args[0]
+        for other in args[1:]:
+            # NaN in either argument gives NaN: a NaN first argument is kept; a NaN second one fails ``keep``.
+            result = f"where(({result} {keep} {other}) | ({result} != {result}), {result}, {other})"
+        return result
+
+    def _piecewise(self, e: sympy.Piecewise) -> str:
+        result = None
+        guards = []
+        for value, condition in reversed(e.args):
+            value_text = self.emit(value)
+            if result is None and condition is sympy.true:
+                result = value_text
+                continue
+            result = f"where({self.emit(condition)}, {value_text}, {result if result is not None else NAN_NAME})"
+            guards.extend(a for rel in condition.atoms(sympy.Rel) for a in (rel.lhs, rel.rhs))
+        poison = [self.emit(g) for g in guards if not g.is_Number]
+        if poison:
+            # A NaN in any compared quantity makes the whole piecewise value NaN instead of a silent branch.
+            result = f"({result} + 0.0 * (" + " + ".join(poison) + "))"
+        return result
