@@ -1,7 +1,9 @@
 """Local type of the equation from the sign of the discriminant D = b^2 - 4ac.
 
-The test is scale-free: with S = b^2 + 4|ac| (zero only where a = b = c = 0), the normalised discriminant
-D/S lies in [-1, 1] and a point is parabolic when |D/S| <= tolerance, whatever the size of the coefficients.
+The test is scale-free: with S = b^2 + 4|ac|, the size of the rounding error of D = b^2 - 4ac is about
+machine epsilon times S, so the normalised discriminant D/S in [-1, 1] is what can be trusted, and a point is
+parabolic when |D/S| <= tolerance, whatever the size of the coefficients. Where S = 0 (b = 0 and ac = 0, as in
+the heat equation) D is exactly 0 and the point is parabolic.
 Points where a coefficient is NaN, infinite or not real get the explicit ``UNDEFINED`` code. Grids are
 evaluated in row blocks so that the extra memory stays bounded however fine the grid.
 """
@@ -11,23 +13,22 @@ from __future__ import annotations
 import enum
 import os
 import threading
-from concurrent.futures import ThreadPoolExecutor
 from collections.abc import Mapping
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
-import numexpr
 import numpy as np
 
 from core.domain import Domain
 from core.equation import CompiledEquation, QuantitySource
-from core.progress import Cancelled, CancelCheck, ProgressReport
+from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
-    "TypeCode",
     "DEFAULT_TOLERANCE",
+    "TypeCode",
     "TypeMap",
-    "classify_points",
     "classify_grid",
+    "classify_points",
     "normalized_discriminant",
 ]
 
@@ -69,7 +70,7 @@ class TypeCode(enum.IntEnum):
 
 
 def normalized_discriminant(a, b, c) -> np.ndarray:
-    """D / (b^2 + 4|ac|) in [-1, 1]; 0 where a = b = c = 0; NaN where any coefficient is not finite.
+    """D / (b^2 + 4|ac|) in [-1, 1]; 0 where b = ac = 0 (D = 0 exactly); NaN where a coefficient is not finite.
 
     a, b, c broadcast together; the result has their broadcast shape (float64).
     """
@@ -84,32 +85,34 @@ class _Scratch:
     """Work buffers for one block of points, reused from block to block by one thread."""
 
     def __init__(self, size: int) -> None:
-        self.product = np.empty(size)
-        self.square = np.empty(size)
+        self.buffers = (np.empty(size), np.empty(size))
 
     def views(self, shape: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
         size = int(np.prod(shape))
-        return self.product[:size].reshape(shape), self.square[:size].reshape(shape)
+        return tuple(b[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
 
 
 def _normalized_into(a, b, c, out: np.ndarray, scratch: _Scratch) -> None:
     """D/S into the float64 array ``out`` with plain numpy passes over cache-sized buffers.
 
-    (numexpr evaluates this formula several times slower than numpy here: its abs and division are not
-    vectorised.) NaN where a coefficient is not finite; 0 where a = b = c = 0, where D = 0 exactly.
+    Computed as (b^2/4 - ac) / (b^2/4 + |ac|). (numexpr evaluates this several times slower than numpy
+    here: its abs and division are not vectorised.) NaN where a coefficient is not finite; 0 where
+    b = 0 and ac = 0, where D = 0 exactly.
     """
-    product, square = scratch.views(out.shape)
+    product, quarter_b2 = scratch.views(out.shape)
     with np.errstate(all="ignore"):
-        np.multiply(a, c, out=product)                # ac
-        half_b = np.multiply(b, 0.5)                  # small when b is constant along a direction
-        np.multiply(half_b, half_b, out=square)       # b^2/4
-        np.subtract(square, product, out=out)         # D/4
+        half_b = np.multiply(b, 0.5)                    # small when b is constant along a direction
+        np.multiply(half_b, half_b, out=quarter_b2)     # b^2/4
+        np.multiply(a, c, out=product)                  # ac
+        np.subtract(quarter_b2, product, out=out)       # D/4
         np.abs(product, out=product)
-        np.add(square, product, out=product)          # S/4 = b^2/4 + |ac|
-        np.divide(out, product, out=out)              # D/S
+        np.add(quarter_b2, product, out=product)        # S/4
+        np.divide(out, product, out=out)                # D/S
         undefined = np.isnan(out)
     if undefined.any():
-        vanishing = undefined & (np.asarray(a) == 0) & (np.asarray(b) == 0) & (np.asarray(c) == 0)
+        # 0/0: b = 0 and ac = 0 exactly, so D = 0 exactly (an overflowing ac gives inf, not 0, and stays NaN).
+        with np.errstate(all="ignore"):
+            vanishing = undefined & (np.asarray(b) == 0) & (np.asarray(a) * np.asarray(c) == 0)
         out[vanishing] = 0.0
 
 
@@ -156,7 +159,7 @@ def classify_points(compiled: CompiledEquation, x, y, *, parameters: Mapping[str
 class TypeMap:
     """The type of the equation at every node of a domain's grid.
 
-    ``codes`` (ny, nx) int8 TypeCode values; ``normalized`` (ny, nx) float32 D/S, NaN where undefined;
+    ``codes`` (ny, nx) int8 TypeCode values; ``normalized`` (ny, nx) float32 D/S (see module docstring), NaN where undefined;
     ``fractions`` maps each type name to its share of the grid nodes (an area fraction to O(h)).
     """
 

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Domain", "MIN_GRID", "MAX_GRID"]
+__all__ = ["MAX_GRID", "MIN_GRID", "Domain"]
 
 MIN_GRID = 2
 MAX_GRID = 8192

@@ -24,10 +24,10 @@ from core.numexpr_code import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 
 __all__ = [
     "COEFFICIENT_NAMES",
-    "Parameter",
-    "Equation",
-    "QuantitySource",
     "CompiledEquation",
+    "Equation",
+    "Parameter",
+    "QuantitySource",
     "compile_equation",
 ]
 

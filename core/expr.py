@@ -18,19 +18,19 @@ from dataclasses import dataclass
 import sympy
 
 __all__ = [
-    "ExpressionError",
-    "FUNCTION_NAMES",
     "CONSTANT_NAMES",
+    "FUNCTION_NAMES",
     "MAX_TEXT_LENGTH",
-    "check_name",
-    "parse_expression",
-    "data_derivative_key",
+    "ExpressionError",
     "ParsedExpression",
+    "check_name",
+    "data_derivative_key",
+    "parse_expression",
 ]
 
 MAX_TEXT_LENGTH = 2000
 MAX_NODES = 600
-MAX_DEPTH = 60
+MAX_DEPTH = 200
 MAX_ABS_EXPONENT = 64
 MAX_NAME_LENGTH = 40
 
@@ -138,8 +138,9 @@ class ParsedExpression:
 class _Builder:
     """Walks a checked AST and builds sympy objects, folding constants to floats."""
 
-    def __init__(self, symbols: Mapping[str, sympy.Symbol], data_names: Collection[str],
+    def __init__(self, source: str, symbols: Mapping[str, sympy.Symbol], data_names: Collection[str],
                  variables: Collection[str]) -> None:
+        self.source = source
         self.symbols = symbols
         self.data_names = set(data_names)
         self.variables = set(variables)
@@ -194,7 +195,8 @@ class _Builder:
     def _build_BinOp(self, node: ast.BinOp, depth: int):
         op = node.op
         if isinstance(op, ast.BitXor):
-            raise ExpressionError("'^' is not a power here: write x**2 for x squared", column=_column(node))
+            column = self.source.find("^", getattr(node.left, "end_col_offset", 0)) + 1 or None
+            raise ExpressionError("'^' is not a power here: write x**2 for x squared", column=column)
         if not isinstance(op, ast.Add | ast.Sub | ast.Mult | ast.Div | ast.Pow):
             raise ExpressionError(f"operator {_OPERATOR_TEXT.get(type(op), '?')!r} is not supported; "
                                   "use + - * / **", column=_column(node))
@@ -410,7 +412,7 @@ def parse_expression(text: str, symbols: Mapping[str, sympy.Symbol], *, data_nam
         raise ExpressionError(f"syntax error: {error.msg}", column=column) from None
     except (RecursionError, MemoryError, ValueError):
         raise ExpressionError("expression is nested too deeply or is malformed") from None
-    builder = _Builder(symbols, data_names, variables)
+    builder = _Builder(source, symbols, data_names, variables)
     try:
         value = builder.build(tree.body)
     except RecursionError:

@@ -9,11 +9,12 @@ condition gives NaN. The caller turns non-finite results into the ``undefined`` 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 
 import sympy
 
-__all__ = ["to_numexpr", "NAN_NAME", "INF_NAME", "CodegenError"]
+__all__ = ["INF_NAME", "NAN_NAME", "CodegenError", "to_numexpr"]
 
 NAN_NAME = "qnan"
 INF_NAME = "qinf"
@@ -32,7 +33,7 @@ class CodegenError(ValueError):
 
 
 def _number(value: float) -> str:
-    if value != value:
+    if math.isnan(value):
         return NAN_NAME
     if value in (float("inf"), float("-inf")):
         return INF_NAME if value > 0 else f"(-{INF_NAME})"

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-__all__ = ["Cancelled", "CancelCheck", "ProgressReport"]
+__all__ = ["CancelCheck", "Cancelled", "ProgressReport"]
 
 CancelCheck = Callable[[], bool]
 ProgressReport = Callable[[float], None]
