@@ -18,7 +18,7 @@ from core.domain import Domain
 from core.equation import Equation, Parameter, compile_equation
 from core.expr import ExpressionError
 
-__all__ = ["main", "UsageError"]
+__all__ = ["UsageError", "main"]
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
@@ -297,7 +297,7 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None) -> int:
     except (OSError, ValueError) as error:
         err.write(f"mixtype: {error}\n")
         return EXIT_BAD_INPUT
-    except Exception as error:  # never a traceback in the user's face
+    except Exception as error:  # noqa: BLE001 - never a traceback in the user's face
         err.write(f"mixtype: internal error ({type(error).__name__}): {error}\n")
         return 1
 
