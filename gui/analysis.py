@@ -1,0 +1,239 @@
+"""Keeps the numbers on screen in step with the document: requests core computations as background jobs.
+
+Listens to the document's specific signals and asks the job runner for exactly the work they invalidate:
+a new type map (then its type-change lines), characteristics for the seeds, probes for the pins, and the
+hover readout. Requests made in one pass of the event loop are coalesced. Every number comes from core
+(classify_grid, find_type_boundaries, trace_characteristics, probe_point); this module only schedules.
+Core modules still being written elsewhere are imported lazily: until they exist the matching layer stays
+empty and the window says so once.
+"""
+
+from __future__ import annotations
+
+import importlib
+from dataclasses import dataclass
+
+import numpy as np
+from PySide6.QtCore import QObject, QTimer, Signal
+
+from core.classify import TypeCode, classify_grid, classify_points
+from gui.document import Document
+from gui.jobs import JobRunner
+from gui.study import SeedLine
+
+__all__ = ["HoverReading", "StudyAnalysis", "TracedSeed", "optional_core"]
+
+
+def optional_core(name: str):
+    """The core module ``core.<name>``, or None while it is not part of this build."""
+    try:
+        return importlib.import_module(f"core.{name}")
+    except ImportError:
+        return None
+
+
+@dataclass(frozen=True)
+class HoverReading:
+    """What the status bar shows for the point under the mouse."""
+
+    x: float
+    y: float
+    type: TypeCode
+    discriminant: float
+    inside: bool
+
+
+@dataclass(frozen=True)
+class TracedSeed:
+    """The characteristics traced from one seed line of the study (curves as core returns them)."""
+
+    seed: SeedLine
+    curves: tuple
+
+
+_LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",
+           "characteristics": "Tracing characteristics", "probes": "Probing pins", "hover": "Reading point"}
+
+
+class StudyAnalysis(QObject):
+    """Results for the shown equation and domain; each arrives by its own signal."""
+
+    map_ready = Signal(object)              # core.classify.TypeMap
+    lines_ready = Signal(object)            # core.boundary.TypeBoundaries, or None when unavailable
+    characteristics_ready = Signal(object)  # tuple[TracedSeed, ...]
+    probes_ready = Signal(object)           # tuple[ProbeResult, ...], one per pin
+    hover_ready = Signal(object)            # HoverReading
+    message = Signal(str)                   # something the user should read (errors, missing parts)
+
+    def __init__(self, document: Document, runner: JobRunner, parent: QObject | None = None) -> None:
+        super().__init__(parent)
+        self.document = document
+        self.runner = runner
+        self.dragging = False
+        self.type_map = None
+        self.boundaries = None
+        self.traced: tuple[TracedSeed, ...] = ()
+        self.probes: tuple = ()
+        self._wanted: set[str] = set()
+        self._told_missing: set[str] = set()
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(0)
+        self._timer.timeout.connect(self.flush)
+        document.equation_changed.connect(lambda: self.schedule("map", "characteristics", "probes"))
+        document.parameters_changed.connect(lambda: self.schedule("map", "characteristics", "probes"))
+        document.domain_changed.connect(lambda: self.schedule("map", "characteristics", "probes"))
+        document.pins_changed.connect(lambda: self.schedule("probes"))
+        document.seeds_changed.connect(lambda: self.schedule("characteristics"))
+        runner.finished.connect(self._on_finished)
+        runner.failed.connect(self._on_failed)
+
+    # -- scheduling -----------------------------------------------------------------------------------------
+    def schedule(self, *what: str) -> None:
+        self._wanted.update(what)
+        self._timer.start()
+
+    def refresh_all(self) -> None:
+        self.schedule("map", "characteristics", "probes")
+
+    def flush(self) -> None:
+        """Request everything scheduled so far now (the timer does this on the next event-loop pass)."""
+        self._timer.stop()
+        wanted, self._wanted = self._wanted, set()
+        compiled = self.document.compiled
+        if compiled is None:
+            if wanted:
+                self.message.emit(f"The equation does not compile: {self.document.compile_error}")
+            return
+        for what in ("map", "characteristics", "probes"):
+            if what in wanted:
+                getattr(self, f"_request_{what}")(compiled)
+
+    def end_drag(self) -> None:
+        """After a slider drag: recompute the lines with full refinement."""
+        self.dragging = False
+        if self.type_map is not None:
+            self._request_lines(self.type_map)
+
+    def _inputs(self):
+        study = self.document.study
+        return study.domain, study.equation.parameter_values(), study.tolerance
+
+    def _request_map(self, compiled) -> None:
+        domain, parameters, tolerance = self._inputs()
+
+        def work(cancel, progress):
+            return classify_grid(compiled, domain, parameters=parameters, tolerance=tolerance, cancel=cancel,
+                                 progress=progress)
+
+        self.runner.request("map", work, policy="queue" if self.dragging else "replace", label=_LABELS["map"])
+
+    def _request_lines(self, type_map) -> None:
+        boundary = self._module("boundary", "type-change lines")
+        compiled = self.document.compiled
+        if boundary is None or compiled is None:
+            return
+        refine = not self.dragging
+        parameters = dict(type_map.parameters)
+
+        def work(cancel, progress):
+            return boundary.find_type_boundaries(compiled, type_map, parameters=parameters, refine=refine,
+                                                 cancel=cancel, progress=progress)
+
+        self.runner.request("lines", work, policy="queue" if self.dragging else "replace",
+                            label=_LABELS["lines"])
+
+    def _request_characteristics(self, compiled) -> None:
+        seeds = self.document.study.seeds
+        if not seeds:
+            self.traced = ()
+            self.runner.cancel("characteristics")
+            self.characteristics_ready.emit(())
+            return
+        module = self._module("characteristics", "characteristic curves")
+        if module is None:
+            return
+        domain, parameters, _ = self._inputs()
+
+        def work(cancel, progress):
+            traced = []
+            for number, seed in enumerate(seeds):
+                points = seed.points()
+
+                def part(fraction, number=number):
+                    progress((number + fraction) / len(seeds))
+
+                curves = module.trace_characteristics(compiled, domain, points, families=seed.families,
+                                                      parameters=parameters, cancel=cancel, progress=part)
+                traced.append(TracedSeed(seed=seed, curves=tuple(curves)))
+            return tuple(traced)
+
+        self.runner.request("characteristics", work, label=_LABELS["characteristics"])
+
+    def _request_probes(self, compiled) -> None:
+        pins = self.document.study.pins
+        if not pins:
+            self.probes = ()
+            self.runner.cancel("probes")
+            self.probes_ready.emit(())
+            return
+        module = self._module("probe", "pin readouts")
+        if module is None:
+            return
+        domain, parameters, tolerance = self._inputs()
+
+        def work(cancel, progress):
+            results = []
+            for pin in pins:
+                if cancel():
+                    from core.progress import Cancelled
+                    raise Cancelled("probes cancelled")
+                results.append(module.probe_point(compiled, pin.x, pin.y, parameters=parameters,
+                                                  tolerance=tolerance, domain=domain))
+            return tuple(results)
+
+        self.runner.request("probes", work, label=_LABELS["probes"])
+
+    def request_hover(self, x: float, y: float) -> None:
+        """Type and D at one point under the mouse, computed off the GUI thread."""
+        compiled = self.document.compiled
+        if compiled is None:
+            return
+        domain, parameters, tolerance = self._inputs()
+
+        def work(cancel, progress):
+            px, py = np.array([x]), np.array([y])
+            codes, _ = classify_points(compiled, px, py, parameters=parameters, tolerance=tolerance)
+            d = compiled.discriminant(px, py, parameters=parameters)
+            return HoverReading(x=x, y=y, type=TypeCode(int(codes[0])), discriminant=float(d[0]),
+                                inside=domain.contains(x, y))
+
+        self.runner.request("hover", work, label=_LABELS["hover"])
+
+    def _module(self, name: str, what: str):
+        module = optional_core(name)
+        if module is None and name not in self._told_missing:
+            self._told_missing.add(name)
+            self.message.emit(f"No {what} in this build yet (core.{name} is missing).")
+        return module
+
+    # -- results --------------------------------------------------------------------------------------------
+    def _on_finished(self, channel: str, number: int, result: object) -> None:
+        if channel == "map":
+            self.type_map = result
+            self.map_ready.emit(result)
+            self._request_lines(result)
+        elif channel == "lines":
+            self.boundaries = result
+            self.lines_ready.emit(result)
+        elif channel == "characteristics":
+            self.traced = result
+            self.characteristics_ready.emit(result)
+        elif channel == "probes":
+            self.probes = result
+            self.probes_ready.emit(result)
+        elif channel == "hover":
+            self.hover_ready.emit(result)
+
+    def _on_failed(self, channel: str, number: int, text: str) -> None:
+        self.message.emit(f"{_LABELS.get(channel, channel)} failed: {text}")

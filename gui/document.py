@@ -1,0 +1,271 @@
+"""The open study as a QObject: applies edits as undoable commands and says precisely what changed.
+
+Every edit builds a new ``Study`` and pushes a command holding the states before and after. Commands that share
+a merge key (one slider drag, one burst of typing in one field) merge into one undo step. After each change the
+document compares old and new and emits only the signals that apply, once each.
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import replace
+from pathlib import Path
+
+from PySide6.QtCore import QObject, Signal
+from PySide6.QtGui import QUndoCommand, QUndoStack
+
+from core.domain import Domain
+from core.equation import CompiledEquation, Equation, Parameter, compile_equation
+from core.expr import ExpressionError
+from gui.study import Layers, PinMark, SeedLine, Study
+
+__all__ = ["UNDO_LIMIT", "Document"]
+
+UNDO_LIMIT = 500
+_MERGEABLE_ID = 4711
+
+
+class _StudyEdit(QUndoCommand):
+    """One edit: the study before and after. Edits with the same non-empty merge key merge into one."""
+
+    def __init__(self, document: Document, before: Study, after: Study, text: str, merge_key: str) -> None:
+        super().__init__(text)
+        self.document = document
+        self.before = before
+        self.after = after
+        self.merge_key = merge_key
+
+    def id(self) -> int:
+        return _MERGEABLE_ID if self.merge_key else -1
+
+    def mergeWith(self, other: QUndoCommand) -> bool:
+        if not isinstance(other, _StudyEdit) or other.merge_key != self.merge_key:
+            return False
+        self.after = other.after
+        return True
+
+    def redo(self) -> None:
+        self.document._apply(self.after)
+
+    def undo(self) -> None:
+        self.document._apply(self.before)
+
+
+def _structure(equation: Equation) -> tuple:
+    """Everything about an equation except parameter values: a change here needs a new compilation."""
+    parameters = tuple((n, p.minimum, p.maximum, p.unit, p.description) for n, p in equation.parameters.items())
+    return (equation.a, equation.b, equation.c, tuple(equation.variables),
+            tuple(equation.definitions.items()), parameters, equation.name, equation.description)
+
+
+class Document(QObject):
+    """Owns the current study, its file path and undo stack."""
+
+    study_replaced = Signal()          # a different study: everything changed, undo history cleared
+    equation_changed = Signal()        # text, definitions, parameter set or the shown equation changed
+    parameters_changed = Signal()      # only parameter values of the shown equation changed
+    equations_listed = Signal()        # the list of equations or domains (names, count) changed
+    domain_changed = Signal()
+    pins_changed = Signal()
+    seeds_changed = Signal()
+    layers_changed = Signal()
+    notes_changed = Signal()
+    dirty_changed = Signal(bool)
+    path_changed = Signal(str)
+
+    def __init__(self, study: Study, parent: QObject | None = None) -> None:
+        super().__init__(parent)
+        self._study = study
+        self._path: Path | None = None
+        self._compiled_for: Equation | None = None
+        self._compiled: CompiledEquation | None = None
+        self._compile_error = ""
+        self._sessions = itertools.count(1)
+        self.undo_stack = QUndoStack(self)
+        self.undo_stack.setUndoLimit(UNDO_LIMIT)
+        self.undo_stack.cleanChanged.connect(lambda clean: self.dirty_changed.emit(not clean))
+
+    # -- state ----------------------------------------------------------------------------------------------
+    @property
+    def study(self) -> Study:
+        return self._study
+
+    @property
+    def path(self) -> Path | None:
+        return self._path
+
+    @property
+    def is_dirty(self) -> bool:
+        return not self.undo_stack.isClean()
+
+    @property
+    def compiled(self) -> CompiledEquation | None:
+        """The shown equation compiled (cached per equation); None when it does not compile."""
+        equation = self._study.equation
+        if self._compiled_for is not equation:
+            self._compiled_for = equation
+            try:
+                self._compiled = compile_equation(equation)
+                self._compile_error = ""
+            except ExpressionError as error:
+                self._compiled = None
+                self._compile_error = str(error)
+        return self._compiled
+
+    @property
+    def compile_error(self) -> str:
+        _ = self.compiled
+        return self._compile_error
+
+    def new_merge_key(self, what: str) -> str:
+        """A fresh key for one drag or one burst of typing: edits carrying it become one undo step."""
+        return f"{what}#{next(self._sessions)}"
+
+    # -- whole-study operations -----------------------------------------------------------------------------
+    def replace_study(self, study: Study, path: Path | str | None = None, *, dirty: bool = False) -> None:
+        """Show another study (new, opened, recovered); clears the undo history."""
+        self.undo_stack.clear()
+        self._study = study
+        self._compiled_for = None
+        self.set_path(path)
+        self.study_replaced.emit()
+        self.equation_changed.emit()
+        self.equations_listed.emit()
+        self.domain_changed.emit()
+        self.pins_changed.emit()
+        self.seeds_changed.emit()
+        self.layers_changed.emit()
+        self.notes_changed.emit()
+        if dirty:
+            # An empty, never-clean marker: a recovered study must be saved before it is safe.
+            self.undo_stack.resetClean()
+            self.dirty_changed.emit(True)
+        else:
+            self.undo_stack.setClean()
+            self.dirty_changed.emit(False)
+
+    def set_path(self, path: Path | str | None) -> None:
+        self._path = Path(path) if path is not None else None
+        self.path_changed.emit(str(self._path) if self._path else "")
+
+    def mark_saved(self, path: Path | str) -> None:
+        self.set_path(path)
+        self.undo_stack.setClean()
+
+    # -- edits ----------------------------------------------------------------------------------------------
+    def edit(self, after: Study, text: str, *, merge_key: str = "") -> bool:
+        """Push an undoable change to ``after``; nothing happens (False) when it equals the current study."""
+        if after == self._study:
+            return False
+        self.undo_stack.push(_StudyEdit(self, self._study, after, text, merge_key))
+        return True
+
+    def set_equation(self, equation: Equation, text: str = "Edit equation", *, merge_key: str = "") -> bool:
+        return self.edit(self._study.with_equation(equation), text, merge_key=merge_key)
+
+    def set_coefficient(self, which: str, text: str, *, merge_key: str = "") -> bool:
+        if which not in ("a", "b", "c"):
+            raise ValueError(f"coefficient must be 'a', 'b' or 'c', got {which!r}")
+        equation = replace(self._study.equation, **{which: text})
+        return self.set_equation(equation, f"Edit coefficient {which}", merge_key=merge_key)
+
+    def set_definitions(self, definitions: dict[str, str], *, merge_key: str = "") -> bool:
+        equation = replace(self._study.equation, definitions=dict(definitions))
+        return self.set_equation(equation, "Edit definitions", merge_key=merge_key)
+
+    def set_parameters(self, parameters: dict[str, Parameter], text: str = "Edit parameters", *,
+                       merge_key: str = "") -> bool:
+        equation = replace(self._study.equation, parameters=dict(parameters))
+        return self.set_equation(equation, text, merge_key=merge_key)
+
+    def set_parameter_value(self, name: str, value: float, *, merge_key: str = "") -> bool:
+        parameters = dict(self._study.equation.parameters)
+        if name not in parameters:
+            raise KeyError(f"no parameter named {name!r}")
+        parameters[name] = replace(parameters[name], value=float(value))
+        return self.set_parameters(parameters, f"Set {name} = {value:.6g}", merge_key=merge_key)
+
+    def set_domain(self, domain: Domain, text: str = "Edit domain", *, merge_key: str = "") -> bool:
+        return self.edit(self._study.with_domain(domain), text, merge_key=merge_key)
+
+    def show_equation(self, index: int) -> bool:
+        return self.edit(replace(self._study, shown_equation=index), "Show another equation")
+
+    def show_domain(self, index: int) -> bool:
+        return self.edit(replace(self._study, shown_domain=index), "Show another domain")
+
+    def add_equation(self, equation: Equation) -> bool:
+        study = replace(self._study, equations=self._study.equations + (equation,),
+                        shown_equation=len(self._study.equations))
+        return self.edit(study, f"Add equation {equation.name}")
+
+    def add_domain(self, domain: Domain) -> bool:
+        study = replace(self._study, domains=self._study.domains + (domain,),
+                        shown_domain=len(self._study.domains))
+        return self.edit(study, f"Add domain {domain.name}")
+
+    def add_pin(self, x: float, y: float, label: str = "") -> bool:
+        label = label or f"P{len(self._study.pins) + 1}"
+        return self.edit(replace(self._study, pins=self._study.pins + (PinMark(float(x), float(y), label),)),
+                         f"Pin {label}")
+
+    def move_pin(self, index: int, x: float, y: float, *, merge_key: str = "") -> bool:
+        pins = list(self._study.pins)
+        pins[index] = replace(pins[index], x=float(x), y=float(y))
+        return self.edit(replace(self._study, pins=tuple(pins)), f"Move pin {pins[index].label}",
+                         merge_key=merge_key)
+
+    def relabel_pin(self, index: int, label: str) -> bool:
+        pins = list(self._study.pins)
+        pins[index] = replace(pins[index], label=label)
+        return self.edit(replace(self._study, pins=tuple(pins)), f"Rename pin to {label}")
+
+    def remove_pin(self, index: int) -> bool:
+        pins = list(self._study.pins)
+        removed = pins.pop(index)
+        return self.edit(replace(self._study, pins=tuple(pins)), f"Delete pin {removed.label}")
+
+    def add_seed(self, seed: SeedLine) -> bool:
+        what = "Trace through a point" if seed.is_point else f"Trace along a segment ({seed.curves} seeds)"
+        return self.edit(replace(self._study, seeds=self._study.seeds + (seed,)), what)
+
+    def remove_seed(self, index: int) -> bool:
+        seeds = list(self._study.seeds)
+        seeds.pop(index)
+        return self.edit(replace(self._study, seeds=tuple(seeds)), "Remove characteristics")
+
+    def clear_seeds(self) -> bool:
+        return self.edit(replace(self._study, seeds=()), "Remove all characteristics")
+
+    def set_layer(self, name: str, visible: bool) -> bool:
+        layers = self._study.layers.with_layer(name, visible)
+        return self.edit(replace(self._study, layers=layers), f"{'Show' if visible else 'Hide'} {name}")
+
+    def set_layers(self, layers: Layers) -> bool:
+        return self.edit(replace(self._study, layers=layers), "Change layers")
+
+    def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
+        return self.edit(replace(self._study, notes=notes), "Edit notes", merge_key=merge_key)
+
+    # -- change notification --------------------------------------------------------------------------------
+    def _apply(self, after: Study) -> None:
+        before, self._study = self._study, after
+        old_eq, new_eq = before.equation, after.equation
+        if before.shown_equation != after.shown_equation or _structure(old_eq) != _structure(new_eq):
+            self.equation_changed.emit()
+        elif old_eq.parameters != new_eq.parameters:
+            self.parameters_changed.emit()
+        if len(before.equations) != len(after.equations) or len(before.domains) != len(after.domains) \
+                or [e.name for e in before.equations] != [e.name for e in after.equations] \
+                or [d.name for d in before.domains] != [d.name for d in after.domains]:
+            self.equations_listed.emit()
+        if before.domain != after.domain:
+            self.domain_changed.emit()
+        if before.pins != after.pins:
+            self.pins_changed.emit()
+        if before.seeds != after.seeds:
+            self.seeds_changed.emit()
+        if before.layers != after.layers:
+            self.layers_changed.emit()
+        if before.notes != after.notes:
+            self.notes_changed.emit()

@@ -1,0 +1,147 @@
+"""The domain editor: which rectangle of the plane is mapped and how fine the grid over it is."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+from PySide6.QtWidgets import (
+    QComboBox,
+    QFormLayout,
+    QHBoxLayout,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QSpinBox,
+    QVBoxLayout,
+    QWidget,
+)
+
+from core.domain import MAX_GRID, MIN_GRID, Domain
+from gui.document import Document
+
+__all__ = ["DomainPanel"]
+
+
+class DomainPanel(QWidget):
+    """Edits the shown domain of a Document: bounds, grid nodes, name; switches between domains."""
+
+    def __init__(self, document: Document, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.document = document
+        purpose = QLabel("The rectangle that is classified, in the equation's own length units, and the "
+                         "number of grid nodes across it (more nodes: finer zones, slower maps).")
+        purpose.setWordWrap(True)
+        purpose.setObjectName("panelPurpose")
+
+        self.choice = QComboBox()
+        self.choice.setToolTip("Which of the study's domains is shown")
+        self.choice.activated.connect(self.document.show_domain)
+        add = QPushButton("Duplicate")
+        add.setToolTip("Add a copy of this domain to the study and show it")
+        add.clicked.connect(self._duplicate)
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Domain:"))
+        row.addWidget(self.choice, 1)
+        row.addWidget(add)
+
+        self.name = QLineEdit()
+        self.name.setToolTip("A name for this domain")
+        self.bounds: dict[str, QLineEdit] = {}
+        form = QFormLayout()
+        form.addRow("name", self.name)
+        self.name.editingFinished.connect(self.apply)
+        for key in ("xmin", "xmax", "ymin", "ymax"):
+            edit = QLineEdit()
+            edit.setObjectName(f"domain_{key}")
+            edit.setToolTip(f"{key[0]} {'lower' if key.endswith('min') else 'upper'} bound")
+            edit.editingFinished.connect(self.apply)
+            self.bounds[key] = edit
+        self.labels = {key: QLabel(key) for key in self.bounds}
+        for key, edit in self.bounds.items():
+            form.addRow(self.labels[key], edit)
+        self.nodes: dict[str, QSpinBox] = {}
+        for key, what in (("nx", "first"), ("ny", "second")):
+            spin = QSpinBox()
+            spin.setObjectName(f"domain_{key}")
+            spin.setRange(MIN_GRID, MAX_GRID)
+            spin.setToolTip(f"Grid nodes along the {what} variable, edges included ({MIN_GRID} to {MAX_GRID})")
+            spin.setKeyboardTracking(False)
+            spin.valueChanged.connect(self.apply)
+            self.nodes[key] = spin
+        self.node_labels = {"nx": QLabel("nodes across"), "ny": QLabel("nodes up")}
+        form.addRow(self.node_labels["nx"], self.nodes["nx"])
+        form.addRow(self.node_labels["ny"], self.nodes["ny"])
+        self.error = QLabel()
+        self.error.setStyleSheet("color: #B00020;")
+        self.error.setWordWrap(True)
+        self.error.setVisible(False)
+
+        layout = QVBoxLayout(self)
+        layout.addWidget(purpose)
+        layout.addLayout(row)
+        layout.addLayout(form)
+        layout.addWidget(self.error)
+        layout.addStretch(1)
+        self._updating = False
+        document.domain_changed.connect(self.refresh)
+        document.equations_listed.connect(self.refresh)
+        document.equation_changed.connect(self._name_axes)
+        self.refresh()
+
+    def refresh(self) -> None:
+        study = self.document.study
+        domain = study.domain
+        self._updating = True
+        try:
+            self.choice.clear()
+            self.choice.addItems([d.name for d in study.domains])
+            self.choice.setCurrentIndex(study.shown_domain)
+            self.name.setText(domain.name)
+            for key, edit in self.bounds.items():
+                edit.setText(f"{getattr(domain, key):.10g}")
+            self.nodes["nx"].setValue(domain.nx)
+            self.nodes["ny"].setValue(domain.ny)
+            self.error.setVisible(False)
+        finally:
+            self._updating = False
+        self._name_axes()
+
+    def _name_axes(self) -> None:
+        first, second = self.document.study.equation.variables
+        for key in self.bounds:
+            variable = first if key.startswith("x") else second
+            self.labels[key].setText(f"{variable} {'from' if key.endswith('min') else 'to'}")
+        self.node_labels["nx"].setText(f"nodes along {first}")
+        self.node_labels["ny"].setText(f"nodes along {second}")
+
+    def apply(self) -> None:
+        """Build a Domain from the fields; show what is wrong instead when it is not valid."""
+        if self._updating:
+            return
+        try:
+            values = {}
+            for key, edit in self.bounds.items():
+                try:
+                    values[key] = float(edit.text())
+                except ValueError:
+                    raise ValueError(f"{self.labels[key].text()}: {edit.text()!r} is not a number") from None
+                if not math.isfinite(values[key]):
+                    raise ValueError(f"{self.labels[key].text()} must be finite")
+            domain = Domain(values["xmin"], values["xmax"], values["ymin"], values["ymax"],
+                            self.nodes["nx"].value(), self.nodes["ny"].value(),
+                            self.name.text().strip() or "domain")
+        except ValueError as error:
+            self.error.setText(str(error))
+            self.error.setVisible(True)
+            return
+        self.error.setVisible(False)
+        self.document.set_domain(domain)
+
+    def _duplicate(self) -> None:
+        domain = self.document.study.domain
+        names = {d.name for d in self.document.study.domains}
+        number = 2
+        while f"{domain.name} ({number})" in names:
+            number += 1
+        self.document.add_domain(replace(domain, name=f"{domain.name} ({number})"))

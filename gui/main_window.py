@@ -1,0 +1,564 @@
+"""Mixtype's main window: the map in the middle, the equation and domain on the left, pins and layers right.
+
+Wires the document (edits, undo), the analysis (background results) and the widgets together, and owns the
+file commands: new, open, recent files, save, autosave with crash recovery, exports. Dialogs go through small
+``ask_*`` / ``choose_*`` methods so tests can answer them.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from PySide6.QtCore import Qt, QTimer
+from PySide6.QtGui import QAction, QCloseEvent, QKeySequence
+from PySide6.QtWidgets import (
+    QApplication,
+    QDockWidget,
+    QFileDialog,
+    QLabel,
+    QMainWindow,
+    QMessageBox,
+    QProgressBar,
+    QPushButton,
+    QScrollArea,
+    QWidget,
+)
+
+from core.result_tables import (
+    BOUNDARY_COLUMNS,
+    CHARACTERISTIC_COLUMNS,
+    boundary_rows,
+    characteristic_rows,
+    pin_rows,
+    results_dict,
+    write_csv,
+    write_json,
+)
+from gui.analysis import StudyAnalysis, optional_core
+from gui.document import Document
+from gui.domain_panel import DomainPanel
+from gui.equation_panel import EquationPanel
+from gui.export import PICTURE_FILTER, export_picture
+from gui.jobs import JobRunner
+from gui.layers_panel import LayersPanel
+from gui.map_view import MapView
+from gui.pins_panel import PinsPanel
+from gui.preferences import Preferences
+from gui.project_bridge import PROJECT_FILTER, StudyFileError, load_study, save_study, scratch_study
+from gui.study import SeedLine, Study
+
+__all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
+
+CAUTION = ("Mixtype is an aid for analysing model equations; it validates no design. For engineering "
+           "decisions, rely on validated solvers, the applicable codes and standards, and licensed "
+           "professional judgement.")
+ABOUT_TEXT = ("<h3>Mixtype</h3><p>Maps where a second-order equation a u<sub>xx</sub> + b u<sub>xy</sub> + "
+              "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
+              "changes, reads single points and traces characteristic curves.</p>"
+              f"<p><b>Caution.</b> {CAUTION}</p>")
+CHANNEL_NAMES = ("map", "lines", "characteristics", "probes")
+
+
+class MainWindow(QMainWindow):
+    """The whole study window. ``synchronous`` computes on the calling thread (tests, headless render)."""
+
+    def __init__(self, study: Study | None = None, *, path: str | Path | None = None,
+                 preferences: Preferences | None = None, synchronous: bool = False,
+                 autosave_ms: int = 30_000) -> None:
+        super().__init__()
+        self.preferences = preferences or Preferences()
+        self.document = Document(study or scratch_study(), self)
+        if path is not None:
+            self.document.set_path(path)
+        self.runner = JobRunner(self, synchronous=synchronous)
+        self.analysis = StudyAnalysis(self.document, self.runner, self)
+        self._pin_drag_key = ""
+
+        self.map_view = MapView()
+        self.map_view.setToolTip("")
+        self.notice = QLabel()
+        self.notice.setObjectName("notice")
+        self.notice.setWordWrap(True)
+        self.notice.setStyleSheet("QLabel { color: #B00020; padding: 2px 6px; }")
+        self.notice.setVisible(False)
+        self.map_view.layout().insertWidget(2, self.notice)
+        self.setCentralWidget(self.map_view)
+
+        self.equation_panel = EquationPanel(self.document)
+        self.domain_panel = DomainPanel(self.document)
+        self.pins_panel = PinsPanel(self.document)
+        self.layers_panel = LayersPanel(self.document)
+        self._dock("Equation: coefficients, definitions, parameters", self.equation_panel,
+                   Qt.DockWidgetArea.LeftDockWidgetArea, "equationDock", scroll=True)
+        self._dock("Domain and grid", self.domain_panel, Qt.DockWidgetArea.LeftDockWidgetArea, "domainDock")
+        self._dock("Pins: readouts at points", self.pins_panel, Qt.DockWidgetArea.RightDockWidgetArea,
+                   "pinsDock")
+        self._dock("Layers and mouse tool", self.layers_panel, Qt.DockWidgetArea.RightDockWidgetArea,
+                   "layersDock", scroll=True)
+
+        self.hover_label = QLabel("Move over the map to read the type and D at a point.")
+        self.hover_label.setObjectName("hoverReadout")
+        self.progress = QProgressBar()
+        self.progress.setRange(0, 1000)
+        self.progress.setMaximumWidth(220)
+        self.progress.setVisible(False)
+        self.cancel_button = QPushButton("Cancel")
+        self.cancel_button.setToolTip("Stop the computation in progress (Esc)")
+        self.cancel_button.clicked.connect(self.cancel_work)
+        self.cancel_button.setVisible(False)
+        self.statusBar().addWidget(self.hover_label, 1)
+        self.statusBar().addPermanentWidget(self.progress)
+        self.statusBar().addPermanentWidget(self.cancel_button)
+
+        self._build_actions()
+        self._connect()
+        self._autosave = QTimer(self)
+        self._autosave.setInterval(autosave_ms)
+        self._autosave.timeout.connect(self.autosave)
+        self._autosave.start()
+        self.resize(1400, 880)
+        self._update_title()
+        self._show_everything()
+
+    # -- construction ---------------------------------------------------------------------------------------
+    def _dock(self, title: str, widget: QWidget, area, name: str, *, scroll: bool = False) -> QDockWidget:
+        dock = QDockWidget(title, self)
+        dock.setObjectName(name)
+        if scroll:
+            holder = QScrollArea()
+            holder.setWidgetResizable(True)
+            holder.setWidget(widget)
+            widget = holder
+        dock.setWidget(widget)
+        dock.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable
+                         | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
+        self.addDockWidget(area, dock)
+        return dock
+
+    def _action(self, text: str, slot, *, shortcut=None, tip: str = "") -> QAction:
+        action = QAction(text, self)
+        if shortcut is not None:
+            action.setShortcut(QKeySequence(shortcut))
+        if tip:
+            action.setToolTip(tip)
+            action.setStatusTip(tip)
+        action.triggered.connect(lambda checked=False: slot())
+        return action
+
+    def _build_actions(self) -> None:
+        keys = QKeySequence.StandardKey
+        menu = self.menuBar().addMenu("&File")
+        self.new_action = self._action("&New study", self.new_study, shortcut=keys.New,
+                                       tip="Start a new study from the built-in example")
+        self.open_action = self._action("&Open…", self.open_dialog, shortcut=keys.Open, tip="Open a study file")
+        self.save_action = self._action("&Save", self.save, shortcut=keys.Save, tip="Save the study")
+        self.save_as_action = self._action("Save &as…", self.save_as, shortcut=keys.SaveAs,
+                                           tip="Save the study under a new name")
+        menu.addActions([self.new_action, self.open_action])
+        self.recent_menu = menu.addMenu("Open &recent")
+        menu.addActions([self.save_action, self.save_as_action])
+        menu.addSeparator()
+        export = menu.addMenu("&Export")
+        self.export_picture_action = self._action("Map as picture (PNG, SVG, PDF)…", self.export_picture_dialog,
+                                                  shortcut="Ctrl+E", tip="Save the map with its legend")
+        export.addAction(self.export_picture_action)
+        export.addAction(self._action("Type-change lines as CSV…", lambda: self._export_table_dialog("lines")))
+        export.addAction(self._action("Characteristics as CSV…",
+                                      lambda: self._export_table_dialog("characteristics")))
+        export.addAction(self._action("Pins as CSV…", lambda: self._export_table_dialog("pins")))
+        export.addAction(self._action("Everything as JSON…", self._export_json_dialog))
+        menu.addSeparator()
+        menu.addAction(self._action("&Quit", self.close, shortcut=keys.Quit, tip="Close Mixtype"))
+
+        edit = self.menuBar().addMenu("&Edit")
+        self.undo_action = self.document.undo_stack.createUndoAction(self, "&Undo")
+        self.undo_action.setShortcut(QKeySequence(keys.Undo))
+        self.redo_action = self.document.undo_stack.createRedoAction(self, "&Redo")
+        self.redo_action.setShortcut(QKeySequence(keys.Redo))
+        edit.addActions([self.undo_action, self.redo_action])
+        edit.addSeparator()
+        edit.addAction(self._action("&Copy pin readouts", self.pins_panel.copy_text, shortcut=keys.Copy,
+                                    tip="Copy every pin's readout as text"))
+        edit.addAction(self._action("&Delete selected pin", self.pins_panel.delete_selected,
+                                    shortcut=keys.Delete))
+        edit.addAction(self._action("&Trace through selected pin", self.pins_panel.trace_selected,
+                                    shortcut="Ctrl+T", tip="Draw both characteristics through the pin"))
+        edit.addAction(self._action("Remove all characteristics", self.document.clear_seeds))
+
+        view = self.menuBar().addMenu("&View")
+        view.addAction(self._action("Zoom &in", lambda: self.map_view.view_box.scaleBy((0.8, 0.8)),
+                                    shortcut=keys.ZoomIn))
+        view.addAction(self._action("Zoom &out", lambda: self.map_view.view_box.scaleBy((1.25, 1.25)),
+                                    shortcut=keys.ZoomOut))
+        view.addAction(self._action("&Fit domain", self.map_view.fit_domain, shortcut="Ctrl+0"))
+        view.addSeparator()
+        view.addAction(self._action("&Recompute", self.analysis.refresh_all, shortcut=keys.Refresh))
+        self.cancel_action = self._action("&Cancel computation", self.cancel_work, shortcut=keys.Cancel)
+        view.addAction(self.cancel_action)
+        self.addAction(self.cancel_action)
+        view.addSeparator()
+        for dock in self.findChildren(QDockWidget):
+            view.addAction(dock.toggleViewAction())
+
+        help_menu = self.menuBar().addMenu("&Help")
+        help_menu.addAction(self._action("&About Mixtype", self.show_about, shortcut=keys.HelpContents))
+        self._refresh_recent_menu()
+
+    def _connect(self) -> None:
+        d, a, m = self.document, self.analysis, self.map_view
+        d.equation_changed.connect(self._equation_shown)
+        d.parameters_changed.connect(self._update_titles)
+        d.domain_changed.connect(self._domain_shown)
+        d.pins_changed.connect(lambda: m.show_pins(d.study.pins))
+        d.seeds_changed.connect(lambda: m.show_seeds(d.study.seeds))
+        d.layers_changed.connect(self._layers_shown)
+        d.dirty_changed.connect(lambda dirty: self._update_title())
+        d.path_changed.connect(lambda path: self._update_title())
+        a.map_ready.connect(self._map_ready)
+        a.lines_ready.connect(m.show_lines)
+        a.characteristics_ready.connect(m.show_characteristics)
+        a.probes_ready.connect(self.pins_panel.set_results)
+        a.hover_ready.connect(self._show_hover)
+        a.message.connect(self.show_notice)
+        m.clicked.connect(lambda x, y: d.add_pin(x, y))
+        m.pin_clicked.connect(self.pins_panel.select)
+        m.pin_moved.connect(self._pin_dragged)
+        m.segment_drawn.connect(self._segment_drawn)
+        m.hovered.connect(a.request_hover)
+        self.equation_panel.drag_started.connect(lambda: setattr(a, "dragging", True))
+        self.equation_panel.drag_finished.connect(a.end_drag)
+        self.layers_panel.mode_changed.connect(m.set_mode)
+        self.runner.progressed.connect(self._progress)
+        self.runner.busy_changed.connect(self._busy)
+        self.runner.failed.connect(lambda channel, number, text: None)
+
+    def _show_everything(self) -> None:
+        study = self.document.study
+        self._equation_shown()
+        self.map_view.show_domain(study.domain)
+        self.map_view.show_pins(study.pins)
+        self.map_view.show_seeds(study.seeds)
+        self._layers_shown()
+        self.analysis.refresh_all()
+
+    # -- reactions ------------------------------------------------------------------------------------------
+    def _equation_shown(self) -> None:
+        variables = self.document.study.equation.variables
+        self.map_view.set_variables(*variables)
+        self._update_titles()
+        if self.document.compiled is None:
+            self.show_notice(f"Not recomputed: {self.document.compile_error}")
+        else:
+            self.show_notice("")
+
+    def _update_titles(self) -> None:
+        study = self.document.study
+        equation = study.equation
+        values = []
+        for name, parameter in equation.parameters.items():
+            unit = f" {parameter.unit}" if parameter.unit else ""
+            values.append(f"{name} = {parameter.value:.4g}{unit}")
+        title = f"Type of “{equation.name}” on “{study.domain.name}”"
+        subtitle = (f"{study.domain.nx} × {study.domain.ny} grid nodes; parabolic when |D|/(b² + 4|ac|) ≤ "
+                    f"{study.tolerance:g}" + (f"; {', '.join(values)}" if values else ""))
+        self.map_view.set_titles(title, subtitle)
+
+    def _domain_shown(self) -> None:
+        previous = self.map_view._domain
+        domain = self.document.study.domain
+        same_box = previous is not None and (previous.xmin, previous.xmax, previous.ymin, previous.ymax) == \
+            (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
+        self.map_view.show_domain(domain, fit=not same_box)
+        self._update_titles()
+
+    def _layers_shown(self) -> None:
+        layers = self.document.study.layers
+        self.map_view.set_layers(layers)
+        self.map_view.legend.setVisible(layers.legend)
+
+    def _map_ready(self, type_map) -> None:
+        self.map_view.show_type_map(type_map)
+
+    def _show_hover(self, reading) -> None:
+        x_name, y_name = self.document.study.equation.variables
+        where = f"{x_name} = {reading.x:.5g}, {y_name} = {reading.y:.5g}"
+        outside = "" if reading.inside else " (outside the domain)"
+        d = "undefined" if reading.discriminant != reading.discriminant else f"{reading.discriminant:.5g}"
+        self.hover_label.setText(f"{where}{outside}   |   {reading.type.label}   |   D = {d} (units of b²)")
+
+    def show_notice(self, text: str) -> None:
+        self.notice.setText(text)
+        self.notice.setVisible(bool(text))
+        if text:
+            self.statusBar().showMessage(text, 8000)
+
+    def _pin_dragged(self, index: int, x: float, y: float, finished: bool) -> None:
+        if not self._pin_drag_key:
+            self._pin_drag_key = self.document.new_merge_key("pin drag")
+        self.document.move_pin(index, x, y, merge_key=self._pin_drag_key)
+        if finished:
+            self._pin_drag_key = ""
+
+    def _segment_drawn(self, x0: float, y0: float, x1: float, y1: float) -> None:
+        if (x0, y0) == (x1, y1):
+            return
+        seed = SeedLine(start=(x0, y0), end=(x1, y1), curves=self.layers_panel.seed_count.value(),
+                        families=self.layers_panel.families())
+        self.document.add_seed(seed)
+
+    def _progress(self, channel: str, fraction: float, label: str) -> None:
+        if channel not in CHANNEL_NAMES:
+            return
+        self.progress.setFormat(f"{label} %p%")
+        self.progress.setValue(round(1000 * fraction))
+
+    def _busy(self, busy: bool) -> None:
+        shown = busy and any(self.runner.is_busy(c) for c in CHANNEL_NAMES)
+        self.progress.setVisible(shown)
+        self.cancel_button.setVisible(shown)
+
+    def cancel_work(self) -> None:
+        """Stop every background computation; what is on screen stays."""
+        if self.runner.is_busy():
+            self.runner.cancel()
+            self.statusBar().showMessage("Computation cancelled; the map shows the last finished result.", 6000)
+
+    # -- files ----------------------------------------------------------------------------------------------
+    def _update_title(self) -> None:
+        path = self.document.path
+        name = path.name if path else "untitled study"
+        self.setWindowTitle(f"{name}[*] — Mixtype")
+        self.setWindowModified(self.document.is_dirty)
+
+    def ask_unsaved(self) -> str:
+        """'save', 'discard' or 'cancel' for a study with unsaved changes."""
+        answer = QMessageBox.question(
+            self, "Unsaved changes", "The study has changes that are not saved. Save them first?",
+            QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Discard
+            | QMessageBox.StandardButton.Cancel, QMessageBox.StandardButton.Save)
+        return {QMessageBox.StandardButton.Save: "save",
+                QMessageBox.StandardButton.Discard: "discard"}.get(answer, "cancel")
+
+    def ask_restore(self, path: Path) -> bool:
+        answer = QMessageBox.question(
+            self, "Recover unsaved work?",
+            "Mixtype did not close normally last time. Restore the study as it was at the last autosave?")
+        return answer == QMessageBox.StandardButton.Yes
+
+    def choose_open_path(self) -> str:
+        path, _ = QFileDialog.getOpenFileName(self, "Open study", self.preferences.last_folder(), PROJECT_FILTER)
+        return path
+
+    def choose_save_path(self, caption: str = "Save study", filter_text: str = PROJECT_FILTER,
+                         suggestion: str = "study.mixtype.json") -> str:
+        start = str(Path(self.preferences.last_folder()) / suggestion)
+        path, _ = QFileDialog.getSaveFileName(self, caption, start, filter_text)
+        return path
+
+    def report_error(self, title: str, text: str) -> None:
+        self.show_notice(f"{title}: {text}")
+        if QApplication.platformName() != "offscreen":
+            QMessageBox.warning(self, title, text)
+
+    def may_discard(self) -> bool:
+        """True when the current study may be replaced (saved, discarded on request, or unchanged)."""
+        if not self.document.is_dirty:
+            return True
+        answer = self.ask_unsaved()
+        if answer == "save":
+            return self.save()
+        return answer == "discard"
+
+    def new_study(self) -> bool:
+        if not self.may_discard():
+            return False
+        self.document.replace_study(scratch_study())
+        self._after_replace()
+        return True
+
+    def open_dialog(self) -> bool:
+        if not self.may_discard():
+            return False
+        path = self.choose_open_path()
+        return self.open_path(path, ask=False) if path else False
+
+    def open_path(self, path: str | Path, *, ask: bool = True) -> bool:
+        """Open a study file; on failure the current study stays and the problems are shown."""
+        if ask and not self.may_discard():
+            return False
+        try:
+            study = load_study(path)
+        except StudyFileError as error:
+            self.report_error("Could not open the study", str(error))
+            return False
+        self.document.replace_study(study, path)
+        self.preferences.add_recent_file(path)
+        self.preferences.set_last_folder(str(Path(path).resolve().parent))
+        self._refresh_recent_menu()
+        self._after_replace()
+        return True
+
+    def _after_replace(self) -> None:
+        self.map_view.show_domain(self.document.study.domain)
+        self._layers_shown()
+        self.show_notice("")
+
+    def save(self) -> bool:
+        if self.document.path is None:
+            return self.save_as()
+        return self.save_to(self.document.path)
+
+    def save_as(self) -> bool:
+        path = self.choose_save_path()
+        if not path:
+            return False
+        if not path.endswith(".json"):
+            path += ".mixtype.json"
+        return self.save_to(path)
+
+    def save_to(self, path: str | Path) -> bool:
+        try:
+            written = save_study(self.document.study, path)
+        except StudyFileError as error:
+            self.report_error("Could not save the study", str(error))
+            return False
+        self.document._study = written  # same content, metadata as written: not an edit
+        self.document.mark_saved(path)
+        self.preferences.add_recent_file(path)
+        self.preferences.set_last_folder(str(Path(path).resolve().parent))
+        self._refresh_recent_menu()
+        self.remove_recovery()
+        self.statusBar().showMessage(f"Saved {path}", 5000)
+        return True
+
+    def _refresh_recent_menu(self) -> None:
+        self.recent_menu.clear()
+        files = self.preferences.recent_files()
+        for path in files:
+            action = QAction(Path(path).name, self)
+            action.setToolTip(path)
+            action.setStatusTip(path)
+            action.triggered.connect(lambda checked=False, path=path: self.open_path(path))
+            self.recent_menu.addAction(action)
+        if files:
+            self.recent_menu.addSeparator()
+            self.recent_menu.addAction(self._action("Clear list", self._clear_recent))
+        self.recent_menu.setEnabled(bool(files))
+
+    def _clear_recent(self) -> None:
+        self.preferences.clear_recent_files()
+        self._refresh_recent_menu()
+
+    # -- autosave and recovery ------------------------------------------------------------------------------
+    def autosave(self) -> bool:
+        """Write unsaved edits to the recovery file (never to the study's own file)."""
+        if not self.document.is_dirty:
+            return False
+        try:
+            save_study(self.document.study, self.preferences.recovery_path)
+        except StudyFileError as error:
+            self.statusBar().showMessage(f"Autosave failed: {error}", 8000)
+            return False
+        return True
+
+    def remove_recovery(self) -> None:
+        for path in (self.preferences.recovery_path,
+                     self.preferences.recovery_path.with_name(self.preferences.recovery_path.name + ".backup")):
+            path.unlink(missing_ok=True)
+
+    def offer_recovery(self) -> bool:
+        """After a crash: offer the autosaved study; returns True when it was restored."""
+        path = self.preferences.recovery_path
+        if not path.exists():
+            return False
+        try:
+            study = load_study(path)
+        except StudyFileError:
+            self.remove_recovery()
+            return False
+        if not self.ask_restore(path):
+            self.remove_recovery()
+            return False
+        self.document.replace_study(study, None, dirty=True)
+        self._after_replace()
+        return True
+
+    def closeEvent(self, event: QCloseEvent) -> None:
+        if not self.may_discard():
+            event.ignore()
+            return
+        self.runner.cancel()
+        self.remove_recovery()
+        self.preferences.set_window_state(self.saveGeometry(), self.saveState())
+        event.accept()
+
+    # -- exports --------------------------------------------------------------------------------------------
+    def export_picture_dialog(self) -> None:
+        path = self.choose_save_path("Export the map", PICTURE_FILTER, "type_map.png")
+        if path:
+            self.export_picture(path)
+
+    def export_picture(self, path: str | Path) -> Path | None:
+        if Path(path).suffix.lower() not in (".png", ".svg", ".pdf"):
+            path = str(path) + ".png"
+        try:
+            written = export_picture(self.map_view, path, title=self.map_view.title.text())
+        except (OSError, ValueError) as error:
+            self.report_error("Could not export the map", str(error))
+            return None
+        self.statusBar().showMessage(f"Map written to {written}", 5000)
+        return written
+
+    def pin_readouts(self) -> list:
+        probe = optional_core("probe")
+        results = self.analysis.probes
+        readouts = []
+        for result in results:
+            if probe is not None and hasattr(probe, "probe_to_dict"):
+                readouts.append(probe.probe_to_dict(result))
+            else:
+                readouts.append({k: v for k, v in vars(result).items()} if result is not None else None)
+        return readouts
+
+    def _characteristic_curves(self) -> list:
+        return [curve for traced in self.analysis.traced for curve in traced.curves]
+
+    def export_table(self, what: str, path: str | Path) -> int:
+        """Write one CSV table ('lines', 'characteristics' or 'pins'); returns the number of rows."""
+        if what == "lines":
+            return write_csv(boundary_rows(self.analysis.boundaries), path, BOUNDARY_COLUMNS)
+        if what == "characteristics":
+            return write_csv(characteristic_rows(self._characteristic_curves()), path, CHARACTERISTIC_COLUMNS)
+        if what == "pins":
+            return write_csv(pin_rows(self.document.study.pins, self.pin_readouts()), path)
+        raise ValueError(f"unknown table {what!r}; expected lines, characteristics or pins")
+
+    def _export_table_dialog(self, what: str) -> None:
+        path = self.choose_save_path(f"Export {what} as CSV", "CSV table (*.csv)", f"{what}.csv")
+        if not path:
+            return
+        try:
+            rows = self.export_table(what, path)
+        except OSError as error:
+            self.report_error("Could not export", str(error))
+            return
+        self.statusBar().showMessage(f"{rows} rows written to {path}", 5000)
+
+    def export_json(self, path: str | Path) -> None:
+        study = self.document.study
+        data = results_dict(equation=study.equation, domain=study.domain,
+                            parameters=study.equation.parameter_values(), type_map=self.analysis.type_map,
+                            boundaries=self.analysis.boundaries, characteristics=self._characteristic_curves(),
+                            pins=study.pins, readouts=self.pin_readouts())
+        write_json(data, path)
+
+    def _export_json_dialog(self) -> None:
+        path = self.choose_save_path("Export everything as JSON", "JSON (*.json)", "results.json")
+        if path:
+            try:
+                self.export_json(path)
+            except (OSError, ValueError) as error:
+                self.report_error("Could not export", str(error))
+
+    def show_about(self) -> None:
+        QMessageBox.about(self, "About Mixtype", ABOUT_TEXT)

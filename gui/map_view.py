@@ -1,0 +1,310 @@
+"""The map: type zones as an image of codes, type-change lines, characteristics, pins and seed segments.
+
+A pyqtgraph plot whose axes carry the equation's variable names. The type map is an ImageItem of integer
+codes with fixed levels and the discrete colour table of ``gui.palette``, placed on the domain with setRect
+so that each pixel is centred on its grid node. Hover goes through a rate-limited SignalProxy; a click pins
+a point; in segment mode a left drag draws a seed segment; dragging a pin moves it. The view shows what it
+is given and computes nothing.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import QPointF, QRectF, Qt, Signal
+from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
+
+from core.classify import TypeCode
+from gui.palette import (
+    FAMILY_COLOURS,
+    PIN_COLOUR,
+    SEGMENT_COLOUR,
+    TYPE_COLOURS,
+    TYPE_LINE_COLOUR,
+    type_lookup_table,
+)
+from gui.study import Layers, PinMark, SeedLine
+
+__all__ = ["MapView", "MapViewBox", "polyline_with_breaks"]
+
+PIN_GRAB_PIXELS = 9.0
+
+
+def polyline_with_breaks(polylines) -> tuple[np.ndarray, np.ndarray]:
+    """Many (n_k, 2) polylines -> one (x, y) pair separated by NaN, for a single curve item."""
+    xs, ys = [], []
+    for points in polylines:
+        points = np.asarray(points, dtype=np.float64).reshape(-1, 2)
+        if len(points) == 0:
+            continue
+        xs.extend((points[:, 0], [np.nan]))
+        ys.extend((points[:, 1], [np.nan]))
+    if not xs:
+        return np.empty(0), np.empty(0)
+    return np.concatenate(xs), np.concatenate(ys)
+
+
+class MapViewBox(pg.ViewBox):
+    """A ViewBox that lets the left button draw a seed segment (segment mode) or drag a pin."""
+
+    def __init__(self, owner: MapView) -> None:
+        super().__init__()
+        self.owner = owner
+        self.setAspectLocked(True, ratio=1.0)
+
+    def mouseDragEvent(self, event, axis=None):
+        if event.button() != Qt.MouseButton.LeftButton:
+            return super().mouseDragEvent(event, axis)
+        start = self.mapSceneToView(event.buttonDownScenePos())
+        here = self.mapSceneToView(event.scenePos())
+        owner = self.owner
+        if event.isStart():
+            owner._drag_pin = owner.pin_near(event.buttonDownScenePos())
+        if owner._drag_pin is not None:
+            event.accept()
+            owner.pin_moved.emit(owner._drag_pin, here.x(), here.y(), bool(event.isFinish()))
+            if event.isFinish():
+                owner._drag_pin = None
+            return
+        if owner.mode == "segment":
+            event.accept()
+            owner._draw_preview(start, here, finished=event.isFinish())
+            if event.isFinish():
+                owner.segment_drawn.emit(start.x(), start.y(), here.x(), here.y())
+            return
+        return super().mouseDragEvent(event, axis)
+
+
+class MapView(QWidget):
+    """The plot with its title and legend; what is drawn is set through the show_* methods."""
+
+    hovered = Signal(float, float)                    # view coordinates under the mouse
+    left_plot = Signal()                              # the mouse left the plot area
+    clicked = Signal(float, float)                    # a left click (not a drag) in pin mode
+    pin_clicked = Signal(int)                         # a left click on an existing pin
+    segment_drawn = Signal(float, float, float, float)
+    pin_moved = Signal(int, float, float, bool)       # pin index, new x, new y, drag finished
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.mode = "pin"
+        self._drag_pin: int | None = None
+        self._pins: tuple[PinMark, ...] = ()
+        self._layers = Layers()
+        self._domain = None
+
+        self.title = QLabel("Type of the equation over the domain")
+        self.title.setObjectName("mapTitle")
+        self.title.setWordWrap(True)
+        font = self.title.font()
+        font.setPointSizeF(font.pointSizeF() + 1.5)
+        font.setBold(True)
+        self.title.setFont(font)
+        self.subtitle = QLabel("")
+        self.subtitle.setWordWrap(True)
+
+        self.view_box = MapViewBox(self)
+        self.plot_widget = pg.PlotWidget(viewBox=self.view_box, background="w")
+        self.plot = self.plot_widget.getPlotItem()
+        self.plot.showGrid(x=False, y=False)
+        self.plot.setMenuEnabled(False)
+        for name in ("left", "bottom"):
+            axis = self.plot.getAxis(name)
+            axis.setPen(pg.mkPen("#333333"))
+            axis.setTextPen(pg.mkPen("#222222"))
+        self.plot.getAxis("left").setWidth(56)
+        self.set_variables("x", "y")
+
+        self.image = pg.ImageItem()
+        self.image.setLookupTable(type_lookup_table())
+        self.image.setLevels((0, len(TypeCode)))
+        self.image.setZValue(0)
+        self.plot.addItem(self.image)
+
+        self.lines = pg.PlotCurveItem(pen=pg.mkPen(TYPE_LINE_COLOUR, width=2.4), connect="finite")
+        self.lines.setZValue(10)
+        self.family_curves = {}
+        for family, style in ((1, Qt.PenStyle.SolidLine), (2, Qt.PenStyle.DashLine)):
+            pen = pg.mkPen(FAMILY_COLOURS[family], width=1.8, style=style)
+            curve = pg.PlotCurveItem(pen=pen, connect="finite")
+            curve.setZValue(20 + family)
+            self.family_curves[family] = curve
+        self.seed_lines = pg.PlotCurveItem(pen=pg.mkPen(SEGMENT_COLOUR, width=1.5, style=Qt.PenStyle.DotLine),
+                                           connect="finite")
+        self.seed_lines.setZValue(25)
+        self.preview = pg.PlotCurveItem(pen=pg.mkPen(SEGMENT_COLOUR, width=2, style=Qt.PenStyle.DashDotLine))
+        self.preview.setZValue(40)
+        self.pin_markers = pg.ScatterPlotItem(size=11, symbol="o", pen=pg.mkPen("w", width=1.5),
+                                              brush=pg.mkBrush(PIN_COLOUR))
+        self.pin_markers.setZValue(30)
+        for item in (self.lines, *self.family_curves.values(), self.seed_lines, self.preview, self.pin_markers):
+            self.plot.addItem(item)
+        self._pin_labels: list[pg.TextItem] = []
+
+        self.legend = QLabel()
+        self.legend.setObjectName("mapLegend")
+        self.legend.setTextFormat(Qt.TextFormat.RichText)
+        self.legend.setWordWrap(True)
+        self.show_fractions(None)
+
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(6, 6, 6, 6)
+        layout.setSpacing(3)
+        layout.addWidget(self.title)
+        layout.addWidget(self.subtitle)
+        layout.addWidget(self.plot_widget, 1)
+        row = QHBoxLayout()
+        row.addWidget(self.legend, 1)
+        layout.addLayout(row)
+
+        scene = self.plot_widget.scene()
+        self._hover_proxy = pg.SignalProxy(scene.sigMouseMoved, rateLimit=30, slot=self._on_mouse_moved)
+        scene.sigMouseClicked.connect(self._on_mouse_clicked)
+
+    # -- what to draw ---------------------------------------------------------------------------------------
+    def set_variables(self, first: str, second: str) -> None:
+        """Axis titles: the variable names (coordinates are in the equation's own units)."""
+        self.plot.setLabel("bottom", first)
+        self.plot.setLabel("left", second)
+        self._variables = (first, second)
+
+    def set_titles(self, title: str, subtitle: str) -> None:
+        self.title.setText(title)
+        self.subtitle.setText(subtitle)
+
+    def show_domain(self, domain, *, fit: bool = True) -> None:
+        """Place the image on ``domain`` and, with ``fit``, zoom to it."""
+        self._domain = domain
+        if fit:
+            self.fit_domain()
+
+    def fit_domain(self) -> None:
+        if self._domain is not None:
+            d = self._domain
+            self.view_box.setRange(xRange=(d.xmin, d.xmax), yRange=(d.ymin, d.ymax), padding=0.02)
+
+    def show_type_map(self, type_map) -> None:
+        """Draw the (ny, nx) int8 codes of a core TypeMap, each pixel centred on its node."""
+        domain = type_map.domain
+        dx, dy = domain.spacing
+        codes = np.ascontiguousarray(type_map.codes).view(np.uint8)
+        self.image.setImage(codes, autoLevels=False, levels=(0, len(TypeCode)))
+        self.image.setRect(QRectF(domain.xmin - dx / 2, domain.ymin - dy / 2, domain.nx * dx, domain.ny * dy))
+        self.show_fractions(type_map.fractions)
+
+    def clear_type_map(self) -> None:
+        self.image.clear()
+        self.show_fractions(None)
+
+    def show_lines(self, boundaries) -> None:
+        """Type-change curves from core.boundary (``curves[k].points`` (n, 2)); None clears them."""
+        curves = [] if boundaries is None else [curve.points for curve in boundaries.curves]
+        x, y = polyline_with_breaks(curves)
+        self.lines.setData(x, y, connect="finite")
+
+    def show_characteristics(self, traced) -> None:
+        """Characteristic curves (``.family``, ``.points`` (n, 2)) grouped by family into two items."""
+        by_family = {1: [], 2: []}
+        for seed in traced or ():
+            for curve in seed.curves:
+                by_family.setdefault(int(curve.family), []).append(curve.points)
+        for family, item in self.family_curves.items():
+            x, y = polyline_with_breaks(by_family.get(family, []))
+            item.setData(x, y, connect="finite")
+
+    def show_seeds(self, seeds: tuple[SeedLine, ...]) -> None:
+        segments = [np.array([s.start, s.end]) for s in seeds if not s.is_point]
+        x, y = polyline_with_breaks(segments)
+        self.seed_lines.setData(x, y, connect="finite")
+
+    def show_pins(self, pins: tuple[PinMark, ...]) -> None:
+        self._pins = tuple(pins)
+        self.pin_markers.setData([p.x for p in pins], [p.y for p in pins])
+        for label in self._pin_labels:
+            self.plot.removeItem(label)
+        self._pin_labels = []
+        for pin in pins:
+            text = pg.TextItem(pin.label, color="#222222", anchor=(-0.15, 1.1), fill=pg.mkBrush(255, 255, 255, 190))
+            text.setPos(pin.x, pin.y)
+            text.setZValue(31)
+            text.setVisible(self._layers.pins)
+            self.plot.addItem(text)
+            self._pin_labels.append(text)
+
+    def set_layers(self, layers: Layers) -> None:
+        self._layers = layers
+        self.image.setVisible(layers.type_map)
+        self.lines.setVisible(layers.type_lines)
+        self.family_curves[1].setVisible(layers.family_1)
+        self.family_curves[2].setVisible(layers.family_2)
+        self.pin_markers.setVisible(layers.pins)
+        for label in self._pin_labels:
+            label.setVisible(layers.pins)
+        self.seed_lines.setVisible(layers.seeds)
+
+    def set_mode(self, mode: str) -> None:
+        """'pin': a click pins a point; 'segment': a left drag draws a seed segment."""
+        if mode not in ("pin", "segment"):
+            raise ValueError(f"mode must be 'pin' or 'segment', got {mode!r}")
+        self.mode = mode
+        self.plot_widget.setCursor(Qt.CursorShape.CrossCursor if mode == "segment" else Qt.CursorShape.ArrowCursor)
+
+    def show_fractions(self, fractions) -> None:
+        """The legend: one swatch per type with its share of the grid nodes, then the line styles."""
+        def swatch(colour: str) -> str:
+            return f"<span style='color:{colour}; font-size:15pt'>&#9632;</span>"
+
+        entries = []
+        for code in (TypeCode.ELLIPTIC, TypeCode.HYPERBOLIC, TypeCode.PARABOLIC, TypeCode.UNDEFINED):
+            share = "" if fractions is None else f" {100.0 * float(fractions[code.label]):.1f}&nbsp;%"
+            entries.append(f"{swatch(TYPE_COLOURS[code])}&nbsp;{code.label}{share}")
+        entries.append(f"<span style='color:{TYPE_LINE_COLOUR}'><b>&#9473;&#9473;</b></span>&nbsp;type change")
+        entries.append(f"<span style='color:{FAMILY_COLOURS[1]}'><b>&#9473;&#9473;</b></span>&nbsp;family 1")
+        entries.append(f"<span style='color:{FAMILY_COLOURS[2]}'><b>&#9476;&#9476;</b></span>&nbsp;family 2")
+        entries.append(f"<span style='color:{PIN_COLOUR}; font-size:13pt'>&#9679;</span>&nbsp;pin")
+        note = " &nbsp;<span style='color:#555'>(% = share of grid nodes)</span>" if fractions is not None else ""
+        self.legend.setText("&nbsp;&nbsp; ".join(entries) + note)
+
+    # -- geometry helpers -----------------------------------------------------------------------------------
+    def pin_near(self, scene_pos: QPointF) -> int | None:
+        """Index of the visible pin within a few pixels of a scene position, or None."""
+        if not self._layers.pins:
+            return None
+        best, best_distance = None, PIN_GRAB_PIXELS
+        for index, pin in enumerate(self._pins):
+            where = self.view_box.mapViewToScene(QPointF(pin.x, pin.y))
+            distance = np.hypot(where.x() - scene_pos.x(), where.y() - scene_pos.y())
+            if distance <= best_distance:
+                best, best_distance = index, distance
+        return best
+
+    def scene_position(self, x: float, y: float) -> QPointF:
+        return self.view_box.mapViewToScene(QPointF(x, y))
+
+    def _draw_preview(self, start: QPointF, end: QPointF, *, finished: bool) -> None:
+        if finished:
+            self.preview.setData([], [])
+        else:
+            self.preview.setData([start.x(), end.x()], [start.y(), end.y()])
+
+    # -- mouse ----------------------------------------------------------------------------------------------
+    def _on_mouse_moved(self, event) -> None:
+        position = event[0]
+        if self.view_box.sceneBoundingRect().contains(position):
+            point = self.view_box.mapSceneToView(position)
+            self.hovered.emit(point.x(), point.y())
+        else:
+            self.left_plot.emit()
+
+    def _on_mouse_clicked(self, event) -> None:
+        if event.button() != Qt.MouseButton.LeftButton or event.double() or self.mode != "pin":
+            return
+        position = event.scenePos()
+        if not self.view_box.sceneBoundingRect().contains(position):
+            return
+        near = self.pin_near(position)
+        if near is not None:
+            self.pin_clicked.emit(near)
+            return
+        point = self.view_box.mapSceneToView(position)
+        self.clicked.emit(point.x(), point.y())

@@ -1,0 +1,264 @@
+"""Pinned points and everything core knows at each: type, D, a, b, c, characteristic directions, definitions.
+
+Click the map to pin a point. The table lists the pins (label, position, type, D); the label and position can
+be edited in place. The selected pin's full readout comes from core.probe, shown as a table and copyable as
+plain text. Numbers carry their units: coordinates are in the equation's own length units, angles in
+degrees from the first variable's axis, D in the units of b squared; ratios are marked dimensionless.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+
+import numpy as np
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QGuiApplication
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QPushButton,
+    QTableWidget,
+    QTableWidgetItem,
+    QTextBrowser,
+    QVBoxLayout,
+    QWidget,
+)
+
+from gui.document import Document
+from gui.study import SeedLine
+
+__all__ = ["PinsPanel", "pins_as_text", "probe_rows"]
+
+_COLUMNS = ("label", "x", "y", "type", "D")
+
+
+def _number(value, digits: int = 6) -> str:
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        return str(value)
+    if math.isnan(value):
+        return "undefined"
+    return f"{value:.{digits}g}"
+
+
+def _numbers(values, digits: int = 5, unit: str = "") -> str:
+    if values is None:
+        return "none"
+    array = np.atleast_1d(np.asarray(values, dtype=np.float64))
+    if array.size == 0 or np.all(np.isnan(array)):
+        return "none (no real direction)"
+    text = ", ".join(_number(v, digits) for v in array if not math.isnan(v))
+    return f"{text}{unit}"
+
+
+def _type_label(result) -> str:
+    kind = getattr(result, "type", None)
+    return getattr(kind, "label", str(kind)) if kind is not None else "?"
+
+
+def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[str, str]]:
+    """(quantity, value with unit) rows for one core.probe result, in reading order."""
+    x_name, y_name = variables
+    point = getattr(result, "point", (math.nan, math.nan))
+    rows = [
+        ("point", f"{x_name} = {_number(point[0])}, {y_name} = {_number(point[1])} (equation length units)"),
+        ("type", _type_label(result)),
+        ("D = b² − 4ac", f"{_number(getattr(result, 'discriminant', math.nan))} (units of b²)"),
+        ("D / (b² + 4|ac|)", f"{_number(getattr(result, 'normalized', math.nan))} (dimensionless)"),
+    ]
+    for name in ("a", "b", "c"):
+        rows.append((name, _number(getattr(result, name, math.nan))))
+    directions = getattr(result, "directions_deg", None)
+    if directions is not None and np.any(np.isfinite(np.asarray(directions, dtype=np.float64))):
+        rows.append(("characteristic directions", _numbers(directions, 5, "° from the " + x_name + " axis")))
+        rows.append((f"slopes d{y_name}/d{x_name}", _numbers(getattr(result, "slopes", None), 5)
+                     + f" ({y_name} units per {x_name} unit)"))
+        angle = getattr(result, "angle_between_deg", None)
+        if angle is not None and not (isinstance(angle, float) and math.isnan(angle)):
+            rows.append(("angle between them", f"{_number(angle, 5)}°"))
+    axes = getattr(result, "principal_axes_deg", None)
+    if axes is not None and np.any(np.isfinite(np.asarray(axes, dtype=np.float64))):
+        rows.append(("principal axes", _numbers(axes, 5, "° from the " + x_name + " axis")))
+        rows.append(("anisotropy", f"{_number(getattr(result, 'anisotropy', math.nan), 5)} (dimensionless)"))
+    for name, value in dict(getattr(result, "definitions", {}) or {}).items():
+        rows.append((f"{name} (definition)", _number(value)))
+    if not getattr(result, "inside", True):
+        rows.append(("note", "outside the domain"))
+    message = getattr(result, "message", "")
+    if message:
+        rows.append(("note", str(message)))
+    return rows
+
+
+def pins_as_text(pins, results, variables: tuple[str, str] = ("x", "y")) -> str:
+    """Plain text for the clipboard: one block per pin, one 'quantity: value' line each."""
+    blocks = []
+    for index, pin in enumerate(pins):
+        lines = [f"Pin {pin.label or index + 1}"]
+        if index < len(results) and results[index] is not None:
+            lines += [f"  {name}: {value}" for name, value in probe_rows(results[index], variables)]
+        else:
+            lines.append(f"  point: {variables[0]} = {pin.x:.6g}, {variables[1]} = {pin.y:.6g} (not probed yet)")
+        blocks.append("\n".join(lines))
+    return "\n\n".join(blocks) + ("\n" if blocks else "")
+
+
+class PinsPanel(QWidget):
+    """The pin list and the selected pin's readout."""
+
+    selection_changed = Signal(int)   # selected pin index, -1 for none
+
+    def __init__(self, document: Document, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.document = document
+        self.results: tuple = ()
+        self._updating = False
+        purpose = QLabel("Pinned points. Click the map to pin a point (drag a pin to move it); select one to "
+                         "read everything known there.")
+        purpose.setWordWrap(True)
+        purpose.setObjectName("panelPurpose")
+
+        self.table = QTableWidget(0, len(_COLUMNS))
+        self.table.setHorizontalHeaderLabels(["label", "x", "y", "type", "D"])
+        self.table.horizontalHeaderItem(4).setToolTip("D = b² − 4ac, in the units of b²")
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
+        self.table.verticalHeader().setVisible(False)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setToolTip("Edit a label or a coordinate in place; the readout follows")
+        self.table.itemChanged.connect(self._edited)
+        self.table.itemSelectionChanged.connect(self._selected)
+
+        self.details = QTextBrowser()
+        self.details.setObjectName("pinReadout")
+        self.details.setToolTip("Everything core.probe reports at the selected pin")
+        self.details.setMinimumHeight(180)
+
+        self.trace_button = QPushButton("Trace through pin")
+        self.trace_button.setToolTip("Draw both characteristics through the selected pin (hyperbolic points)")
+        self.trace_button.clicked.connect(self.trace_selected)
+        self.delete_button = QPushButton("Delete")
+        self.delete_button.setToolTip("Delete the selected pin")
+        self.delete_button.clicked.connect(self.delete_selected)
+        self.copy_button = QPushButton("Copy as text")
+        self.copy_button.setToolTip("Copy every pin's readout to the clipboard as plain text")
+        self.copy_button.clicked.connect(self.copy_text)
+        buttons = QHBoxLayout()
+        for button in (self.trace_button, self.delete_button, self.copy_button):
+            buttons.addWidget(button)
+        buttons.addStretch(1)
+
+        layout = QVBoxLayout(self)
+        layout.addWidget(purpose)
+        layout.addWidget(self.table, 1)
+        layout.addLayout(buttons)
+        layout.addWidget(self.details, 2)
+        document.pins_changed.connect(self.refresh)
+        document.equation_changed.connect(self._show_details)
+        self.refresh()
+
+    # -- display --------------------------------------------------------------------------------------------
+    def set_results(self, results) -> None:
+        """Probe results from core, one per pin in the document's order."""
+        self.results = tuple(results or ())
+        self.refresh()
+
+    def _variables(self) -> tuple[str, str]:
+        return tuple(self.document.study.equation.variables)  # type: ignore[return-value]
+
+    def refresh(self) -> None:
+        pins = self.document.study.pins
+        selected = self.selected_index()
+        self._updating = True
+        try:
+            self.table.setRowCount(len(pins))
+            for row, pin in enumerate(pins):
+                result = self.results[row] if row < len(self.results) else None
+                matches = result is not None and np.allclose(getattr(result, "point", (np.nan, np.nan)),
+                                                             (pin.x, pin.y))
+                kind = _type_label(result) if matches else "…"
+                d = _number(getattr(result, "discriminant", math.nan)) if matches else "…"
+                for column, text in enumerate((pin.label, f"{pin.x:.6g}", f"{pin.y:.6g}", kind, d)):
+                    item = QTableWidgetItem(text)
+                    if column >= 3:
+                        item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
+                    self.table.setItem(row, column, item)
+        finally:
+            self._updating = False
+        if 0 <= selected < len(pins):
+            self.table.selectRow(selected)
+        elif pins:
+            self.table.selectRow(len(pins) - 1)
+        self._show_details()
+
+    def selected_index(self) -> int:
+        rows = self.table.selectionModel().selectedRows() if self.table.selectionModel() else []
+        return rows[0].row() if rows else -1
+
+    def select(self, index: int) -> None:
+        if 0 <= index < self.table.rowCount():
+            self.table.selectRow(index)
+
+    def _selected(self) -> None:
+        self._show_details()
+        self.selection_changed.emit(self.selected_index())
+
+    def _show_details(self) -> None:
+        index = self.selected_index()
+        pins = self.document.study.pins
+        if not 0 <= index < len(pins):
+            self.details.setHtml("<p style='color:#555'>No pin selected. Click the map to pin a point.</p>")
+            return
+        pin = pins[index]
+        result = self.results[index] if index < len(self.results) else None
+        if result is None or not np.allclose(getattr(result, "point", (np.nan, np.nan)), (pin.x, pin.y)):
+            self.details.setHtml(f"<p><b>{html.escape(pin.label)}</b>: reading…</p>")
+            return
+        rows = "".join(f"<tr><td style='padding-right:10px; color:#444'>{html.escape(name)}</td>"
+                       f"<td>{html.escape(value)}</td></tr>"
+                       for name, value in probe_rows(result, self._variables()))
+        self.details.setHtml(f"<p><b>{html.escape(pin.label)}</b></p><table>{rows}</table>")
+
+    # -- actions --------------------------------------------------------------------------------------------
+    def _edited(self, item: QTableWidgetItem) -> None:
+        if self._updating:
+            return
+        row, column = item.row(), item.column()
+        pins = self.document.study.pins
+        if not 0 <= row < len(pins):
+            return
+        if column == 0:
+            self.document.relabel_pin(row, item.text().strip())
+            return
+        try:
+            value = float(item.text())
+            if not math.isfinite(value):
+                raise ValueError
+        except ValueError:
+            self.refresh()
+            return
+        x, y = (value, pins[row].y) if column == 1 else (pins[row].x, value)
+        self.document.move_pin(row, x, y)
+
+    def trace_selected(self) -> bool:
+        index = self.selected_index()
+        pins = self.document.study.pins
+        if not 0 <= index < len(pins):
+            return False
+        pin = pins[index]
+        return self.document.add_seed(SeedLine(start=(pin.x, pin.y), label=f"through {pin.label}"))
+
+    def delete_selected(self) -> bool:
+        index = self.selected_index()
+        if not 0 <= index < len(self.document.study.pins):
+            return False
+        return self.document.remove_pin(index)
+
+    def copy_text(self) -> str:
+        text = pins_as_text(self.document.study.pins, self.results, self._variables())
+        QGuiApplication.clipboard().setText(text)
+        return text

@@ -1,0 +1,68 @@
+"""Headless pictures of a study: the map (or the whole window) as the desktop window would show it.
+
+Builds the window offscreen with synchronous computation, so the picture holds the finished map, lines,
+characteristics and pins of the project's shown equation and domain.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+__all__ = ["render_project"]
+
+
+def render_project(project_path_or_project, out_png: str | os.PathLike, *, whole_window: bool = False,
+                   size: tuple[int, int] | None = None) -> None:
+    """Write a PNG of the study at ``project_path_or_project`` (a path, a core Project or a gui Study).
+
+    ``whole_window`` pictures the window with its panels; otherwise the map with its title and legend.
+    ``size`` is the window size in pixels (width, height), 1200 x 900 when None. Raises StudyFileError when the file is unusable.
+    """
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    from gui.app import ensure_application
+
+    ensure_application()
+    from PySide6.QtWidgets import QApplication, QDockWidget
+
+    from gui.main_window import MainWindow
+    from gui.preferences import Preferences
+    from gui.project_bridge import load_study, study_from_project
+    from gui.study import Study
+
+    source = project_path_or_project
+    path = None
+    if isinstance(source, Study):
+        study = source
+    elif isinstance(source, str | os.PathLike):
+        path = Path(source)
+        study = load_study(path)
+    else:
+        study = study_from_project(source)
+    with tempfile.TemporaryDirectory(prefix="mixtype-render-") as folder:
+        window = MainWindow(study, path=path, preferences=Preferences(Path(folder)), synchronous=True,
+                            autosave_ms=3_600_000)
+        try:
+            width, height = (int(v) for v in (size or (1200, 900)))
+            if not whole_window:
+                for dock in window.findChildren(QDockWidget):
+                    dock.hide()
+            window.resize(width, height)
+            window.show()
+            window.analysis.flush()
+            window.runner.wait_idle()
+            QApplication.processEvents()
+            window.map_view.fit_domain()
+            QApplication.processEvents()
+            if whole_window:
+                picture = window.grab()
+            else:
+                picture = window.map_view.grab()
+            out = Path(out_png)
+            if not picture.save(str(out), "PNG"):
+                raise OSError(f"could not write {out}")
+        finally:
+            window.document.undo_stack.setClean()
+            window.close()
+            window.deleteLater()
