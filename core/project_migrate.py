@@ -1,0 +1,97 @@
+"""Upgrading project files written in older format versions, one version at a time.
+
+A file carries its integer ``format_version``. ``MIGRATIONS[n]`` turns the plain JSON data of version n into
+version n + 1 (dict to dict, no dataclasses involved); ``migrate`` applies the steps in turn up to the current
+version, after which the data are validated as current. Adding format version n + 1 means: write
+``_vn_to_vn1``, register it here, bump CURRENT_FORMAT_VERSION in core.project_schema, keep the old schema
+file and add a sample file of the new version to tests/data.
+"""
+
+from __future__ import annotations
+
+import copy
+from collections.abc import Callable, Mapping
+
+import core
+from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
+
+__all__ = ["MIGRATIONS", "OLDEST_FORMAT_VERSION", "MigrationError", "format_version_of", "migrate"]
+
+OLDEST_FORMAT_VERSION = 1
+
+Migration = Callable[[dict], dict]
+
+# version n -> function turning version-n data into version n + 1. Version 1 is the first format.
+MIGRATIONS: dict[int, Migration] = {}
+
+
+class MigrationError(ValueError):
+    """The data cannot be brought to the current format; ``path`` is where (a JSON path such as '$')."""
+
+    def __init__(self, message: str, *, path: str = "$") -> None:
+        super().__init__(message)
+        self.message = message
+        self.path = path
+
+
+def format_version_of(data: object) -> int:
+    """The format version a parsed file declares; MigrationError when it is absent or not a version."""
+    if not isinstance(data, Mapping):
+        raise MigrationError(f"a project file holds a JSON object, not {_kind(data)}")
+    if data.get("format") != FORMAT_NAME:
+        found = data.get("format")
+        hint = f"its 'format' is {found!r}" if "format" in data else "it has no 'format' field"
+        raise MigrationError(f"this is not a Mixtype project file ({hint}; expected {FORMAT_NAME!r})")
+    if "format_version" not in data:
+        raise MigrationError("the file does not say its format version ('format_version' is missing)")
+    version = data["format_version"]
+    if isinstance(version, bool) or not isinstance(version, int):
+        raise MigrationError(f"the format version must be a whole number, got {_kind(version)}",
+                             path="$.format_version")
+    return version
+
+
+def migrate(data: Mapping, *, target: int = CURRENT_FORMAT_VERSION,
+            migrations: Mapping[int, Migration] | None = None) -> dict:
+    """A copy of ``data`` brought from its declared format version to ``target``, one step at a time.
+
+    The input is never modified. A version newer than ``target`` (a file from a newer Mixtype) or older
+    than the oldest supported one raises MigrationError with a message for the user. ``migrations``
+    replaces the registry (for tests).
+    """
+    steps = MIGRATIONS if migrations is None else migrations
+    version = format_version_of(data)
+    if version > target:
+        writer = data.get("metadata", {}).get("written_by") if isinstance(data.get("metadata"), Mapping) else None
+        by = f" by Mixtype {writer}" if isinstance(writer, str) and writer and len(writer) < 40 else ""
+        raise MigrationError(f"the file was written{by} in format version {version}; this Mixtype "
+                             f"({core.__version__}) reads format versions up to {target}: please update Mixtype",
+                             path="$.format_version")
+    if version < OLDEST_FORMAT_VERSION:
+        raise MigrationError(f"format version {version} does not exist (the first is {OLDEST_FORMAT_VERSION})",
+                             path="$.format_version")
+    result = copy.deepcopy(dict(data))
+    while version < target:
+        if version not in steps:
+            raise MigrationError(f"no upgrade from format version {version} to {version + 1} is known",
+                                 path="$.format_version")
+        result = steps[version](result)
+        declared = result.get("format_version")
+        if declared != version + 1:
+            raise AssertionError(f"the migration from version {version} declared version {declared!r}")
+        version += 1
+    return result
+
+
+def _kind(value: object) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true/false"
+    if isinstance(value, int | float):
+        return f"the number {value!r}"
+    if isinstance(value, str):
+        return "text" if len(value) > 40 else f"the text {value!r}"
+    if isinstance(value, list):
+        return "a list"
+    return "an object"

@@ -1,0 +1,208 @@
+"""The JSON Schema (draft 2020-12) of Mixtype project files, built here so code and schema cannot drift.
+
+``project_schema()`` is the single source: core.project_io validates every file against it, and
+resources/schema/mixtype-project-v<N>.schema.json is its text as written by ``schema_text()`` (a test checks
+the file on disk equals it; regenerate with ``python -m core.project_schema``). The schema checks structure
+and types; what it cannot say (expressions parse, names are unique, ranges are ordered) is checked in
+core.project_codec.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import core
+from core.domain import MAX_GRID, MIN_GRID
+from core.equation import MAX_DEFINITIONS, MAX_PARAMETERS
+from core.expr import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
+from core.project import FAMILIES, MAX_SEED_CURVES
+
+__all__ = [
+    "CURRENT_FORMAT_VERSION",
+    "FORMAT_NAME",
+    "MAX_DOMAINS",
+    "MAX_EQUATIONS",
+    "MAX_LABEL_LENGTH",
+    "MAX_NOTES_LENGTH",
+    "MAX_PINS",
+    "MAX_SEEDS",
+    "project_schema",
+    "schema_path",
+    "schema_text",
+]
+
+CURRENT_FORMAT_VERSION = 1
+FORMAT_NAME = "mixtype-project"
+MAX_EQUATIONS = 100
+MAX_DOMAINS = 100
+MAX_PINS = 10_000
+MAX_SEEDS = 1_000
+MAX_TITLE_LENGTH = 80
+MAX_LABEL_LENGTH = 200
+MAX_DESCRIPTION_LENGTH = 4_000
+MAX_NOTES_LENGTH = 1_000_000
+
+# A title: no control characters, no white space at either end.
+TITLE_PATTERN = r"^[^\s\u0000-\u001f\u007f](?:[^\u0000-\u001f\u007f]*[^\s\u0000-\u001f\u007f])?$"
+IDENTIFIER_PATTERN = r"^[A-Za-z][A-Za-z0-9_]*$"
+TIMESTAMP_PATTERN = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z$"
+
+
+def _object(properties: dict, *, required: list[str] | None = None, description: str = "") -> dict:
+    schema = {"type": "object"}
+    if description:
+        schema["description"] = description
+    schema["properties"] = properties
+    schema["required"] = list(properties) if required is None else required
+    schema["additionalProperties"] = False
+    return schema
+
+
+def _text(max_length: int, description: str, **extra) -> dict:
+    return {"type": "string", "maxLength": max_length, "description": description, **extra}
+
+
+def _identifier(description: str) -> dict:
+    return _text(MAX_NAME_LENGTH, description, pattern=IDENTIFIER_PATTERN)
+
+
+def _title(description: str) -> dict:
+    return _text(MAX_TITLE_LENGTH, description, minLength=1, pattern=TITLE_PATTERN)
+
+
+def _expression(description: str) -> dict:
+    return _text(MAX_TEXT_LENGTH, description, minLength=1)
+
+
+def _number(description: str, **extra) -> dict:
+    return {"type": "number", "description": description, **extra}
+
+
+def _point(description: str) -> dict:
+    return {"type": "array", "description": description, "prefixItems": [{"type": "number"}, {"type": "number"}],
+            "minItems": 2, "maxItems": 2, "items": False}
+
+
+def _range(description: str) -> dict:
+    return {"type": "array", "description": description + " as [minimum, maximum] (minimum < maximum)",
+            "prefixItems": [{"type": "number"}, {"type": "number"}], "minItems": 2, "maxItems": 2,
+            "items": False}
+
+
+def _equation_schema() -> dict:
+    parameter = _object({
+        "value": _number("the value used for computation"),
+        "minimum": _number("lower end of the slider range (optional)"),
+        "maximum": _number("upper end of the slider range (optional)"),
+        "unit": _text(MAX_LABEL_LENGTH, "unit of the value, free text; empty when dimensionless"),
+        "description": _text(MAX_DESCRIPTION_LENGTH, "what the parameter stands for"),
+    }, required=["value", "unit", "description"])
+    return _object({
+        "name": _title("the equation's name, unique in the project"),
+        "description": _text(MAX_DESCRIPTION_LENGTH, "free text"),
+        "variables": {"type": "array", "description": "names of the first and second independent variable",
+                      "prefixItems": [_identifier("first variable"), _identifier("second variable")],
+                      "minItems": 2, "maxItems": 2, "items": False},
+        "coefficients": _object({
+            "a": _expression("coefficient of u_(first variable)(first variable)"),
+            "b": _expression("coefficient of the mixed derivative u_(first)(second)"),
+            "c": _expression("coefficient of u_(second variable)(second variable)"),
+        }, description="a, b, c of a u_xx + b u_xy + c u_yy + (lower order) = 0, as expressions"),
+        "definitions": {"type": "object", "description": "named expressions, in the order shown to the user",
+                        "maxProperties": MAX_DEFINITIONS, "propertyNames": {"pattern": IDENTIFIER_PATTERN,
+                                                                            "maxLength": MAX_NAME_LENGTH},
+                        "additionalProperties": _expression("an expression")},
+        "parameters": {"type": "object", "description": "named numbers, in the order shown to the user",
+                       "maxProperties": MAX_PARAMETERS, "propertyNames": {"pattern": IDENTIFIER_PATTERN,
+                                                                          "maxLength": MAX_NAME_LENGTH},
+                       "additionalProperties": parameter},
+    }, description="a second-order equation in two independent variables")
+
+
+def _seed_schema() -> dict:
+    seed = _object({
+        "kind": {"enum": ["point", "segment"], "description": "one seed point, or points along a segment"},
+        "start": _point("the seed point, or the segment's first end"),
+        "end": _point("the segment's second end (segments only)"),
+        "curves": {"type": "integer", "minimum": 1, "maximum": MAX_SEED_CURVES,
+                   "description": "number of seed points spread along the segment, ends included"},
+        "families": {"type": "array", "items": {"enum": list(FAMILIES)}, "minItems": 1,
+                     "maxItems": len(FAMILIES), "uniqueItems": True,
+                     "description": "which characteristic families to trace from each seed point"},
+        "label": _text(MAX_LABEL_LENGTH, "free text"),
+    }, required=["kind", "start", "families", "label"], description="where characteristic curves start")
+    seed["allOf"] = [
+        {"if": {"properties": {"kind": {"const": "segment"}}},
+         "then": {"required": ["end", "curves"]},
+         "else": {"not": {"anyOf": [{"required": ["end"]}, {"required": ["curves"]}]}}},
+    ]
+    return seed
+
+
+def project_schema() -> dict:
+    """The JSON Schema of the current project file format, as a dict (keys in a fixed order)."""
+    version = CURRENT_FORMAT_VERSION
+    domain = _object({
+        "name": _title("the domain's name, unique in the project"),
+        "x_range": _range("extent along the first independent variable"),
+        "y_range": _range("extent along the second independent variable"),
+        "nodes": {"type": "array", "description": "grid nodes along the first and second variable, ends included",
+                  "prefixItems": [{"type": "integer", "minimum": MIN_GRID, "maximum": MAX_GRID}] * 2,
+                  "minItems": 2, "maxItems": 2, "items": False},
+    }, description="a rectangle of the plane and the grid laid over it")
+    layers = {name: {"type": "boolean", "description": f"show the {text}"} for name, text in (
+        ("type_map", "map of elliptic, parabolic and hyperbolic zones"),
+        ("type_change_lines", "lines where the type changes"),
+        ("characteristics", "characteristic curves"),
+        ("pins", "pinned points"),
+        ("legend", "legend"))}
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": f"https://mixtype.invalid/schema/mixtype-project-v{version}.schema.json",
+        "title": f"Mixtype project file, format version {version}",
+        "description": "A study of where a second-order PDE in two variables is elliptic, parabolic or "
+                       "hyperbolic. Expressions are text for Mixtype's own expression parser.",
+        **_object({
+            "format": {"const": FORMAT_NAME, "description": "marks the file as a Mixtype project"},
+            "format_version": {"const": version, "description": "version of this file format"},
+            "metadata": _object({
+                "created": _text(20, "creation time, ISO 8601 UTC", pattern=TIMESTAMP_PATTERN),
+                "modified": _text(20, "time of the last change, ISO 8601 UTC", pattern=TIMESTAMP_PATTERN),
+                "written_by": _text(MAX_NAME_LENGTH, "version of Mixtype that wrote the file"),
+            }),
+            "equations": {"type": "array", "items": _equation_schema(), "minItems": 1, "maxItems": MAX_EQUATIONS},
+            "domains": {"type": "array", "items": domain, "minItems": 1, "maxItems": MAX_DOMAINS},
+            "shown": _object({
+                "equation": _title("name of the equation shown"),
+                "domain": _title("name of the domain shown"),
+            }, description="the equation and domain the window shows"),
+            "pins": {"type": "array", "maxItems": MAX_PINS, "items": _object({
+                "at": _point("the pinned point"),
+                "label": _text(MAX_LABEL_LENGTH, "free text"),
+            }, description="a probed point")},
+            "seeds": {"type": "array", "maxItems": MAX_SEEDS, "items": _seed_schema()},
+            "view": _object({
+                "layers": _object(layers, description="which layers of the map are visible"),
+                "parabolic_tolerance": _number("points with |D| / (b^2 + 4|ac|) at most this are parabolic",
+                                               minimum=0, exclusiveMaximum=1),
+            }, description="what the map shows"),
+            "notes": _text(MAX_NOTES_LENGTH, "free-text notes"),
+        }),
+    }
+
+
+def schema_text() -> str:
+    """The schema as the text stored in resources/schema (2-space indent, trailing newline)."""
+    return json.dumps(project_schema(), indent=2, ensure_ascii=False) + "\n"
+
+
+def schema_path(version: int = CURRENT_FORMAT_VERSION) -> Path:
+    """Where the schema of format ``version`` is stored (older versions are kept as they were)."""
+    return (Path(core.__file__).resolve().parent.parent / "resources" / "schema"
+            / f"mixtype-project-v{version}.schema.json")
+
+
+if __name__ == "__main__":
+    schema_path().write_text(schema_text(), encoding="utf-8")
+    print(f"wrote {schema_path()}")
