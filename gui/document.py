@@ -11,7 +11,7 @@ import itertools
 from dataclasses import replace
 from pathlib import Path
 
-from PySide6.QtCore import QObject, Signal
+from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
 from core.domain import Domain
@@ -83,7 +83,7 @@ class Document(QObject):
         self._sessions = itertools.count(1)
         self.undo_stack = QUndoStack(self)
         self.undo_stack.setUndoLimit(UNDO_LIMIT)
-        self.undo_stack.cleanChanged.connect(lambda clean: self.dirty_changed.emit(not clean))
+        self.undo_stack.cleanChanged.connect(self._clean_changed)
 
     # -- state ----------------------------------------------------------------------------------------------
     @property
@@ -246,6 +246,10 @@ class Document(QObject):
 
     def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
         return self.edit(replace(self._study, notes=notes), "Edit notes", merge_key=merge_key)
+
+    @Slot(bool)
+    def _clean_changed(self, clean: bool) -> None:
+        self.dirty_changed.emit(not clean)
 
     # -- change notification --------------------------------------------------------------------------------
     def _apply(self, after: Study) -> None:

@@ -87,6 +87,9 @@ class MapView(QWidget):
 
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
+        from gui.app import configure_plotting
+
+        configure_plotting()
         self.mode = "pin"
         self._drag_pin: int | None = None
         self._pins: tuple[PinMark, ...] = ()

@@ -1,0 +1,53 @@
+"""Fixtures for window tests: a temporary preferences folder and small studies computed synchronously."""
+
+from __future__ import annotations
+
+import pytest
+
+from core.domain import Domain
+from core.equation import Equation, Parameter
+from gui.study import Study
+
+
+@pytest.fixture(autouse=True)
+def settings_folder(tmp_path, monkeypatch):
+    """Every test gets its own empty preferences folder (recent files, recovery file)."""
+    folder = tmp_path / "settings"
+    folder.mkdir()
+    monkeypatch.setenv("MIXTYPE_SETTINGS_DIR", str(folder))
+    return folder
+
+
+def hump_study(nx: int = 121, ny: int = 81, m_inf: float = 0.8) -> Study:
+    """Demo scenario: (1 - M^2) u_xx + u_yy with M = M_inf (1 + 0.35 exp(-(x^2 + 4 y^2))) on [-3,3]x[-2,2]."""
+    equation = Equation(a="1 - M**2", b="0", c="1",
+                        definitions={"M": "M_inf*(1 + 0.35*exp(-(x**2 + 4*y**2)))"},
+                        parameters={"M_inf": Parameter(m_inf, 0.3, 1.2)}, name="hump flow")
+    return Study(equations=(equation,), domains=(Domain(-3.0, 3.0, -2.0, 2.0, nx, ny, name="near field"),))
+
+
+def tricomi_study(n: int = 81) -> Study:
+    """The Tricomi equation y u_xx + u_yy = 0 on [-2,2]x[-2,2]: hyperbolic below y = 0, elliptic above."""
+    equation = Equation(a="y", b="0", c="1", name="Tricomi")
+    return Study(equations=(equation,), domains=(Domain(-2.0, 2.0, -2.0, 2.0, n, n, name="square"),))
+
+
+@pytest.fixture
+def make_window(qtbot, settings_folder):
+    """Build a MainWindow (synchronous by default) registered with qtbot; dialogs answer 'discard'."""
+    from gui.main_window import MainWindow
+    from gui.preferences import Preferences
+
+    def build(study: Study | None = None, *, synchronous: bool = True, **options):
+        window = MainWindow(study or hump_study(), preferences=Preferences(settings_folder),
+                            synchronous=synchronous, **options)
+        window.ask_unsaved = lambda: "discard"
+        qtbot.addWidget(window)
+        window.resize(1300, 850)
+        window.show()
+        qtbot.waitExposed(window)
+        window.analysis.flush()
+        window.runner.wait_idle()
+        return window
+
+    return build

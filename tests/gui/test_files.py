@@ -1,0 +1,140 @@
+"""Files through the window: save/open round trip, recent files, unsaved prompt, autosave, exports, render."""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import numpy as np
+import pytest
+
+from core.classify import TypeCode
+from core.equation import compile_equation
+from core.probe import probe_point
+from gui.study import SeedLine
+from tests.gui.conftest import hump_study, tricomi_study
+
+
+def test_save_open_round_trip_and_recent_files(make_window, tmp_path):
+    window = make_window(hump_study())
+    window.document.set_parameter_value("M_inf", 0.9)
+    window.document.add_pin(0.1, 0.2, "crest")
+    window.document.add_seed(SeedLine(start=(-0.2, 0.0), end=(0.2, 0.0), curves=3, families=(2,)))
+    window.document.set_layer("type_lines", False)
+    assert window.isWindowModified()
+    path = tmp_path / "bump.mixtype.json"
+    assert window.save_to(path)
+    assert not window.document.is_dirty and not window.isWindowModified()
+    assert "bump.mixtype.json" in window.windowTitle()
+    saved = window.document.study
+
+    other = make_window(tricomi_study())
+    assert other.open_path(path)
+    study = other.document.study
+    assert study.equation == saved.equation
+    assert study.domain == saved.domain
+    assert study.pins == saved.pins and study.seeds == saved.seeds
+    assert study.layers.type_lines is False and study.tolerance == saved.tolerance
+    assert other.preferences.recent_files()[0] == str(path.resolve())
+    assert other.recent_menu.actions()[0].text() == "bump.mixtype.json"
+    other.analysis.flush()
+    assert other.analysis.type_map.parameters["M_inf"] == 0.9
+
+
+def test_open_broken_file_keeps_study_and_says_why(make_window, tmp_path):
+    window = make_window(hump_study())
+    before = window.document.study
+    path = tmp_path / "broken.mixtype.json"
+    path.write_text("{ not json", encoding="utf-8")
+    assert not window.open_path(path)
+    assert window.document.study is before
+    assert "Could not open the study" in window.notice.text()
+
+
+def test_unsaved_changes_prompt(make_window):
+    window = make_window(hump_study())
+    window.document.set_coefficient("c", "2")
+    window.ask_unsaved = lambda: "cancel"
+    assert not window.new_study()
+    assert window.document.study.equation.c == "2"
+    window.ask_unsaved = lambda: "discard"
+    assert window.new_study()
+    assert window.document.study.equation.c == "1" and not window.document.is_dirty
+
+
+def test_autosave_and_recovery_after_a_crash(make_window, settings_folder):
+    window = make_window(hump_study())
+    assert not window.autosave()                       # nothing unsaved: nothing written
+    window.document.set_coefficient("b", "0.2")
+    assert window.autosave()
+    recovery = window.preferences.recovery_path
+    assert recovery.exists() and recovery.parent == settings_folder
+    # A new session finds the file, asks, and restores the edited study as unsaved.
+    restored = make_window(tricomi_study())
+    restored.ask_restore = lambda path: True
+    assert restored.offer_recovery()
+    assert restored.document.study.equation.b == "0.2"
+    assert restored.document.is_dirty and restored.document.path is None
+    # Declining removes the file.
+    declined = make_window(tricomi_study())
+    declined.ask_restore = lambda path: False
+    assert not declined.offer_recovery()
+    assert not recovery.exists()
+
+
+def test_exports_hold_the_expected_data(make_window, tmp_path):
+    window = make_window(tricomi_study())
+    window.document.add_pin(0.5, -1.0, "low")
+    window.document.add_pin(0.5, 1.0, "high")
+    window.document.add_seed(SeedLine(start=(0.0, -1.0)))
+    window.analysis.flush()
+
+    for suffix, magic in ((".png", b"\x89PNG"), (".svg", b"<?xml"), (".pdf", b"%PDF")):
+        written = window.export_picture(tmp_path / f"map{suffix}")
+        assert written.read_bytes()[:4] == magic[:4]
+    svg = (tmp_path / "map.svg").read_text(encoding="utf-8")
+    assert "<svg" in svg and "elliptic" in svg and "Tricomi" in svg
+
+    # Type-change line of y u_xx + u_yy: the x axis, y = 0 (closed form).
+    assert window.export_table("lines", tmp_path / "lines.csv") > 0
+    with open(tmp_path / "lines.csv", newline="", encoding="utf-8") as handle:
+        rows = list(csv.DictReader(handle))
+    assert rows and all(abs(float(r["y"])) < 1e-6 for r in rows)
+    assert {r["left_type"] for r in rows} | {r["right_type"] for r in rows} == {"elliptic", "hyperbolic"}
+
+    count = window.export_table("characteristics", tmp_path / "characteristics.csv")
+    curves = [c for t in window.analysis.traced for c in t.curves]
+    assert count == sum(len(c.points) for c in curves)
+
+    window.export_table("pins", tmp_path / "pins.csv")
+    with open(tmp_path / "pins.csv", newline="", encoding="utf-8") as handle:
+        pins = list(csv.DictReader(handle))
+    compiled = compile_equation(window.document.study.equation)
+    assert [p["label"] for p in pins] == ["low", "high"]
+    for row in pins:
+        reference = probe_point(compiled, float(row["x"]), float(row["y"]))
+        assert float(row["discriminant"]) == pytest.approx(reference.discriminant)
+        assert row["type"] == reference.type.label
+
+    window.export_json(tmp_path / "all.json")
+    data = json.loads((tmp_path / "all.json").read_text(encoding="utf-8"))
+    assert data["equation"]["a"] == "y"
+    assert data["type_map"]["fractions"] == pytest.approx(dict(window.analysis.type_map.fractions))
+    codes = np.array(data["type_map"]["codes"])
+    assert codes.shape == (81, 81) and codes[0, 0] == TypeCode.HYPERBOLIC
+    assert len(data["characteristics"]) == 2 and len(data["pins"]) == 2
+
+
+def test_headless_render_of_a_project_file(make_window, tmp_path):
+    from PySide6.QtGui import QImage
+
+    from gui.render import render_project
+
+    window = make_window(tricomi_study())
+    path = tmp_path / "tricomi.mixtype.json"
+    assert window.save_to(path)
+    render_project(path, tmp_path / "map.png", size=(800, 600))
+    render_project(path, tmp_path / "window.png", whole_window=True, size=(1200, 800))
+    picture = QImage(str(tmp_path / "map.png"))
+    assert picture.width() >= 700 and picture.height() >= 500
+    assert QImage(str(tmp_path / "window.png")).width() == 1200
