@@ -110,9 +110,9 @@ class StudyAnalysis(QObject):
                 getattr(self, f"_request_{what}")(compiled)
 
     def end_drag(self) -> None:
-        """After a slider drag: recompute the lines with full refinement."""
+        """After a slider drag: the lines of the final map (they were hidden during the drag)."""
         self.dragging = False
-        if self.type_map is not None:
+        if self.type_map is not None and not self.runner.is_busy("map"):
             self._request_lines(self.type_map)
 
     def _inputs(self):
@@ -133,15 +133,22 @@ class StudyAnalysis(QObject):
         compiled = self.document.compiled
         if boundary is None or compiled is None:
             return
-        refine = not self.dragging
+        if self.dragging:
+            # Lines cost about as much as the map itself: while a slider moves, the zones' own edges show
+            # the change and the stale lines are hidden; end_drag recomputes them once, refined.
+            self.runner.cancel("lines")
+            if self.boundaries is not None:
+                self.boundaries = None
+                self.lines_ready.emit(None)
+            return
+        refine = True
         parameters = dict(type_map.parameters)
 
         def work(cancel, progress):
             return boundary.find_type_boundaries(compiled, type_map, parameters=parameters, refine=refine,
                                                  cancel=cancel, progress=progress)
 
-        self.runner.request("lines", work, policy="queue" if self.dragging else "replace",
-                            label=_LABELS["lines"])
+        self.runner.request("lines", work, label=_LABELS["lines"])
 
     def _request_characteristics(self, compiled) -> None:
         seeds = self.document.study.seeds

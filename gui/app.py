@@ -50,6 +50,11 @@ def main(argv: list[str] | None = None) -> int:
 
     study, path = starting_study()
     window = MainWindow(study, path=path)
+    geometry, state = window.preferences.window_state()
+    if geometry is not None:
+        window.restoreGeometry(geometry)
+    if state is not None:
+        window.restoreState(state)
     window.show()
     if not window.offer_recovery() and arguments.file:
         window.open_path(arguments.file, ask=False)

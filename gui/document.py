@@ -244,6 +244,13 @@ class Document(QObject):
     def set_layers(self, layers: Layers) -> bool:
         return self.edit(replace(self._study, layers=layers), "Change layers")
 
+    def set_tolerance(self, tolerance: float) -> bool:
+        """The parabolic band: |D|/(b^2 + 4|ac|) at or below it counts as parabolic (dimensionless)."""
+        tolerance = float(tolerance)
+        if not 0.0 <= tolerance < 1.0:
+            raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance:g}")
+        return self.edit(replace(self._study, tolerance=tolerance), f"Parabolic tolerance {tolerance:g}")
+
     def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
         return self.edit(replace(self._study, notes=notes), "Edit notes", merge_key=merge_key)
 
@@ -263,7 +270,7 @@ class Document(QObject):
                 or [e.name for e in before.equations] != [e.name for e in after.equations] \
                 or [d.name for d in before.domains] != [d.name for d in after.domains]:
             self.equations_listed.emit()
-        if before.domain != after.domain:
+        if before.domain != after.domain or before.tolerance != after.tolerance:
             self.domain_changed.emit()
         if before.pins != after.pins:
             self.pins_changed.emit()

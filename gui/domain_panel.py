@@ -72,6 +72,12 @@ class DomainPanel(QWidget):
         self.node_labels = {"nx": QLabel("nodes across"), "ny": QLabel("nodes up")}
         form.addRow(self.node_labels["nx"], self.nodes["nx"])
         form.addRow(self.node_labels["ny"], self.nodes["ny"])
+        self.tolerance = QLineEdit()
+        self.tolerance.setObjectName("parabolic_tolerance")
+        self.tolerance.setToolTip("A node counts as parabolic when |D| / (b² + 4|ac|) is at or below this "
+                                  "dimensionless number (0 up to, not including, 1)")
+        self.tolerance.editingFinished.connect(self._apply_tolerance)
+        form.addRow("parabolic band", self.tolerance)
         self.error = QLabel()
         self.error.setStyleSheet("color: #B00020;")
         self.error.setWordWrap(True)
@@ -102,6 +108,7 @@ class DomainPanel(QWidget):
                 edit.setText(f"{getattr(domain, key):.10g}")
             self.nodes["nx"].setValue(domain.nx)
             self.nodes["ny"].setValue(domain.ny)
+            self.tolerance.setText(f"{study.tolerance:g}")
             self.error.setVisible(False)
         finally:
             self._updating = False
@@ -137,6 +144,17 @@ class DomainPanel(QWidget):
             return
         self.error.setVisible(False)
         self.document.set_domain(domain)
+
+    def _apply_tolerance(self) -> None:
+        if self._updating:
+            return
+        try:
+            self.document.set_tolerance(float(self.tolerance.text()))
+        except ValueError as error:
+            self.error.setText(f"parabolic band: {error}")
+            self.error.setVisible(True)
+            return
+        self.error.setVisible(False)
 
     def _duplicate(self) -> None:
         domain = self.document.study.domain

@@ -140,13 +140,19 @@ class JobRunner(QObject):
 
     def _execute(self, job: _Job) -> None:
         status, payload = self._call(job, self._threaded_progress(job))
-        self._relay_done.emit(job.channel, job.number, status, payload)
+        try:
+            self._relay_done.emit(job.channel, job.number, status, payload)
+        except RuntimeError:  # the runner was deleted (window closed) while the job ran: nobody to tell
+            pass
 
     def _threaded_progress(self, job: _Job) -> Callable[[float], None]:
         def report(fraction: float) -> None:
             if fraction - job.last_progress >= 0.01 or fraction >= 1.0:
                 job.last_progress = fraction
-                self._relay_progress.emit(job.channel, job.number, float(fraction))
+                try:
+                    self._relay_progress.emit(job.channel, job.number, float(fraction))
+                except RuntimeError:  # the runner is gone
+                    pass
         return report
 
     @staticmethod

@@ -259,11 +259,13 @@ class MapView(QWidget):
 
         entries = []
         for code in (TypeCode.ELLIPTIC, TypeCode.HYPERBOLIC, TypeCode.PARABOLIC, TypeCode.UNDEFINED):
-            share = "" if fractions is None else f" {100.0 * float(fractions[code.label]):.1f}&nbsp;%"
+            share = "" if fractions is None else f"&nbsp;{100.0 * float(fractions[code.label]):.1f}&nbsp;%"
             entries.append(f"{swatch(TYPE_COLOURS[code])}&nbsp;{code.label}{share}")
-        entries.append(f"<span style='color:{TYPE_LINE_COLOUR}'><b>&#9473;&#9473;</b></span>&nbsp;type change")
-        entries.append(f"<span style='color:{FAMILY_COLOURS[1]}'><b>&#9473;&#9473;</b></span>&nbsp;family 1")
-        entries.append(f"<span style='color:{FAMILY_COLOURS[2]}'><b>&#9476;&#9476;</b></span>&nbsp;family 2")
+        entries.append(f"<span style='color:{TYPE_LINE_COLOUR}'><b>&#9473;&#9473;</b></span>&nbsp;type&nbsp;change")
+        entries.append(f"<span style='color:{FAMILY_COLOURS[1]}'><b>&#9473;&#9473;</b></span>"
+                       "&nbsp;characteristics&nbsp;1")
+        entries.append(f"<span style='color:{FAMILY_COLOURS[2]}'><b>&#9476;&#9476;</b></span>"
+                       "&nbsp;characteristics&nbsp;2")
         entries.append(f"<span style='color:{PIN_COLOUR}; font-size:13pt'>&#9679;</span>&nbsp;pin")
         note = " &nbsp;<span style='color:#555'>(% = share of grid nodes)</span>" if fractions is not None else ""
         self.legend.setText("&nbsp;&nbsp; ".join(entries) + note)
