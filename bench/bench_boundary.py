@@ -1,0 +1,66 @@
+"""Cost and accuracy of refining type-change lines onto D = 0, on the unit-circle case.
+
+u_xx - 2x u_xy + (1 - y^2) u_yy = 0 has D = 4(x^2 + y^2 - 1) (algebra, common practice), so the exact line is
+the unit circle. Measures the largest radius error of the raw contour and of the refined curve (as a fraction
+of the domain diagonal) and the extra time refinement adds to raw contouring. Targets: refined error
+<= 1e-12 of the domain size, at <= 20 % extra time. Run by hand: ``python -m bench.bench_boundary``.
+"""
+
+from __future__ import annotations
+
+import json
+import time
+
+import numpy as np
+
+from core.boundary import find_type_boundaries
+from core.classify import classify_grid
+from core.domain import Domain
+from core.equation import Equation, compile_equation
+
+NODES = 1024
+REPEATS = 15
+
+
+def _interleaved_best_times(first, second, repeats: int = REPEATS) -> tuple[float, float, object, object]:
+    """Best of ``repeats`` timings of two calls, alternated so that load on the machine hits both alike."""
+    best = [float("inf"), float("inf")]
+    results: list[object] = [None, None]
+    for _ in range(repeats):
+        for k, function in enumerate((first, second)):
+            start = time.perf_counter()
+            results[k] = function()
+            best[k] = min(best[k], time.perf_counter() - start)
+    return best[0], best[1], results[0], results[1]
+
+
+def _radius_error(curves, attribute: str) -> float:
+    points = np.concatenate([getattr(curve, attribute) for curve in curves])
+    return float(np.max(np.abs(np.hypot(points[:, 0], points[:, 1]) - 1.0)))
+
+
+def run(nodes: int = NODES) -> dict:
+    """Measure on a nodes x nodes grid over [-2, 2]^2; returns the figures as a dict."""
+    domain = Domain(-2.0, 2.0, -2.0, 2.0, nodes, nodes)
+    compiled = compile_equation(Equation(a="1", b="-2*x", c="1 - y**2"))
+    type_map = classify_grid(compiled, domain)
+    find_type_boundaries(compiled, type_map)                       # warm up imports and caches
+    raw_time, refined_time, raw, refined = _interleaved_best_times(
+        lambda: find_type_boundaries(compiled, type_map, refine=False),
+        lambda: find_type_boundaries(compiled, type_map, refine=True))
+    return {
+        "grid": f"{nodes}x{nodes}",
+        "curves": len(refined.curves),
+        "vertices": int(sum(len(curve.points) for curve in refined.curves)),
+        "unrefined_vertices": refined.unrefined,
+        "raw_max_radius_error_relative": _radius_error(raw.curves, "raw_points") / domain.size,
+        "refined_max_radius_error_relative": _radius_error(refined.curves, "points") / domain.size,
+        "raw_contouring_seconds": raw_time,
+        "contouring_and_refinement_seconds": refined_time,
+        "extra_time_ratio": refined_time / raw_time - 1.0,
+        "targets": {"refined_max_radius_error_relative": 1e-12, "extra_time_ratio": 0.20},
+    }
+
+
+if __name__ == "__main__":
+    print(json.dumps(run(), indent=2))

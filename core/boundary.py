@@ -1,0 +1,568 @@
+"""Type-change lines of a classified grid, refined onto the exact zero set of the discriminant.
+
+The lines bound the hyperbolic set. They are the level 0 of the field F = D/S with parabolic nodes set to
+exactly 0 and undefined nodes masked, contoured with contourpy, which counts a node as above the level only
+when F > 0: a field that is zero to rounding gives no contour at all. Every marching-squares vertex lies on a
+grid edge; it is then moved along that edge onto the zero of D by a bracketed root search run on all vertices
+at once, which turns the O(h^2) error of linear interpolation into one of a few units of rounding.
+Zones where D vanishes on an area (grid cells whose four corners are parabolic) are regions, not lines.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from itertools import pairwise
+
+import contourpy
+import numpy as np
+from scipy import ndimage
+
+from core.classify import TypeCode, TypeMap
+from core.equation import CompiledEquation, QuantitySource
+from core.progress import CancelCheck, Cancelled, ProgressReport
+
+__all__ = [
+    "DEFAULT_RELATIVE_XTOL",
+    "ParabolicRegion",
+    "TypeBoundaries",
+    "TypeChangeCurve",
+    "find_type_boundaries",
+    "refine_onto_zero_set",
+]
+
+DEFAULT_RELATIVE_XTOL = 1e-13       # root position tolerance, as a fraction of the domain (segment box) size
+_ON_LINE_TOLERANCE = 1e-9           # a vertex this close to a grid line (in grid spacings) lies on it
+_MAX_ITERATIONS = 200
+_FLOAT32_SMALLEST = 1e-30           # tolerances above this survive float32 storage with their sign
+_KIND_OFF, _KIND_NODE, _KIND_X_EDGE, _KIND_Y_EDGE = 0, 1, 2, 3   # X_EDGE: along x, at a node row
+_NEIGHBOURS = ((0, 1), (0, -1), (1, 0), (-1, 0))                   # (dj, di)
+
+DiscriminantFunction = Callable[[np.ndarray, np.ndarray], np.ndarray]
+
+
+def _read_only(array: np.ndarray) -> np.ndarray:
+    array.flags.writeable = False
+    return array
+
+
+@dataclass(frozen=True, eq=False)
+class TypeChangeCurve:
+    """A polyline across which the equation changes type, the hyperbolic set on its left.
+
+    ``points`` (n, 2) are (x, y) vertices in domain units refined onto D = 0; ``raw_points`` (n, 2) the same
+    vertices as contoured, on grid edges. A closed curve repeats its first point at the end. ``left_type`` and
+    ``right_type`` are the types on either side looking along the polyline (right: elliptic, or parabolic
+    where the curve borders a parabolic region). ``unrefined`` counts vertices left at their raw position
+    (not on a grid edge, or D not of opposite signs at the ends of their edge).
+    """
+
+    points: np.ndarray
+    raw_points: np.ndarray
+    closed: bool
+    left_type: TypeCode
+    right_type: TypeCode
+    unrefined: int
+
+    @property
+    def length(self) -> float:
+        """Length of the refined polyline (domain units)."""
+        return float(np.sum(np.hypot(*np.diff(self.points, axis=0).T)))
+
+
+@dataclass(frozen=True, eq=False)
+class ParabolicRegion:
+    """A connected set of grid cells on which D vanishes (all four corners of each cell parabolic).
+
+    ``outline`` (n, 2) is its outer boundary, a closed counter-clockwise loop along cell edges (first point
+    repeated at the end); ``holes`` are the other boundary loops, clockwise. ``area`` is the total area of the
+    cells (domain units squared), an O(h) estimate of the true zone; ``cells`` their number.
+    """
+
+    outline: np.ndarray
+    area: float
+    holes: tuple[np.ndarray, ...] = ()
+    cells: int = 0
+
+
+@dataclass(frozen=True, eq=False)
+class TypeBoundaries:
+    """Everything ``find_type_boundaries`` found: curves, parabolic regions, and how it refined them."""
+
+    curves: tuple[TypeChangeCurve, ...]
+    parabolic_regions: tuple[ParabolicRegion, ...]
+    refined: bool
+    xtol: float = 0.0
+
+    @property
+    def unrefined(self) -> int:
+        """Vertices of all curves left at their raw position."""
+        return sum(curve.unrefined for curve in self.curves)
+
+
+def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
+                         parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
+                         refine: bool = True, xtol: float | None = None, cancel: CancelCheck | None = None,
+                         progress: ProgressReport | None = None) -> TypeBoundaries:
+    """Curves bounding the hyperbolic set of ``type_map`` and the zones where D vanishes on an area.
+
+    ``parameters`` default to those the map was computed with. With ``refine`` each curve vertex is moved
+    along its grid edge onto D = 0 to within ``xtol`` (domain units; default DEFAULT_RELATIVE_XTOL times the
+    domain diagonal). Curve pieces whose non-hyperbolic side is undefined (the edge of the valid zone) or
+    hyperbolic again (D touching zero without changing sign) are not type changes and are left out.
+    """
+    codes, x, y = _checked_map(type_map)
+    parameters = type_map.parameters if parameters is None else parameters
+    if xtol is None:
+        xtol = DEFAULT_RELATIVE_XTOL * type_map.domain.size
+    if not (np.isfinite(xtol) and xtol > 0):
+        raise ValueError(f"xtol must be a positive number, got {xtol}")
+    _poll(cancel)
+    region_cells = _parabolic_cells(codes)
+    field = _contour_field(type_map)
+    generator = contourpy.contour_generator(x, y, field, name="serial", line_type="SeparateCode",
+                                            corner_mask=False, quad_as_tri=False, chunk_size=0)
+    lines, line_codes = generator.lines(0.0)
+    del field, generator
+    _report(progress, 0.4)
+    _poll(cancel)
+
+    loops = [bool(len(c) > 2 and c[-1] == 79) for c in line_codes]   # 79: CLOSEPOLY, last point = first
+    lines = [line[:-1] if closed else line for line, closed in zip(lines, loops)]
+    raw = np.concatenate(lines) if lines else np.empty((0, 2))
+    located = _locate(raw, x, y)
+    side, toward_hyperbolic = _sides(codes, x, y, located, region_cells)
+    pieces = _split(np.cumsum([0] + [len(line) for line in lines]), loops, side)
+    _report(progress, 0.5)
+
+    points, refined_ok = raw.copy(), np.zeros(len(raw), dtype=bool)
+    if refine and pieces:
+        used = np.unique(np.concatenate([indices for indices, _, _ in pieces]))
+        discriminant = _discriminant_function(compiled, parameters, data)
+        points[used], refined_ok[used] = _refine_vertices(discriminant, raw[used], x, y,
+                                                          located[:, used], xtol, cancel)
+    _report(progress, 0.9)
+
+    curves = []
+    for indices, closed, right in pieces:
+        if _left_turn_sum(raw, toward_hyperbolic, indices, closed) < 0:
+            indices = indices[::-1]
+        unrefined = len(indices) - int(np.count_nonzero(refined_ok[indices]))
+        if closed:
+            indices = np.append(indices, indices[0])
+        curves.append(TypeChangeCurve(
+            points=_read_only(points[indices]), raw_points=_read_only(raw[indices]), closed=closed,
+            left_type=TypeCode.HYPERBOLIC, right_type=TypeCode(right), unrefined=unrefined))
+    regions = _parabolic_regions(region_cells, x, y, cancel)
+    _report(progress, 1.0)
+    return TypeBoundaries(curves=tuple(curves), parabolic_regions=regions, refined=bool(refine),
+                          xtol=float(xtol))
+
+
+def refine_onto_zero_set(compiled: CompiledEquation, start, end, *,
+                         parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
+                         xtol: float | None = None, cancel: CancelCheck | None = None) -> np.ndarray:
+    """The zero of D on each segment start -> end, all segments at once; shape (m, 2) like the inputs.
+
+    A bracketed search (regula falsi, Anderson-Bjorck variant, with a bisection safeguard) finds a point
+    within ``xtol`` (domain units; default DEFAULT_RELATIVE_XTOL times the diagonal of the box holding all
+    segments) of a sign change of D. Rows whose segment does not bracket one (D of equal signs or undefined
+    at its ends, or undefined during the search) are NaN: ``np.isnan(result[:, 0])`` marks them.
+    """
+    start = np.asarray(start, dtype=np.float64)
+    end = np.asarray(end, dtype=np.float64)
+    if start.ndim != 2 or start.shape[1] != 2 or start.shape != end.shape:
+        raise ValueError(f"start and end must both have shape (m, 2), got {start.shape} and {end.shape}")
+    if not (np.isfinite(start).all() and np.isfinite(end).all()):
+        raise ValueError("segment ends must be finite numbers")
+    if xtol is None:
+        both = np.concatenate([start, end])
+        extent = np.ptp(both, axis=0) if len(both) else np.zeros(2)
+        xtol = DEFAULT_RELATIVE_XTOL * max(float(np.hypot(*extent)), np.finfo(float).tiny)
+    if not (np.isfinite(xtol) and xtol > 0):
+        raise ValueError(f"xtol must be a positive number, got {xtol}")
+    discriminant = _discriminant_function(compiled, parameters, data)
+    roots, found = _find_roots(discriminant, start, end, xtol=float(xtol), cancel=cancel)
+    roots[~found] = np.nan
+    return roots
+
+
+# -- the field and the contour vertices ---------------------------------------------------------------------
+def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    x = np.asarray(type_map.x, dtype=np.float64)
+    y = np.asarray(type_map.y, dtype=np.float64)
+    codes = np.asarray(type_map.codes)
+    if codes.shape != (y.size, x.size) or np.shape(type_map.normalized) != codes.shape:
+        raise ValueError(f"type map codes {codes.shape} and normalized {np.shape(type_map.normalized)} must "
+                         f"both have shape (ny, nx) = {(y.size, x.size)}")
+    if x.size < 2 or y.size < 2 or not (np.diff(x) > 0).all() or not (np.diff(y) > 0).all():
+        raise ValueError(f"type map nodes must increase, with at least 2 in each direction; got {x.size} x "
+                         f"{y.size}")
+    return codes, x, y
+
+
+def _contour_field(type_map: TypeMap) -> np.ndarray:
+    """F (ny, nx) float64: D/S, exactly 0 where parabolic, NaN (masked by contourpy) where undefined.
+
+    Hyperbolic nodes must stay strictly above 0 and elliptic ones strictly below: with a tolerance below the
+    float32 range, storage may have rounded D/S to 0, so such maps are clamped (a pass skipped otherwise).
+    """
+    codes = type_map.codes
+    field = np.asarray(type_map.normalized, dtype=np.float64).copy()
+    field[codes == TypeCode.PARABOLIC] = 0.0
+    if type_map.fractions.get(TypeCode.UNDEFINED.label, 1.0) > 0:
+        field[codes == TypeCode.UNDEFINED] = np.nan
+    if type_map.tolerance < _FLOAT32_SMALLEST:
+        tiny = np.finfo(np.float64).tiny
+        np.maximum(field, tiny, out=field, where=codes == TypeCode.HYPERBOLIC)
+        np.minimum(field, -tiny, out=field, where=codes == TypeCode.ELLIPTIC)
+    return field
+
+
+def _grid_line(values: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """For coordinates along one axis: (nearest node, first node of the enclosing interval, on a node?)."""
+    upper = np.clip(np.searchsorted(nodes, values), 1, nodes.size - 1)
+    lower = upper - 1
+    nearest = np.where(values - nodes[lower] <= nodes[upper] - values, lower, upper)
+    on_node = np.abs(values - nodes[nearest]) <= _ON_LINE_TOLERANCE * (nodes[upper] - nodes[lower])
+    return nearest, lower, on_node
+
+
+def _locate(points: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Grid position of each vertex (n, 2) as int rows (kind, j0, i0, j1, i1): shape (5, n).
+
+    kind is _KIND_NODE (both ends = the node), _KIND_X_EDGE or _KIND_Y_EDGE (ends of the edge, in increasing
+    order) or _KIND_OFF (on no grid line: cannot be refined).
+    """
+    i_near, i_low, on_column = _grid_line(points[:, 0], x)
+    j_near, j_low, on_row = _grid_line(points[:, 1], y)
+    kind = np.full(len(points), _KIND_OFF)
+    kind[on_row & ~on_column] = _KIND_X_EDGE
+    kind[on_column & ~on_row] = _KIND_Y_EDGE
+    kind[on_row & on_column] = _KIND_NODE
+    j0 = np.where(on_row, j_near, j_low)
+    i0 = np.where(on_column, i_near, i_low)
+    j1 = j0 + (kind == _KIND_Y_EDGE)
+    i1 = i0 + (kind == _KIND_X_EDGE)
+    return np.stack([kind, j0, i0, j1, i1])
+
+
+def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray, region_cells: np.ndarray
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """The type on the non-hyperbolic side of each vertex, and vectors (n, 2) toward the hyperbolic side.
+
+    An edge vertex's non-hyperbolic node decides; a parabolic node is PARABOLIC in a parabolic region, else
+    takes the type beyond it: ELLIPTIC if a neighbour is elliptic, else UNDEFINED if one is undefined, else
+    HYPERBOLIC (D touching zero). Off-grid vertices get -1 and are treated like their neighbours in the line.
+    """
+    kind, j0, i0, j1, i1 = located
+    hyperbolic_first = codes[j0, i0] == TypeCode.HYPERBOLIC
+    pj, pi = np.where(hyperbolic_first, j1, j0), np.where(hyperbolic_first, i1, i0)
+    side = codes[pj, pi].astype(np.int64)
+    padded = np.pad(codes, 1, constant_values=TypeCode.PARABOLIC)
+    neighbour = np.stack([padded[pj + 1 + dj, pi + 1 + di] for dj, di in _NEIGHBOURS])
+    parabolic = side == TypeCode.PARABOLIC
+    beyond = np.where((neighbour == TypeCode.ELLIPTIC).any(axis=0), TypeCode.ELLIPTIC,
+                      np.where((neighbour == TypeCode.UNDEFINED).any(axis=0), TypeCode.UNDEFINED,
+                               TypeCode.HYPERBOLIC))
+    cells = np.pad(region_cells, 1)
+    in_region = cells[pj, pi] | cells[pj + 1, pi] | cells[pj, pi + 1] | cells[pj + 1, pi + 1]
+    side[parabolic] = np.where(in_region, TypeCode.PARABOLIC, beyond)[parabolic]
+    side[kind == _KIND_OFF] = -1
+
+    dx, dy = np.mean(np.diff(x)), np.mean(np.diff(y))
+    toward = np.zeros((len(kind), 2))
+    for k, (dj, di) in enumerate(_NEIGHBOURS):
+        hit = neighbour[k] == TypeCode.HYPERBOLIC
+        toward[:, 0] += hit * di * dx
+        toward[:, 1] += hit * dj * dy
+    edge = (kind == _KIND_X_EDGE) | (kind == _KIND_Y_EDGE)
+    sign = np.where(hyperbolic_first, -1.0, 1.0)
+    toward[edge, 0] = (sign * (x[i1] - x[i0]))[edge]
+    toward[edge, 1] = (sign * (y[j1] - y[j0]))[edge]
+    return side, toward
+
+
+def _split(offsets: np.ndarray, closed: list[bool], side: np.ndarray
+           ) -> list[tuple[np.ndarray, bool, int]]:
+    """Pieces (vertex indices, closed, non-hyperbolic side type) of constant side type, type changes only.
+
+    Runs on ELLIPTIC or PARABOLIC sides are kept, neighbouring kept runs share their junction vertex; runs
+    on UNDEFINED or HYPERBOLIC sides are dropped; off-grid vertices (-1) join the run before them.
+    """
+    keep = (TypeCode.ELLIPTIC, TypeCode.PARABOLIC)
+    pieces = []
+    for start, stop, is_closed in zip(offsets[:-1], offsets[1:], closed):
+        labels = _fill_unknown(side[start:stop])
+        indices = np.arange(start, stop)
+        if (labels == labels[0]).all():
+            if labels[0] in keep and len(indices) >= 2:
+                pieces.append((indices, is_closed, int(labels[0])))
+            continue
+        change = np.flatnonzero(labels[1:] != labels[:-1]) + 1
+        if is_closed:                               # start at a change, wrap the last run round
+            labels, indices = np.roll(labels, -change[0]), np.roll(indices, -change[0])
+            change = change - change[0]
+        for first, last in pairwise(np.unique(np.concatenate([[0], change, [len(labels)]]))):
+            if labels[first] not in keep:
+                continue
+            following = last if last < len(labels) else (0 if is_closed else None)
+            run = indices[first:last]
+            if following is not None and labels[following] in keep:
+                run = np.append(run, indices[following])
+            if len(run) >= 2:
+                pieces.append((run, False, int(labels[first])))
+    return pieces
+
+
+def _fill_unknown(labels: np.ndarray) -> np.ndarray:
+    """Replace -1 labels by the nearest known label before them (after them at the start of the line)."""
+    known = labels >= 0
+    if known.all():
+        return labels
+    if not known.any():
+        return np.full_like(labels, TypeCode.ELLIPTIC)
+    source = np.where(known, np.arange(len(labels)), -1)
+    np.maximum.accumulate(source, out=source)
+    source[source < 0] = np.argmax(known)
+    return labels[source]
+
+
+def _left_turn_sum(points: np.ndarray, toward: np.ndarray, indices: np.ndarray, closed: bool) -> float:
+    """Positive when the hyperbolic side lies on the left of the polyline through points[indices]."""
+    p = points[indices]
+    if closed:
+        tangent = np.roll(p, -1, axis=0) - np.roll(p, 1, axis=0)
+    else:
+        tangent = np.gradient(p, axis=0)
+    h = toward[indices]
+    return float(np.sum(np.sign(tangent[:, 0] * h[:, 1] - tangent[:, 1] * h[:, 0])))
+
+
+# -- refinement -------------------------------------------------------------------------------------------
+def _discriminant_function(compiled: CompiledEquation, parameters: Mapping[str, float] | None,
+                           data: QuantitySource | None) -> DiscriminantFunction:
+    """D/4 = (b/2)^2 - ac at points, the same formula classification uses; NaN where it is not finite."""
+    prepared = compiled.prepare(parameters)
+
+    def discriminant(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+        raw = compiled.evaluate_raw(x, y, data=data, prepared=prepared)
+        with np.errstate(all="ignore"):
+            half_b = np.multiply(raw["b"], 0.5)
+            value = np.broadcast_to(half_b * half_b - raw["a"] * raw["c"], np.shape(x)).astype(np.float64)
+        value[~np.isfinite(value)] = np.nan
+        return value
+
+    return discriminant
+
+
+def _refine_vertices(discriminant: DiscriminantFunction, raw: np.ndarray, x: np.ndarray, y: np.ndarray,
+                     located: np.ndarray, xtol: float, cancel: CancelCheck | None
+                     ) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices (n, 2) moved onto D = 0 along their grid edge, and which of them were (bool (n,)).
+
+    An edge vertex is searched between the edge's two nodes. A vertex on a node is exact if D is 0 there;
+    otherwise the nearest root on the four half-edges leaving the node is taken. D is evaluated once per
+    grid node involved.
+    """
+    kind, j0, i0, j1, i1 = located
+    points, ok = raw.copy(), np.zeros(len(raw), dtype=bool)
+    edge = np.flatnonzero((kind == _KIND_X_EDGE) | (kind == _KIND_Y_EDGE))
+    node = np.flatnonzero(kind == _KIND_NODE)
+    starts, ends, owners = [(j0[edge], i0[edge])], [(j1[edge], i1[edge])], [edge]
+    for dj, di in _NEIGHBOURS:
+        nj, ni = j0[node] + dj, i0[node] + di
+        inside = (nj >= 0) & (nj < y.size) & (ni >= 0) & (ni < x.size)
+        starts.append((j0[node[inside]], i0[node[inside]]))
+        ends.append((nj[inside], ni[inside]))
+        owners.append(node[inside])
+    start_id = np.concatenate([j * x.size + i for j, i in starts])
+    end_id = np.concatenate([j * x.size + i for j, i in ends])
+    owner = np.concatenate(owners)
+    unique, position = np.unique(np.concatenate([start_id, end_id, j0[node] * x.size + i0[node]]),
+                                 return_inverse=True)
+    at_unique = np.column_stack([x[unique % x.size], y[unique // x.size]])
+    value = discriminant(at_unique[:, 0], at_unique[:, 1])[position]
+    m = start_id.size
+    f_start, f_end, f_node = value[:m], value[m:2 * m], value[2 * m:]
+
+    exact = f_node == 0                               # a vertex on a node where D vanishes: nothing to do
+    points[node[exact]] = np.column_stack([x[i0[node[exact]]], y[j0[node[exact]]]])
+    ok[node[exact]] = True
+    search = ~np.isin(owner, node[exact])
+    start_id, end_id, owner, f_start, f_end = (v[search] for v in (start_id, end_id, owner, f_start, f_end))
+    start = np.column_stack([x[start_id % x.size], y[start_id // x.size]])
+    end = np.column_stack([x[end_id % x.size], y[end_id // x.size]])
+    roots, found = _find_roots(discriminant, start, end, xtol=xtol, cancel=cancel, f_start=f_start,
+                               f_end=f_end)
+    if found.any():
+        distance = np.hypot(*(roots - start).T)
+        candidates = np.flatnonzero(found)
+        order = candidates[np.lexsort((distance[candidates], owner[candidates]))]
+        owners_sorted, first = np.unique(owner[order], return_index=True)
+        points[owners_sorted], ok[owners_sorted] = roots[order[first]], True
+    return points, ok
+
+
+def _find_roots(discriminant: DiscriminantFunction, start: np.ndarray, end: np.ndarray, *, xtol: float,
+                cancel: CancelCheck | None = None, f_start: np.ndarray | None = None,
+                f_end: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Bracketed roots of D on segments (m, 2) -> (m, 2): points and a bool (m,) mask of brackets found.
+
+    Regula falsi (Anderson-Bjorck variant) in the segment parameter t in [0, 1]; after three steps that
+    together do not halve the bracket the next one bisects, so the bracket shrinks at least geometrically.
+    A step shorter than the tolerance is stretched to it (as in Brent's method). Stops when the bracket is
+    shorter than xtol (or a few units of rounding of the coordinates); returns its middle. ``f_start`` and
+    ``f_end`` are D at the ends when the caller already has them.
+    """
+    m = len(start)
+    delta = end - start
+    length = np.hypot(delta[:, 0], delta[:, 1])
+    if f_start is None:
+        f_start = discriminant(start[:, 0], start[:, 1]) if m else np.empty(0)
+    if f_end is None:
+        f_end = discriminant(end[:, 0], end[:, 1]) if m else np.empty(0)
+    finite = np.isfinite(f_start) & np.isfinite(f_end)
+    found = finite & ((f_start == 0) | (f_end == 0) | (np.signbit(f_start) != np.signbit(f_end)))
+    t_root = np.where(f_start == 0, 0.0, 1.0)
+    resolution = 8 * np.finfo(float).eps * np.maximum(np.abs(start), np.abs(end)).max(axis=1, initial=0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        width_limit = np.maximum(xtol, resolution) / length
+    active = np.flatnonzero(found & (f_start != 0) & (f_end != 0))
+    a, b = np.zeros(active.size), np.ones(active.size)
+    fa, fb = f_start[active], f_end[active]
+    reference, stalled = np.ones(active.size), np.zeros(active.size, dtype=np.int64)
+    for _ in range(_MAX_ITERATIONS):
+        width = np.abs(b - a)
+        limit = width_limit[active]
+        done = width <= limit
+        if done.any():
+            t_root[active[done]] = 0.5 * (a[done] + b[done])
+            keep = ~done
+            active, a, b, fa, fb, reference, stalled, width, limit = (
+                v[keep] for v in (active, a, b, fa, fb, reference, stalled, width, limit))
+        if active.size == 0:
+            break
+        _poll(cancel)
+        with np.errstate(all="ignore"):
+            secant = b - fb * (b - a) / (fb - fa)
+        inside = (secant > np.minimum(a, b)) & (secant < np.maximum(a, b))
+        bisect = ~inside | (stalled >= 3)
+        t = np.where(bisect, 0.5 * (a + b), secant)
+        # A step shorter than the tolerance is stretched to it, so the next sign change closes the bracket.
+        short = np.abs(t - b) < 0.5 * limit
+        t = np.where(short, b + np.copysign(0.5 * limit, a - b), t)
+        ft = discriminant(start[active, 0] + t * delta[active, 0], start[active, 1] + t * delta[active, 1])
+        lost, hit = np.isnan(ft), ft == 0
+        found[active[lost]] = False
+        t_root[active[hit]] = t[hit]
+        switch = np.signbit(ft) != np.signbit(fb)            # the root lies between t and b
+        # Anderson-Bjorck: scale the value at an end kept twice by 1 - f(t)/f(b) (by 1/2 if that is not > 0).
+        with np.errstate(all="ignore"):
+            scale = 1.0 - ft / fb
+        scale = np.where(scale > 0, scale, 0.5)
+        fa = np.where(switch, fb, np.where(bisect, fa, scale * fa))
+        a = np.where(switch, b, a)
+        b, fb = t, ft
+        halved = np.abs(b - a) <= 0.5 * reference
+        reference = np.where(halved | bisect, np.abs(b - a), reference)
+        stalled = np.where(halved | bisect, 0, stalled + 1)
+        keep = ~(lost | hit)
+        active, a, b, fa, fb, reference, stalled = (
+            v[keep] for v in (active, a, b, fa, fb, reference, stalled))
+    found[active] = False                                    # not converged: cannot happen with bisection
+    roots = start + t_root[:, np.newaxis] * delta
+    roots[t_root == 1.0] = end[t_root == 1.0]
+    return roots, found
+
+
+# -- parabolic regions -------------------------------------------------------------------------------------
+def _parabolic_cells(codes: np.ndarray) -> np.ndarray:
+    """Cells (ny-1, nx-1) whose four corners are parabolic."""
+    p = codes == TypeCode.PARABOLIC
+    return p[:-1, :-1] & p[1:, :-1] & p[:-1, 1:] & p[1:, 1:]
+
+
+def _parabolic_regions(cells: np.ndarray, x: np.ndarray, y: np.ndarray, cancel: CancelCheck | None
+                       ) -> tuple[ParabolicRegion, ...]:
+    """Edge-connected groups of parabolic cells, with their boundary loops and areas."""
+    if not cells.any():
+        return ()
+    labels, count = ndimage.label(cells)
+    cell_area = np.outer(np.diff(y), np.diff(x))
+    areas = np.bincount(labels.ravel(), weights=cell_area.ravel(), minlength=count + 1)
+    sizes = np.bincount(labels.ravel(), minlength=count + 1)
+    regions = []
+    for label, box in enumerate(ndimage.find_objects(labels), start=1):
+        _poll(cancel)
+        loops = _cell_boundary_loops(labels[box] == label)
+        coordinates = [np.column_stack([x[loop[:, 0] + box[1].start], y[loop[:, 1] + box[0].start]])
+                       for loop in loops]
+        signed = [_signed_area(loop) for loop in coordinates]
+        outer = int(np.argmax(signed))
+        holes = tuple(_read_only(c) for k, c in enumerate(coordinates) if k != outer)
+        regions.append(ParabolicRegion(outline=_read_only(coordinates[outer]), area=float(areas[label]),
+                                       holes=holes, cells=int(sizes[label])))
+    return tuple(regions)
+
+
+def _cell_boundary_loops(mask: np.ndarray) -> list[np.ndarray]:
+    """Closed loops of node indices (k, 2) as (i, j) around the True cells of mask (h, w), cells on the left.
+
+    Each boundary cell edge is directed so that its cell lies on its left; at a node where two loops touch
+    the walk turns left, so loops never cross. Collinear vertices are dropped; the first one is repeated last.
+    """
+    padded = np.pad(mask, 1)
+    inside = padded[1:-1, 1:-1]
+    starts, ends = [], []
+    for out, start, end in (
+            (~padded[:-2, 1:-1], (0, 0), (1, 0)),        # below is outside: bottom edge, going +x
+            (~padded[1:-1, 2:], (1, 0), (1, 1)),         # right edge, going +y
+            (~padded[2:, 1:-1], (1, 1), (0, 1)),         # top edge, going -x
+            (~padded[1:-1, :-2], (0, 1), (0, 0))):       # left edge, going -y
+        j, i = np.nonzero(inside & out)
+        starts.append(np.column_stack([i + start[0], j + start[1]]))
+        ends.append(np.column_stack([i + end[0], j + end[1]]))
+    start, end = np.concatenate(starts), np.concatenate(ends)
+    width = mask.shape[1] + 1
+    start_id, end_id = start[:, 1] * width + start[:, 0], end[:, 1] * width + end[:, 0]
+    order = np.argsort(start_id, kind="stable")
+    sorted_ids = start_id[order]
+    position = np.searchsorted(sorted_ids, end_id)
+    first = order[position]
+    second = order[np.minimum(position + 1, len(order) - 1)]
+    two_ways = (position + 1 < len(order)) & (sorted_ids[np.minimum(position + 1, len(order) - 1)] == end_id)
+    direction = end - start
+    turn = direction[:, 0] * direction[first, 1] - direction[:, 1] * direction[first, 0]
+    following = np.where(two_ways & (turn <= 0), second, first).tolist()
+
+    loops, used = [], np.zeros(len(start), dtype=bool)
+    for begin in range(len(start)):
+        if used[begin]:
+            continue
+        chain, edge = [], begin
+        while not used[edge]:
+            used[edge] = True
+            chain.append(edge)
+            edge = following[edge]
+        nodes = start[chain]
+        heading = direction[chain]
+        corner = np.any(heading != np.roll(heading, 1, axis=0), axis=1)
+        nodes = nodes[corner]
+        loops.append(np.concatenate([nodes, nodes[:1]]))
+    return loops
+
+
+def _signed_area(loop: np.ndarray) -> float:
+    """Shoelace area of a closed loop (first point repeated): positive when counter-clockwise."""
+    return 0.5 * float(np.sum(loop[:-1, 0] * loop[1:, 1] - loop[1:, 0] * loop[:-1, 1]))
+
+
+def _poll(cancel: CancelCheck | None) -> None:
+    if cancel is not None and cancel():
+        raise Cancelled("type-change lines cancelled")
+
+
+def _report(progress: ProgressReport | None, fraction: float) -> None:
+    if progress is not None:
+        progress(fraction)
