@@ -148,7 +148,11 @@ class Document(QObject):
         self._path = Path(path) if path is not None else None
         self.path_changed.emit(str(self._path) if self._path else "")
 
-    def mark_saved(self, path: Path | str) -> None:
+    def mark_saved(self, path: Path | str, written: Study | None = None) -> None:
+        """The study is now stored at ``path``; ``written`` (same content, metadata as stored) replaces it
+        without an undo step."""
+        if written is not None:
+            self._study = written
         self.set_path(path)
         self.undo_stack.setClean()
 

@@ -41,7 +41,7 @@ from gui.equation_panel import EquationPanel
 from gui.export import PICTURE_FILTER, export_picture
 from gui.jobs import JobRunner
 from gui.layers_panel import LayersPanel
-from gui.map_view import MapView
+from gui.map_view import MAX_STRETCH, MapView
 from gui.pins_panel import PinsPanel
 from gui.preferences import Preferences
 from gui.project_bridge import PROJECT_FILTER, StudyFileError, load_study, save_study, scratch_study
@@ -259,8 +259,12 @@ class MainWindow(QMainWindow):
             unit = f" {parameter.unit}" if parameter.unit else ""
             values.append(f"{name} = {parameter.value:.4g}{unit}")
         title = f"Type of “{equation.name}” on “{study.domain.name}”"
-        subtitle = (f"{study.domain.nx} × {study.domain.ny} grid nodes; parabolic when |D|/(b² + 4|ac|) ≤ "
-                    f"{study.tolerance:g}" + (f"; {', '.join(values)}" if values else ""))
+        domain = study.domain
+        ratio = (domain.ymax - domain.ymin) / (domain.xmax - domain.xmin)
+        scale = "" if 1 / MAX_STRETCH <= ratio <= MAX_STRETCH else \
+            "; axes not to scale (angles on screen are stretched, readouts are exact)"
+        subtitle = (f"{domain.nx} × {domain.ny} grid nodes; parabolic when |D|/(b² + 4|ac|) ≤ "
+                    f"{study.tolerance:g}" + (f"; {', '.join(values)}" if values else "") + scale)
         self.map_view.set_titles(title, subtitle)
 
     def _domain_shown(self) -> None:
@@ -422,8 +426,7 @@ class MainWindow(QMainWindow):
         except StudyFileError as error:
             self.report_error("Could not save the study", str(error))
             return False
-        self.document._study = written  # same content, metadata as written: not an edit
-        self.document.mark_saved(path)
+        self.document.mark_saved(path, written)
         self.preferences.add_recent_file(path)
         self.preferences.set_last_folder(str(Path(path).resolve().parent))
         self._refresh_recent_menu()

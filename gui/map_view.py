@@ -28,6 +28,7 @@ from gui.study import Layers, PinMark, SeedLine
 __all__ = ["MapView", "MapViewBox", "polyline_with_breaks"]
 
 PIN_GRAB_PIXELS = 9.0
+MAX_STRETCH = 4.0
 
 
 def polyline_with_breaks(polylines) -> tuple[np.ndarray, np.ndarray]:
@@ -95,6 +96,7 @@ class MapView(QWidget):
         self._pins: tuple[PinMark, ...] = ()
         self._layers = Layers()
         self._domain = None
+        self.to_scale = True
 
         self.title = QLabel("Type of the equation over the domain")
         self.title.setObjectName("mapTitle")
@@ -176,8 +178,12 @@ class MapView(QWidget):
         self.subtitle.setText(subtitle)
 
     def show_domain(self, domain, *, fit: bool = True) -> None:
-        """Place the image on ``domain`` and, with ``fit``, zoom to it."""
+        """Zoom to ``domain`` (with ``fit``). Axes are kept to scale, so that angles on screen are true
+        angles, unless the domain is more than MAX_STRETCH times longer one way than the other."""
         self._domain = domain
+        ratio = (domain.ymax - domain.ymin) / (domain.xmax - domain.xmin)
+        self.to_scale = 1.0 / MAX_STRETCH <= ratio <= MAX_STRETCH
+        self.view_box.setAspectLocked(self.to_scale, ratio=1.0)
         if fit:
             self.fit_domain()
 
