@@ -42,7 +42,7 @@ def _number(value, digits: int = 6) -> str:
         return str(value)
     if math.isnan(value):
         return "undefined"
-    return f"{value:.{digits}g}"
+    return f"{value + 0.0:.{digits}g}"  # + 0.0 turns -0.0 into 0.0
 
 
 def _numbers(values, digits: int = 5, unit: str = "") -> str:
