@@ -18,7 +18,8 @@ from datetime import datetime
 from pathlib import Path
 
 from core.project import PROJECT_SUFFIX, Project
-from core.project_codec import NonFiniteNumber, ProjectError, RepeatedKeys, project_from_dict, project_to_dict
+from core.project_checks import NonFiniteNumber, RepeatedKeys
+from core.project_codec import ProjectError, project_from_dict, project_to_dict
 from core.project_migrate import MigrationError
 from core.project_migrate import migrate as _migrate
 from core.project_schema import CURRENT_FORMAT_VERSION

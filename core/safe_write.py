@@ -96,8 +96,10 @@ def _keep_backup(target: Path, mode: int) -> None:
         except OSError:
             _write_new(temporary, target.read_bytes(), mode)
         os.replace(temporary, backup_path(target))
-        temporary = None
     finally:
+        # Also after a successful replace: when the backup already was a hard link to the target (a save
+        # killed just after making the backup), rename() of one link onto another of the same file does
+        # nothing and leaves the temporary name in place (POSIX rename).
         _discard(temporary)
 
 

@@ -20,7 +20,7 @@ def _shown(name):
 def test_the_default_demo_is_the_transonic_bump():
     assert demo_project_path() == demo_project_path("transonic_bump.mixtype.json")
     assert demo_project_path().name == "transonic_bump.mixtype.json"
-    assert set(demo_project_names()) == {"transonic_bump", "ocean_turning_depth", "tricomi"}
+    assert {"transonic_bump", "ocean_turning_depth", "tricomi"} <= set(demo_project_names())
     with pytest.raises(FileNotFoundError, match="no demo project named 'nothing'"):
         demo_project_path("nothing")
 

@@ -70,7 +70,7 @@ def test_a_fresh_process_killed_while_writing_leaves_a_complete_file(tmp_path):
         stray = set(_folder_names(folder)) - {target.name, backup_path(target).name}
         assert stray == {p.name for p in leftover_temporaries(target)}  # only the documented kind
     write_file_atomically(target, payloads[1])
-    assert _folder_names(folder) == sorted([target.name, backup_path(target).name])  # leftovers removed
+    assert _folder_names(folder) == sorted([target.name, backup_path(target).name]), _folder_names(folder)
     assert time.monotonic() - started < 15
 
 
@@ -110,6 +110,17 @@ def test_save_project_killed_at_random_moments_leaves_the_old_or_the_new_project
     save_project(versions[1], target, now=T0)
     assert _folder_names(tmp_path) == sorted([target.name, backup_path(target).name])
     assert time.monotonic() - started < 15
+
+
+@posix_only
+def test_a_save_killed_right_after_its_backup_leaves_nothing_behind_next_time(tmp_path):
+    # the state such a kill leaves: the backup is a hard link to the target itself
+    target = tmp_path / "data.json"
+    target.write_bytes(b"current")
+    os.link(target, backup_path(target))
+    write_file_atomically(target, b"next")
+    assert target.read_bytes() == b"next" and backup_path(target).read_bytes() == b"current"
+    assert _folder_names(tmp_path) == ["data.json", "data.json.backup"]
 
 
 # -- failures leave the old file -----------------------------------------------------------------------

@@ -1,0 +1,316 @@
+"""The checks a project file's data must pass, each problem located by a JSON path.
+
+Three gates, in order (core.project_codec runs them): plain-JSON sanity (finite numbers, depth, no repeated
+keys, text UTF-8 can hold), the JSON Schema of core.project_schema (all structural errors at once, in short
+words that never quote a whole value), and the meaning the schema cannot express (expressions parse through
+the whitelist parser, definitions form no cycle, names are unique, ranges are ordered, the shown equation and
+domain exist). Each gate returns a list of (JSON path, message) pairs; empty means passed.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from collections.abc import Iterable, Mapping
+from datetime import datetime
+from functools import cache
+
+import jsonschema
+import sympy
+
+from core.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
+from core.expr import ExpressionError, parse_expression
+from core.project_schema import IDENTIFIER_PATTERN, TIMESTAMP_PATTERN, TITLE_PATTERN, project_schema
+
+__all__ = [
+    "MAX_JSON_DEPTH",
+    "NonFiniteNumber",
+    "RepeatedKeys",
+    "equation_from_dict",
+    "json_path",
+    "meaning_problems",
+    "sanity_problems",
+    "schema_problems",
+]
+
+MAX_JSON_DEPTH = 24
+_MAX_MESSAGE = 160
+_SIMPLE_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+
+
+class NonFiniteNumber:
+    """Stands in for NaN, Infinity or a number beyond double precision met while parsing JSON text."""
+
+    def __init__(self, text: str) -> None:
+        self.text = text if len(text) <= 24 else text[:20] + "..."
+
+
+class RepeatedKeys(dict):
+    """A JSON object in which some keys appeared more than once (``repeated`` names them)."""
+
+    repeated: tuple[str, ...] = ()
+
+
+def json_path(parts: Iterable[str | int]) -> str:
+    """'$.equations[1].coefficients.b' from ('equations', 1, 'coefficients', 'b')."""
+    text = "$"
+    for part in parts:
+        if isinstance(part, int):
+            text += f"[{part}]"
+        elif _SIMPLE_KEY.match(part):
+            text += f".{part}"
+        else:
+            text += f"[{json.dumps(_clip(part, 40), ensure_ascii=True)}]"
+    return text
+
+
+def _clip(text: str, limit: int = _MAX_MESSAGE) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+
+# -- reading: plain JSON sanity -----------------------------------------------------------------------------
+def _kind(value: object) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true/false"
+    if isinstance(value, int | float):
+        return "a number"
+    if isinstance(value, str):
+        return "text"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, Mapping):
+        return "an object"
+    return type(value).__name__
+
+
+def sanity_problems(data: object) -> list[tuple[str, str]]:
+    """Depth, repeated keys, non-finite numbers, text UTF-8 cannot hold, non-JSON values (iteratively)."""
+    problems: list[tuple[str, str]] = []
+    stack: list[tuple[object, tuple]] = [(data, ())]
+    while stack:
+        value, parts = stack.pop()
+        if len(parts) > MAX_JSON_DEPTH:
+            problems.append((json_path(parts), f"nested more than {MAX_JSON_DEPTH} levels deep"))
+            continue
+        if isinstance(value, Mapping):
+            for key in getattr(value, "repeated", ()):
+                problems.append((json_path(parts), f"the key {_clip(key, 40)!r} appears more than once"))
+            for key, item in value.items():
+                if not isinstance(key, str):
+                    problems.append((json_path(parts), f"keys must be text, got {_kind(key)}"))
+                    continue
+                if not _encodable(key):
+                    problems.append((json_path(parts), "a key holds a lone UTF-16 surrogate"))
+                    continue
+                stack.append((item, (*parts, key)))
+        elif isinstance(value, list | tuple):
+            stack.extend((item, (*parts, index)) for index, item in enumerate(value))
+        elif isinstance(value, NonFiniteNumber):
+            problems.append((json_path(parts), f"{value.text} is not a finite double-precision number"))
+        elif isinstance(value, float):
+            if not math.isfinite(value):
+                problems.append((json_path(parts), f"{value} is not a finite number"))
+        elif isinstance(value, int) and not isinstance(value, bool):
+            try:
+                float(value)
+            except OverflowError:
+                problems.append((json_path(parts), "an integer too large for double precision"))
+        elif isinstance(value, str):
+            if not _encodable(value):
+                problems.append((json_path(parts), "text holds a lone UTF-16 surrogate (not valid Unicode)"))
+        elif value is not None and not isinstance(value, bool):
+            problems.append((json_path(parts), f"{_kind(value)} is not a JSON value"))
+    return sorted(problems)
+
+
+def _encodable(text: str) -> bool:
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return False
+    return True
+
+
+# -- reading: schema -------------------------------------------------------------------------------------
+@cache
+def _validator() -> jsonschema.Draft202012Validator:
+    schema = project_schema()
+    jsonschema.Draft202012Validator.check_schema(schema)
+    return jsonschema.Draft202012Validator(schema)
+
+
+_PATTERN_TEXT = {
+    IDENTIFIER_PATTERN: "must start with a letter and hold only ASCII letters, digits and '_'",
+    TITLE_PATTERN: "must not be empty, start or end with white space, or hold control characters",
+    TIMESTAMP_PATTERN: "must be a UTC time written like 2024-03-05T14:07:09Z",
+}
+
+
+def _describe(error: jsonschema.ValidationError) -> str:
+    """A short message for one schema error; never quotes a whole (possibly huge) value."""
+    kind, expected, instance = error.validator, error.validator_value, error.instance
+    if kind == "type":
+        names = {"string": "text", "number": "a number", "integer": "a whole number", "boolean": "true or false",
+                 "array": "a list", "object": "an object", "null": "null"}
+        if isinstance(instance, float) and expected == "integer":
+            return f"must be a whole number, not {instance!r}"
+        return f"must be {names.get(expected, expected)}, not {_kind(instance)}"
+    if kind == "required":
+        missing = [name for name in expected if isinstance(instance, Mapping) and name not in instance]
+        return f"the field {missing[0]!r} is missing" if missing else "a required field is missing"
+    if kind == "additionalProperties" and expected is False:
+        known = set(error.schema.get("properties", {}))
+        extra = sorted(k for k in instance if k not in known) if isinstance(instance, Mapping) else []
+        names = ", ".join(repr(_clip(k, 40)) for k in extra[:5])
+        return f"unknown field{'s' * (len(extra) != 1)} {names} (fields allowed: {', '.join(sorted(known))})"
+    if kind == "const":
+        return f"must be {json.dumps(expected)}" + (f", not {_clip(repr(instance), 40)}"
+                                                     if isinstance(instance, int | float | str) else "")
+    if kind == "enum":
+        return f"must be one of {', '.join(json.dumps(v) for v in expected)}"
+    if kind == "pattern":
+        return _PATTERN_TEXT.get(expected, f"must match the pattern {expected}")
+    if kind == "maxLength":
+        return f"is longer than {expected} characters"
+    if kind == "minLength":
+        return "must not be empty"
+    if kind in ("minItems", "maxItems"):
+        if error.schema.get("minItems") == error.schema.get("maxItems") == len(error.schema.get("prefixItems", ())):
+            return f"must hold exactly {expected} items"
+        return f"must hold {'at least' if kind == 'minItems' else 'at most'} {expected} item" + "s" * (expected != 1)
+    if kind == "items" and expected is False:
+        return f"must hold exactly {len(error.schema.get('prefixItems', []))} items"
+    if kind == "uniqueItems":
+        return "must not list the same item twice"
+    if kind == "maxProperties":
+        return f"must hold at most {expected} entries"
+    if kind == "not":
+        return "a single-point seed has no 'end' or 'curves' (use \"kind\": \"segment\")"
+    if kind in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
+        words = {"minimum": "at least", "maximum": "at most", "exclusiveMinimum": "more than",
+                 "exclusiveMaximum": "less than"}[kind]
+        return f"must be {words} {expected}, not {instance!r}"
+    return _clip(error.message)
+
+
+def schema_problems(data: object) -> list[tuple[str, str]]:
+    problems = []
+    for error in _validator().iter_errors(data):
+        if "propertyNames" in error.absolute_schema_path:  # a bad name: point at it, the value is fine
+            path = json_path([*error.absolute_path, str(error.instance)])
+            problems.append((path, "the name " + _describe(error)))
+        else:
+            problems.append((json_path(error.absolute_path), _describe(error)))
+    return _unique(problems)
+
+
+def _unique(problems: list[tuple[str, str]]) -> list[tuple[str, str]]:
+    seen, result = set(), []
+    for item in problems:
+        if item not in seen:
+            seen.add(item)
+            result.append(item)
+    return result
+
+
+# -- reading: meaning ------------------------------------------------------------------------------------
+def _equation_path(index: int, field: str) -> str:
+    base = ["equations", index]
+    if field in COEFFICIENT_NAMES:
+        return json_path([*base, "coefficients", field])
+    group, _, name = field.partition(".")
+    if group in ("definitions", "parameters") and name:
+        return json_path([*base, group, name])
+    if group in ("definitions", "parameters", "variables"):
+        return json_path([*base, group])
+    return json_path(base)
+
+
+def _expression_message(error: ExpressionError) -> str:
+    return (f"column {error.column}: " if error.column is not None else "") + error.message
+
+
+def _equation_problems(index: int, raw: Mapping) -> list[tuple[str, str]]:
+    problems = []
+    for name, p in raw["parameters"].items():
+        low, high, value = p.get("minimum"), p.get("maximum"), p["value"]
+        where = _equation_path(index, f"parameters.{name}")
+        if low is not None and high is not None and not low < high:
+            problems.append((where, f"the slider minimum {low!r} must be less than its maximum {high!r}"))
+        elif (low is not None and value < low) or (high is not None and value > high):
+            problems.append((where, (f"the value {value!r} lies outside the slider range "
+                                    f"[{'' if low is None else repr(low)}, {'' if high is None else repr(high)}]")))
+    variables = raw["variables"]
+    names = [*variables, *raw["parameters"], *raw["definitions"]]
+    if len(set(names)) == len(names):
+        symbols = {n: sympy.Symbol(n, real=True) for n in names}
+        texts = [(f"definitions.{n}", t) for n, t in raw["definitions"].items()]
+        texts += [(k, raw["coefficients"][k]) for k in COEFFICIENT_NAMES]
+        for field, text in texts:
+            try:
+                parse_expression(text, symbols, variables=variables)
+            except ExpressionError as error:
+                problems.append((_equation_path(index, field), _expression_message(error)))
+    if not problems:
+        try:
+            compile_equation(equation_from_dict(raw))
+        except ExpressionError as error:
+            problems.append((_equation_path(index, error.field), _expression_message(error)))
+    return problems
+
+
+def _repeated_names(items: list, what: str, group: str) -> list[tuple[str, str]]:
+    first: dict[str, int] = {}
+    problems = []
+    for index, item in enumerate(items):
+        name = item["name"]
+        if name in first:
+            problems.append((json_path([group, index, "name"]),
+                             f"{what} {_clip(name, 40)!r} is already the name of {group}[{first[name]}]"))
+        else:
+            first[name] = index
+    return problems
+
+
+def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
+    problems = []
+    for field in ("created", "modified"):
+        try:
+            datetime.strptime(data["metadata"][field], "%Y-%m-%dT%H:%M:%SZ")
+        except ValueError:
+            problems.append((json_path(["metadata", field]), "is not a real date and time"))
+    problems += _repeated_names(data["equations"], "equation", "equations")
+    problems += _repeated_names(data["domains"], "domain", "domains")
+    for index, raw in enumerate(data["equations"]):
+        problems += _equation_problems(index, raw)
+    for index, raw in enumerate(data["domains"]):
+        for axis in ("x_range", "y_range"):
+            low, high = raw[axis]
+            if not low < high:
+                problems.append((json_path(["domains", index, axis]),
+                                 f"the minimum {low!r} must be less than the maximum {high!r}"))
+    for group, field in (("equations", "equation"), ("domains", "domain")):
+        names = [item["name"] for item in data[group]]
+        shown = data["shown"][field]
+        if shown not in names:
+            listed = ", ".join(repr(_clip(n, 40)) for n in names[:10])
+            problems.append((json_path(["shown", field]), (f"there is no {field} named {_clip(shown, 40)!r} "
+                                                          f"(the project has {listed})")))
+    return problems
+
+
+def equation_from_dict(raw: Mapping) -> Equation:
+    """The Equation of one schema-valid ``equations[i]`` entry (floats made float)."""
+    parameters = {name: Parameter(value=float(p["value"]),
+                                  minimum=None if p.get("minimum") is None else float(p["minimum"]),
+                                  maximum=None if p.get("maximum") is None else float(p["maximum"]),
+                                  unit=p["unit"], description=p["description"])
+                  for name, p in raw["parameters"].items()}
+    coefficients = raw["coefficients"]
+    return Equation(a=coefficients["a"], b=coefficients["b"], c=coefficients["c"],
+                    variables=tuple(raw["variables"]), definitions=dict(raw["definitions"]),
+                    parameters=parameters, name=raw["name"], description=raw["description"])
