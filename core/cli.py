@@ -482,6 +482,28 @@ def _open_window(argv: Sequence[str]) -> int:
     return window_main(list(argv))
 
 
+_EXPRESSION_OPTIONS = frozenset({"--a", "--b", "--c", "--let", "--param"})
+
+
+def _glue_expression_values(argv: list[str]) -> list[str]:
+    """Let an expression start with a minus sign: ``--b -2*x`` becomes ``--b=-2*x``.
+
+    (argparse would otherwise read ``-2*x`` as an unknown option.)
+    """
+    glued: list[str] = []
+    index = 0
+    while index < len(argv):
+        token = argv[index]
+        if token in _EXPRESSION_OPTIONS and index + 1 < len(argv) and argv[index + 1].startswith("-") \
+                and not argv[index + 1].startswith("--"):
+            glued.append(f"{token}={argv[index + 1]}")
+            index += 2
+            continue
+        glued.append(token)
+        index += 1
+    return glued
+
+
 def main(argv: Sequence[str] | None = None, *, out=None, err=None) -> int:
     """Entry point of the ``mixtype`` script; returns the exit status."""
     argv = list(sys.argv[1:] if argv is None else argv)
@@ -490,7 +512,7 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None) -> int:
     if not argv or (argv[0] not in _COMMANDS and not argv[0].startswith("-")):
         return _open_window(argv)
     try:
-        args = _build_parser().parse_args(argv)
+        args = _build_parser().parse_args(_glue_expression_values(argv))
         return _COMMANDS[args.command](args, out)
     except UsageError as error:
         for line in str(error).splitlines() or [""]:  # 'check' lists every problem, one per line
