@@ -70,7 +70,7 @@ class TypeCode(enum.IntEnum):
 
 
 def normalized_discriminant(a, b, c) -> np.ndarray:
-    """D / (b^2 + 4|ac|) in [-1, 1]; 0 where b = ac = 0 (D = 0 exactly); NaN where a coefficient is not finite.
+    """D / (b^2 + 4|ac|) in [-1, 1]; 0 where that scale is 0 (D = 0 exactly); NaN where a coefficient is not finite.
 
     a, b, c broadcast together; the result has their broadcast shape (float64).
     """
@@ -110,10 +110,9 @@ def _normalized_into(a, b, c, out: np.ndarray, scratch: _Scratch) -> None:
         np.divide(out, product, out=out)                # D/S
         undefined = np.isnan(out)
     if undefined.any():
-        # 0/0: b = 0 and ac = 0 exactly, so D = 0 exactly (an overflowing ac gives inf, not 0, and stays NaN).
-        with np.errstate(all="ignore"):
-            vanishing = undefined & (np.asarray(b) == 0) & (np.asarray(a) * np.asarray(c) == 0)
-        out[vanishing] = 0.0
+        # 0/0: the computed scale b^2/4 + |ac| is exactly 0, so the computed D/4 = b^2/4 - ac is 0 too (this also
+        # covers b^2 and ac underflowing). Non-finite coefficients make the scale NaN or inf, and stay NaN.
+        out[undefined & (product == 0)] = 0.0
 
 
 def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.ndarray) -> np.ndarray:
