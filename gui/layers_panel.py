@@ -34,7 +34,7 @@ _SAMPLE_COLOURS = {
 _TIPS = {
     "type_map": "Colour each grid node by the local type of the equation",
     "type_lines": "Draw the curves where the type changes (D = 0)",
-    "family_1": "Characteristics of family 1 (solid vermillion)",
+    "family_1": "Characteristics of family 1 (solid blue)",
     "family_2": "Characteristics of family 2 (dashed bluish green)",
     "pins": "Show pinned points and their labels",
     "seeds": "Show the segments that seeded characteristic nets",

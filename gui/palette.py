@@ -37,10 +37,10 @@ TYPE_DESCRIPTIONS: dict[TypeCode, str] = {
     TypeCode.UNDEFINED: "undefined: a coefficient is not a finite real number",
 }
 TYPE_LINE_COLOUR = "#111111"          # type-change lines drawn over the map
-FAMILY_COLOURS = {1: "#D55E00", 2: "#009E73"}   # vermillion, bluish green
+FAMILY_COLOURS = {1: "#0072B2", 2: "#009E73"}   # blue, bluish green: both stand out on the hyperbolic orange
 FAMILY_DASHES = {1: "solid", 2: "dash"}
 PIN_COLOUR = "#CC79A7"                # reddish purple
-SEGMENT_COLOUR = "#0072B2"            # blue: seed segments
+SEGMENT_COLOUR = "#CC79A7"            # reddish purple, dotted: seed segments are user marks, like pins
 
 
 def hex_to_rgba(colour: str, alpha: int = 255) -> tuple[int, int, int, int]:
