@@ -1,0 +1,198 @@
+"""NetCDF files with CF conventions: coordinate variables by name or ``axis``, data on (y, x) or one axis.
+
+A coordinate variable matches an equation variable by its name, or by its CF ``axis`` attribute when the
+variable is called x, y, z or t; a vertical coordinate matched by axis with ``positive = "down"`` (a depth)
+is negated so that the variable points up. Data variables on both coordinates' dimensions (in either
+order, extra dimensions of length 1 allowed) make a grid; on one coordinate's dimension, a profile. Masked
+(fill) values become NaN. Classic-format files are checked against the length their header describes,
+because the netCDF library reads past the end of a truncated classic file without complaint.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+from core.data_readers import DataError, RawData, checked_axis, float_array
+
+__all__ = ["read_netcdf"]
+
+# CF axis letters an equation variable of that name may be matched by
+_AXIS_LETTERS = {"x": "X", "y": "Y", "z": "Z", "t": "T"}
+
+
+def read_netcdf(path: str, variables: tuple[str, str]) -> RawData:
+    """Coordinate variables found by name or CF ``axis``; data variables on (y, x) or on one axis."""
+    import netCDF4
+
+    try:
+        with open(path, "rb") as handle:
+            header = handle.read(1 << 20)
+            size = handle.seek(0, os.SEEK_END)
+    except OSError as error:
+        raise DataError(f"{path}: cannot be read ({error.strerror or error})") from None
+    data_end = _classic_netcdf_data_end(header)
+    if data_end is not None and size < data_end:
+        raise DataError(f"{path}: the NetCDF file is truncated: {size} bytes where its header needs at "
+                        f"least {data_end}")
+    try:
+        dataset = netCDF4.Dataset(path, "r")
+    except (OSError, RuntimeError, ValueError) as error:
+        raise DataError(f"{path}: cannot be read as NetCDF (truncated or another format: {error})") from None
+    try:
+        return _netcdf_contents(dataset, path, variables)
+    except DataError:
+        raise
+    except (OSError, RuntimeError, ValueError, IndexError) as error:
+        raise DataError(f"{path}: cannot be read as NetCDF ({type(error).__name__}: {error})") from None
+    finally:
+        dataset.close()
+
+
+_CLASSIC_TYPE_SIZES = {1: 1, 2: 1, 3: 2, 4: 4, 5: 4, 6: 8, 7: 1, 8: 2, 9: 4, 10: 8, 11: 8}
+
+
+def _classic_netcdf_data_end(header: bytes) -> int | None:
+    """The byte offset where a classic NetCDF file's data end, from its header; None if not classic.
+
+    The netCDF library reads past the end of a truncated classic (CDF-1/2/5) file without complaint, so
+    the file's length is checked against this. Layout from the NetCDF Classic Format Specification.
+    """
+    if len(header) < 8 or header[:3] != b"CDF" or header[3] not in (1, 2, 5):
+        return None
+    version = header[3]
+    count_size = 8 if version == 5 else 4
+    offset_size = 4 if version == 1 else 8
+    position = 4
+
+    def number(size: int) -> int:
+        nonlocal position
+        if position + size > len(header):
+            raise EOFError
+        value = int.from_bytes(header[position:position + size], "big")
+        position += size
+        return value
+
+    def name() -> None:
+        nonlocal position
+        length = number(count_size)
+        position += (length + 3) // 4 * 4
+
+    def attributes() -> None:
+        nonlocal position
+        number(4)                                          # NC_ATTRIBUTE or ABSENT
+        for _ in range(number(count_size)):
+            name()
+            size = _CLASSIC_TYPE_SIZES.get(number(4), 1)
+            count = number(count_size)
+            position += (count * size + 3) // 4 * 4
+
+    try:
+        records = number(count_size)
+        number(4)                                          # NC_DIMENSION or ABSENT
+        lengths = []
+        for _ in range(number(count_size)):
+            name()
+            lengths.append(number(count_size))
+        attributes()
+        number(4)                                          # NC_VARIABLE or ABSENT
+        end, record_size, record_vars = 0, 0, []
+        for _ in range(number(count_size)):
+            name()
+            dims = [number(count_size) for _ in range(number(count_size))]
+            attributes()
+            number(4)                                      # the variable's type
+            size = number(count_size)
+            begin = number(offset_size)
+            if dims and dims[0] < len(lengths) and lengths[dims[0]] == 0:
+                record_size += size
+                record_vars.append((begin, size))
+            else:
+                end = max(end, begin + size)
+    except EOFError:
+        return len(header) + 1                             # the header itself is cut short
+    if records and records != (1 << (8 * count_size)) - 1:  # the maximum value marks a streaming file
+        for begin, size in record_vars:
+            end = max(end, begin + (records - 1) * record_size + size)
+    return end
+
+
+def _netcdf_coordinate(dataset, variable: str, path: str):
+    """(netCDF variable, how it was found) for the equation variable ``variable``, or None."""
+    candidates = dataset.variables
+    if variable in candidates and candidates[variable].ndim == 1:
+        return candidates[variable], "name"
+    letter = _AXIS_LETTERS.get(variable.lower())
+    if letter is None:
+        return None
+    matches = [v for v in candidates.values()
+               if v.ndim == 1 and str(getattr(v, "axis", "")).upper() == letter]
+    if len(matches) > 1:
+        raise DataError(f"{path}: several coordinate variables have axis = {letter!r} "
+                        f"({', '.join(v.name for v in matches)}); cannot tell which is {variable!r}")
+    return (matches[0], "axis") if matches else None
+
+
+def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
+    notes = []
+    found = {}
+    for variable in variables:
+        match = _netcdf_coordinate(dataset, variable, path)
+        if match is None:
+            continue
+        nc_variable, how = match
+        values = float_array(nc_variable[:], nc_variable.name, path)
+        positive = str(getattr(nc_variable, "positive", "")).lower()
+        if how == "axis" and positive == "down":
+            values = -values
+            notes.append(f"{variable} = -{nc_variable.name} ({nc_variable.name} is positive down; "
+                         f"{variable} points up)")
+        elif how == "axis":
+            notes.append(f"{variable} = {nc_variable.name} (axis {nc_variable.axis})")
+        coordinate, flipped = checked_axis(values, nc_variable.name, path)
+        found[variable] = (nc_variable, coordinate, flipped)
+    if not found:
+        names = ", ".join(dataset.variables) or "nothing"
+        raise DataError(f"{path}: missing variables: no coordinate variable named {variables[0]!r} or "
+                        f"{variables[1]!r} or with a matching CF axis attribute (the file holds {names})")
+    dims = {variable: item[0].dimensions[0] for variable, item in found.items()}
+    if len(found) == 2 and dims[variables[0]] == dims[variables[1]]:
+        raise DataError(f"{path}: coordinates {variables[0]!r} and {variables[1]!r} share the dimension "
+                        f"{dims[variables[0]]!r}; scattered NetCDF data are not supported")
+    order = [dims[v] for v in reversed(variables) if v in dims]          # (y, x) or (s,)
+    coordinate_names = {item[0].name for item in found.values()}
+    arrays, units, rejected = {}, {}, {}
+    for name, nc_variable in dataset.variables.items():
+        if name in coordinate_names or nc_variable.dimensions == (name,):
+            continue                                         # coordinates, of these axes or of others
+        kept = [d for d, n in zip(nc_variable.dimensions, nc_variable.shape, strict=True)
+                if d in order or n != 1]
+        if sorted(kept) != sorted(order):
+            rejected[name] = (f"variable {name!r} has dimensions {nc_variable.dimensions}; expected "
+                              f"{tuple(order)} (extra dimensions of length 1 are allowed)")
+            continue
+        if not isinstance(nc_variable.dtype, np.dtype) or nc_variable.dtype.kind not in "biuf":
+            rejected[name] = f"variable {name!r} does not hold numbers"
+            continue
+        values = float_array(nc_variable[:], name, path)
+        all_dims = list(nc_variable.dimensions)
+        axes = [all_dims.index(d) for d in order]
+        squeeze = tuple(k for k, d in enumerate(all_dims) if d not in order)
+        values = np.transpose(values, axes + list(squeeze)).reshape([values.shape[k] for k in axes])
+        for k, variable in enumerate(v for v in reversed(variables) if v in found):
+            if found[variable][2]:
+                values = np.flip(values, axis=k)
+        arrays[name] = np.ascontiguousarray(values)
+        unit = getattr(nc_variable, "units", "")
+        if unit:
+            units[name] = str(unit)
+    if len(found) == 2:
+        raw = RawData("netcdf", "grid", (found[variables[0]][1], found[variables[1]][1]), arrays)
+    else:
+        (variable,) = found
+        raw = RawData("netcdf", "profile", (found[variable][1],), arrays,
+                      profile_axis=variables.index(variable))
+        notes.append(f"a profile along {variable}, extended over {variables[1 - raw.profile_axis]}")
+    raw.units, raw.rejected, raw.notes = units, rejected, notes
+    return raw

@@ -1,0 +1,136 @@
+"""Connected hyperbolic pockets: labels, areas, boxes, centroids and peaks against closed forms."""
+
+import math
+
+import numpy as np
+import pytest
+
+from core.classify import TypeCode, classify_grid
+from core.data import DataSources, load_data
+from core.domain import Domain
+from core.equation import Equation, Parameter, compile_equation
+from core.pockets import label_pockets, node_areas, pocket_statistics
+from core.progress import Cancelled
+from core.templates import load_template
+
+
+def disc_equation():
+    """Hyperbolic inside the disc of radius r about (x0, y0): D = 4 (r^2 - distance^2).
+
+    The radius puts no grid node on the circle, where D would vanish to rounding.
+    """
+    return Equation("1", "0", "-lift", definitions={"lift": "r**2 - (x - x0)**2 - (y - y0)**2"},
+                    parameters={"r": Parameter(0.5031), "x0": Parameter(0.2), "y0": Parameter(-0.1)})
+
+
+def test_node_areas_sum_to_the_rectangle():
+    x = np.array([0.0, 0.1, 0.4, 1.0])
+    y = np.linspace(-2, 3, 7)
+    areas = node_areas(x, y)
+    assert areas.shape == (7, 4)
+    assert areas.sum() == pytest.approx(5.0)
+    assert areas[0, 0] == pytest.approx(0.05 * 5 / 6 / 2)
+
+
+@pytest.mark.parametrize("n", [101, 201])
+def test_disc_pocket_area_centroid_box_and_peak(n):
+    compiled = compile_equation(disc_equation())
+    domain = Domain(-1, 1, -1, 1, nx=n, ny=n)
+    type_map = classify_grid(compiled, domain)
+    (pocket,) = pocket_statistics(compiled, type_map, quantity="lift")
+    h = 2 / (n - 1)
+    assert pocket.type == TypeCode.HYPERBOLIC and pocket.label == 1
+    r = 0.5031
+    assert abs(pocket.area - math.pi * r * r) < 2 * math.pi * r * h          # within a node of the circle
+    assert pocket.centroid == pytest.approx((0.2, -0.1), abs=h / 4)
+    box = pocket.bounding_box
+    assert box[0] == pytest.approx(0.2 - r, abs=h) and box[1] == pytest.approx(0.2 + r, abs=h)
+    assert box[2] == pytest.approx(-0.1 - r, abs=h) and box[3] == pytest.approx(-0.1 + r, abs=h)
+    assert not pocket.touches_boundary
+    assert pocket.peak == pytest.approx(r * r) and pocket.peak_at == pytest.approx((0.2, -0.1))
+    assert pocket.node_count == type_map.count("hyperbolic")
+
+
+def test_half_plane_area_is_exact_on_the_grid():
+    # Tricomi: hyperbolic for y < 0; with a node row on y = 0 the trapezoid area below is 2 (1 - h/2)
+    compiled = compile_equation(load_template("tricomi").equation)
+    domain = Domain(-1, 1, -1, 1, nx=41, ny=41)
+    (pocket,) = pocket_statistics(compiled, classify_grid(compiled, domain))
+    assert pocket.area == pytest.approx(2 * (1 - 0.05 / 2))
+    assert pocket.touches_boundary
+    assert pocket.peak is None and pocket.quantity is None
+    elliptic = pocket_statistics(compiled, classify_grid(compiled, domain), code="elliptic")
+    assert elliptic[0].type == TypeCode.ELLIPTIC and elliptic[0].area == pytest.approx(pocket.area)
+
+
+def test_pockets_are_sorted_by_area_and_match_the_label_array():
+    equation = Equation("1", "0", "-max(big, small)",
+                        definitions={"big": "0.1681 - (x + 0.5)**2 - y**2", "small": "0.0441 - (x - 0.5)**2 - y**2"})
+    compiled = compile_equation(equation)
+    type_map = classify_grid(compiled, Domain(-1, 1, -1, 1, nx=81, ny=81))
+    pockets = pocket_statistics(compiled, type_map, quantity="big")
+    assert [p.label for p in pockets] == [1, 2]
+    assert pockets[0].area > pockets[1].area
+    assert pockets[0].centroid[0] == pytest.approx(-0.5, abs=0.01)
+    assert pockets[1].centroid[0] == pytest.approx(0.5, abs=0.01)
+    assert pockets[0].peak == pytest.approx(0.1681)
+    assert pockets[1].peak == pytest.approx(0.1681 - 0.8**2)       # "big" at the small pocket's node (0.3, 0)
+    assert pockets[1].peak_at == pytest.approx((0.3, 0.0))
+    labels, count = label_pockets(type_map)
+    assert count == 2
+    for pocket in pockets:
+        assert np.count_nonzero(labels == pocket.label) == pocket.node_count
+
+
+def test_diagonal_neighbours_join_only_with_eight_connectivity():
+    # hyperbolic in the first and third quadrants; an even node count puts no node on the axes
+    compiled = compile_equation(Equation("1", "0", "-x*y"))
+    type_map = classify_grid(compiled, Domain(-1, 1, -1, 1, nx=20, ny=20))
+    assert len(pocket_statistics(compiled, type_map)) == 1
+    assert len(pocket_statistics(compiled, type_map, connectivity=4)) == 2
+    with pytest.raises(ValueError, match="connectivity"):
+        pocket_statistics(compiled, type_map, connectivity=6)
+
+
+def test_supersonic_pocket_peak_mach_number_on_the_bump():
+    template = load_template("full_potential")
+    compiled = compile_equation(template.equation)
+    type_map = classify_grid(compiled, template.domain)
+    (pocket,) = pocket_statistics(compiled, type_map, quantity=template.peak_quantity)
+    # the crest (0, R) is a node; there q = 2U and M = 2U/c with c^2 = c0^2 - (gamma-1)/2 (2U)^2
+    p = template.equation.parameter_values()
+    speed = 2 * p["Minf"] * p["c0"] / math.sqrt(1 + (p["gamma"] - 1) / 2 * p["Minf"] ** 2)
+    expected = speed / math.sqrt(p["c0"] ** 2 - (p["gamma"] - 1) / 2 * speed**2)
+    assert pocket.peak == pytest.approx(expected, rel=1e-12)
+    assert pocket.peak_at == pytest.approx((0.0, 1.0), abs=1e-12)
+    assert pocket.centroid[0] == pytest.approx(0.0, abs=0.01)
+    slower = pocket_statistics(compiled, classify_grid(compiled, template.domain, parameters={"Minf": 0.5}),
+                               quantity="M")
+    assert slower[0].area < pocket.area and slower[0].peak < pocket.peak
+
+
+def test_peak_of_a_data_quantity_and_errors(tmp_path):
+    x = y = np.linspace(-1, 1, 41)
+    np.savez(tmp_path / "w.npz", x=x, y=y, w=np.exp(-(x[None, :] ** 2 + y[:, None] ** 2)))
+    data = DataSources([load_data(tmp_path / "w.npz")])
+    compiled = compile_equation(Equation("1", "0", "0.25 - w"), data_names=data.names)
+    type_map = classify_grid(compiled, Domain(-1, 1, -1, 1, nx=41, ny=41), data=data)
+    (pocket,) = pocket_statistics(compiled, type_map, quantity="w", data=data)
+    assert pocket.peak == pytest.approx(1.0) and pocket.peak_at == pytest.approx((0.0, 0.0))
+    with pytest.raises(ValueError, match="unknown quantity 'speed'"):
+        pocket_statistics(compiled, type_map, quantity="speed", data=data)
+    with pytest.raises(Cancelled):
+        pocket_statistics(compiled, type_map, quantity="a", data=data, cancel=lambda: True)
+    fractions = []
+    pocket_statistics(compiled, type_map, quantity="c", data=data, progress=fractions.append)
+    assert fractions[-1] == 1.0
+
+
+def test_no_pocket_and_undefined_peaks():
+    compiled = compile_equation(Equation("1", "0", "1", definitions={"hole": "sqrt(-1 - x**2)"}))
+    type_map = classify_grid(compiled, Domain(0, 1, 0, 1, nx=5, ny=5))
+    assert pocket_statistics(compiled, type_map) == ()
+    compiled = compile_equation(Equation("1", "0", "-1", definitions={"hole": "sqrt(-1 - x**2)"}))
+    type_map = classify_grid(compiled, Domain(0, 1, 0, 1, nx=5, ny=5))
+    (pocket,) = pocket_statistics(compiled, type_map, quantity="hole")
+    assert pocket.peak is None and pocket.peak_at is None and pocket.area == pytest.approx(1.0)
