@@ -52,7 +52,9 @@ class Equation:
     """a u_xx + b u_xy + c u_yy + ... = 0 in two independent variables, as text.
 
     ``definitions`` maps names to expressions usable in a, b, c and in each other; ``parameters`` maps names
-    to numbers. ``variables`` are the names of the first and second independent variable.
+    to numbers. ``variables`` are the names of the first and second independent variable. ``trade`` says
+    which of the trade's quantities (core.trade: Mach number, Froude number, ray angle...) a probe reads
+    and from which names; ``peak_quantity`` names the definition whose maximum is reported per pocket.
     """
 
     a: str
@@ -63,6 +65,8 @@ class Equation:
     parameters: Mapping[str, Parameter] = field(default_factory=dict)
     name: str = "equation"
     description: str = ""
+    trade: Mapping[str, Mapping[str, str]] = field(default_factory=dict)
+    peak_quantity: str = ""
 
     def coefficient_text(self, which: str) -> str:
         return {"a": self.a, "b": self.b, "c": self.c}[which]
@@ -265,6 +269,7 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
         uses[name] = result.names
 
     order = _definition_order(equation.definitions, uses)
+    _check_readouts(equation, set(kinds) | set(COEFFICIENT_NAMES))
     used_data = sorted({n for k in parsed for n in uses[k]
                         if kinds.get(n) == "data quantity" or n.startswith("diff(")})
     internal = {name: f"q{i}" for i, name in enumerate(list(symbols) + list(COEFFICIENT_NAMES))}
@@ -293,6 +298,25 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
         _steps=tuple(steps),
         _internal=internal,
     )
+
+
+def _check_readouts(equation: Equation, known: set[str]) -> None:
+    """The trade spec and the peak quantity must name values the equation has."""
+    from core.trade import check_trade_spec  # trade depends on nothing here; imported late to keep this light
+
+    if equation.trade:
+        try:
+            check_trade_spec(equation.trade)
+        except (TypeError, ValueError) as error:
+            raise ExpressionError(str(error), field="trade") from None
+        for kind, inputs in equation.trade.items():
+            for input_name, source in inputs.items():
+                if source not in known:
+                    raise ExpressionError(f"{kind} input {input_name!r} names {source!r}, which the equation "
+                                          "does not define", field=f"trade.{kind}.{input_name}")
+    if equation.peak_quantity and equation.peak_quantity not in known:
+        raise ExpressionError(f"{equation.peak_quantity!r} is not a definition, parameter or data quantity",
+                              field="peak_quantity")
 
 
 def _checked(check, field_name: str) -> None:

@@ -102,7 +102,7 @@ class Template:
                 definitions[quantity.replaces] = quantity.expression
         e = self.equation
         return Equation(e.a, e.b, e.c, variables=e.variables, definitions=definitions, parameters=e.parameters,
-                        name=e.name, description=e.description)
+                        name=e.name, description=e.description, trade=e.trade, peak_quantity=e.peak_quantity)
 
 
 def list_templates(directory: str | os.PathLike | None = None) -> tuple[str, ...]:
@@ -217,7 +217,8 @@ def _template_from(document, path: str) -> Template:
     _require(peak is None or peak in definitions, path, f"'peak_quantity' {peak!r} is not a definition")
     equation = Equation(coefficients["a"], coefficients["b"], coefficients["c"], variables=tuple(variables),
                         definitions=dict(definitions), parameters=parameters, name=name,
-                        description=_text(document, "description", path, default=""))
+                        description=_text(document, "description", path, default=""),
+                        trade={k: dict(v) for k, v in trade.items()}, peak_quantity=peak or "")
     return Template(name=name, title=_text(document, "title", path, default=name),
                     description=equation.description, equation=equation,
                     quantities=types.MappingProxyType(quantities),

@@ -99,3 +99,18 @@ def test_symbolic_discriminant_is_b2_minus_4ac():
     compiled = compile_equation(Equation(a="1", b="-2*x", c="1 - y**2"))
     x, y = compiled.symbols["x"], compiled.symbols["y"]
     assert sympy.expand(compiled.symbolic_discriminant - 4 * (x**2 + y**2 - 1)) == 0
+
+
+def test_trade_readouts_and_peak_quantity_must_name_known_values():
+    good = Equation(a="c2 - u**2", b="0", c="c2", definitions={"u": "1.2", "c2": "1", "M": "u/sqrt(c2)"},
+                    parameters={"gamma": Parameter(1.4)},
+                    trade={"mach": {"u": "u", "v": "u", "c2": "c2", "gamma": "gamma"}}, peak_quantity="M")
+    assert compile_equation(good).equation.peak_quantity == "M"
+    with pytest.raises(ExpressionError) as info:
+        compile_equation(Equation(a="1", b="0", c="-1", trade={"mach": {"u": "q", "v": "q", "c2": "q"}}))
+    assert info.value.field == "trade.mach.u"
+    with pytest.raises(ExpressionError, match="unknown trade quantity kind"):
+        compile_equation(Equation(a="1", b="0", c="-1", trade={"sparkle": {}}))
+    with pytest.raises(ExpressionError) as info:
+        compile_equation(Equation(a="1", b="0", c="-1", peak_quantity="Mach"))
+    assert info.value.field == "peak_quantity"

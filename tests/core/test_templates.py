@@ -219,3 +219,11 @@ def test_template_from_a_path_and_malformed_files(tmp_path):
         load_template(str(path))
     with pytest.raises(TemplateError, match="no template named 'nope'.*tricomi"):
         load_template("nope")
+
+
+def test_template_equations_carry_their_readouts():
+    for name in list_templates():
+        template = load_template(name)
+        assert dict(template.equation.trade) == {k: dict(v) for k, v in template.trade.items()}
+        assert template.equation.peak_quantity == (template.peak_quantity or "")
+        compile_equation(template.equation)  # the readouts name values the equation has
