@@ -130,8 +130,12 @@ def test_type_code_accepts_names():
 
 
 # Property: multiplying a, b, c by a positive function never changes the type (common practice, no source).
+# (Values are kept away from the underflow range, where a*c itself rounds to 0 before any scaling.)
+_VALUES = st.one_of(st.just(0.0), st.floats(1e-6, 3), st.floats(-3, -1e-6))
+
+
 @settings(max_examples=40, deadline=None)
-@given(*[st.floats(-3, 3, allow_subnormal=False)] * 3, st.floats(0.01, 100))
+@given(_VALUES, _VALUES, _VALUES, st.floats(0.01, 100))
 def test_type_is_invariant_under_positive_scaling(p, q, r, k):
     base = compile_equation(Equation(a=f"{p} + x", b=f"{q}*y", c=f"{r} - x*y"))
     scaled = compile_equation(Equation(a=f"({p} + x)*s", b=f"{q}*y*s", c=f"({r} - x*y)*s",
