@@ -9,6 +9,8 @@ undo stack can simply keep old ones.
 from __future__ import annotations
 
 import math
+import re
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from datetime import UTC, datetime
 from pathlib import Path
@@ -17,13 +19,17 @@ import numpy as np
 
 import core
 from core.classify import DEFAULT_TOLERANCE
+from core.data_readers import FORMATS
 from core.domain import Domain
-from core.equation import Equation
+from core.equation import COEFFICIENT_NAMES, Equation
+from core.expr import ExpressionError, check_name
 
 __all__ = [
+    "DATA_FORMATS",
     "FAMILIES",
     "MAX_SEED_CURVES",
     "PROJECT_SUFFIX",
+    "DataSourceRef",
     "Metadata",
     "Pin",
     "Project",
@@ -39,6 +45,9 @@ FAMILIES = (1, 2)
 MAX_SEED_CURVES = 1000
 PROJECT_SUFFIX = ".mixtype.json"
 DEFAULT_DEMO = "transonic_bump"
+DATA_FORMATS = tuple(sorted(set(FORMATS.values())))
+_CHECKSUM = re.compile(r"^[0-9a-fA-F]{64}$")
+_FILE_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 
 
 def _point(value, what: str) -> tuple[float, float]:
@@ -109,11 +118,16 @@ class Seed:
 
 @dataclass(frozen=True)
 class ViewSettings:
-    """What the map shows, kept with the project so a study reopens as it was left."""
+    """What the map shows, kept with the project so a study reopens as it was left.
+
+    The two characteristic families are switched separately (family 1 and family 2 as numbered by
+    core.characteristics).
+    """
 
     show_type_map: bool = True
     show_type_change_lines: bool = True
-    show_characteristics: bool = True
+    show_characteristics_family_1: bool = True
+    show_characteristics_family_2: bool = True
     show_pins: bool = True
     show_legend: bool = True
     parabolic_tolerance: float = DEFAULT_TOLERANCE
@@ -121,6 +135,56 @@ class ViewSettings:
     def __post_init__(self) -> None:
         if not 0.0 <= float(self.parabolic_tolerance) < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {self.parabolic_tolerance!r}")
+
+    @property
+    def show_characteristics(self) -> bool:
+        """True when at least one characteristic family is shown."""
+        return self.show_characteristics_family_1 or self.show_characteristics_family_2
+
+
+@dataclass(frozen=True)
+class DataSourceRef:
+    """A data file a project uses (core.data reads it), as the project file records it.
+
+    ``path`` is relative to the project file's folder with '/' separators (absolute only when the data lie on
+    another drive); ``checksum`` the SHA-256 (64 hex digits, stored in lower case) of the file when the
+    project was saved, so a changed file is noticed; ``format`` overrides the file extension (one of
+    DATA_FORMATS) or is None; ``names`` says which quantities to take, as {name in the file: quantity name}
+    (empty: every usable quantity under its own name); ``note`` is free text.
+    """
+
+    path: str
+    checksum: str
+    format: str | None = None
+    names: Mapping[str, str] = field(default_factory=dict)
+    note: str = ""
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.path, str) or not self.path.strip():
+            raise ValueError(f"a data source needs a file path, got {self.path!r}")
+        if any(ord(ch) < 32 or ord(ch) == 127 for ch in self.path):
+            raise ValueError(f"the data file path {self.path!r} holds control characters")
+        if not isinstance(self.checksum, str) or not _CHECKSUM.match(self.checksum):
+            raise ValueError(f"a data source checksum is a SHA-256 of 64 hex digits, got {self.checksum!r}")
+        object.__setattr__(self, "checksum", self.checksum.lower())
+        if self.format is not None and self.format not in DATA_FORMATS:
+            raise ValueError(f"unknown data format {self.format!r}; expected one of {', '.join(DATA_FORMATS)}")
+        names = dict(self.names)
+        for source, quantity in names.items():
+            if not isinstance(source, str) or not _FILE_NAME.match(source):
+                raise ValueError(f"{self.path}: the name in the file {source!r} must start with a letter and "
+                                 "hold only ASCII letters, digits and '_'")
+            try:
+                check_name(quantity, what="quantity name")
+            except ExpressionError as error:
+                raise ValueError(f"{self.path}: {error}") from None
+            if quantity in COEFFICIENT_NAMES:
+                raise ValueError(f"{self.path}: quantity name {quantity!r} is reserved for a coefficient")
+        taken = list(names.values())
+        for quantity in taken:
+            if taken.count(quantity) > 1:
+                raise ValueError(f"{self.path}: two names in the file both become {quantity!r}")
+        object.__setattr__(self, "names", names)
 
 
 def utc_timestamp(now: datetime | None = None) -> str:
@@ -169,10 +233,18 @@ class Project:
     view: ViewSettings = field(default_factory=ViewSettings)
     notes: str = ""
     metadata: Metadata = field(default_factory=lambda: Metadata(utc_timestamp(), utc_timestamp()))
+    data_sources: tuple[DataSourceRef, ...] = ()
 
     def __post_init__(self) -> None:
-        for name in ("equations", "domains", "pins", "seeds"):
+        for name in ("equations", "domains", "pins", "seeds", "data_sources"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
+        for source in self.data_sources:
+            if not isinstance(source, DataSourceRef):
+                raise TypeError(f"data sources are DataSourceRef objects, got {type(source).__name__}")
+        paths = [s.path for s in self.data_sources]
+        for path in paths:
+            if paths.count(path) > 1:
+                raise ValueError(f"two data sources have the path {path!r}; list each file once")
         if not self.equations:
             raise ValueError("a project holds at least one equation")
         if not self.domains:
@@ -228,6 +300,27 @@ class Project:
         domains = tuple(domain if d.name == replacing else d for d in self.domains)
         shown = domain.name if self.shown_domain == replacing else self.shown_domain
         return replace(self, domains=domains, shown_domain=shown)
+
+    def data_source(self, path: str) -> DataSourceRef:
+        """The data source whose recorded ``path`` is ``path``; KeyError listing the paths otherwise."""
+        for source in self.data_sources:
+            if source.path == path:
+                return source
+        listed = ", ".join(repr(s.path) for s in self.data_sources) or "none"
+        raise KeyError(f"no data source with the path {path!r}; the project has {listed}")
+
+    def with_data_source(self, source: DataSourceRef) -> Project:
+        """A copy with ``source`` added, or put in place of the data source with the same path (to accept a
+        changed file with its new checksum, or change its names or note)."""
+        if any(s.path == source.path for s in self.data_sources):
+            return replace(self, data_sources=tuple(source if s.path == source.path else s
+                                                    for s in self.data_sources))
+        return replace(self, data_sources=(*self.data_sources, source))
+
+    def without_data_source(self, path: str) -> Project:
+        """A copy without the data source recorded under ``path`` (KeyError if there is none)."""
+        self.data_source(path)
+        return replace(self, data_sources=tuple(s for s in self.data_sources if s.path != path))
 
     def content_equals(self, other: Project) -> bool:
         """True when the two projects differ at most in their metadata (definition order counts)."""

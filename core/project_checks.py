@@ -9,6 +9,7 @@ domain exist). Each gate returns a list of (JSON path, message) pairs; empty mea
 
 from __future__ import annotations
 
+import ast
 import json
 import math
 import re
@@ -20,13 +21,28 @@ import jsonschema
 import sympy
 
 from core.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
-from core.expr import ExpressionError, parse_expression
-from core.project_schema import IDENTIFIER_PATTERN, TIMESTAMP_PATTERN, TITLE_PATTERN, project_schema
+from core.expr import (
+    CONSTANT_NAMES,
+    FUNCTION_NAMES,
+    ExpressionError,
+    check_name,
+    data_derivative_key,
+    parse_expression,
+)
+from core.project_schema import (
+    CHECKSUM_PATTERN,
+    IDENTIFIER_PATTERN,
+    PATH_PATTERN,
+    TIMESTAMP_PATTERN,
+    TITLE_PATTERN,
+    project_schema,
+)
 
 __all__ = [
     "MAX_JSON_DEPTH",
     "NonFiniteNumber",
     "RepeatedKeys",
+    "equation_data_names",
     "equation_from_dict",
     "json_path",
     "meaning_problems",
@@ -147,6 +163,8 @@ _PATTERN_TEXT = {
     IDENTIFIER_PATTERN: "must start with a letter and hold only ASCII letters, digits and '_'",
     TITLE_PATTERN: "must not be empty, start or end with white space, or hold control characters",
     TIMESTAMP_PATTERN: "must be a UTC time written like 2024-03-05T14:07:09Z",
+    CHECKSUM_PATTERN: "must be a SHA-256 checksum: 64 hexadecimal digits",
+    PATH_PATTERN: "must name a file: not blank, and without control characters",
 }
 
 
@@ -222,6 +240,8 @@ def _equation_path(index: int, field: str) -> str:
     base = ["equations", index]
     if field in COEFFICIENT_NAMES:
         return json_path([*base, "coefficients", field])
+    if field.startswith("trade.") or field in ("trade", "peak_quantity"):
+        return json_path([*base, *field.split(".")[:3]])
     group, _, name = field.partition(".")
     if group in ("definitions", "parameters") and name:
         return json_path([*base, group, name])
@@ -234,7 +254,61 @@ def _expression_message(error: ExpressionError) -> str:
     return (f"column {error.column}: " if error.column is not None else "") + error.message
 
 
-def _equation_problems(index: int, raw: Mapping) -> list[tuple[str, str]]:
+def _free_names(text: object) -> set[str]:
+    """Names an expression text uses as values (not as functions); empty when the text does not parse.
+
+    Only Python's ``ast`` reads the text here (nothing is evaluated); the whitelist parser still checks it.
+    """
+    if not isinstance(text, str):
+        return set()
+    try:
+        tree = ast.parse(text.strip(), mode="eval")
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return set()
+    names: set[str] = set()
+    stack: list[ast.AST] = [tree.body]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, ast.Call):
+            if isinstance(node.func, ast.Name) and node.func.id == "diff" and node.args \
+                    and isinstance(node.args[0], ast.Name):
+                names.add(node.args[0].id)   # diff(NAME, VAR): NAME is data; VAR a variable
+                continue
+            stack.extend(node.args)
+            if not isinstance(node.func, ast.Name):
+                stack.append(node.func)
+        elif isinstance(node, ast.Name):
+            names.add(node.id)
+        else:
+            stack.extend(ast.iter_child_nodes(node))
+    return names
+
+
+def _unknown_names(variables, parameters, definitions, texts) -> tuple[str, ...]:
+    known = {*variables, *parameters, *definitions, *COEFFICIENT_NAMES, *CONSTANT_NAMES, *FUNCTION_NAMES,
+             "piecewise", "diff"}
+    found: dict[str, None] = {}
+    for text in texts:
+        for name in sorted(_free_names(text)):
+            if name not in known:
+                try:
+                    check_name(name)
+                except ExpressionError:
+                    continue
+                found[name] = None
+    return tuple(found)
+
+
+def equation_data_names(equation: Equation) -> tuple[str, ...]:
+    """Names the equation's expressions use that it does not define itself: background-data quantities.
+
+    These must come from the project's data sources (core.project_data checks that once the data are open).
+    """
+    texts = [*equation.definitions.values(), equation.a, equation.b, equation.c]
+    return _unknown_names(equation.variables, equation.parameters, equation.definitions, texts)
+
+
+def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
     problems = []
     for name, p in raw["parameters"].items():
         low, high, value = p.get("minimum"), p.get("maximum"), p["value"]
@@ -246,18 +320,28 @@ def _equation_problems(index: int, raw: Mapping) -> list[tuple[str, str]]:
                                     f"[{'' if low is None else repr(low)}, {'' if high is None else repr(high)}]")))
     variables = raw["variables"]
     names = [*variables, *raw["parameters"], *raw["definitions"]]
+    texts = [(f"definitions.{n}", t) for n, t in raw["definitions"].items()]
+    texts += [(k, raw["coefficients"][k]) for k in COEFFICIENT_NAMES]
+    # names defined nowhere in the equation are data quantities when the project lists data sources
+    data_names = _unknown_names(variables, raw["parameters"], raw["definitions"],
+                                [t for _, t in texts]) if has_data else ()
     if len(set(names)) == len(names):
-        symbols = {n: sympy.Symbol(n, real=True) for n in names}
-        texts = [(f"definitions.{n}", t) for n, t in raw["definitions"].items()]
-        texts += [(k, raw["coefficients"][k]) for k in COEFFICIENT_NAMES]
+        symbols = {n: sympy.Symbol(n, real=True) for n in (*names, *data_names)}
+        for quantity in data_names:
+            for v in variables:
+                key = data_derivative_key(quantity, v)
+                symbols[key] = sympy.Symbol(key, real=True)
         for field, text in texts:
             try:
-                parse_expression(text, symbols, variables=variables)
+                parse_expression(text, symbols, data_names=data_names, variables=variables)
             except ExpressionError as error:
-                problems.append((_equation_path(index, field), _expression_message(error)))
+                message = _expression_message(error)
+                if not has_data and error.message.startswith("unknown name"):
+                    message += " (and the project lists no data source that could provide it)"
+                problems.append((_equation_path(index, field), message))
     if not problems:
         try:
-            compile_equation(equation_from_dict(raw))
+            compile_equation(equation_from_dict(raw), data_names=data_names)
         except ExpressionError as error:
             problems.append((_equation_path(index, error.field), _expression_message(error)))
     return problems
@@ -285,8 +369,10 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             problems.append((json_path(["metadata", field]), "is not a real date and time"))
     problems += _repeated_names(data["equations"], "equation", "equations")
     problems += _repeated_names(data["domains"], "domain", "domains")
+    has_data = bool(data["data_sources"])
     for index, raw in enumerate(data["equations"]):
-        problems += _equation_problems(index, raw)
+        problems += _equation_problems(index, raw, has_data=has_data)
+    problems += _data_source_problems(data["data_sources"])
     for index, raw in enumerate(data["domains"]):
         for axis in ("x_range", "y_range"):
             low, high = raw[axis]
@@ -303,6 +389,34 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
     return problems
 
 
+def _data_source_problems(sources: list) -> list[tuple[str, str]]:
+    """Paths listed once; quantity names usable in expressions and distinct within a file."""
+    problems = []
+    first: dict[str, int] = {}
+    for index, raw in enumerate(sources):
+        path = raw["path"].replace("\\", "/")
+        if path in first:
+            problems.append((json_path(["data_sources", index, "path"]),
+                             f"the file {_clip(raw['path'], 80)!r} is already data_sources[{first[path]}]"))
+        else:
+            first[path] = index
+        taken: dict[str, str] = {}
+        for source, quantity in raw.get("names", {}).items():
+            where = json_path(["data_sources", index, "names", source])
+            try:
+                check_name(quantity, what="quantity name")
+            except ExpressionError as error:
+                problems.append((where, error.message))
+                continue
+            if quantity in COEFFICIENT_NAMES:
+                problems.append((where, f"quantity name {quantity!r} is reserved for a coefficient"))
+            elif quantity in taken:
+                problems.append((where, f"{source!r} and {taken[quantity]!r} both become {quantity!r}"))
+            else:
+                taken[quantity] = source
+    return problems
+
+
 def equation_from_dict(raw: Mapping) -> Equation:
     """The Equation of one schema-valid ``equations[i]`` entry (floats made float)."""
     parameters = {name: Parameter(value=float(p["value"]),
@@ -313,4 +427,6 @@ def equation_from_dict(raw: Mapping) -> Equation:
     coefficients = raw["coefficients"]
     return Equation(a=coefficients["a"], b=coefficients["b"], c=coefficients["c"],
                     variables=tuple(raw["variables"]), definitions=dict(raw["definitions"]),
-                    parameters=parameters, name=raw["name"], description=raw["description"])
+                    parameters=parameters, name=raw["name"], description=raw["description"],
+                    trade={kind: dict(inputs) for kind, inputs in raw.get("trade", {}).items()},
+                    peak_quantity=raw.get("peak_quantity", ""))

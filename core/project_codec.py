@@ -12,7 +12,7 @@ from collections.abc import Iterable, Mapping
 
 from core.domain import Domain
 from core.equation import Parameter
-from core.project import Metadata, Pin, Project, Seed, ViewSettings
+from core.project import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
 from core.project_checks import equation_from_dict, meaning_problems, sanity_problems, schema_problems
 from core.project_migrate import MigrationError, migrate
 from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
@@ -53,6 +53,33 @@ def _seed_to_dict(seed: Seed) -> dict:
     return result
 
 
+def _equation_to_dict(e) -> dict:
+    result = {
+        "name": e.name,
+        "description": e.description,
+        "variables": list(e.variables),
+        "coefficients": {"a": e.a, "b": e.b, "c": e.c},
+        "definitions": dict(e.definitions),
+        "parameters": {name: _parameter_to_dict(p) for name, p in e.parameters.items()},
+    }
+    if e.trade:
+        result["trade"] = {kind: dict(inputs) for kind, inputs in e.trade.items()}
+    if e.peak_quantity:
+        result["peak_quantity"] = e.peak_quantity
+    return result
+
+
+def _data_source_to_dict(source: DataSourceRef) -> dict:
+    result: dict = {"path": source.path, "checksum": source.checksum}
+    if source.format is not None:
+        result["format"] = source.format
+    if source.names:
+        result["names"] = dict(source.names)
+    if source.note:
+        result["note"] = source.note
+    return result
+
+
 def project_to_dict(project: Project) -> dict:
     """The plain JSON data of a project in the current format, keys in the fixed order files use."""
     view = project.view
@@ -61,23 +88,18 @@ def project_to_dict(project: Project) -> dict:
         "format_version": CURRENT_FORMAT_VERSION,
         "metadata": {"created": project.metadata.created, "modified": project.metadata.modified,
                      "written_by": project.metadata.written_by},
-        "equations": [{
-            "name": e.name,
-            "description": e.description,
-            "variables": list(e.variables),
-            "coefficients": {"a": e.a, "b": e.b, "c": e.c},
-            "definitions": dict(e.definitions),
-            "parameters": {name: _parameter_to_dict(p) for name, p in e.parameters.items()},
-        } for e in project.equations],
+        "equations": [_equation_to_dict(e) for e in project.equations],
         "domains": [{"name": d.name, "x_range": [float(d.xmin), float(d.xmax)],
                      "y_range": [float(d.ymin), float(d.ymax)], "nodes": [d.nx, d.ny]} for d in project.domains],
+        "data_sources": [_data_source_to_dict(s) for s in project.data_sources],
         "shown": {"equation": project.shown_equation, "domain": project.shown_domain},
         "pins": [{"at": [float(p.x), float(p.y)], "label": p.label} for p in project.pins],
         "seeds": [_seed_to_dict(s) for s in project.seeds],
         "view": {
             "layers": {"type_map": view.show_type_map, "type_change_lines": view.show_type_change_lines,
-                       "characteristics": view.show_characteristics, "pins": view.show_pins,
-                       "legend": view.show_legend},
+                       "characteristics_family_1": view.show_characteristics_family_1,
+                       "characteristics_family_2": view.show_characteristics_family_2,
+                       "pins": view.show_pins, "legend": view.show_legend},
             "parabolic_tolerance": float(view.parabolic_tolerance),
         },
         "notes": project.notes,
@@ -104,11 +126,16 @@ def _build(data: Mapping) -> Project:
         pins=tuple(Pin(float(p["at"][0]), float(p["at"][1]), p["label"]) for p in data["pins"]),
         seeds=tuple(_seed(raw) for raw in data["seeds"]),
         view=ViewSettings(show_type_map=layers["type_map"], show_type_change_lines=layers["type_change_lines"],
-                          show_characteristics=layers["characteristics"], show_pins=layers["pins"],
-                          show_legend=layers["legend"], parabolic_tolerance=float(view["parabolic_tolerance"])),
+                          show_characteristics_family_1=layers["characteristics_family_1"],
+                          show_characteristics_family_2=layers["characteristics_family_2"],
+                          show_pins=layers["pins"], show_legend=layers["legend"],
+                          parabolic_tolerance=float(view["parabolic_tolerance"])),
         notes=data["notes"],
         metadata=Metadata(created=data["metadata"]["created"], modified=data["metadata"]["modified"],
                           written_by=data["metadata"]["written_by"]),
+        data_sources=tuple(DataSourceRef(path=raw["path"], checksum=raw["checksum"], format=raw.get("format"),
+                                         names=dict(raw.get("names", {})), note=raw.get("note", ""))
+                           for raw in data["data_sources"]),
     )
 
 

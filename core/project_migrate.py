@@ -21,8 +21,35 @@ OLDEST_FORMAT_VERSION = 1
 
 Migration = Callable[[dict], dict]
 
+
+
+def _v1_to_v2(data: dict) -> dict:
+    """Version 2 adds the list of data sources (empty for a version-1 file), lets equations name trade
+    readouts and a peak quantity (optional, absent here), and splits the characteristics layer switch into
+    one per family (both take the old value)."""
+    result: dict = {}
+    for key, value in data.items():
+        result[key] = value
+        if key == "domains":
+            result["data_sources"] = []
+    result.setdefault("data_sources", [])
+    result["format_version"] = 2
+    view = result.get("view")
+    layers = view.get("layers") if isinstance(view, dict) else None
+    if isinstance(layers, dict) and "characteristics" in layers:
+        split: dict = {}
+        for key, value in layers.items():
+            if key == "characteristics":
+                split["characteristics_family_1"] = value
+                split["characteristics_family_2"] = copy.deepcopy(value)
+            else:
+                split[key] = value
+        view["layers"] = split
+    return result
+
+
 # version n -> function turning version-n data into version n + 1. Version 1 is the first format.
-MIGRATIONS: dict[int, Migration] = {}
+MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2}
 
 
 class MigrationError(ValueError):

@@ -16,11 +16,14 @@ import core
 from core.domain import MAX_GRID, MIN_GRID
 from core.equation import MAX_DEFINITIONS, MAX_PARAMETERS
 from core.expr import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
-from core.project import FAMILIES, MAX_SEED_CURVES
+from core.project import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
+from core.trade import TRADE_INPUTS
 
 __all__ = [
+    "CHECKSUM_PATTERN",
     "CURRENT_FORMAT_VERSION",
     "FORMAT_NAME",
+    "MAX_DATA_SOURCES",
     "MAX_DOMAINS",
     "MAX_EQUATIONS",
     "MAX_LABEL_LENGTH",
@@ -32,7 +35,7 @@ __all__ = [
     "schema_text",
 ]
 
-CURRENT_FORMAT_VERSION = 1
+CURRENT_FORMAT_VERSION = 2
 FORMAT_NAME = "mixtype-project"
 MAX_EQUATIONS = 100
 MAX_DOMAINS = 100
@@ -42,11 +45,15 @@ MAX_TITLE_LENGTH = 80
 MAX_LABEL_LENGTH = 200
 MAX_DESCRIPTION_LENGTH = 4_000
 MAX_NOTES_LENGTH = 1_000_000
+MAX_DATA_SOURCES = 100
+MAX_PATH_LENGTH = 4_000
 
 # A title: no control characters, no white space at either end.
 TITLE_PATTERN = r"^[^\s\u0000-\u001f\u007f](?:[^\u0000-\u001f\u007f]*[^\s\u0000-\u001f\u007f])?$"
 IDENTIFIER_PATTERN = r"^[A-Za-z][A-Za-z0-9_]*$"
 TIMESTAMP_PATTERN = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}Z$"
+CHECKSUM_PATTERN = r"^[0-9a-fA-F]{64}$"
+PATH_PATTERN = r"^[^\u0000-\u001f\u007f]*[^\s\u0000-\u001f\u007f][^\u0000-\u001f\u007f]*$"
 
 
 def _object(properties: dict, *, required: list[str] | None = None, description: str = "") -> dict:
@@ -117,7 +124,38 @@ def _equation_schema() -> dict:
                        "maxProperties": MAX_PARAMETERS, "propertyNames": {"pattern": IDENTIFIER_PATTERN,
                                                                           "maxLength": MAX_NAME_LENGTH},
                        "additionalProperties": parameter},
-    }, description="a second-order equation in two independent variables")
+        "trade": _trade_schema(),
+        "peak_quantity": _identifier("the definition, parameter or data quantity whose largest value is reported "
+                                     "for each hyperbolic pocket (optional)"),
+    }, required=["name", "description", "variables", "coefficients", "definitions", "parameters"],
+        description="a second-order equation in two independent variables")
+
+
+def _trade_schema() -> dict:
+    kinds = {}
+    for kind, (required, optional) in TRADE_INPUTS.items():
+        kinds[kind] = _object({name: _identifier(f"the name whose value is the input {name!r}")
+                               for name in (*required, *optional)}, required=list(required),
+                              description=f"inputs of the {kind.replace('_', ' ')} readout")
+    return _object(kinds, required=[], description="the trade quantities a probe reads off the equation "
+                   "(optional): for each kind, which value names feed its inputs")
+
+
+def _data_source_schema() -> dict:
+    return _object({
+        "path": _text(MAX_PATH_LENGTH, "the data file, relative to the project file's folder with '/' between "
+                      "folders (absolute only when on another drive)", pattern=PATH_PATTERN),
+        "checksum": {"type": "string", "pattern": CHECKSUM_PATTERN,
+                     "description": "SHA-256 of the file when the project was saved, 64 hexadecimal digits"},
+        "format": {"enum": list(DATA_FORMATS), "description": "the file's format when its extension does not "
+                   "say it (optional)"},
+        "names": {"type": "object", "description": "which quantities to take from the file, as {name in the "
+                  "file: quantity name}; every usable quantity under its own name when absent",
+                  "maxProperties": MAX_PARAMETERS, "propertyNames": {"pattern": IDENTIFIER_PATTERN,
+                                                                     "maxLength": MAX_NAME_LENGTH},
+                  "additionalProperties": _identifier("the quantity name equations use")},
+        "note": _text(MAX_DESCRIPTION_LENGTH, "free text (optional)"),
+    }, required=["path", "checksum"], description="a background data file the equations read quantities from")
 
 
 def _seed_schema() -> dict:
@@ -154,7 +192,8 @@ def project_schema() -> dict:
     layers = {name: {"type": "boolean", "description": f"show the {text}"} for name, text in (
         ("type_map", "map of elliptic, parabolic and hyperbolic zones"),
         ("type_change_lines", "lines where the type changes"),
-        ("characteristics", "characteristic curves"),
+        ("characteristics_family_1", "characteristic curves of family 1"),
+        ("characteristics_family_2", "characteristic curves of family 2"),
         ("pins", "pinned points"),
         ("legend", "legend"))}
     return {
@@ -173,6 +212,7 @@ def project_schema() -> dict:
             }),
             "equations": {"type": "array", "items": _equation_schema(), "minItems": 1, "maxItems": MAX_EQUATIONS},
             "domains": {"type": "array", "items": domain, "minItems": 1, "maxItems": MAX_DOMAINS},
+            "data_sources": {"type": "array", "items": _data_source_schema(), "maxItems": MAX_DATA_SOURCES},
             "shown": _object({
                 "equation": _title("name of the equation shown"),
                 "domain": _title("name of the domain shown"),

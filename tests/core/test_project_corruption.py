@@ -186,7 +186,8 @@ def test_meaning_problems_are_reported_together():
         "$.equations[0].parameters.k: the slider minimum 5.0 must be less than its maximum 2.0",
         "$.equations[0].parameters.free: the value 0.30000000000000004 lies outside the slider range [, -1.0]",
         "$.equations[0].definitions.v: syntax error: invalid syntax",
-        "$.equations[0].coefficients.c: column 5: unknown name 'q'",
+        ("$.equations[0].coefficients.c: column 5: unknown name 'q' (and the project lists no data source that "
+         "could provide it)"),
         "$.domains[1].x_range: the minimum 2.0 must be less than the maximum -2.0",
         ("$.shown.equation: there is no equation named 'second (s, t)' (the project has 'sample: all fields', "
         "'sample: all fields')"),
