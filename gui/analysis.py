@@ -1,9 +1,11 @@
 """Keeps the numbers on screen in step with the document: requests core computations as background jobs.
 
 Listens to the document's specific signals and asks the job runner for exactly the work they invalidate:
-a new type map (then its type-change lines), characteristics for the seeds, probes for the pins, and the
-hover readout. Requests made in one pass of the event loop are coalesced. Every number comes from core
-(classify_grid, find_type_boundaries, trace_characteristics, probe_point); this module only schedules.
+a new type map (then its type-change lines and its hyperbolic pockets), characteristics for the seeds, probes
+(with the trade quantities of the equation) for the pins, and the hover readout. Every computation uses the
+document's background data. Requests made in one pass of the event loop are coalesced. Every number comes
+from core (classify_grid, find_type_boundaries, pocket_statistics, trace_characteristics, probe_point,
+readout_at); this module only schedules.
 Core modules still being written elsewhere are imported lazily: until they exist the matching layer stays
 empty and the window says so once.
 """
@@ -11,17 +13,20 @@ empty and the window says so once.
 from __future__ import annotations
 
 import importlib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
 from core.classify import TypeCode, classify_grid, classify_points
+from core.pockets import label_pockets, pocket_statistics
+from core.progress import Cancelled
+from core.trade import readout_at
 from gui.document import Document
 from gui.jobs import JobRunner
 from gui.study import SeedLine
 
-__all__ = ["HoverReading", "StudyAnalysis", "TracedSeed", "optional_core"]
+__all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "optional_core", "trade_at"]
 
 
 def optional_core(name: str):
@@ -41,6 +46,7 @@ class HoverReading:
     type: TypeCode
     discriminant: float
     inside: bool
+    trade: dict = field(default_factory=dict)   # core.trade readout at the point ({} without a trade spec)
 
 
 @dataclass(frozen=True)
@@ -51,8 +57,32 @@ class TracedSeed:
     curves: tuple
 
 
+@dataclass(frozen=True)
+class PocketReport:
+    """The hyperbolic pockets of one type map: core's statistics and the (ny, nx) int32 label array
+    (0 off the pockets, ``pocket.label`` on each pocket's nodes)."""
+
+    type_map: object
+    pockets: tuple
+    labels: np.ndarray
+    quantity: str | None
+
+
+def trade_at(equation, compiled, x: float, y: float, *, parameters, data) -> dict | str:
+    """core.trade.readout_at for the equation's trade spec at one point: {} without a spec, the readout
+    dict, or a one-line reason (str) when it cannot be read there."""
+    if not equation.trade:
+        return {}
+    try:
+        with np.errstate(all="ignore"):
+            return readout_at(equation.trade, compiled, x, y, parameters=parameters, data=data)
+    except (KeyError, ValueError, TypeError) as error:
+        return f"trade quantities unavailable: {str(error).strip(chr(39))}"
+
+
 _LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",
-           "characteristics": "Tracing characteristics", "probes": "Probing pins", "hover": "Reading point"}
+           "characteristics": "Tracing characteristics", "probes": "Probing pins", "hover": "Reading point",
+           "pockets": "Measuring hyperbolic pockets"}
 
 
 class StudyAnalysis(QObject):
@@ -62,6 +92,8 @@ class StudyAnalysis(QObject):
     lines_ready = Signal(object)            # core.boundary.TypeBoundaries, or None when unavailable
     characteristics_ready = Signal(object)  # tuple[TracedSeed, ...]
     probes_ready = Signal(object)           # tuple[ProbeResult, ...], one per pin
+    trade_ready = Signal(object)            # tuple[dict | str, ...], one trade readout per pin (see trade_at)
+    pockets_ready = Signal(object)          # PocketReport, or None while none is known
     hover_ready = Signal(object)            # HoverReading
     message = Signal(str)                   # something the user should read (errors, missing parts)
 
@@ -74,6 +106,8 @@ class StudyAnalysis(QObject):
         self.boundaries = None
         self.traced: tuple[TracedSeed, ...] = ()
         self.probes: tuple = ()
+        self.trade_readouts: tuple = ()
+        self.pockets: PocketReport | None = None
         self._wanted: set[str] = set()
         self._told_missing: set[str] = set()
         self._timer = QTimer(self)
@@ -85,6 +119,7 @@ class StudyAnalysis(QObject):
         document.domain_changed.connect(lambda: self.schedule("map", "characteristics", "probes"))
         document.pins_changed.connect(lambda: self.schedule("probes"))
         document.seeds_changed.connect(lambda: self.schedule("characteristics"))
+        document.data_changed.connect(self.refresh_all)
         runner.finished.connect(self._on_finished)
         runner.failed.connect(self._on_failed)
 
@@ -114,6 +149,7 @@ class StudyAnalysis(QObject):
         self.dragging = False
         if self.type_map is not None and not self.runner.is_busy("map"):
             self._request_lines(self.type_map)
+            self._request_pockets(self.type_map)
 
     def _inputs(self):
         study = self.document.study
@@ -121,10 +157,11 @@ class StudyAnalysis(QObject):
 
     def _request_map(self, compiled) -> None:
         domain, parameters, tolerance = self._inputs()
+        data = self.document.data
 
         def work(cancel, progress):
-            return classify_grid(compiled, domain, parameters=parameters, tolerance=tolerance, cancel=cancel,
-                                 progress=progress)
+            return classify_grid(compiled, domain, parameters=parameters, data=data, tolerance=tolerance,
+                                 cancel=cancel, progress=progress)
 
         self.runner.request("map", work, policy="queue" if self.dragging else "replace", label=_LABELS["map"])
 
@@ -143,12 +180,37 @@ class StudyAnalysis(QObject):
             return
         refine = True
         parameters = dict(type_map.parameters)
+        data = self.document.data
 
         def work(cancel, progress):
-            return boundary.find_type_boundaries(compiled, type_map, parameters=parameters, refine=refine,
-                                                 cancel=cancel, progress=progress)
+            return boundary.find_type_boundaries(compiled, type_map, parameters=parameters, data=data,
+                                                 refine=refine, cancel=cancel, progress=progress)
 
         self.runner.request("lines", work, label=_LABELS["lines"])
+
+    def _request_pockets(self, type_map) -> None:
+        """The hyperbolic pockets of ``type_map`` with the peak of the equation's peak quantity."""
+        compiled = self.document.compiled
+        if compiled is None:
+            return
+        if self.dragging:
+            # Like the lines: during a slider drag the table would flicker; end_drag measures the final map.
+            self.runner.cancel("pockets")
+            return
+        wanted = self.document.study.equation.peak_quantity
+        known = (*compiled.definition_order, "a", "b", "c", *self.document.data_names)
+        quantity = wanted if wanted in known else None
+        parameters = dict(type_map.parameters)
+        data = self.document.data
+
+        def work(cancel, progress):
+            with np.errstate(all="ignore"):
+                pockets = pocket_statistics(compiled, type_map, quantity=quantity, parameters=parameters,
+                                            data=data, cancel=cancel, progress=progress)
+            labels, _ = label_pockets(type_map)
+            return PocketReport(type_map=type_map, pockets=pockets, labels=labels, quantity=quantity)
+
+        self.runner.request("pockets", work, label=_LABELS["pockets"])
 
     def _request_characteristics(self, compiled) -> None:
         seeds = self.document.study.seeds
@@ -161,6 +223,7 @@ class StudyAnalysis(QObject):
         if module is None:
             return
         domain, parameters, _ = self._inputs()
+        data = self.document.data
 
         def work(cancel, progress):
             traced = []
@@ -171,7 +234,8 @@ class StudyAnalysis(QObject):
                     progress((number + fraction) / len(seeds))
 
                 curves = module.trace_characteristics(compiled, domain, points, families=seed.families,
-                                                      parameters=parameters, cancel=cancel, progress=part)
+                                                      parameters=parameters, data=data, cancel=cancel,
+                                                      progress=part)
                 traced.append(TracedSeed(seed=seed, curves=tuple(curves)))
             return tuple(traced)
 
@@ -181,23 +245,27 @@ class StudyAnalysis(QObject):
         pins = self.document.study.pins
         if not pins:
             self.probes = ()
+            self.trade_readouts = ()
             self.runner.cancel("probes")
             self.probes_ready.emit(())
+            self.trade_ready.emit(())
             return
         module = self._module("probe", "pin readouts")
         if module is None:
             return
         domain, parameters, tolerance = self._inputs()
+        data = self.document.data
+        equation = self.document.study.equation
 
         def work(cancel, progress):
-            results = []
+            results, trades = [], []
             for pin in pins:
                 if cancel():
-                    from core.progress import Cancelled
                     raise Cancelled("probes cancelled")
-                results.append(module.probe_point(compiled, pin.x, pin.y, parameters=parameters,
+                results.append(module.probe_point(compiled, pin.x, pin.y, parameters=parameters, data=data,
                                                   tolerance=tolerance, domain=domain))
-            return tuple(results)
+                trades.append(trade_at(equation, compiled, pin.x, pin.y, parameters=parameters, data=data))
+            return tuple(results), tuple(trades)
 
         self.runner.request("probes", work, label=_LABELS["probes"])
 
@@ -207,13 +275,18 @@ class StudyAnalysis(QObject):
         if compiled is None:
             return
         domain, parameters, tolerance = self._inputs()
+        data = self.document.data
+        equation = self.document.study.equation
 
         def work(cancel, progress):
             px, py = np.array([x]), np.array([y])
-            codes, _ = classify_points(compiled, px, py, parameters=parameters, tolerance=tolerance)
-            d = compiled.discriminant(px, py, parameters=parameters)
+            with np.errstate(all="ignore"):
+                codes, _ = classify_points(compiled, px, py, parameters=parameters, data=data,
+                                           tolerance=tolerance)
+                d = compiled.discriminant(px, py, parameters=parameters, data=data)
+            trade = trade_at(equation, compiled, x, y, parameters=parameters, data=data)
             return HoverReading(x=x, y=y, type=TypeCode(int(codes[0])), discriminant=float(d[0]),
-                                inside=domain.contains(x, y))
+                                inside=bool(domain.contains(x, y)), trade=trade if isinstance(trade, dict) else {})
 
         self.runner.request("hover", work, label=_LABELS["hover"])
 
@@ -230,6 +303,7 @@ class StudyAnalysis(QObject):
             self.type_map = result
             self.map_ready.emit(result)
             self._request_lines(result)
+            self._request_pockets(result)
         elif channel == "lines":
             self.boundaries = result
             self.lines_ready.emit(result)
@@ -237,8 +311,12 @@ class StudyAnalysis(QObject):
             self.traced = result
             self.characteristics_ready.emit(result)
         elif channel == "probes":
-            self.probes = result
-            self.probes_ready.emit(result)
+            self.probes, self.trade_readouts = result
+            self.trade_ready.emit(self.trade_readouts)
+            self.probes_ready.emit(self.probes)
+        elif channel == "pockets":
+            self.pockets = result
+            self.pockets_ready.emit(result)
         elif channel == "hover":
             self.hover_ready.emit(result)
 

@@ -54,8 +54,20 @@ class _StudyEdit(QUndoCommand):
 def _structure(equation: Equation) -> tuple:
     """Everything about an equation except parameter values: a change here needs a new compilation."""
     parameters = tuple((n, p.minimum, p.maximum, p.unit, p.description) for n, p in equation.parameters.items())
+    trade = tuple((kind, tuple(inputs.items())) for kind, inputs in equation.trade.items())
     return (equation.a, equation.b, equation.c, tuple(equation.variables),
-            tuple(equation.definitions.items()), parameters, equation.name, equation.description)
+            tuple(equation.definitions.items()), parameters, equation.name, equation.description, trade,
+            equation.peak_quantity)
+
+
+def _free_name(name: str, taken: list[str]) -> str:
+    """``name``, or ``name (2)``, ``name (3)``... whichever is not taken yet."""
+    if name not in taken:
+        return name
+    number = 2
+    while f"{name} ({number})" in taken:
+        number += 1
+    return f"{name} ({number})"
 
 
 class Document(QObject):
@@ -70,6 +82,7 @@ class Document(QObject):
     seeds_changed = Signal()
     layers_changed = Signal()
     notes_changed = Signal()
+    data_changed = Signal()            # the loaded background data (and so the names equations may use) changed
     dirty_changed = Signal(bool)
     path_changed = Signal(str)
 
@@ -77,8 +90,10 @@ class Document(QObject):
         super().__init__(parent)
         self._study = study
         self._path: Path | None = None
-        self._compiled_for: Equation | None = None
+        self._compiled_for: tuple | None = None
         self._compiled: CompiledEquation | None = None
+        self._data = None
+        self._data_names: tuple[str, ...] = ()
         self._compile_error = ""
         self._sessions = itertools.count(1)
         self.undo_stack = QUndoStack(self)
@@ -99,13 +114,44 @@ class Document(QObject):
         return not self.undo_stack.isClean()
 
     @property
+    def data(self):
+        """The background data as a core QuantitySource (``.sample``, ``.names``), or None without data."""
+        return self._data
+
+    @property
+    def data_names(self) -> tuple[str, ...]:
+        """Names of the data quantities equations may use (also those of files that are missing)."""
+        return self._data_names
+
+    def set_data(self, source, names: tuple[str, ...] | None = None) -> None:
+        """Use other background data (loaded state, not an edit: no undo step). ``names`` default to
+        ``source.names``; equations are compiled again with them and ``data_changed`` is emitted."""
+        names = tuple(getattr(source, "names", ())) if names is None else tuple(names)
+        if source is self._data and names == self._data_names:
+            return
+        self._data = source
+        self._data_names = names
+        self._compiled_for = None
+        self.data_changed.emit()
+
+    def check_equation(self, equation: Equation) -> ExpressionError | None:
+        """Why ``equation`` would not compile with the current data names, or None when it compiles."""
+        try:
+            compile_equation(equation, data_names=self._data_names)
+        except ExpressionError as error:
+            return error
+        return None
+
+    @property
     def compiled(self) -> CompiledEquation | None:
-        """The shown equation compiled (cached per equation); None when it does not compile."""
+        """The shown equation compiled with the data names (cached); None when it does not compile."""
         equation = self._study.equation
-        if self._compiled_for is not equation:
-            self._compiled_for = equation
+        key = (equation, self._data_names)
+        if self._compiled_for is None or self._compiled_for[0] is not equation \
+                or self._compiled_for[1] != self._data_names:
+            self._compiled_for = key
             try:
-                self._compiled = compile_equation(equation)
+                self._compiled = compile_equation(equation, data_names=self._data_names)
                 self._compile_error = ""
             except ExpressionError as error:
                 self._compiled = None
@@ -202,6 +248,23 @@ class Document(QObject):
         study = replace(self._study, equations=self._study.equations + (equation,),
                         shown_equation=len(self._study.equations))
         return self.edit(study, f"Add equation {equation.name}")
+
+    def add_equation_and_domain(self, equation: Equation, domain: Domain | None, text: str) -> bool:
+        """Add ``equation`` (renamed if its name is taken) and show it, as one undo step. ``domain`` is shown
+        too: a domain of the study with the same bounds when there is one, else ``domain`` itself, added
+        (renamed if needed). None keeps the shown domain."""
+        study = self._study
+        equation = replace(equation, name=_free_name(equation.name, [e.name for e in study.equations]))
+        study = replace(study, equations=study.equations + (equation,), shown_equation=len(study.equations))
+        if domain is not None:
+            bounds = (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
+            same = [i for i, d in enumerate(study.domains) if (d.xmin, d.xmax, d.ymin, d.ymax) == bounds]
+            if same:
+                study = replace(study, shown_domain=same[0])
+            else:
+                domain = replace(domain, name=_free_name(domain.name, [d.name for d in study.domains]))
+                study = replace(study, domains=study.domains + (domain,), shown_domain=len(study.domains))
+        return self.edit(study, text)
 
     def add_domain(self, domain: Domain) -> bool:
         study = replace(self._study, domains=self._study.domains + (domain,),

@@ -31,7 +31,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.equation import Equation, Parameter, compile_equation
+from core.equation import Equation, Parameter
 from core.expr import ExpressionError
 from gui.document import Document
 from gui.math_render import equation_html
@@ -73,6 +73,7 @@ class EquationPanel(QWidget):
 
     drag_started = Signal()
     drag_finished = Signal()
+    template_requested = Signal()
 
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)
@@ -92,10 +93,14 @@ class EquationPanel(QWidget):
         self.duplicate_button = QPushButton("Duplicate")
         self.duplicate_button.setToolTip("Add a copy of this equation to the study and show it")
         self.duplicate_button.clicked.connect(self._duplicate)
+        self.template_button = QPushButton("From template…")
+        self.template_button.setToolTip("Add a ready-made equation of the trades (undoable)")
+        self.template_button.clicked.connect(self.template_requested)
         chooser = QHBoxLayout()
         chooser.addWidget(QLabel("Equation:"))
         chooser.addWidget(self.equation_choice, 1)
         chooser.addWidget(self.duplicate_button)
+        chooser.addWidget(self.template_button)
 
         self.rendered = QLabel()
         self.rendered.setObjectName("renderedEquation")
@@ -195,6 +200,7 @@ class EquationPanel(QWidget):
         document.equation_changed.connect(self.refresh)
         document.parameters_changed.connect(self._refresh_parameter_values)
         document.equations_listed.connect(self._refresh_choice)
+        document.data_changed.connect(lambda: self._render(self.document.study.equation))
         self._refresh_choice()
         self.refresh()
 
@@ -315,11 +321,7 @@ class EquationPanel(QWidget):
         return self._merge_keys[field]
 
     def _check(self, candidate: Equation) -> ExpressionError | None:
-        try:
-            compile_equation(candidate)
-        except ExpressionError as error:
-            return error
-        return None
+        return self.document.check_equation(candidate)
 
     def _show_error(self, which: str, text: str) -> None:
         label = self.coefficient_errors[which]

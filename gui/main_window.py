@@ -7,6 +7,7 @@ file commands: new, open, recent files, save, autosave with crash recovery, expo
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 from PySide6.QtCore import Qt, QTimer
@@ -34,6 +35,7 @@ from core.result_tables import (
     write_csv,
     write_json,
 )
+from core.templates import TemplateError, load_template
 from gui.analysis import StudyAnalysis, optional_core
 from gui.document import Document
 from gui.domain_panel import DomainPanel
@@ -42,10 +44,13 @@ from gui.export import PICTURE_FILTER, export_picture
 from gui.jobs import JobRunner
 from gui.layers_panel import LayersPanel
 from gui.map_view import MAX_STRETCH, MapView
-from gui.pins_panel import PinsPanel
+from gui.notes_panel import NotesPanel
+from gui.pins_panel import PinsPanel, main_trade_text
+from gui.pockets_panel import PocketsPanel
 from gui.preferences import Preferences
 from gui.project_bridge import PROJECT_FILTER, StudyFileError, load_study, save_study, scratch_study
 from gui.study import SeedLine, Study
+from gui.template_dialog import TemplateChoice, TemplateDialog
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
 
@@ -56,7 +61,7 @@ ABOUT_TEXT = ("<h3>Mixtype</h3><p>Maps where a second-order equation a u<sub>xx<
               "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
               "changes, reads single points and traces characteristic curves.</p>"
               f"<p><b>Caution.</b> {CAUTION}</p>")
-CHANNEL_NAMES = ("map", "lines", "characteristics", "probes")
+CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets")
 
 
 class MainWindow(QMainWindow):
@@ -88,13 +93,18 @@ class MainWindow(QMainWindow):
         self.domain_panel = DomainPanel(self.document)
         self.pins_panel = PinsPanel(self.document)
         self.layers_panel = LayersPanel(self.document)
-        self._dock("Equation: coefficients, definitions, parameters", self.equation_panel,
-                   Qt.DockWidgetArea.LeftDockWidgetArea, "equationDock", scroll=True)
-        self._dock("Domain and grid", self.domain_panel, Qt.DockWidgetArea.LeftDockWidgetArea, "domainDock")
-        self._dock("Pins: readouts at points", self.pins_panel, Qt.DockWidgetArea.RightDockWidgetArea,
-                   "pinsDock")
-        self._dock("Layers and mouse tool", self.layers_panel, Qt.DockWidgetArea.RightDockWidgetArea,
-                   "layersDock", scroll=True)
+        self.pockets_panel = PocketsPanel(self.document)
+        self.notes_panel = NotesPanel(self.document)
+        left, right = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.RightDockWidgetArea
+        self._dock("Equation: coefficients, definitions, parameters", self.equation_panel, left, "equationDock",
+                   scroll=True)
+        domain_dock = self._dock("Domain and grid", self.domain_panel, left, "domainDock")
+        notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock")
+        self.tabifyDockWidget(domain_dock, notes_dock)
+        domain_dock.raise_()
+        self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
+        self._dock("Hyperbolic pockets", self.pockets_panel, right, "pocketsDock")
+        self._dock("Layers and mouse tool", self.layers_panel, right, "layersDock", scroll=True)
 
         self.hover_label = QLabel("Move over the map to read the type and D at a point.")
         self.hover_label.setObjectName("hoverReadout")
@@ -154,7 +164,10 @@ class MainWindow(QMainWindow):
         self.save_action = self._action("&Save", self.save, shortcut=keys.Save, tip="Save the study")
         self.save_as_action = self._action("Save &as…", self.save_as, shortcut=keys.SaveAs,
                                            tip="Save the study under a new name")
-        menu.addActions([self.new_action, self.open_action])
+        self.template_action = self._action("New &equation from template…", self.template_dialog,
+                                            shortcut="Ctrl+Shift+N",
+                                            tip="Add a ready-made equation of the trades to the study")
+        menu.addActions([self.new_action, self.template_action, self.open_action])
         self.recent_menu = menu.addMenu("Open &recent")
         menu.addActions([self.save_action, self.save_as_action])
         menu.addSeparator()
@@ -217,7 +230,12 @@ class MainWindow(QMainWindow):
         a.map_ready.connect(self._map_ready)
         a.lines_ready.connect(m.show_lines)
         a.characteristics_ready.connect(m.show_characteristics)
+        a.trade_ready.connect(self.pins_panel.set_trade_readouts)
         a.probes_ready.connect(self.pins_panel.set_results)
+        a.map_ready.connect(self.pockets_panel.mark_stale)
+        a.pockets_ready.connect(self.pockets_panel.set_report)
+        self.pockets_panel.pocket_chosen.connect(self._pocket_chosen)
+        self.equation_panel.template_requested.connect(self.template_dialog)
         a.hover_ready.connect(self._show_hover)
         a.message.connect(self.show_notice)
         m.clicked.connect(lambda x, y: d.add_pin(x, y))
@@ -288,7 +306,46 @@ class MainWindow(QMainWindow):
         where = f"{x_name} = {reading.x:.5g}, {y_name} = {reading.y:.5g}"
         outside = "" if reading.inside else " (outside the domain)"
         d = "undefined" if reading.discriminant != reading.discriminant else f"{reading.discriminant:.5g}"
-        self.hover_label.setText(f"{where}{outside}   |   {reading.type.label}   |   D = {d} (units of b²)")
+        trade = main_trade_text(reading.trade)
+        trade = f"   |   {trade}" if trade else ""
+        self.hover_label.setText(f"{where}{outside}   |   {reading.type.label}   |   D = {d} (units of b²){trade}")
+
+    def _pocket_chosen(self, pocket) -> None:
+        report = self.pockets_panel.report
+        if pocket is None or report is None:
+            self.map_view.highlight_pocket(None)
+            return
+        self.map_view.highlight_pocket(pocket, report.labels, report.type_map)
+
+    # -- templates ------------------------------------------------------------------------------------------
+    def choose_template(self) -> TemplateChoice | None:
+        """Ask which template to add (tests replace this method)."""
+        dialog = TemplateDialog(self.document.data_names, self)
+        if dialog.exec() != TemplateDialog.DialogCode.Accepted:
+            return None
+        return dialog.choice()
+
+    def template_dialog(self) -> bool:
+        choice = self.choose_template()
+        return self.add_template(choice) if choice is not None else False
+
+    def add_template(self, choice: TemplateChoice | str) -> bool:
+        """Add the template's equation (and its region, unless the study has one with the same bounds) and
+        show both, as one undo step. With loaded data the template declares, they replace its formulas."""
+        if isinstance(choice, str):
+            choice = TemplateChoice(choice)
+        try:
+            template = load_template(choice.name)
+            equation = template.equation
+            usable = [name for name in template.quantities if name in self.document.data_names]
+            if choice.use_data and usable:
+                equation = template.equation_with_data(usable)
+        except TemplateError as error:
+            self.report_error("Could not use the template", str(error))
+            return False
+        equation = replace(equation, name=template.title)
+        domain = None if template.domain is None else replace(template.domain, name=f"{template.name} region")
+        return self.document.add_equation_and_domain(equation, domain, f"Add equation from template {template.name}")
 
     def show_notice(self, text: str) -> None:
         self.notice.setText(text)

@@ -17,10 +17,12 @@ from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 from core.classify import TypeCode
 from gui.palette import (
     FAMILY_COLOURS,
+    HIGHLIGHT_COLOUR,
     PIN_COLOUR,
     SEGMENT_COLOUR,
     TYPE_COLOURS,
     TYPE_LINE_COLOUR,
+    hex_to_rgba,
     type_lookup_table,
 )
 from gui.study import Layers, PinMark, SeedLine
@@ -142,7 +144,15 @@ class MapView(QWidget):
         self.pin_markers = pg.ScatterPlotItem(size=11, symbol="o", pen=pg.mkPen("w", width=1.5),
                                               brush=pg.mkBrush(PIN_COLOUR))
         self.pin_markers.setZValue(30)
-        for item in (self.lines, *self.family_curves.values(), self.seed_lines, self.preview, self.pin_markers):
+        self.pocket_overlay = pg.ImageItem()
+        self.pocket_overlay.setZValue(5)
+        self.pocket_box = pg.PlotCurveItem(pen=pg.mkPen(HIGHLIGHT_COLOUR, width=2.0, style=Qt.PenStyle.DashLine))
+        self.pocket_box.setZValue(35)
+        self.pocket_peak = pg.ScatterPlotItem(size=15, symbol="star", pen=pg.mkPen("w", width=1.0),
+                                              brush=pg.mkBrush(HIGHLIGHT_COLOUR))
+        self.pocket_peak.setZValue(36)
+        for item in (self.lines, *self.family_curves.values(), self.seed_lines, self.preview, self.pin_markers,
+                     self.pocket_overlay, self.pocket_box, self.pocket_peak):
             self.plot.addItem(item)
         self._pin_labels: list[pg.TextItem] = []
 
@@ -200,6 +210,41 @@ class MapView(QWidget):
         self.image.setImage(codes, autoLevels=False, levels=(0, len(TypeCode)))
         self.image.setRect(QRectF(domain.xmin - dx / 2, domain.ymin - dy / 2, domain.nx * dx, domain.ny * dy))
         self.show_fractions(type_map.fractions)
+        self.highlight_pocket(None)
+
+    def highlight_pocket(self, pocket, labels: np.ndarray | None = None, type_map=None, *,
+                         centre: bool = True) -> None:
+        """Tint the nodes of ``pocket`` (a core.pockets.Pocket; ``labels`` the (ny, nx) label array of
+        ``type_map``), outline its bounding box, star its peak and, with ``centre``, bring it into view."""
+        if pocket is None or labels is None or type_map is None:
+            self.pocket_overlay.clear()
+            self.pocket_box.setData([], [])
+            self.pocket_peak.setData([], [])
+            return
+        tint = np.zeros((*labels.shape, 4), dtype=np.uint8)
+        tint[labels == pocket.label] = hex_to_rgba(HIGHLIGHT_COLOUR, 120)
+        domain = type_map.domain
+        dx, dy = domain.spacing
+        self.pocket_overlay.setImage(tint, autoLevels=False, levels=(0, 255))
+        self.pocket_overlay.setRect(QRectF(domain.xmin - dx / 2, domain.ymin - dy / 2, domain.nx * dx,
+                                           domain.ny * dy))
+        x0, x1, y0, y1 = pocket.bounding_box
+        x0, x1, y0, y1 = x0 - dx / 2, x1 + dx / 2, y0 - dy / 2, y1 + dy / 2
+        self.pocket_box.setData([x0, x1, x1, x0, x0], [y0, y0, y1, y1, y0])
+        if pocket.peak_at is not None:
+            self.pocket_peak.setData([pocket.peak_at[0]], [pocket.peak_at[1]])
+        else:
+            self.pocket_peak.setData([], [])
+        if centre:
+            self.centre_on((x0, x1, y0, y1), pocket.centroid)
+
+    def centre_on(self, box: tuple[float, float, float, float], point: tuple[float, float]) -> None:
+        """Pan so that ``point`` is in the middle, zooming out only as far as needed to show ``box``."""
+        (vx0, vx1), (vy0, vy1) = self.view_box.viewRange()
+        width = max(vx1 - vx0, 1.1 * (box[1] - box[0]), 2.2 * max(point[0] - box[0], box[1] - point[0]))
+        height = max(vy1 - vy0, 1.1 * (box[3] - box[2]), 2.2 * max(point[1] - box[2], box[3] - point[1]))
+        self.view_box.setRange(xRange=(point[0] - width / 2, point[0] + width / 2),
+                               yRange=(point[1] - height / 2, point[1] + height / 2), padding=0)
 
     def clear_type_map(self) -> None:
         self.image.clear()

@@ -14,6 +14,7 @@ from core.classify import TypeCode
 __all__ = [
     "FAMILY_COLOURS",
     "FAMILY_DASHES",
+    "HIGHLIGHT_COLOUR",
     "PIN_COLOUR",
     "SEGMENT_COLOUR",
     "TYPE_COLOURS",
@@ -41,6 +42,7 @@ FAMILY_COLOURS = {1: "#0072B2", 2: "#009E73"}   # blue, bluish green: both stand
 FAMILY_DASHES = {1: "solid", 2: "dash"}
 PIN_COLOUR = "#CC79A7"                # reddish purple
 SEGMENT_COLOUR = "#CC79A7"            # reddish purple, dotted: seed segments are user marks, like pins
+HIGHLIGHT_COLOUR = "#D55E00"          # vermillion: the pocket chosen in the pockets table (tint, box, peak)
 
 
 def hex_to_rgba(colour: str, alpha: int = 255) -> tuple[int, int, int, int]:

@@ -27,10 +27,11 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.trade import READOUT_UNITS
 from gui.document import Document
 from gui.study import SeedLine
 
-__all__ = ["PinsPanel", "pins_as_text", "probe_rows"]
+__all__ = ["TRADE_LABELS", "PinsPanel", "main_trade_text", "pins_as_text", "probe_rows", "trade_rows"]
 
 _COLUMNS = ("label", "x", "y", "type", "D")
 
@@ -94,13 +95,91 @@ def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[st
     return rows
 
 
-def pins_as_text(pins, results, variables: tuple[str, str] = ("x", "y")) -> str:
+# readout key (core.trade) -> (what it is, why it can be missing); units come from core.trade.READOUT_UNITS
+TRADE_LABELS: dict[str, tuple[str, str]] = {
+    "speed": ("flow speed |V|", ""),
+    "mach": ("local Mach number M", ""),
+    "flow_angle_deg": ("flow angle θ", "flow at rest"),
+    "mach_angle_deg": ("Mach angle μ = asin(1/M)", "subsonic (M < 1): no Mach waves"),
+    "characteristic_plus_deg": ("characteristic θ + μ", "none where the flow is subsonic"),
+    "characteristic_minus_deg": ("characteristic θ − μ", "none where the flow is subsonic"),
+    "pressure_ratio": ("pressure ratio p/p0 (isentropic)", ""),
+    "temperature_ratio": ("temperature ratio T/T0 (isentropic)", ""),
+    "density_ratio": ("density ratio ρ/ρ0 (isentropic)", ""),
+    "celerity": ("wave celerity √(g h)", "no depth"),
+    "froude": ("Froude number Fr", ""),
+    "wave_angle_deg": ("wave angle β = asin(1/Fr)", "subcritical (Fr < 1): no standing waves"),
+    "ray_slope": ("ray slope |dz/dx|", "outside f < ω < N: no propagating waves"),
+    "ray_angle_deg": ("ray angle", "outside f < ω < N: no propagating waves"),
+    "in_window": ("in the frequency window f < ω < N", ""),
+}
+_TRADE_TITLES = {"mach": "compressible flow", "small_disturbance": "transonic small disturbance",
+                 "froude": "shallow-water flow", "internal_wave": "internal waves"}
+_FROUDE_LABELS = {"characteristic_plus_deg": ("characteristic θ + β", "none where the flow is subcritical"),
+                  "characteristic_minus_deg": ("characteristic θ − β", "none where the flow is subcritical")}
+_DIRECTION_KEYS = ("flow_angle_deg", "characteristic_plus_deg", "characteristic_minus_deg")
+
+
+def _unit_text(key: str, first_variable: str, spec=None) -> str:
+    """The unit after a trade value: core.trade.READOUT_UNITS worded for the panel."""
+    unit = READOUT_UNITS.get(key, "")
+    if unit == "deg":
+        return f"° from the {first_variable} axis" if key in _DIRECTION_KEYS else "°"
+    if unit.startswith("deg "):
+        return "° " + unit[4:]
+    if unit.startswith("dimensionless"):
+        return " (dimensionless)"          # the label already names the ratio
+    if unit.startswith("velocity unit"):
+        inputs = next((dict(v) for v in (spec or {}).values() if "u" in v and "v" in v), {"u": "u", "v": "v"})
+        return f" (unit of {inputs['u']}, {inputs['v']})"
+    return f" ({unit})" if unit else ""
+
+
+def trade_rows(readout, trade=None, variables: tuple[str, str] = ("x", "y")) -> list[tuple[str, str]]:
+    """(quantity, value with unit) rows for a core.trade readout dict (a str is a reason it is missing).
+
+    ``trade`` is the equation's trade spec (it decides the wording for the shallow-water analogy).
+    """
+    if isinstance(readout, str):
+        return [("trade quantities", readout)] if readout else []
+    labels = dict(TRADE_LABELS)
+    if trade and "froude" in trade:
+        labels.update(_FROUDE_LABELS)
+    rows = []
+    for key, value in dict(readout or {}).items():
+        name, missing = labels.get(key, (key.replace("_", " "), ""))
+        if key == "in_window":
+            rows.append((name, "yes" if value == 1.0 else "no"))
+            continue
+        if value is None or not math.isfinite(float(value)):
+            rows.append((name, f"none ({missing})" if missing else "undefined"))
+            continue
+        rows.append((name, f"{_number(value, 5)}{_unit_text(key, variables[0], trade)}"))
+    return rows
+
+
+def main_trade_text(readout) -> str:
+    """The one trade number the status bar shows while hovering (M, Fr or the ray angle), or ''."""
+    if not isinstance(readout, dict):
+        return ""
+    for key, symbol, unit in (("mach", "M", ""), ("froude", "Fr", ""), ("ray_angle_deg", "ray angle", "°")):
+        if key in readout:
+            value = readout[key]
+            if value is None or not math.isfinite(float(value)):
+                return f"{symbol}: none"
+            return f"{symbol} = {_number(value, 4)}{unit}"
+    return ""
+
+
+def pins_as_text(pins, results, variables: tuple[str, str] = ("x", "y"), trades=(), trade=None) -> str:
     """Plain text for the clipboard: one block per pin, one 'quantity: value' line each."""
     blocks = []
     for index, pin in enumerate(pins):
         lines = [f"Pin {pin.label or index + 1}"]
         if index < len(results) and results[index] is not None:
             lines += [f"  {name}: {value}" for name, value in probe_rows(results[index], variables)]
+            if index < len(trades):
+                lines += [f"  {name}: {value}" for name, value in trade_rows(trades[index], trade, variables)]
         else:
             lines.append(f"  point: {variables[0]} = {pin.x:.6g}, {variables[1]} = {pin.y:.6g} (not probed yet)")
         blocks.append("\n".join(lines))
@@ -116,6 +195,7 @@ class PinsPanel(QWidget):
         super().__init__(parent)
         self.document = document
         self.results: tuple = ()
+        self.trades: tuple = ()
         self._updating = False
         purpose = QLabel("Pinned points. Click the map to pin a point (drag a pin to move it); select one to "
                          "read everything known there.")
@@ -169,6 +249,10 @@ class PinsPanel(QWidget):
         self.results = tuple(results or ())
         self.refresh()
 
+    def set_trade_readouts(self, readouts) -> None:
+        """Trade readouts (core.trade dicts, or a reason as text), one per pin; shown with the next results."""
+        self.trades = tuple(readouts or ())
+
     def _variables(self) -> tuple[str, str]:
         return tuple(self.document.study.equation.variables)  # type: ignore[return-value]
 
@@ -220,10 +304,18 @@ class PinsPanel(QWidget):
         if result is None or not np.allclose(getattr(result, "point", (np.nan, np.nan)), (pin.x, pin.y)):
             self.details.setHtml(f"<p><b>{html.escape(pin.label)}</b>: reading…</p>")
             return
-        rows = "".join(f"<tr><td style='padding-right:10px; color:#444'>{html.escape(name)}</td>"
-                       f"<td>{html.escape(value)}</td></tr>"
-                       for name, value in probe_rows(result, self._variables()))
-        self.details.setHtml(f"<p><b>{html.escape(pin.label)}</b></p><table>{rows}</table>")
+        def table(rows) -> str:
+            return "".join(f"<tr><td style='padding-right:10px; color:#444'>{html.escape(name)}</td>"
+                           f"<td>{html.escape(value)}</td></tr>" for name, value in rows)
+
+        body = f"<p><b>{html.escape(pin.label)}</b></p><table>{table(probe_rows(result, self._variables()))}</table>"
+        trade = self.document.study.equation.trade
+        readout = self.trades[index] if index < len(self.trades) else None
+        if trade and readout is not None:
+            kinds = ", ".join(_TRADE_TITLES.get(kind, kind) for kind in trade)
+            body += (f"<p style='margin-top:8px'><b>Trade quantities</b> <span style='color:#555'>({kinds})"
+                     f"</span></p><table>{table(trade_rows(readout, trade, self._variables()))}</table>")
+        self.details.setHtml(body)
 
     # -- actions --------------------------------------------------------------------------------------------
     def _edited(self, item: QTableWidgetItem) -> None:
@@ -261,6 +353,7 @@ class PinsPanel(QWidget):
         return self.document.remove_pin(index)
 
     def copy_text(self) -> str:
-        text = pins_as_text(self.document.study.pins, self.results, self._variables())
+        text = pins_as_text(self.document.study.pins, self.results, self._variables(), self.trades,
+                            self.document.study.equation.trade)
         QGuiApplication.clipboard().setText(text)
         return text

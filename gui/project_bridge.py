@@ -1,13 +1,15 @@
 """Between the window's Study and core's project document: conversion, files, the starting study.
 
-core.project names the shown equation and domain and stores one switch for both characteristic families;
-the window indexes them and switches each family separately (both follow the stored switch on opening).
+core.project names the shown equation and domain; the window indexes them. Data files are recorded in the
+project file relative to the file's folder; in the window they are absolute, so that a study can be saved
+elsewhere (or not saved yet) without its data references breaking.
 """
 
 from __future__ import annotations
 
+import os
 from dataclasses import replace
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 from core.domain import Domain
 from core.equation import Equation, Parameter
@@ -16,8 +18,10 @@ from gui.study import Layers, PinMark, SeedLine, Study
 __all__ = [
     "PROJECT_FILTER",
     "StudyFileError",
+    "absolute_data_path",
     "load_study",
     "project_from_study",
+    "relative_data_path",
     "save_study",
     "scratch_study",
     "starting_study",
@@ -31,14 +35,38 @@ class StudyFileError(Exception):
     """A study could not be read or written; the message is for the user (one line per problem)."""
 
 
-def study_from_project(project) -> Study:
-    """A Study showing the project's shown equation and domain."""
+def absolute_data_path(recorded: str, project_path: str | Path | None) -> str:
+    """A data path as recorded in a project file, made absolute against the file's folder (the current
+    folder when the study has no file)."""
+    path = Path(*PurePosixPath(recorded).parts) if "/" in recorded else Path(recorded)
+    if not path.is_absolute():
+        base = Path(project_path).resolve().parent if project_path is not None else Path.cwd()
+        path = base / path
+    return os.path.normpath(str(path))
+
+
+def relative_data_path(path: str, project_path: str | Path | None) -> str:
+    """An absolute data path as a project file records it: relative to the file's folder with '/'
+    separators, or absolute (with '/') when there is no file or the data lie on another drive."""
+    if project_path is None:
+        return Path(path).as_posix()
+    try:
+        relative = os.path.relpath(path, Path(project_path).resolve().parent)
+    except ValueError:   # another drive (Windows): no relative path exists
+        return Path(path).as_posix()
+    return PurePosixPath(*Path(relative).parts).as_posix()
+
+
+def study_from_project(project, project_path: str | Path | None = None) -> Study:
+    """A Study showing the project's shown equation and domain (data paths made absolute)."""
     equations = tuple(project.equations)
     domains = tuple(project.domains)
     view = project.view
     layers = Layers(type_map=view.show_type_map, type_lines=view.show_type_change_lines,
-                    family_1=view.show_characteristics, family_2=view.show_characteristics,
+                    family_1=view.show_characteristics_family_1, family_2=view.show_characteristics_family_2,
                     pins=view.show_pins, seeds=view.show_characteristics, legend=view.show_legend)
+    sources = tuple(replace(s, path=absolute_data_path(s.path, project_path))
+                    for s in getattr(project, "data_sources", ()))
     return Study(
         equations=equations,
         domains=domains,
@@ -51,16 +79,19 @@ def study_from_project(project) -> Study:
         tolerance=float(view.parabolic_tolerance),
         notes=project.notes,
         metadata=project.metadata,
+        data_sources=sources,
     )
 
 
-def project_from_study(study: Study):
-    """The core Project for a Study (raises ValueError when names collide, as core requires)."""
+def project_from_study(study: Study, project_path: str | Path | None = None):
+    """The core Project for a Study, data paths relative to ``project_path``'s folder (raises ValueError
+    when names collide, as core requires)."""
     from core.project import Metadata, Pin, Project, Seed, ViewSettings, utc_timestamp
 
     layers = study.layers
     view = ViewSettings(show_type_map=layers.type_map, show_type_change_lines=layers.type_lines,
-                        show_characteristics=layers.family_1 or layers.family_2, show_pins=layers.pins,
+                        show_characteristics_family_1=layers.family_1,
+                        show_characteristics_family_2=layers.family_2, show_pins=layers.pins,
                         show_legend=layers.legend, parabolic_tolerance=study.tolerance)
     metadata = study.metadata
     if metadata is None:
@@ -76,6 +107,7 @@ def project_from_study(study: Study):
         view=view,
         notes=study.notes,
         metadata=metadata,
+        data_sources=tuple(replace(s, path=relative_data_path(s.path, project_path)) for s in study.data_sources),
     )
 
 
@@ -86,7 +118,7 @@ def load_study(path: str | Path) -> Study:
     except ImportError as error:
         raise StudyFileError(f"project files are not available in this build ({error})") from None
     try:
-        return study_from_project(load_project(path))
+        return study_from_project(load_project(path), path)
     except ProjectError as error:
         raise StudyFileError(str(error)) from None
     except (OSError, ValueError, KeyError) as error:
@@ -100,7 +132,7 @@ def save_study(study: Study, path: str | Path) -> Study:
     except ImportError as error:
         raise StudyFileError(f"project files are not available in this build ({error})") from None
     try:
-        written = save_project(project_from_study(study), path)
+        written = save_project(project_from_study(study, path), path)
     except ProjectError as error:
         raise StudyFileError(str(error)) from None
     except (OSError, ValueError, KeyError) as error:

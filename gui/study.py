@@ -118,6 +118,7 @@ class Study:
     tolerance: float = DEFAULT_TOLERANCE
     notes: str = ""
     metadata: object = None   # carried unchanged for the project file (creation time, writer)
+    data_sources: tuple = ()  # core.project.DataSourceRef, each path absolute (made relative in the file)
 
     def __post_init__(self) -> None:
         if not self.equations or not self.domains:

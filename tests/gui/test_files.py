@@ -138,3 +138,26 @@ def test_headless_render_of_a_project_file(make_window, tmp_path):
     picture = QImage(str(tmp_path / "map.png"))
     assert picture.width() >= 700 and picture.height() >= 500
     assert QImage(str(tmp_path / "window.png")).width() == 1200
+
+
+def test_characteristic_family_switches_round_trip_separately(make_window, tmp_path):
+    window = make_window(tricomi_study(21))
+    window.document.add_seed(SeedLine(start=(0.0, -1.0)))
+    window.layers_panel.boxes["family_1"].setChecked(False)
+    assert not window.map_view.family_curves[1].isVisible() and window.map_view.family_curves[2].isVisible()
+    path = tmp_path / "families.mixtype.json"
+    assert window.save_to(path)
+    layers = json.loads(path.read_text(encoding="utf-8"))["view"]["layers"]
+    assert layers["characteristics_family_1"] is False and layers["characteristics_family_2"] is True
+
+    other = make_window(hump_study(nx=41, ny=31))
+    assert other.open_path(path)
+    assert other.document.study.layers.family_1 is False and other.document.study.layers.family_2 is True
+    assert not other.layers_panel.boxes["family_1"].isChecked() and other.layers_panel.boxes["family_2"].isChecked()
+    assert not other.map_view.family_curves[1].isVisible() and other.map_view.family_curves[2].isVisible()
+    other.document.set_layer("family_1", True)
+    other.document.set_layer("family_2", False)
+    assert other.save_to(path)
+    third = make_window(hump_study(nx=41, ny=31))
+    assert third.open_path(path)
+    assert third.document.study.layers.family_1 is True and third.document.study.layers.family_2 is False

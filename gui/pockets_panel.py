@@ -1,0 +1,148 @@
+"""The hyperbolic pockets of the current map: a table of their areas, centres and peaks.
+
+A pocket is a connected region of hyperbolic grid nodes (a supersonic zone over a wing, a supercritical reach
+of a river, the depth band where internal waves propagate). core.pockets measures them in the background after
+each map; this panel lists them, largest first, and asks the map to centre on and highlight the one clicked.
+Areas are in (first variable's unit) × (second variable's unit); positions in the equation's length units.
+"""
+
+from __future__ import annotations
+
+import math
+
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHeaderView,
+    QLabel,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from gui.document import Document
+
+__all__ = ["PocketsPanel", "pocket_row"]
+
+
+def _number(value, digits: int = 4) -> str:
+    if value is None or not math.isfinite(float(value)):
+        return "—"
+    return f"{float(value) + 0.0:.{digits}g}"
+
+
+def pocket_row(pocket) -> tuple[str, ...]:
+    """The table cells of one core.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge."""
+    cx, cy = pocket.centroid
+    if pocket.peak is None:
+        peak, where = "—", "—"
+    else:
+        peak = _number(pocket.peak)
+        where = f"({_number(pocket.peak_at[0])}, {_number(pocket.peak_at[1])})"
+    return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx)}, {_number(cy)})",
+            peak, where, "yes" if pocket.touches_boundary else "no")
+
+
+class PocketsPanel(QWidget):
+    """Lists a PocketReport (gui.analysis); emits ``pocket_chosen`` with the pocket clicked (None: none)."""
+
+    pocket_chosen = Signal(object)   # core.pockets.Pocket or None
+
+    def __init__(self, document: Document, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.document = document
+        self.report = None
+        purpose = QLabel("Connected hyperbolic regions of the map (supersonic pockets, supercritical reaches, "
+                         "zones where waves propagate), largest first. Click a row to centre the map on it.")
+        purpose.setWordWrap(True)
+        purpose.setObjectName("panelPurpose")
+        self.summary = QLabel("No map yet.")
+        self.summary.setObjectName("pocketSummary")
+        self.summary.setWordWrap(True)
+
+        self.table = QTableWidget(0, 7)
+        self.table.setObjectName("pocketTable")
+        self.table.verticalHeader().setVisible(False)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.itemSelectionChanged.connect(self._selected)
+        self.table.setMinimumHeight(110)
+
+        layout = QVBoxLayout(self)
+        layout.addWidget(purpose)
+        layout.addWidget(self.summary)
+        layout.addWidget(self.table, 1)
+        document.equation_changed.connect(self._label_columns)
+        self._label_columns()
+
+    # -- display --------------------------------------------------------------------------------------------
+    def _label_columns(self, quantity: str | None = None) -> None:
+        first, second = self.document.study.equation.variables
+        quantity = quantity or self.document.study.equation.peak_quantity or ""
+        peak = f"peak {quantity}" if quantity else "peak"
+        headers = ["#", f"area ({first} unit × {second} unit)", "nodes", f"centroid ({first}, {second})", peak,
+                   "peak at", "reaches edge"]
+        tips = ["Pocket number, largest area first",
+                f"Area of the pocket's grid nodes (trapezoid weights), in {first} units times {second} units",
+                "Grid nodes in the pocket: few nodes mean the pocket is barely resolved; refine the grid",
+                "Area-weighted centre of the pocket, in the equation's length units",
+                (f"Largest value of the definition {quantity} on the pocket's nodes, in {quantity}'s own units"
+                 if quantity else "The equation names no peak quantity"),
+                "The node where the peak is reached",
+                "Whether the pocket reaches the edge of the domain (it may continue outside)"]
+        self.table.setHorizontalHeaderLabels(headers)
+        for column, tip in enumerate(tips):
+            self.table.horizontalHeaderItem(column).setToolTip(tip)
+
+    def mark_stale(self, *args) -> None:
+        """A new map arrived: the listed pockets are about to be replaced."""
+        self.summary.setText("Measuring the pockets of the new map…")
+
+    def set_report(self, report) -> None:
+        """Show a gui.analysis.PocketReport (None clears the table)."""
+        self.report = report
+        self.table.blockSignals(True)
+        try:
+            pockets = () if report is None else report.pockets
+            self._label_columns(None if report is None else report.quantity)
+            self.table.clearSelection()
+            self.table.setRowCount(len(pockets))
+            for row, pocket in enumerate(pockets):
+                for column, text in enumerate(pocket_row(pocket)):
+                    item = QTableWidgetItem(text)
+                    if column in (0, 1, 2, 4):
+                        item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+                    self.table.setItem(row, column, item)
+        finally:
+            self.table.blockSignals(False)
+        self.summary.setText(self._summary_text(report))
+        self.pocket_chosen.emit(None)
+
+    def _summary_text(self, report) -> str:
+        if report is None:
+            return "No map yet."
+        pockets = report.pockets
+        if not pockets:
+            return "No hyperbolic pocket on this map."
+        first, second = self.document.study.equation.variables
+        total = sum(p.area for p in pockets)
+        share = 100.0 * float(report.type_map.fractions.get("hyperbolic", math.nan))
+        noun = "pocket" if len(pockets) == 1 else "pockets"
+        return (f"{len(pockets)} {noun}, total area {_number(total)} ({first} unit × {second} unit); "
+                f"{share:.1f} % of the grid nodes are hyperbolic.")
+
+    def selected_pocket(self):
+        rows = self.table.selectionModel().selectedRows()
+        if not rows or self.report is None or not 0 <= rows[0].row() < len(self.report.pockets):
+            return None
+        return self.report.pockets[rows[0].row()]
+
+    def select(self, row: int) -> None:
+        if 0 <= row < self.table.rowCount():
+            self.table.selectRow(row)
+
+    def _selected(self) -> None:
+        self.pocket_chosen.emit(self.selected_pocket())
