@@ -2,8 +2,11 @@
 
 Output formats are a contract: ``--json`` prints one JSON document on stdout; bad input exits with status 2
 and a one-line message on stderr, never a traceback, and nothing the user typed is ever executed.
-classify, probe and trace take the equation and domain inline or from a project FILE (inline options then
-override the file's values); ``check FILE`` validates a project file and lists every problem in it.
+classify, probe and trace take the equation and domain inline, from a template (``--template NAME``) or from
+a project FILE (inline options then override), plus background data files (``--data PATH[:NAMES]``, added to
+FILE's); see core.cli_study. ``check FILE`` validates a project file, lists every problem in it and opens
+its data files: a missing or unreadable data file exits with status 2, a data file changed since the project
+was saved only prints a warning on stderr. ``templates`` lists the templates.
 """
 
 from __future__ import annotations
@@ -13,21 +16,17 @@ import json
 import math
 import sys
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
+from dataclasses import replace
 
-from core.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
+from core.classify import TypeCode, classify_grid
+from core.cli_study import Study, UsageError, add_equation_options, build_study, finite
 from core.expr import ExpressionError
 
 __all__ = ["UsageError", "main"]
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
-
-
-class UsageError(Exception):
-    """Bad command-line input: reported as one line on stderr with exit status 2."""
+MAX_POCKET_ROWS = 20
 
 
 class _Parser(argparse.ArgumentParser):
@@ -35,73 +34,28 @@ class _Parser(argparse.ArgumentParser):
         raise UsageError(message)
 
 
-@dataclass(frozen=True)
-class Study:
-    """What a headless command works on: an equation, a domain and the options around them."""
-
-    equation: Equation
-    domain: Domain
-    parameters: dict[str, float]
-    tolerance: float
-    project: object | None = None    # the core.project.Project read from FILE, if one was given
-    source: dict | None = None       # {"file", "equation", "domain"} when the study comes from a FILE
-
-
-def _finite(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not math.isfinite(value):
-        raise argparse.ArgumentTypeError(f"{text!r} is not a finite number")
-    return value
-
-
-def _assignment(text: str) -> tuple[str, str]:
-    name, sep, value = text.partition("=")
-    if not sep or not name.strip():
-        raise argparse.ArgumentTypeError(f"expected NAME=VALUE, got {text!r}")
-    return name.strip(), value.strip()
-
-
-def _add_equation_options(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", nargs="?", metavar="FILE",
-                        help="a project file (.mixtype.json) giving the equation and domain; options override it")
-    group = parser.add_argument_group("equation and domain (a u_xx + b u_xy + c u_yy + ... = 0)")
-    group.add_argument("--equation", metavar="NAME", help="which equation of FILE (default: the one it shows)")
-    group.add_argument("--vars", nargs=2, metavar=("X", "Y"), help="names of the two variables (default x y)")
-    group.add_argument("--a", metavar="EXPR", help="coefficient of u_xx")
-    group.add_argument("--b", metavar="EXPR", help="coefficient of u_xy")
-    group.add_argument("--c", metavar="EXPR", help="coefficient of u_yy")
-    group.add_argument("--let", action="append", type=_assignment, default=[], metavar="NAME=EXPR",
-                       help="a named definition usable in a, b, c and other definitions (repeatable)")
-    group.add_argument("--param", action="append", type=_assignment, default=[], metavar="NAME=VALUE",
-                       help="a named number (repeatable)")
-    group.add_argument("--domain", nargs="+", metavar="NAME | XMIN XMAX YMIN YMAX",
-                       help="a domain of FILE by name, or the rectangle (which overrides FILE's)")
-    group.add_argument("--grid", nargs="+", type=int, metavar="N", help="N (square) or NX NY grid nodes")
-    group.add_argument("--tolerance", type=_finite, default=None,
-                       help=f"parabolic tolerance on |D|/(b^2+4|ac|) (default: FILE's, else {DEFAULT_TOLERANCE:g})")
-    parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
-
-
 def _build_parser() -> _Parser:
     parser = _Parser(prog="mixtype", description="Where is a second-order PDE elliptic, parabolic or "
                      "hyperbolic? Without a command, opens the window.")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    classify = commands.add_parser("classify", help="type map: area fractions and type-change lines")
-    _add_equation_options(classify)
+    classify = commands.add_parser("classify", help="type map: area fractions, type-change lines and "
+                                   "hyperbolic pockets")
+    add_equation_options(classify)
     classify.add_argument("--raw", action="store_true", help="skip refining lines onto D = 0")
     classify.add_argument("--save-project", metavar="FILE", help="also write a project file holding the "
-                          "equation and domain used")
+                          "equation, domain and data files used (data paths recorded relative to FILE)")
     probe = commands.add_parser("probe", help="everything known at one point (or at every pin of FILE)")
-    _add_equation_options(probe)
-    probe.add_argument("--at", nargs=2, type=_finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
+    add_equation_options(probe)
+    probe.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
     trace = commands.add_parser("trace", help="the two characteristics through a point (or FILE's seeds)")
-    _add_equation_options(trace)
-    trace.add_argument("--from", dest="seed", nargs=2, type=_finite, metavar=("X", "Y"),
+    add_equation_options(trace)
+    trace.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
                        help="the seed point (default: FILE's seeds)")
-    check = commands.add_parser("check", help="validate a project file and list every problem in it")
+    check = commands.add_parser("check", help="validate a project file and open its data files",
+                                description="Validate a project file and list every problem in it, then open "
+                                "the data files it lists. Exit status 2 when the file is invalid or a data file "
+                                "is missing or unreadable; a data file that changed since the project was saved "
+                                "is a warning on stderr (exit status 0).")
     check.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
     check.add_argument("--json", action="store_true", help="print one JSON document instead of text")
     render = commands.add_parser("render", help="draw the map (or the whole window) of a project to a PNG")
@@ -109,119 +63,31 @@ def _build_parser() -> _Parser:
     render.add_argument("--out", required=True, metavar="PNG", help="the picture to write")
     render.add_argument("--window", action="store_true", help="draw the whole main window, not only the map")
     render.add_argument("--size", nargs=2, type=int, default=None, metavar=("W", "H"), help="size in pixels")
+    templates = commands.add_parser("templates", help="list the equation templates --template accepts")
+    templates.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
     return parser
 
 
-def _parameter_value(name: str, text: str) -> float:
-    try:
-        return _finite(text)
-    except argparse.ArgumentTypeError as error:
-        raise UsageError(f"--param {name}: {error}") from None
-
-
-def _grid(args: argparse.Namespace, default: tuple[int, int]) -> tuple[int, int]:
-    grid = args.grid or list(default)
-    if len(grid) not in (1, 2):
-        raise UsageError(f"--grid takes N or NX NY, got {len(grid)} numbers")
-    return (grid[0], grid[0]) if len(grid) == 1 else (grid[0], grid[1])
-
-
-def _rectangle(args: argparse.Namespace) -> list[float] | None:
-    """The four numbers of --domain XMIN XMAX YMIN YMAX, or None when --domain names a domain or is absent."""
-    if args.domain is None or (len(args.domain) == 1 and args.file):
-        return None
-    if len(args.domain) == 1:
-        raise UsageError(f"--domain {args.domain[0]}: a domain NAME picks a domain of a project FILE, and no FILE "
-                         "was given (or give XMIN XMAX YMIN YMAX)")
-    if len(args.domain) != 4:
-        raise UsageError(f"--domain takes XMIN XMAX YMIN YMAX{', or a domain NAME of FILE' if args.file else ''}, "
-                         f"got {len(args.domain)} value{'s' * (len(args.domain) != 1)}")
-    try:
-        return [_finite(text) for text in args.domain]
-    except argparse.ArgumentTypeError as error:
-        raise UsageError(f"--domain: {error}") from None
-
-
-def _study(args: argparse.Namespace) -> Study:
-    """The equation and domain of a command; every problem is a UsageError naming the option."""
-    if args.file:
-        return _study_from_file(args)
-    if args.equation is not None:
-        raise UsageError("--equation NAME picks an equation of a project FILE, and no FILE was given")
-    missing = [f"--{k}" for k in ("a", "b", "c") if getattr(args, k) is None]
-    if missing:
-        raise UsageError(f"missing {', '.join(missing)} (the coefficients of u_xx, u_xy, u_yy)")
-    if args.domain is None:
-        raise UsageError("missing --domain XMIN XMAX YMIN YMAX")
-    rectangle = _rectangle(args)
-    parameters = {name: Parameter(_parameter_value(name, text)) for name, text in args.param}
-    definitions = dict(args.let)
-    equation = Equation(a=args.a, b=args.b, c=args.c, variables=tuple(args.vars or ("x", "y")),
-                        definitions=definitions, parameters=parameters)
-    nx, ny = _grid(args, (201, 201))
-    try:
-        domain = Domain(*rectangle, nx=nx, ny=ny)
-    except ValueError as error:
-        raise UsageError(f"--domain/--grid: {error}") from None
-    tolerance = DEFAULT_TOLERANCE if args.tolerance is None else args.tolerance
-    return Study(equation, domain, {n: p.value for n, p in parameters.items()}, tolerance)
-
-
-def _load_project(path: str):
-    """The project at ``path``; a UsageError quoting its first problem otherwise."""
-    from core.project_io import ProjectError, load_project
-
-    try:
-        return load_project(path)
-    except ProjectError as error:
-        more = len(error.problems) - 1
-        tail = f" (and {more} more problem{'s' * (more > 1)}: run 'mixtype check {path}')" if more else ""
-        raise UsageError(error.problems[0] + tail) from None
-
-
-def _study_from_file(args: argparse.Namespace) -> Study:
-    """The equation and domain of project FILE, with the inline options given beside it put in their place."""
-    project = _load_project(args.file)
-    try:
-        equation = project.shown()[0] if args.equation is None else project.equation(args.equation)
-        named = args.domain is not None and len(args.domain) == 1
-        domain = project.domain(args.domain[0] if named else project.shown_domain)
-    except KeyError as error:
-        raise UsageError(f"{args.file}: {error.args[0]}") from None
-    changes: dict[str, object] = {k: getattr(args, k) for k in ("a", "b", "c") if getattr(args, k) is not None}
-    if args.vars:
-        changes["variables"] = tuple(args.vars)
-    if args.let:
-        changes["definitions"] = {**equation.definitions, **dict(args.let)}
-    if args.param:
-        parameters = dict(equation.parameters)
-        for name, text in args.param:
-            value = _parameter_value(name, text)
-            old = parameters.get(name, Parameter(value))
-            inside = (old.minimum is None or old.minimum <= value) and (old.maximum is None or value <= old.maximum)
-            parameters[name] = replace(old, value=value) if inside else replace(old, value=value, minimum=None,
-                                                                                maximum=None)
-        changes["parameters"] = parameters
-    equation = replace(equation, **changes)
-    rectangle = _rectangle(args)
-    nx, ny = _grid(args, (domain.nx, domain.ny))
-    try:
-        bounds = rectangle or [domain.xmin, domain.xmax, domain.ymin, domain.ymax]
-        domain = Domain(*bounds, nx=nx, ny=ny, name=domain.name)
-    except ValueError as error:
-        raise UsageError(f"--domain/--grid: {error}") from None
-    tolerance = project.view.parabolic_tolerance if args.tolerance is None else args.tolerance
-    return Study(equation, domain, equation.parameter_values(), tolerance, project=project,
-                 source={"file": args.file, "equation": equation.name, "domain": domain.name})
+def _study(args: argparse.Namespace, err) -> Study:
+    study = build_study(args)
+    for line in study.warnings:
+        err.write(f"mixtype: warning: {line}\n")
+    return study
 
 
 def _compiled(study: Study):
+    from core.project_data import compile_with_data
+
     try:
-        return compile_equation(study.equation)
+        return compile_with_data(study.equation, study.data)
     except ExpressionError as error:
         option = error.field.replace("definitions.", "--let ").replace("parameters.", "--param ")
         option = {"a": "--a", "b": "--b", "c": "--c", "variables": "--vars"}.get(option, option)
-        raise UsageError(f"{option}: {error.message}" + (f" (column {error.column})" if error.column else ""))
+        hint = ""
+        if error.message.startswith("unknown name") and study.data is None:
+            hint = " (if it is a data quantity, give its file with --data)"
+        raise UsageError(f"{option}: {error.message}" + (f" (column {error.column})" if error.column else "")
+                         + hint) from None
 
 
 def _json_number(value: float) -> float | None:
@@ -232,13 +98,41 @@ def _points(array) -> list[list[float]]:
     return [[float(x), float(y)] for x, y in array]
 
 
-def _run_classify(args: argparse.Namespace, out) -> int:
-    from core.boundary import find_type_boundaries
+def _data_document(study: Study) -> list[dict]:
+    """Which data files a result was computed from: path, checksum, quantities."""
+    if study.data is None:
+        return []
+    return [{"path": dataset.path, "checksum": dataset.checksum, "quantities": list(dataset.quantities)}
+            for dataset in study.data.datasets]
 
-    study = _study(args)
+
+def _peak_quantity(study: Study, compiled) -> str | None:
+    """The equation's peak quantity when pockets can report it (a definition, coefficient or data quantity)."""
+    name = study.equation.peak_quantity
+    usable = {*compiled.definition_order, "a", "b", "c", *(study.data.names if study.data else ())}
+    return name if name in usable else None
+
+
+def _pocket_document(pocket) -> dict:
+    peak = None
+    if pocket.peak is not None:
+        peak = {"quantity": pocket.quantity, "value": _json_number(pocket.peak), "at": list(pocket.peak_at)}
+    return {"area": float(pocket.area), "centroid": list(pocket.centroid), "bounding_box": list(pocket.bounding_box),
+            "nodes": int(pocket.node_count), "touches_boundary": bool(pocket.touches_boundary), "peak": peak}
+
+
+def _run_classify(args: argparse.Namespace, out, err) -> int:
+    from core.boundary import find_type_boundaries
+    from core.pockets import pocket_statistics
+
+    study = _study(args, err)
     compiled = _compiled(study)
-    type_map = classify_grid(compiled, study.domain, parameters=study.parameters, tolerance=study.tolerance)
-    boundaries = find_type_boundaries(compiled, type_map, refine=not args.raw)
+    type_map = classify_grid(compiled, study.domain, parameters=study.parameters, data=study.data,
+                             tolerance=study.tolerance)
+    boundaries = find_type_boundaries(compiled, type_map, parameters=study.parameters, data=study.data,
+                                      refine=not args.raw)
+    pockets = pocket_statistics(compiled, type_map, quantity=_peak_quantity(study, compiled),
+                                parameters=study.parameters, data=study.data)
     if args.save_project:
         _save_study(study, args.save_project)
     document = {
@@ -258,7 +152,10 @@ def _run_classify(args: argparse.Namespace, out) -> int:
             for region in boundaries.parabolic_regions
         ],
         "refined": bool(boundaries.refined),
+        "pockets": [_pocket_document(pocket) for pocket in pockets],
     }
+    if study.data is not None:
+        document["data"] = _data_document(study)
     if study.source:
         document["source"] = study.source
     if args.json:
@@ -269,6 +166,8 @@ def _run_classify(args: argparse.Namespace, out) -> int:
     if study.source:
         out.write(f"equation {study.source['equation']!r} on domain {study.source['domain']!r} "
                   f"of {study.source['file']}\n")
+    for dataset in (study.data.datasets if study.data else ()):
+        out.write(f"data {dataset.path}: {', '.join(dataset.quantities)}\n")
     out.write(f"grid {study.domain.nx} x {study.domain.ny} over {x} in [{study.domain.xmin:g}, "
               f"{study.domain.xmax:g}], {y} in [{study.domain.ymin:g}, {study.domain.ymax:g}]\n")
     out.write("type         share of grid nodes\n")
@@ -282,18 +181,44 @@ def _run_classify(args: argparse.Namespace, out) -> int:
                   f"{TypeCode(curve.left_type).label} on the left, {TypeCode(curve.right_type).label} on the right\n")
     for index, region in enumerate(boundaries.parabolic_regions, 1):
         out.write(f"  parabolic region {index}: area {region.area:.6g} (units of {x}*{y})\n")
+    _write_pockets(pockets, x, y, out)
     if args.save_project:
-        out.write(f"saved the equation and domain as a project in {args.save_project}\n")
+        files = len(study.data_files)
+        listed = f" (with {files} data file{'s' * (files != 1)})" if files else ""
+        out.write(f"saved the equation and domain as a project in {args.save_project}{listed}\n")
     return EXIT_OK
 
 
+def _write_pockets(pockets, x: str, y: str, out) -> None:
+    out.write(f"hyperbolic pockets: {len(pockets)} (areas in units of {x}*{y}, largest first)\n")
+    for index, pocket in enumerate(pockets[:MAX_POCKET_ROWS], 1):
+        x0, x1, y0, y1 = pocket.bounding_box
+        edge = ", reaches the domain's edge" if pocket.touches_boundary else ""
+        line = (f"  pocket {index}: area {pocket.area:.6g}, centroid ({pocket.centroid[0]:.6g}, "
+                f"{pocket.centroid[1]:.6g}), {x} in [{x0:.6g}, {x1:.6g}], {y} in [{y0:.6g}, {y1:.6g}]{edge}")
+        if pocket.peak is not None:
+            line += (f"; peak {pocket.quantity} = {pocket.peak:.6g} at ({pocket.peak_at[0]:.6g}, "
+                     f"{pocket.peak_at[1]:.6g})")
+        out.write(line + "\n")
+    if len(pockets) > MAX_POCKET_ROWS:
+        out.write(f"  ... and {len(pockets) - MAX_POCKET_ROWS} smaller pockets (see --json)\n")
+
+
 def _save_study(study: Study, path: str) -> None:
-    """Write a new project file holding the study's equation, domain and tolerance."""
+    """Write a new project file holding the study's equation, domain, tolerance and data files."""
+    from core.data import DataError
     from core.project import ViewSettings, new_project
+    from core.project_data import data_source_ref
     from core.project_io import ProjectError, save_project
 
     project = replace(new_project(study.equation, study.domain),
                       view=ViewSettings(parabolic_tolerance=study.tolerance))
+    try:
+        for item in study.data_files:
+            project = project.with_data_source(data_source_ref(item.location, path, names=item.names,
+                                                               format=item.format, note=item.note))
+    except DataError as error:
+        raise UsageError(f"--save-project: {error}") from None
     try:
         save_project(project, path)
     except ProjectError as error:
@@ -302,10 +227,31 @@ def _save_study(study: Study, path: str) -> None:
         raise UsageError(f"--save-project {path}: {error.strerror or error}") from None
 
 
-def _run_probe(args: argparse.Namespace, out) -> int:
+def _trade_values(study: Study, compiled, x: float, y: float) -> dict[str, float] | None:
+    """The equation's trade readouts at (x, y), or None when it names none."""
+    from core.trade import readout_at
+
+    if not study.equation.trade:
+        return None
+    try:
+        return readout_at(study.equation.trade, compiled, x, y, parameters=study.parameters, data=study.data)
+    except KeyError as error:
+        raise UsageError(f"trade readout: {error.args[0]}") from None
+
+
+def _trade_document(values: dict[str, float] | None) -> dict:
+    from core.trade import READOUT_UNITS
+
+    if values is None:
+        return {}
+    return {"trade": {name: _json_number(value) for name, value in values.items()},
+            "trade_units": {name: READOUT_UNITS.get(name, "") for name in values}}
+
+
+def _run_probe(args: argparse.Namespace, out, err) -> int:
     from core.probe import probe_point, probe_to_dict
 
-    study = _study(args)
+    study = _study(args, err)
     compiled = _compiled(study)
     if args.at is None:
         if study.project is None:
@@ -315,26 +261,32 @@ def _run_probe(args: argparse.Namespace, out) -> int:
         points = [(pin.x, pin.y, pin.label) for pin in study.project.pins]
     else:
         points = [(args.at[0], args.at[1], None)]
-    results = [(probe_point(compiled, x, y, parameters=study.parameters, tolerance=study.tolerance,
-                            domain=study.domain), label) for x, y, label in points]
+    results = [(probe_point(compiled, x, y, parameters=study.parameters, data=study.data,
+                            tolerance=study.tolerance, domain=study.domain), label,
+                _trade_values(study, compiled, x, y)) for x, y, label in points]
     if args.json:
         if args.at is not None:
-            document = probe_to_dict(results[0][0])
+            document = {**probe_to_dict(results[0][0]), **_trade_document(results[0][2])}
         else:
-            document = {"pins": [{"label": label, **probe_to_dict(result)} for result, label in results]}
+            document = {"pins": [{"label": label, **probe_to_dict(result), **_trade_document(trade)}
+                                 for result, label, trade in results]}
+        if study.data is not None:
+            document["data"] = _data_document(study)
         if study.source:
             document["source"] = study.source
         json.dump(document, out)
         out.write("\n")
         return EXIT_OK
-    for index, (result, label) in enumerate(results):
+    for index, (result, label, trade) in enumerate(results):
         if label is not None:
             out.write(("\n" if index else "") + f"pin {index + 1}" + (f": {label}" if label else "") + "\n")
-        _write_probe(result, out)
+        _write_probe(result, trade, out)
     return EXIT_OK
 
 
-def _write_probe(result, out) -> None:
+def _write_probe(result, trade: dict[str, float] | None, out) -> None:
+    from core.trade import READOUT_UNITS
+
     rows = [("point", f"({result.point[0]:.9g}, {result.point[1]:.9g})"),
             ("type", TypeCode(result.type).label),
             ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
@@ -351,6 +303,9 @@ def _write_probe(result, out) -> None:
         rows.append(("anisotropy ratio", f"{result.anisotropy:.6g} (dimensionless)"))
     for name, value in result.definitions.items():
         rows.append((name, f"{value:.9g}"))
+    for name, value in (trade or {}).items():
+        shown = f"{value:.9g}" if math.isfinite(value) else "does not exist here"
+        rows.append((name.replace("_", " ").removesuffix(" deg"), f"{shown} ({READOUT_UNITS.get(name, '')})"))
     if result.message:
         rows.append(("note", result.message))
     width = max(len(r[0]) for r in rows)
@@ -358,10 +313,10 @@ def _write_probe(result, out) -> None:
         out.write(f"{label:<{width}}  {value}\n")
 
 
-def _run_trace(args: argparse.Namespace, out) -> int:
+def _run_trace(args: argparse.Namespace, out, err) -> int:
     from core.characteristics import trace_characteristics
 
-    study = _study(args)
+    study = _study(args, err)
     compiled = _compiled(study)
     if args.seed is None:
         if study.project is None:
@@ -369,7 +324,8 @@ def _run_trace(args: argparse.Namespace, out) -> int:
         return _trace_project_seeds(study, compiled, args, out)
     if not study.domain.contains(*args.seed):
         raise UsageError(f"--from ({args.seed[0]:g}, {args.seed[1]:g}) lies outside the domain")
-    curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters)
+    curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters,
+                                   data=study.data)
     document = {"seed": list(args.seed), "curves": [_curve_document(curve) for curve in curves]}
     if study.source:
         document["source"] = study.source
@@ -395,7 +351,7 @@ def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out) 
     for seed in study.project.seeds:
         points = seed.points()
         curves = trace_characteristics(compiled, study.domain, points, families=seed.families,
-                                       parameters=study.parameters)
+                                       parameters=study.parameters, data=study.data)
         traced.append((seed, points, curves))
     if args.json:
         document = {"seeds": [{"label": seed.label, "points": _points(points), "families": list(seed.families),
@@ -422,8 +378,12 @@ def _write_curves(curves, out) -> None:
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
 
 
-def _run_check(args: argparse.Namespace, out) -> int:
-    """Validate a project file: a one-line summary, or every problem (exit status 2)."""
+def _run_check(args: argparse.Namespace, out, err) -> int:
+    """Validate a project file and open its data: a summary, or every problem (exit status 2).
+
+    A data file that changed since the save is a warning line on stderr; the status stays 0.
+    """
+    from core.project_data import open_project_data
     from core.project_io import CURRENT_FORMAT_VERSION, ProjectError, load_project
 
     try:
@@ -436,24 +396,54 @@ def _run_check(args: argparse.Namespace, out) -> int:
         raise UsageError(str(error)) from None
     with open(args.file, "rb") as stream:  # valid, hence small and a JSON object with a version number
         version = json.loads(stream.read())["format_version"]
+    opened = open_project_data(project, args.file)
     summary = {"file": args.file, "valid": True, "format_version": version,
                "equations": list(project.equation_names), "domains": list(project.domain_names),
                "pins": len(project.pins), "seeds": len(project.seeds),
-               "shown": {"equation": project.shown_equation, "domain": project.shown_domain}}
+               "shown": {"equation": project.shown_equation, "domain": project.shown_domain},
+               "data": {"files": len(project.data_sources), "quantities": list(opened.names),
+                        "problems": list(opened.problems), "changed": list(opened.changed)}}
+    status = EXIT_BAD_INPUT if opened.problems else EXIT_OK
     if args.json:
         json.dump(summary, out)
         out.write("\n")
-        return EXIT_OK
+        return status
     def count(n: int, what: str) -> str:
         return f"{n} {what}{'s' * (n != 1)}"
     upgrade = f" (saving writes format version {CURRENT_FORMAT_VERSION})" if version != CURRENT_FORMAT_VERSION else ""
+    files = f", {count(len(project.data_sources), 'data file')}" if project.data_sources else ""
     out.write(f"{args.file}: valid, format version {version}{upgrade}; {count(len(project.equations), 'equation')}, "
               f"{count(len(project.domains), 'domain')}, {count(len(project.pins), 'pin')}, "
-              f"{count(len(project.seeds), 'seed')}; shows {project.shown_equation!r} on {project.shown_domain!r}\n")
+              f"{count(len(project.seeds), 'seed')}{files}; shows {project.shown_equation!r} on "
+              f"{project.shown_domain!r}\n")
+    for line in opened.changed:
+        err.write(f"mixtype: warning: {line}\n")
+    for line in opened.problems:
+        err.write(f"mixtype: {line}\n")
+    return status
+
+
+def _run_templates(args: argparse.Namespace, out, err) -> int:
+    from core.templates import TemplateError, list_templates, load_template
+
+    try:
+        templates = [load_template(name) for name in list_templates()]
+    except TemplateError as error:
+        raise UsageError(str(error)) from None
+    if args.json:
+        json.dump({"templates": [{"name": t.name, "title": t.title, "variables": list(t.equation.variables),
+                                  "data_quantities": list(t.quantities), "trade": list(t.trade),
+                                  "peak_quantity": t.peak_quantity} for t in templates]}, out)
+        out.write("\n")
+        return EXIT_OK
+    width = max((len(t.name) for t in templates), default=0)
+    for t in templates:
+        data = f" (data: {', '.join(t.quantities)})" if t.quantities else ""
+        out.write(f"{t.name:<{width}}  {t.title}{data}\n")
     return EXIT_OK
 
 
-def _run_render(args: argparse.Namespace, out) -> int:
+def _run_render(args: argparse.Namespace, out, err) -> int:
     import os
 
     if args.size is not None and not all(100 <= v <= 8000 for v in args.size):
@@ -470,7 +460,7 @@ def _run_render(args: argparse.Namespace, out) -> int:
 
 
 _COMMANDS = {"classify": _run_classify, "probe": _run_probe, "trace": _run_trace, "render": _run_render,
-             "check": _run_check}
+             "check": _run_check, "templates": _run_templates}
 
 
 def _open_window(argv: Sequence[str]) -> int:
@@ -513,7 +503,9 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None) -> int:
         return _open_window(argv)
     try:
         args = _build_parser().parse_args(_glue_expression_values(argv))
-        return _COMMANDS[args.command](args, out)
+        if args.command is None:
+            raise UsageError("missing COMMAND (see 'mixtype --help')")
+        return _COMMANDS[args.command](args, out, err)
     except UsageError as error:
         for line in str(error).splitlines() or [""]:  # 'check' lists every problem, one per line
             err.write(f"mixtype: {line}\n")

@@ -284,12 +284,14 @@ def _free_names(text: object) -> set[str]:
     return names
 
 
-def _unknown_names(variables, parameters, definitions, texts) -> tuple[str, ...]:
+def _unknown_names(variables, parameters, definitions, texts, readouts=()) -> tuple[str, ...]:
+    """Names used in ``texts`` (expressions) or named in ``readouts`` (trade inputs, peak quantity) that are
+    not variables, parameters, definitions, coefficients, constants or functions; in order of first use."""
     known = {*variables, *parameters, *definitions, *COEFFICIENT_NAMES, *CONSTANT_NAMES, *FUNCTION_NAMES,
              "piecewise", "diff"}
     found: dict[str, None] = {}
-    for text in texts:
-        for name in sorted(_free_names(text)):
+    for names in [*(sorted(_free_names(text)) for text in texts), [r for r in readouts if isinstance(r, str)]]:
+        for name in names:
             if name not in known:
                 try:
                     check_name(name)
@@ -305,7 +307,13 @@ def equation_data_names(equation: Equation) -> tuple[str, ...]:
     These must come from the project's data sources (core.project_data checks that once the data are open).
     """
     texts = [*equation.definitions.values(), equation.a, equation.b, equation.c]
-    return _unknown_names(equation.variables, equation.parameters, equation.definitions, texts)
+    return _unknown_names(equation.variables, equation.parameters, equation.definitions, texts,
+                          _readout_names(equation.trade, equation.peak_quantity))
+
+
+def _readout_names(trade: Mapping, peak_quantity: str) -> list[str]:
+    names = [source for inputs in trade.values() for source in inputs.values()]
+    return [*names, peak_quantity] if peak_quantity else names
 
 
 def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
@@ -323,8 +331,9 @@ def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tupl
     texts = [(f"definitions.{n}", t) for n, t in raw["definitions"].items()]
     texts += [(k, raw["coefficients"][k]) for k in COEFFICIENT_NAMES]
     # names defined nowhere in the equation are data quantities when the project lists data sources
-    data_names = _unknown_names(variables, raw["parameters"], raw["definitions"],
-                                [t for _, t in texts]) if has_data else ()
+    data_names = _unknown_names(variables, raw["parameters"], raw["definitions"], [t for _, t in texts],
+                                _readout_names(raw.get("trade", {}), raw.get("peak_quantity", ""))
+                                ) if has_data else ()
     if len(set(names)) == len(names):
         symbols = {n: sympy.Symbol(n, real=True) for n in (*names, *data_names)}
         for quantity in data_names:

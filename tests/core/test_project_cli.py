@@ -45,7 +45,8 @@ def test_check_summarises_a_valid_file_in_one_line():
     assert document == {"file": TRICOMI, "valid": True, "format_version": 2,
                         "equations": ["Tricomi", "Tricomi, tilted"],
                         "domains": ["around the origin", "hyperbolic half"], "pins": 3, "seeds": 3,
-                        "shown": {"equation": "Tricomi", "domain": "around the origin"}}
+                        "shown": {"equation": "Tricomi", "domain": "around the origin"},
+                        "data": {"files": 0, "quantities": [], "problems": [], "changed": []}}
 
 
 def _broken_copy(tmp_path) -> Path:

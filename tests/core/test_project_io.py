@@ -18,7 +18,7 @@ import core
 from core.domain import Domain
 from core.equation import Equation, Parameter
 from core.expr import ExpressionError, check_name
-from core.project import Metadata, Pin, Project, Seed, ViewSettings, new_project
+from core.project import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
 from core.project_io import (
     CURRENT_FORMAT_VERSION,
     ProjectError,
@@ -33,6 +33,7 @@ from core.project_io import (
 from core.project_migrate import MIGRATIONS, MigrationError
 from core.project_migrate import migrate as migrate_data
 from core.project_schema import project_schema, schema_path, schema_text
+from core.trade import TRADE_INPUTS
 
 DATA = Path(__file__).resolve().parent.parent / "data"
 SAMPLES = sorted(DATA.glob("project-v*.mixtype.json"))
@@ -88,14 +89,18 @@ def parameters(draw):
 
 
 @st.composite
-def equations(draw, name):
-    variables = draw(st.lists(identifiers, min_size=2, max_size=2, unique=True))
-    names = draw(st.lists(identifiers.filter(lambda n: n not in variables), max_size=5, unique=True))
+def equations(draw, name, data_names=()):
+    variables = draw(st.lists(identifiers.filter(lambda n: n not in data_names), min_size=2, max_size=2,
+                              unique=True))
+    names = draw(st.lists(identifiers.filter(lambda n: n not in variables and n not in data_names), max_size=5,
+                          unique=True))
     split = draw(st.integers(0, len(names)))
     parameter_names, definition_names = names[:split], names[split:]
     params = {n: draw(parameters()) for n in parameter_names}
     x, y = variables
-    usable = [x, y, *parameter_names]
+    usable = [x, y, *parameter_names, *data_names]
+    if data_names:  # a data derivative, as diff(NAME, VAR)
+        usable.append(f"diff({draw(st.sampled_from(data_names))}, {draw(st.sampled_from(variables))})")
     definitions = {}
     for n in definition_names:  # each may use the earlier ones: no cycles
         term = draw(st.sampled_from(usable))
@@ -105,8 +110,30 @@ def equations(draw, name):
     pick = st.sampled_from(usable)
     a, b, c = (draw(st.sampled_from([f"{draw(pick)}", f"1 + {draw(pick)}**2", f"-{draw(pick)}*{draw(pick)}",
                                      "0", "2.5e-3"])) for _ in range(3))
+    values = [n for n in usable if not n.startswith("diff(")] + list(definitions)
+    trade = {}
+    for kind in draw(st.lists(st.sampled_from(sorted(TRADE_INPUTS)), max_size=2, unique=True)):
+        required, optional = TRADE_INPUTS[kind]
+        inputs = [*required, *draw(st.lists(st.sampled_from(optional), unique=True))] if optional else required
+        trade[kind] = {i: draw(st.sampled_from(values)) for i in inputs}
+    peak = draw(st.just("") | st.sampled_from(values))
     return Equation(a, b, c, variables=tuple(variables), definitions=definitions, parameters=params, name=name,
-                    description=draw(free_text))
+                    description=draw(free_text), trade=trade, peak_quantity=peak)
+
+
+paths = st.lists(st.text(st.characters(codec="utf-8", exclude_categories=("Cc", "Cs"), exclude_characters="/"),
+                         min_size=1, max_size=12).filter(str.strip), min_size=1, max_size=3).map("/".join)
+
+
+@st.composite
+def data_sources(draw):
+    names = draw(st.dictionaries(identifiers, identifiers, max_size=3))
+    if len(set(names.values())) != len(names):
+        names = {}
+    return DataSourceRef(path=draw(st.sampled_from(["", "../", "/abs/"])) + draw(paths),
+                         checksum=draw(st.from_regex(r"[0-9a-f]{64}", fullmatch=True)),
+                         format=draw(st.none() | st.sampled_from(["csv", "npz", "netcdf", "vtu", "vtk"])),
+                         names=names, note=draw(free_text))
 
 
 @st.composite
@@ -133,17 +160,20 @@ def projects(draw):
     domain_names = draw(st.lists(titles, min_size=1, max_size=3, unique=True))
     stamp = st.datetimes(min_value=datetime(2000, 1, 1), max_value=datetime(2100, 1, 1),
                          timezones=st.just(UTC)).map(lambda t: t.strftime("%Y-%m-%dT%H:%M:%SZ"))
+    sources = draw(st.lists(data_sources(), max_size=3, unique_by=lambda s: s.path))
+    data_names = tuple(draw(st.lists(identifiers, min_size=1, max_size=2, unique=True))) if sources else ()
     return Project(
-        equations=tuple(draw(equations(n)) for n in equation_names),
+        equations=tuple(draw(equations(n, data_names)) for n in equation_names),
         domains=tuple(draw(domains(n)) for n in domain_names),
         shown_equation=draw(st.sampled_from(equation_names)),
         shown_domain=draw(st.sampled_from(domain_names)),
         pins=tuple(Pin(draw(finite), draw(finite), draw(free_text)) for _ in range(draw(st.integers(0, 4)))),
         seeds=tuple(draw(seeds()) for _ in range(draw(st.integers(0, 3)))),
-        view=ViewSettings(*(draw(st.booleans()) for _ in range(5)),
+        view=ViewSettings(*(draw(st.booleans()) for _ in range(6)),
                           parabolic_tolerance=draw(st.floats(min_value=0.0, max_value=0.999))),
         notes=draw(st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), max_size=200)),
         metadata=Metadata(draw(stamp), draw(stamp), draw(st.sampled_from(["0.1.0", "0.0.9", core.__version__]))),
+        data_sources=tuple(sources),
     )
 
 
@@ -212,9 +242,41 @@ def test_the_all_fields_sample_reads_as_written():
     assert project.domain("odd sizes") == Domain(-0.001, 0.0025, 100000.0, 100000.01, 2, 8192, "odd sizes")
     assert project.seeds[2] == Seed((-0.5, -0.3), (0.5, -0.3), 11, (1, 2), "segment, both families")
     assert project.seeds[1].families == (2,) and not project.seeds[1].is_segment
-    assert project.view == ViewSettings(True, False, True, False, False, 2.5e-6)
+    # version 1 had one switch for both characteristic families: the migration copies it to each
+    assert project.view == ViewSettings(True, False, True, True, False, False, 2.5e-6)
     assert "emoji 🌊" in project.notes
     assert project.metadata == Metadata("2024-02-29T23:59:59Z", "2025-01-15T09:30:00Z", "0.1.0")
+    assert project.data_sources == ()
+    assert all(e.trade == {} and e.peak_quantity == "" for e in project.equations)
+
+
+def test_the_version_2_sample_reads_as_written():
+    project = load_project(DATA / "project-v2-all-fields.mixtype.json")
+    first, data_file = project.equations[0], project.data_sources[0]
+    assert first.b == "-2*u*v + depth_h*diff(speed, y)"    # data quantities used by name
+    assert first.trade["internal_wave"] == {"N": "speed", "f": "lower_only", "w": "upper_only"}
+    assert list(first.trade) == ["mach", "small_disturbance", "froude", "internal_wave"]
+    assert first.peak_quantity == "alpha" and project.equations[1].peak_quantity == "t"
+    assert data_file == DataSourceRef("data/flow field.npz", "0123456789abcdef" * 4, "npz",
+                                      {"velocity_magnitude": "speed", "h": "depth_h"}, "a grid of speeds; ü ✓")
+    assert project.data_sources[1] == DataSourceRef("../shared/profile.csv", "f" * 64)
+    assert project.view.show_characteristics_family_1 and not project.view.show_characteristics_family_2
+
+
+def test_a_version_1_file_means_the_same_after_migration():
+    # every version-1 field keeps its value; the new ones take their neutral values
+    old = json.loads((DATA / "project-v1-all-fields.mixtype.json").read_text(encoding="utf-8"))
+    new = project_to_dict(load_project(DATA / "project-v1-all-fields.mixtype.json"))
+    layers = old["view"].pop("layers")
+    assert new["view"].pop("layers") == {
+        "type_map": layers["type_map"], "type_change_lines": layers["type_change_lines"],
+        "characteristics_family_1": layers["characteristics"], "characteristics_family_2": layers["characteristics"],
+        "pins": layers["pins"], "legend": layers["legend"]}
+    assert new.pop("data_sources") == [] and new.pop("format_version") == 2 and old.pop("format_version") == 1
+    assert new == old
+    # and the same meaning: the shown equation classifies identically before and after
+    migrated = load_project(DATA / "project-v1-all-fields.mixtype.json")
+    assert [e.a for e in migrated.equations] == [e["coefficients"]["a"] for e in old["equations"]]
 
 
 def test_dumping_the_sample_reproduces_its_bytes():
@@ -316,7 +378,7 @@ def test_migrations_run_one_step_at_a_time_without_touching_the_input():
 
 
 def test_current_data_migrate_to_themselves_and_the_registry_is_complete():
-    data = _sample_data()
+    data = json.loads((DATA / f"project-v{CURRENT_FORMAT_VERSION}-all-fields.mixtype.json").read_text("utf-8"))
     assert migrate(data) == data and migrate(data) is not data
     assert sorted(MIGRATIONS) == list(range(1, CURRENT_FORMAT_VERSION))
     with pytest.raises(ProjectError, match="not a Mixtype project file"):
