@@ -291,3 +291,28 @@ def test_missing_data_exit_2_and_changed_data_warn(tmp_path, monkeypatch):
     status, out, err = run("classify", str(path), "--json")
     assert status == 0 and err.count("\n") == 1 and "warning" in err
     assert json.loads(out)["fractions"]["hyperbolic"] == 0.0          # at half the speed the flow is subsonic
+
+
+def test_rays_traced_through_a_data_profile_cross_the_waveguide_as_the_ray_integral_says():
+    # along an internal-wave ray dx/dz = sqrt((N^2 - w^2)/(w^2 - f^2)) (Gill 1982), so between the turning depths
+    # a ray advances by the integral of that over z; computed here with scipy's quad on the same cast
+    from scipy.integrate import quad
+
+    from core.data import load_data
+
+    document = run_json("trace", str(demo_project_path("thermocline_csv_profile")))
+    cast = load_data(CSV, variables=("x", "z"))
+    w, f = 0.002, 1e-4
+
+    def run_per_rise(z: float) -> float:
+        n = float(cast.sample("N", 0.0, z))
+        return math.sqrt(max(n * n - w * w, 0.0) / (w * w - f * f))
+
+    (seed,) = document["seeds"]
+    for curve in seed["curves"]:
+        points = np.array(curve["points"])
+        assert curve["ends"] == ["type_change", "type_change"]
+        z_low, z_high = points[:, 1].min(), points[:, 1].max()
+        advance, _ = quad(run_per_rise, z_low, z_high, limit=400, points=list(np.arange(-180.0, -55.0, 5.0)))
+        assert np.ptp(points[:, 0]) == pytest.approx(advance, rel=1e-3)
+        assert -185 < z_low < -175 and -62 < z_high < -55          # the turning depths where N = w

@@ -273,10 +273,16 @@ def test_a_version_1_file_means_the_same_after_migration():
         "characteristics_family_1": layers["characteristics"], "characteristics_family_2": layers["characteristics"],
         "pins": layers["pins"], "legend": layers["legend"]}
     assert new.pop("data_sources") == [] and new.pop("format_version") == 2 and old.pop("format_version") == 1
-    assert new == old
-    # and the same meaning: the shown equation classifies identically before and after
-    migrated = load_project(DATA / "project-v1-all-fields.mixtype.json")
-    assert [e.a for e in migrated.equations] == [e["coefficients"]["a"] for e in old["equations"]]
+    assert new == old   # equations, domains, pins, seeds, tolerance, notes, metadata: untouched
+
+
+def test_the_migration_splits_the_switch_whatever_its_value_and_keeps_the_input():
+    data = _sample_data()
+    for value in (True, False):
+        data["view"]["layers"]["characteristics"] = value
+        view = project_from_dict(data).view
+        assert view.show_characteristics_family_1 is value and view.show_characteristics_family_2 is value
+        assert "characteristics" in data["view"]["layers"] and data["format_version"] == 1
 
 
 def test_dumping_the_sample_reproduces_its_bytes():
