@@ -83,3 +83,27 @@ def test_layer_switches_follow_the_document(make_window):
     assert not window.map_view.image.isVisible()
     window.undo_action.trigger()
     assert window.layers_panel.boxes["type_map"].isChecked() and window.map_view.image.isVisible()
+
+
+def test_many_emits_cannot_exhaust_the_reference_count_of_true():
+    """PySide6 6.12.0 drops a reference to True on every Python-side emit; gui pins True when it does."""
+    import sys
+
+    from PySide6.QtCore import QObject, Signal
+
+    from gui.qt_fixes import emit_leaks_true, guard_emit_reference_leak
+
+    class Pinger(QObject):
+        ping = Signal(float, float)
+
+    pinger = Pinger()
+    received = []
+    pinger.ping.connect(lambda x, y: received.append(x))
+    start = sys.getrefcount(True)
+    for index in range(20_000):          # several times what True's own count was at start-up
+        pinger.ping.emit(float(index), 0.0)
+    assert len(received) == 20_000
+    if emit_leaks_true():
+        assert guard_emit_reference_leak() is True
+        assert start - sys.getrefcount(True) >= 19_000      # the defect is still there...
+        assert sys.getrefcount(True) > 1 << 39              # ...and harmless
