@@ -134,6 +134,8 @@ class StudyAnalysis(QObject):
     def flush(self) -> None:
         """Request everything scheduled so far now (the timer does this on the next event-loop pass)."""
         self._timer.stop()
+        if self.document.data_pending:
+            return          # the data are loading: data_changed schedules everything once they are in
         wanted, self._wanted = self._wanted, set()
         compiled = self.document.compiled
         if compiled is None:

@@ -15,8 +15,9 @@ from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
 from core.domain import Domain
-from core.equation import CompiledEquation, Equation, Parameter, compile_equation
+from core.equation import CompiledEquation, Equation, Parameter
 from core.expr import ExpressionError
+from core.project_data import compile_with_data
 from gui.study import Layers, PinMark, SeedLine, Study
 
 __all__ = ["UNDO_LIMIT", "Document"]
@@ -83,6 +84,7 @@ class Document(QObject):
     layers_changed = Signal()
     notes_changed = Signal()
     data_changed = Signal()            # the loaded background data (and so the names equations may use) changed
+    data_sources_changed = Signal()    # the study's list of data files (paths, renames, checksums) changed
     dirty_changed = Signal(bool)
     path_changed = Signal(str)
 
@@ -94,6 +96,7 @@ class Document(QObject):
         self._compiled: CompiledEquation | None = None
         self._data = None
         self._data_names: tuple[str, ...] = ()
+        self._data_pending = False
         self._compile_error = ""
         self._sessions = itertools.count(1)
         self.undo_stack = QUndoStack(self)
@@ -120,8 +123,17 @@ class Document(QObject):
 
     @property
     def data_names(self) -> tuple[str, ...]:
-        """Names of the data quantities equations may use (also those of files that are missing)."""
+        """Names of the data quantities equations may use (also those of files that are missing); an
+        equation that defines one of them itself uses its own definition (core.project_data)."""
         return self._data_names
+
+    @property
+    def data_pending(self) -> bool:
+        """True while the study's data files are being loaded: results computed now would be discarded."""
+        return self._data_pending
+
+    def set_data_pending(self, pending: bool) -> None:
+        self._data_pending = bool(pending)
 
     def set_data(self, source, names: tuple[str, ...] | None = None) -> None:
         """Use other background data (loaded state, not an edit: no undo step). ``names`` default to
@@ -137,7 +149,7 @@ class Document(QObject):
     def check_equation(self, equation: Equation) -> ExpressionError | None:
         """Why ``equation`` would not compile with the current data names, or None when it compiles."""
         try:
-            compile_equation(equation, data_names=self._data_names)
+            compile_with_data(equation, self._data_names)
         except ExpressionError as error:
             return error
         return None
@@ -151,7 +163,7 @@ class Document(QObject):
                 or self._compiled_for[1] != self._data_names:
             self._compiled_for = key
             try:
-                self._compiled = compile_equation(equation, data_names=self._data_names)
+                self._compiled = compile_with_data(equation, self._data_names)
                 self._compile_error = ""
             except ExpressionError as error:
                 self._compiled = None
@@ -318,6 +330,18 @@ class Document(QObject):
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance:g}")
         return self.edit(replace(self._study, tolerance=tolerance), f"Parabolic tolerance {tolerance:g}")
 
+    def set_data_source(self, index: int, ref, text: str) -> bool:
+        """Replace the study's data file ``index`` by ``ref`` (renamed quantities, accepted checksum)."""
+        sources = list(self._study.data_sources)
+        sources[index] = ref
+        return self.edit(replace(self._study, data_sources=tuple(sources)), text)
+
+    def remove_data_source(self, index: int) -> bool:
+        sources = list(self._study.data_sources)
+        removed = sources.pop(index)
+        return self.edit(replace(self._study, data_sources=tuple(sources)),
+                         f"Remove data file {Path(removed.path).name}")
+
     def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
         return self.edit(replace(self._study, notes=notes), "Edit notes", merge_key=merge_key)
 
@@ -347,3 +371,5 @@ class Document(QObject):
             self.layers_changed.emit()
         if before.notes != after.notes:
             self.notes_changed.emit()
+        if before.data_sources != after.data_sources:
+            self.data_sources_changed.emit()

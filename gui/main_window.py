@@ -37,6 +37,8 @@ from core.result_tables import (
 )
 from core.templates import TemplateError, load_template
 from gui.analysis import StudyAnalysis, optional_core
+from gui.data_loading import DATA_FILTER, DataLoader, problem_text
+from gui.data_panel import DataPanel
 from gui.document import Document
 from gui.domain_panel import DomainPanel
 from gui.equation_panel import EquationPanel
@@ -61,7 +63,7 @@ ABOUT_TEXT = ("<h3>Mixtype</h3><p>Maps where a second-order equation a u<sub>xx<
               "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
               "changes, reads single points and traces characteristic curves.</p>"
               f"<p><b>Caution.</b> {CAUTION}</p>")
-CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets")
+CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add")
 
 
 class MainWindow(QMainWindow):
@@ -77,6 +79,7 @@ class MainWindow(QMainWindow):
             self.document.set_path(path)
         self.runner = JobRunner(self, synchronous=synchronous)
         self.analysis = StudyAnalysis(self.document, self.runner, self)
+        self.data_loader = DataLoader(self.document, self.runner, self)
         self._pin_drag_key = ""
 
         self.map_view = MapView()
@@ -87,6 +90,13 @@ class MainWindow(QMainWindow):
         self.notice.setStyleSheet("QLabel { color: #B00020; padding: 2px 6px; }")
         self.notice.setVisible(False)
         self.map_view.layout().insertWidget(2, self.notice)
+        self.data_notice = QLabel()
+        self.data_notice.setObjectName("dataNotice")
+        self.data_notice.setWordWrap(True)
+        self.data_notice.setStyleSheet("QLabel { color: #5C3B00; background: #FFF1CC; border: 1px solid #E0B85C;"
+                                       " padding: 3px 6px; }")
+        self.data_notice.setVisible(False)
+        self.map_view.layout().insertWidget(3, self.data_notice)
         self.setCentralWidget(self.map_view)
 
         self.equation_panel = EquationPanel(self.document)
@@ -95,11 +105,14 @@ class MainWindow(QMainWindow):
         self.layers_panel = LayersPanel(self.document)
         self.pockets_panel = PocketsPanel(self.document)
         self.notes_panel = NotesPanel(self.document)
+        self.data_panel = DataPanel(self.document)
         left, right = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.RightDockWidgetArea
         self._dock("Equation: coefficients, definitions, parameters", self.equation_panel, left, "equationDock",
                    scroll=True)
         domain_dock = self._dock("Domain and grid", self.domain_panel, left, "domainDock")
+        self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock")
         notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock")
+        self.tabifyDockWidget(domain_dock, self.data_dock)
         self.tabifyDockWidget(domain_dock, notes_dock)
         domain_dock.raise_()
         self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
@@ -128,6 +141,7 @@ class MainWindow(QMainWindow):
         self._autosave.start()
         self.resize(1400, 880)
         self._update_title()
+        self.data_loader.schedule()
         self._show_everything()
 
     # -- construction ---------------------------------------------------------------------------------------
@@ -167,9 +181,13 @@ class MainWindow(QMainWindow):
         self.template_action = self._action("New &equation from template…", self.template_dialog,
                                             shortcut="Ctrl+Shift+N",
                                             tip="Add a ready-made equation of the trades to the study")
+        self.add_data_action = self._action("Add &data file…", self.add_data_dialog,
+                                            tip="Add a data file whose quantities equations can use")
         menu.addActions([self.new_action, self.template_action, self.open_action])
         self.recent_menu = menu.addMenu("Open &recent")
         menu.addActions([self.save_action, self.save_as_action])
+        menu.addSeparator()
+        menu.addAction(self.add_data_action)
         menu.addSeparator()
         export = menu.addMenu("&Export")
         self.export_picture_action = self._action("Map as picture (PNG, SVG, PDF)…", self.export_picture_dialog,
@@ -236,6 +254,13 @@ class MainWindow(QMainWindow):
         a.pockets_ready.connect(self.pockets_panel.set_report)
         self.pockets_panel.pocket_chosen.connect(self._pocket_chosen)
         self.equation_panel.template_requested.connect(self.template_dialog)
+        self.data_loader.loaded.connect(self.data_panel.set_loaded)
+        self.data_loader.loaded.connect(self._data_loaded)
+        self.data_loader.message.connect(self.show_notice)
+        self.data_loader.settled.connect(a.refresh_all)
+        self.data_panel.add_requested.connect(self.add_data_dialog)
+        self.data_panel.reload_requested.connect(self.data_loader.reload)
+        d.data_changed.connect(self._equation_shown)
         a.hover_ready.connect(self._show_hover)
         a.message.connect(self.show_notice)
         m.clicked.connect(lambda x, y: d.add_pin(x, y))
@@ -264,7 +289,9 @@ class MainWindow(QMainWindow):
         variables = self.document.study.equation.variables
         self.map_view.set_variables(*variables)
         self._update_titles()
-        if self.document.compiled is None:
+        if self.document.data_pending:
+            self.show_notice("")
+        elif self.document.compiled is None:
             self.show_notice(f"Not recomputed: {self.document.compile_error}")
         else:
             self.show_notice("")
@@ -316,6 +343,29 @@ class MainWindow(QMainWindow):
             self.map_view.highlight_pocket(None)
             return
         self.map_view.highlight_pocket(pocket, report.labels, report.type_map)
+
+    # -- data -----------------------------------------------------------------------------------------------
+    def choose_data_path(self) -> str:
+        """Ask for a data file (tests replace this method)."""
+        path, _ = QFileDialog.getOpenFileName(self, "Add a data file", self.preferences.last_folder(), DATA_FILTER)
+        return path
+
+    def add_data_dialog(self) -> None:
+        path = self.choose_data_path()
+        if path:
+            self.add_data_file(path)
+
+    def add_data_file(self, path: str | Path) -> None:
+        """Read ``path`` in the background and add it to the study (undoable) once it loads."""
+        self.data_loader.add_file(str(path))
+
+    def _data_loaded(self, loaded) -> None:
+        text = problem_text(loaded)
+        self.data_notice.setText(text)
+        self.data_notice.setVisible(bool(text))
+        if text:
+            self.statusBar().showMessage(text, 8000)
+        self.data_dock.setWindowTitle(f"Data files ({len(loaded.statuses)})" if loaded.statuses else "Data files")
 
     # -- templates ------------------------------------------------------------------------------------------
     def choose_template(self) -> TemplateChoice | None:

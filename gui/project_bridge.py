@@ -13,15 +13,14 @@ from pathlib import Path, PurePosixPath
 
 from core.domain import Domain
 from core.equation import Equation, Parameter
+from core.project_data import relative_data_path, resolve_data_path
 from gui.study import Layers, PinMark, SeedLine, Study
 
 __all__ = [
     "PROJECT_FILTER",
     "StudyFileError",
-    "absolute_data_path",
     "load_study",
     "project_from_study",
-    "relative_data_path",
     "save_study",
     "scratch_study",
     "starting_study",
@@ -35,26 +34,17 @@ class StudyFileError(Exception):
     """A study could not be read or written; the message is for the user (one line per problem)."""
 
 
-def absolute_data_path(recorded: str, project_path: str | Path | None) -> str:
-    """A data path as recorded in a project file, made absolute against the file's folder (the current
-    folder when the study has no file)."""
-    path = Path(*PurePosixPath(recorded).parts) if "/" in recorded else Path(recorded)
-    if not path.is_absolute():
-        base = Path(project_path).resolve().parent if project_path is not None else Path.cwd()
-        path = base / path
-    return os.path.normpath(str(path))
-
-
-def relative_data_path(path: str, project_path: str | Path | None) -> str:
-    """An absolute data path as a project file records it: relative to the file's folder with '/'
-    separators, or absolute (with '/') when there is no file or the data lie on another drive."""
+def _absolute(recorded: str, project_path: str | Path | None) -> str:
+    """A recorded data path made absolute: against the project file's folder, or the working folder when
+    there is no file."""
     if project_path is None:
-        return Path(path).as_posix()
-    try:
-        relative = os.path.relpath(path, Path(project_path).resolve().parent)
-    except ValueError:   # another drive (Windows): no relative path exists
-        return Path(path).as_posix()
-    return PurePosixPath(*Path(relative).parts).as_posix()
+        return os.path.abspath(Path(*PurePosixPath(recorded).parts))
+    return str(resolve_data_path(recorded, project_path))
+
+
+def _recorded(path: str, project_path: str | Path | None) -> str:
+    """An absolute data path as the project file records it (relative to the file when there is one)."""
+    return Path(path).as_posix() if project_path is None else relative_data_path(path, project_path)
 
 
 def study_from_project(project, project_path: str | Path | None = None) -> Study:
@@ -65,7 +55,7 @@ def study_from_project(project, project_path: str | Path | None = None) -> Study
     layers = Layers(type_map=view.show_type_map, type_lines=view.show_type_change_lines,
                     family_1=view.show_characteristics_family_1, family_2=view.show_characteristics_family_2,
                     pins=view.show_pins, seeds=view.show_characteristics, legend=view.show_legend)
-    sources = tuple(replace(s, path=absolute_data_path(s.path, project_path))
+    sources = tuple(replace(s, path=_absolute(s.path, project_path))
                     for s in getattr(project, "data_sources", ()))
     return Study(
         equations=equations,
@@ -107,7 +97,7 @@ def project_from_study(study: Study, project_path: str | Path | None = None):
         view=view,
         notes=study.notes,
         metadata=metadata,
-        data_sources=tuple(replace(s, path=relative_data_path(s.path, project_path)) for s in study.data_sources),
+        data_sources=tuple(replace(s, path=_recorded(s.path, project_path)) for s in study.data_sources),
     )
 
 
