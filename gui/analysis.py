@@ -13,6 +13,7 @@ empty and the window says so once.
 from __future__ import annotations
 
 import importlib
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -21,7 +22,7 @@ from PySide6.QtCore import QObject, QTimer, Signal
 from core.classify import TypeCode, classify_grid, classify_points
 from core.pockets import label_pockets, pocket_statistics
 from core.progress import Cancelled
-from core.trade import readout_at
+from core.trade import point_values, readout_at
 from gui.document import Document
 from gui.jobs import JobRunner
 from gui.study import SeedLine
@@ -70,14 +71,21 @@ class PocketReport:
 
 def trade_at(equation, compiled, x: float, y: float, *, parameters, data) -> dict | str:
     """core.trade.readout_at for the equation's trade spec at one point: {} without a spec, the readout
-    dict, or a one-line reason (str) when it cannot be read there."""
+    dict, or a one-line reason (str) when it cannot be read there (an input is undefined at the point)."""
     if not equation.trade:
         return {}
     try:
         with np.errstate(all="ignore"):
+            values = point_values(compiled, x, y, parameters=parameters, data=data,
+                                  extra_data=tuple(sorted(set(getattr(data, "names", ())))))
+            sources = dict.fromkeys(s for inputs in equation.trade.values() for s in inputs.values())
+            undefined = [name for name in sources if name in values and not math.isfinite(values[name])]
+            if undefined:
+                verb = "is" if len(undefined) == 1 else "are"
+                return f"undefined here ({', '.join(undefined)} {verb} not a finite number at this point)"
             return readout_at(equation.trade, compiled, x, y, parameters=parameters, data=data)
     except (KeyError, ValueError, TypeError) as error:
-        return f"trade quantities unavailable: {str(error).strip(chr(39))}"
+        return f"unavailable: {str(error).strip(chr(39))}"
 
 
 _LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",

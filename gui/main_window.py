@@ -115,9 +115,15 @@ class MainWindow(QMainWindow):
         self.tabifyDockWidget(domain_dock, self.data_dock)
         self.tabifyDockWidget(domain_dock, notes_dock)
         domain_dock.raise_()
-        self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
-        self._dock("Hyperbolic pockets", self.pockets_panel, right, "pocketsDock")
+        pins_dock = self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
         self._dock("Layers and mouse tool", self.layers_panel, right, "layersDock", scroll=True)
+        # The side columns run the full height; the pockets table sits under the map only.
+        self.setCorner(Qt.Corner.BottomLeftCorner, left)
+        self.setCorner(Qt.Corner.BottomRightCorner, right)
+        pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel,
+                                  Qt.DockWidgetArea.BottomDockWidgetArea, "pocketsDock")
+        self.resizeDocks([pockets_dock], [150], Qt.Orientation.Vertical)
+        self.resizeDocks([pins_dock], [380], Qt.Orientation.Horizontal)
 
         self.hover_label = QLabel("Move over the map to read the type and D at a point.")
         self.hover_label.setObjectName("hoverReadout")

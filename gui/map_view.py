@@ -22,12 +22,11 @@ from gui.palette import (
     SEGMENT_COLOUR,
     TYPE_COLOURS,
     TYPE_LINE_COLOUR,
-    hex_to_rgba,
     type_lookup_table,
 )
 from gui.study import Layers, PinMark, SeedLine
 
-__all__ = ["MapView", "MapViewBox", "polyline_with_breaks"]
+__all__ = ["MapView", "MapViewBox", "pocket_outline", "polyline_with_breaks"]
 
 PIN_GRAB_PIXELS = 9.0
 MAX_STRETCH = 4.0
@@ -45,6 +44,23 @@ def polyline_with_breaks(polylines) -> tuple[np.ndarray, np.ndarray]:
     if not xs:
         return np.empty(0), np.empty(0)
     return np.concatenate(xs), np.concatenate(ys)
+
+
+def pocket_outline(mask: np.ndarray, x: np.ndarray, y: np.ndarray) -> list[np.ndarray]:
+    """Closed (n, 2) polylines around the True nodes of a (ny, nx) mask, half-way to their neighbours.
+
+    The mask is padded with False one node beyond the grid, so pockets on the domain's edge close too.
+    """
+    import contourpy
+
+    def padded(nodes: np.ndarray) -> np.ndarray:
+        step = nodes[1] - nodes[0] if nodes.size > 1 else 1.0
+        end = nodes[-1] - nodes[-2] if nodes.size > 1 else 1.0
+        return np.concatenate(([nodes[0] - step], nodes, [nodes[-1] + end]))
+
+    field = np.pad(mask.astype(np.float64), 1)
+    generator = contourpy.contour_generator(padded(np.asarray(x, float)), padded(np.asarray(y, float)), field)
+    return list(generator.lines(0.5))
 
 
 class MapViewBox(pg.ViewBox):
@@ -144,15 +160,14 @@ class MapView(QWidget):
         self.pin_markers = pg.ScatterPlotItem(size=11, symbol="o", pen=pg.mkPen("w", width=1.5),
                                               brush=pg.mkBrush(PIN_COLOUR))
         self.pin_markers.setZValue(30)
-        self.pocket_overlay = pg.ImageItem()
-        self.pocket_overlay.setZValue(5)
-        self.pocket_box = pg.PlotCurveItem(pen=pg.mkPen(HIGHLIGHT_COLOUR, width=2.0, style=Qt.PenStyle.DashLine))
-        self.pocket_box.setZValue(35)
+        # The chosen pocket: a broad halo under its edge (the type-change line stays drawn on top).
+        self.pocket_outline = pg.PlotCurveItem(pen=pg.mkPen(HIGHLIGHT_COLOUR, width=7.0), connect="finite")
+        self.pocket_outline.setZValue(9)
         self.pocket_peak = pg.ScatterPlotItem(size=15, symbol="star", pen=pg.mkPen("w", width=1.0),
                                               brush=pg.mkBrush(HIGHLIGHT_COLOUR))
         self.pocket_peak.setZValue(36)
         for item in (self.lines, *self.family_curves.values(), self.seed_lines, self.preview, self.pin_markers,
-                     self.pocket_overlay, self.pocket_box, self.pocket_peak):
+                     self.pocket_outline, self.pocket_peak):
             self.plot.addItem(item)
         self._pin_labels: list[pg.TextItem] = []
 
@@ -214,35 +229,32 @@ class MapView(QWidget):
 
     def highlight_pocket(self, pocket, labels: np.ndarray | None = None, type_map=None, *,
                          centre: bool = True) -> None:
-        """Tint the nodes of ``pocket`` (a core.pockets.Pocket; ``labels`` the (ny, nx) label array of
-        ``type_map``), outline its bounding box, star its peak and, with ``centre``, bring it into view."""
+        """Outline ``pocket`` (a core.pockets.Pocket; ``labels`` the (ny, nx) label array of ``type_map``)
+        with a halo, star its peak and, with ``centre``, bring it into the middle of the view."""
         if pocket is None or labels is None or type_map is None:
-            self.pocket_overlay.clear()
-            self.pocket_box.setData([], [])
+            self.pocket_outline.setData([], [])
             self.pocket_peak.setData([], [])
             return
-        tint = np.zeros((*labels.shape, 4), dtype=np.uint8)
-        tint[labels == pocket.label] = hex_to_rgba(HIGHLIGHT_COLOUR, 120)
-        domain = type_map.domain
-        dx, dy = domain.spacing
-        self.pocket_overlay.setImage(tint, autoLevels=False, levels=(0, 255))
-        self.pocket_overlay.setRect(QRectF(domain.xmin - dx / 2, domain.ymin - dy / 2, domain.nx * dx,
-                                           domain.ny * dy))
-        x0, x1, y0, y1 = pocket.bounding_box
-        x0, x1, y0, y1 = x0 - dx / 2, x1 + dx / 2, y0 - dy / 2, y1 + dy / 2
-        self.pocket_box.setData([x0, x1, x1, x0, x0], [y0, y0, y1, y1, y0])
+        self.pocket_outline.setData(*polyline_with_breaks(pocket_outline(labels == pocket.label, type_map.x,
+                                                                         type_map.y)), connect="finite")
         if pocket.peak_at is not None:
             self.pocket_peak.setData([pocket.peak_at[0]], [pocket.peak_at[1]])
         else:
             self.pocket_peak.setData([], [])
         if centre:
-            self.centre_on((x0, x1, y0, y1), pocket.centroid)
+            dx, dy = type_map.domain.spacing
+            x0, x1, y0, y1 = pocket.bounding_box
+            self.centre_on((x0 - dx / 2, x1 + dx / 2, y0 - dy / 2, y1 + dy / 2), pocket.centroid)
 
     def centre_on(self, box: tuple[float, float, float, float], point: tuple[float, float]) -> None:
-        """Pan so that ``point`` is in the middle, zooming out only as far as needed to show ``box``."""
+        """Put ``point`` in the middle of the view, zoomed so that ``box`` fills about a third of it (never
+        zooming in further than it already is when the box is large)."""
         (vx0, vx1), (vy0, vy1) = self.view_box.viewRange()
-        width = max(vx1 - vx0, 1.1 * (box[1] - box[0]), 2.2 * max(point[0] - box[0], box[1] - point[0]))
-        height = max(vy1 - vy0, 1.1 * (box[3] - box[2]), 2.2 * max(point[1] - box[2], box[3] - point[1]))
+        reach_x = 2.0 * max(point[0] - box[0], box[1] - point[0])
+        reach_y = 2.0 * max(point[1] - box[2], box[3] - point[1])
+        scale = max(min(1.0, 3.0 * max(reach_x / (vx1 - vx0), reach_y / (vy1 - vy0))),
+                    1.1 * reach_x / (vx1 - vx0), 1.1 * reach_y / (vy1 - vy0))
+        width, height = scale * (vx1 - vx0), scale * (vy1 - vy0)
         self.view_box.setRange(xRange=(point[0] - width / 2, point[0] + width / 2),
                                yRange=(point[1] - height / 2, point[1] + height / 2), padding=0)
 

@@ -308,13 +308,17 @@ class PinsPanel(QWidget):
             return "".join(f"<tr><td style='padding-right:10px; color:#444'>{html.escape(name)}</td>"
                            f"<td>{html.escape(value)}</td></tr>" for name, value in rows)
 
-        body = f"<p><b>{html.escape(pin.label)}</b></p><table>{table(probe_rows(result, self._variables()))}</table>"
+        # Where the point is and its type first, then what the trade reads there, then the equation's details.
+        rows = probe_rows(result, self._variables())
+        body = f"<p><b>{html.escape(pin.label)}</b></p><table>{table(rows[:4])}</table>"
         trade = self.document.study.equation.trade
         readout = self.trades[index] if index < len(self.trades) else None
         if trade and readout is not None:
             kinds = ", ".join(_TRADE_TITLES.get(kind, kind) for kind in trade)
-            body += (f"<p style='margin-top:8px'><b>Trade quantities</b> <span style='color:#555'>({kinds})"
-                     f"</span></p><table>{table(trade_rows(readout, trade, self._variables()))}</table>")
+            body += (f"<p style='margin-top:6px'><b>Trade quantities</b> <span style='color:#555'>({kinds})"
+                     f"</span></p><table>{table(trade_rows(readout, trade, self._variables()))}</table>"
+                     "<p style='margin-top:6px'><b>Equation at the point</b></p>")
+        body += f"<table>{table(rows[4:])}</table>"
         self.details.setHtml(body)
 
     # -- actions --------------------------------------------------------------------------------------------

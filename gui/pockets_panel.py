@@ -69,7 +69,7 @@ class PocketsPanel(QWidget):
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         self.table.itemSelectionChanged.connect(self._selected)
-        self.table.setMinimumHeight(110)
+        self.table.setMinimumHeight(60)
 
         layout = QVBoxLayout(self)
         layout.addWidget(purpose)

@@ -140,14 +140,16 @@ def test_pocket_table_matches_core_and_click_centres_the_map(make_window):
     (x0, x1), (y0, y1) = window.map_view.view_box.viewRange()
     cx, cy = expected[0].centroid
     assert (x0 + x1) / 2 == pytest.approx(cx, abs=1e-6) and (y0 + y1) / 2 == pytest.approx(cy, abs=1e-6)
-    box_x, box_y = window.map_view.pocket_box.getData()
+    outline_x, outline_y = window.map_view.pocket_outline.getData()
     dx, dy = study.domain.spacing
-    assert box_x.min() == pytest.approx(expected[0].bounding_box[0] - dx / 2)
-    assert box_y.max() == pytest.approx(expected[0].bounding_box[3] + dy / 2)
-    tint = window.map_view.pocket_overlay.image
-    assert np.count_nonzero(tint[..., 3]) == expected[0].node_count
+    x0, x1, y0, y1 = expected[0].bounding_box
+    # The halo runs half-way between the pocket's edge nodes and their neighbours outside it.
+    assert np.nanmin(outline_x) == pytest.approx(x0 - dx / 2) and np.nanmax(outline_x) == pytest.approx(x1 + dx / 2)
+    assert np.nanmin(outline_y) == pytest.approx(y0 - dy / 2) and np.nanmax(outline_y) == pytest.approx(y1 + dy / 2)
+    assert window.map_view.pocket_peak.getData()[0].tolist() == [expected[0].peak_at[0]]
+    assert (x1 - x0) < (window.map_view.view_box.viewRange()[0][1] - window.map_view.view_box.viewRange()[0][0])
     window.pockets_panel.table.clearSelection()
-    assert window.map_view.pocket_overlay.image is None
+    assert len(window.map_view.pocket_outline.getData()[0]) == 0
 
 
 def test_no_pocket_says_so(make_window):
@@ -155,3 +157,14 @@ def test_no_pocket_says_so(make_window):
     assert window.analysis.pockets.pockets == ()
     assert window.pockets_panel.table.rowCount() == 0
     assert window.pockets_panel.summary.text() == "No hyperbolic pocket on this map."
+
+
+def test_trade_readout_where_its_inputs_are_undefined_says_so(make_window):
+    window = make_window(hump_study(nx=61, ny=41))
+    window.add_template("full_potential")
+    window.document.add_pin(0.0, 0.5, "inside the bump")      # r < R: the template leaves u, v undefined
+    window.analysis.flush()
+    readout = window.analysis.trade_readouts[0]
+    assert readout == "undefined here (u, v, c2 are not a finite number at this point)"
+    assert "Mach angle" not in window.pins_panel.details.toPlainText()
+    assert readout in window.pins_panel.details.toPlainText()
