@@ -251,7 +251,9 @@ class EquationPanel(QWidget):
 
     def _render(self, equation: Equation) -> None:
         compiled = self.document.compiled
-        if compiled is None:
+        if compiled is None and self.document.data_pending:
+            self.rendered.setText("<span style='color:#555'>Waiting for the data files to load…</span>")
+        elif compiled is None:
             self.rendered.setText(f"<span style='{_ERROR_STYLE}'>{self.document.compile_error}</span>")
         else:
             self.rendered.setText(equation_html(compiled))
