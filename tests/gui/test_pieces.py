@@ -85,13 +85,13 @@ def test_layer_switches_follow_the_document(make_window):
     assert window.layers_panel.boxes["type_map"].isChecked() and window.map_view.image.isVisible()
 
 
-def test_many_emits_cannot_exhaust_the_reference_count_of_true():
-    """PySide6 6.12.0 drops a reference to True on every Python-side emit; gui pins True when it does."""
+def test_emitting_signals_does_not_leak_references_to_true():
+    """PySide6 6.12.0 dropped a reference to True on every Python-side emit, aborting the interpreter after a
+    few thousand mouse moves ("bool_dealloc"); pyproject pins a release without the defect. This guards the pin.
+    """
     import sys
 
     from PySide6.QtCore import QObject, Signal
-
-    from gui.qt_fixes import emit_leaks_true, guard_emit_reference_leak
 
     class Pinger(QObject):
         ping = Signal(float, float)
@@ -100,10 +100,7 @@ def test_many_emits_cannot_exhaust_the_reference_count_of_true():
     received = []
     pinger.ping.connect(lambda x, y: received.append(x))
     start = sys.getrefcount(True)
-    for index in range(20_000):          # several times what True's own count was at start-up
+    for index in range(2_000):
         pinger.ping.emit(float(index), 0.0)
-    assert len(received) == 20_000
-    if emit_leaks_true():
-        assert guard_emit_reference_leak() is True
-        assert start - sys.getrefcount(True) >= 19_000      # the defect is still there...
-        assert sys.getrefcount(True) > 1 << 39              # ...and harmless
+    assert len(received) == 2_000
+    assert abs(sys.getrefcount(True) - start) < 100
