@@ -121,7 +121,8 @@ class ViewSettings:
     """What the map shows, kept with the project so a study reopens as it was left.
 
     The two characteristic families are switched separately (family 1 and family 2 as numbered by
-    core.characteristics).
+    core.characteristics). ``show_seed_segments`` draws the segments characteristics start from; it is
+    optional in the file (absent means shown), so it comes last.
     """
 
     show_type_map: bool = True
@@ -131,6 +132,7 @@ class ViewSettings:
     show_pins: bool = True
     show_legend: bool = True
     parabolic_tolerance: float = DEFAULT_TOLERANCE
+    show_seed_segments: bool = True
 
     def __post_init__(self) -> None:
         if not 0.0 <= float(self.parabolic_tolerance) < 1.0:
@@ -291,6 +293,25 @@ class Project:
         equations = tuple(equation if e.name == replacing else e for e in self.equations)
         shown = equation.name if self.shown_equation == replacing else self.shown_equation
         return replace(self, equations=equations, shown_equation=shown)
+
+    def with_shown(self, *, equation: str | None = None, domain: str | None = None) -> Project:
+        """A copy showing the equation and/or domain of those names (KeyError for a name there is not)."""
+        if equation is not None:
+            self.equation(equation)
+        if domain is not None:
+            self.domain(domain)
+        return replace(self, shown_equation=self.shown_equation if equation is None else equation,
+                       shown_domain=self.shown_domain if domain is None else domain)
+
+    @property
+    def shown_equation_index(self) -> int:
+        """Position of the shown equation in ``equations``."""
+        return self.equation_names.index(self.shown_equation)
+
+    @property
+    def shown_domain_index(self) -> int:
+        """Position of the shown domain in ``domains``."""
+        return self.domain_names.index(self.shown_domain)
 
     def with_domain(self, domain: Domain, *, replacing: str | None = None) -> Project:
         """A copy with ``domain`` added, or put in place of the domain named ``replacing``."""

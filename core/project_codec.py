@@ -80,6 +80,18 @@ def _data_source_to_dict(source: DataSourceRef) -> dict:
     return result
 
 
+def _layers_to_dict(view: ViewSettings) -> dict:
+    """The layer switches; ``seed_segments`` is optional and written only when the segments are hidden, so
+    files written before it existed keep their bytes."""
+    layers = {"type_map": view.show_type_map, "type_change_lines": view.show_type_change_lines,
+              "characteristics_family_1": view.show_characteristics_family_1,
+              "characteristics_family_2": view.show_characteristics_family_2,
+              "pins": view.show_pins, "legend": view.show_legend}
+    if not view.show_seed_segments:
+        layers["seed_segments"] = False
+    return layers
+
+
 def project_to_dict(project: Project) -> dict:
     """The plain JSON data of a project in the current format, keys in the fixed order files use."""
     view = project.view
@@ -96,10 +108,7 @@ def project_to_dict(project: Project) -> dict:
         "pins": [{"at": [float(p.x), float(p.y)], "label": p.label} for p in project.pins],
         "seeds": [_seed_to_dict(s) for s in project.seeds],
         "view": {
-            "layers": {"type_map": view.show_type_map, "type_change_lines": view.show_type_change_lines,
-                       "characteristics_family_1": view.show_characteristics_family_1,
-                       "characteristics_family_2": view.show_characteristics_family_2,
-                       "pins": view.show_pins, "legend": view.show_legend},
+            "layers": _layers_to_dict(view),
             "parabolic_tolerance": float(view.parabolic_tolerance),
         },
         "notes": project.notes,
@@ -129,7 +138,8 @@ def _build(data: Mapping) -> Project:
                           show_characteristics_family_1=layers["characteristics_family_1"],
                           show_characteristics_family_2=layers["characteristics_family_2"],
                           show_pins=layers["pins"], show_legend=layers["legend"],
-                          parabolic_tolerance=float(view["parabolic_tolerance"])),
+                          parabolic_tolerance=float(view["parabolic_tolerance"]),
+                          show_seed_segments=layers.get("seed_segments", True)),
         notes=data["notes"],
         metadata=Metadata(created=data["metadata"]["created"], modified=data["metadata"]["modified"],
                           written_by=data["metadata"]["written_by"]),

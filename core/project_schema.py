@@ -195,7 +195,8 @@ def project_schema() -> dict:
         ("characteristics_family_1", "characteristic curves of family 1"),
         ("characteristics_family_2", "characteristic curves of family 2"),
         ("pins", "pinned points"),
-        ("legend", "legend"))}
+        ("legend", "legend"),
+        ("seed_segments", "segments characteristics start from (optional, shown when absent)"))}
     return {
         "$schema": "https://json-schema.org/draft/2020-12/schema",
         "$id": f"https://mixtype.invalid/schema/mixtype-project-v{version}.schema.json",
@@ -223,7 +224,8 @@ def project_schema() -> dict:
             }, description="a probed point")},
             "seeds": {"type": "array", "maxItems": MAX_SEEDS, "items": _seed_schema()},
             "view": _object({
-                "layers": _object(layers, description="which layers of the map are visible"),
+                "layers": _object(layers, required=[n for n in layers if n != "seed_segments"],
+                                  description="which layers of the map are visible"),
                 "parabolic_tolerance": _number("points with |D| / (b^2 + 4|ac|) at most this are parabolic",
                                                minimum=0, exclusiveMaximum=1),
             }, description="what the map shows"),

@@ -170,7 +170,8 @@ def projects(draw):
         pins=tuple(Pin(draw(finite), draw(finite), draw(free_text)) for _ in range(draw(st.integers(0, 4)))),
         seeds=tuple(draw(seeds()) for _ in range(draw(st.integers(0, 3)))),
         view=ViewSettings(*(draw(st.booleans()) for _ in range(6)),
-                          parabolic_tolerance=draw(st.floats(min_value=0.0, max_value=0.999))),
+                          parabolic_tolerance=draw(st.floats(min_value=0.0, max_value=0.999)),
+                          show_seed_segments=draw(st.booleans())),
         notes=draw(st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), max_size=200)),
         metadata=Metadata(draw(stamp), draw(stamp), draw(st.sampled_from(["0.1.0", "0.0.9", core.__version__]))),
         data_sources=tuple(sources),
@@ -283,6 +284,24 @@ def test_the_migration_splits_the_switch_whatever_its_value_and_keeps_the_input(
         view = project_from_dict(data).view
         assert view.show_characteristics_family_1 is value and view.show_characteristics_family_2 is value
         assert "characteristics" in data["view"]["layers"] and data["format_version"] == 1
+
+
+def test_the_seed_segment_switch_is_optional_and_round_trips():
+    # version-2 files written before the switch existed lack it: the segments are shown
+    sample = DATA / "project-v2-all-fields.mixtype.json"
+    data = json.loads(sample.read_text(encoding="utf-8"))
+    assert "seed_segments" not in data["view"]["layers"]
+    project = load_project(sample)
+    assert project.view.show_seed_segments is True
+    hidden = replace(project, view=replace(project.view, show_seed_segments=False))
+    text = dumps_project(hidden)
+    assert json.loads(text)["view"]["layers"]["seed_segments"] is False
+    back = loads_project(text)
+    assert back.view.show_seed_segments is False and back == hidden
+    assert "seed_segments" not in json.loads(dumps_project(project))["view"]["layers"]
+    data["view"]["layers"]["seed_segments"] = "no"
+    with pytest.raises(ProjectError, match="seed_segments"):
+        project_from_dict(data)
 
 
 def test_dumping_the_sample_reproduces_its_bytes():

@@ -51,6 +51,18 @@ def test_replacing_the_shown_equation_or_domain_follows_a_rename():
         both.with_domain(SQUARE, replacing="nothing")
 
 
+def test_the_shown_pair_is_chosen_by_name_and_found_by_index():
+    project = new_project(TRICOMI, SQUARE, now=T0).with_equation(replace(TRICOMI, name="second"))
+    project = project.with_domain(replace(SQUARE, name="wide", xmax=3.0))
+    assert (project.shown_equation_index, project.shown_domain_index) == (0, 0)
+    moved = project.with_shown(equation="second", domain="wide")
+    assert (moved.shown_equation, moved.shown_domain) == ("second", "wide")
+    assert (moved.shown_equation_index, moved.shown_domain_index) == (1, 1)
+    assert project.with_shown(domain="wide").shown_equation == "tricomi"
+    with pytest.raises(KeyError, match="no equation named 'third'"):
+        project.with_shown(equation="third")
+
+
 def test_content_equality_ignores_metadata_but_not_definition_order():
     one = new_project(replace(TRICOMI, definitions={"p": "x", "q": "y"}), SQUARE, now=T0)
     later = replace(one, metadata=one.metadata.touched(T0 + timedelta(days=1)))
