@@ -22,10 +22,10 @@ from PySide6.QtCore import QObject, QTimer, Signal
 from core.classify import TypeCode, classify_grid, classify_points
 from core.pockets import label_pockets, pocket_statistics
 from core.progress import Cancelled
+from core.project import Seed
 from core.trade import point_values, readout_at
 from gui.document import Document
 from gui.jobs import JobRunner
-from gui.study import SeedLine
 
 __all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "optional_core", "trade_at"]
 
@@ -54,7 +54,7 @@ class HoverReading:
 class TracedSeed:
     """The characteristics traced from one seed line of the study (curves as core returns them)."""
 
-    seed: SeedLine
+    seed: Seed
     curves: tuple
 
 
@@ -162,8 +162,8 @@ class StudyAnalysis(QObject):
             self._request_pockets(self.type_map)
 
     def _inputs(self):
-        study = self.document.study
-        return study.domain, study.equation.parameter_values(), study.tolerance
+        document = self.document
+        return document.domain, document.equation.parameter_values(), document.tolerance
 
     def _request_map(self, compiled) -> None:
         domain, parameters, tolerance = self._inputs()
@@ -207,7 +207,7 @@ class StudyAnalysis(QObject):
             # Like the lines: during a slider drag the table would flicker; end_drag measures the final map.
             self.runner.cancel("pockets")
             return
-        wanted = self.document.study.equation.peak_quantity
+        wanted = self.document.equation.peak_quantity
         known = (*compiled.definition_order, "a", "b", "c", *self.document.data_names)
         quantity = wanted if wanted in known else None
         parameters = dict(type_map.parameters)
@@ -223,7 +223,7 @@ class StudyAnalysis(QObject):
         self.runner.request("pockets", work, label=_LABELS["pockets"])
 
     def _request_characteristics(self, compiled) -> None:
-        seeds = self.document.study.seeds
+        seeds = self.document.project.seeds
         if not seeds:
             self.traced = ()
             self.runner.cancel("characteristics")
@@ -252,7 +252,7 @@ class StudyAnalysis(QObject):
         self.runner.request("characteristics", work, label=_LABELS["characteristics"])
 
     def _request_probes(self, compiled) -> None:
-        pins = self.document.study.pins
+        pins = self.document.project.pins
         if not pins:
             self.probes = ()
             self.trade_readouts = ()
@@ -265,7 +265,7 @@ class StudyAnalysis(QObject):
             return
         domain, parameters, tolerance = self._inputs()
         data = self.document.data
-        equation = self.document.study.equation
+        equation = self.document.equation
 
         def work(cancel, progress):
             results, trades = [], []
@@ -286,7 +286,7 @@ class StudyAnalysis(QObject):
             return
         domain, parameters, tolerance = self._inputs()
         data = self.document.data
-        equation = self.document.study.equation
+        equation = self.document.equation
 
         def work(cancel, progress):
             px, py = np.array([x]), np.array([y])

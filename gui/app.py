@@ -46,10 +46,10 @@ def main(argv: list[str] | None = None) -> int:
     app = ensure_application([sys.argv[0]])
 
     from gui.main_window import MainWindow
-    from gui.project_bridge import starting_study
+    from gui.project_bridge import starting_project
 
-    study, path = starting_study()
-    window = MainWindow(study, path=path)
+    project, path = starting_project()
+    window = MainWindow(project, path=path)
     geometry, state = window.preferences.window_state()
     if geometry is not None:
         window.restoreGeometry(geometry)

@@ -1,7 +1,7 @@
 """Background data of the open study: loads its data files off the GUI thread and hands them to the document.
 
-The study lists its data files (``Study.data_sources``, core.project.DataSourceRef with absolute paths). When
-that list changes, or the shown equation's variables do, the files are read with core.data.load_data as one
+The study lists its data files (``Project.data_sources``, core.project.DataSourceRef, absolute in the window).
+When that list changes, or the shown equation's variables do, the files are read with core.data.load_data as one
 background job ("data" channel: progress per file, cancellable between files) and each gets a status:
 
 * ``ok``: loaded, and the file is the one the study was saved with (same SHA-256);
@@ -192,14 +192,14 @@ class DataLoader(QObject):
         self._timer.setInterval(0)
         self._timer.timeout.connect(self.reload)
         document.data_sources_changed.connect(self.schedule)
-        document.study_replaced.connect(self.schedule)
+        document.project_replaced.connect(self.schedule)
         document.equation_changed.connect(self._equation_changed)
         runner.finished.connect(self._finished)
         runner.failed.connect(self._failed)
         runner.cancelled.connect(self._cancelled)
 
     def _variables(self) -> tuple[str, str]:
-        return tuple(self.document.study.equation.variables)  # type: ignore[return-value]
+        return tuple(self.document.equation.variables)  # type: ignore[return-value]
 
     def _equation_changed(self) -> None:
         if self.result is not None and self.result.variables != self._variables():
@@ -207,7 +207,7 @@ class DataLoader(QObject):
 
     def schedule(self) -> None:
         """Load the study's data files again soon; until then computations wait for them."""
-        refs = self.document.study.data_sources
+        refs = self.document.project.data_sources
         if not refs:
             self._timer.stop()
             self.runner.cancel("data")
@@ -227,8 +227,8 @@ class DataLoader(QObject):
     def reload(self) -> None:
         """Request the background load of every data file of the study now."""
         self._timer.stop()
-        study = self.document.study
-        refs, variables, equations = study.data_sources, self._variables(), study.equations
+        project = self.document.project
+        refs, variables, equations = project.data_sources, self._variables(), project.equations
         if not refs:
             self.schedule()
             return
@@ -243,7 +243,7 @@ class DataLoader(QObject):
     def add_file(self, path: str) -> None:
         """Read ``path`` in the background; once it loads, add it to the study (an undoable edit)."""
         path = os.path.abspath(path)
-        if any(os.path.normcase(s.path) == os.path.normcase(path) for s in self.document.study.data_sources):
+        if any(os.path.normcase(s.path) == os.path.normcase(path) for s in self.document.project.data_sources):
             self.message.emit(f"{os.path.basename(path)} is already one of the study's data files.")
             return
         variables = self._variables()
@@ -285,10 +285,10 @@ class DataLoader(QObject):
         key = _cache_key(ref, dataset.variables)
         if key is not None:
             self._cache[key] = dataset
-        study = self.document.study
-        if any(s.path == ref.path for s in study.data_sources):
+        project = self.document.project
+        if any(s.path == ref.path for s in project.data_sources):
             return
-        self.document.edit(replace(study, data_sources=(*study.data_sources, ref)),
+        self.document.edit(replace(project, data_sources=(*project.data_sources, ref)),
                            f"Add data file {os.path.basename(ref.path)}")
         self.added.emit(ref.path)
 
@@ -303,7 +303,7 @@ class DataLoader(QObject):
     def _cancelled(self, channel: str, number: int) -> None:
         if channel == "data" and self.runner.latest("data") in (number, -1) and not self.runner.is_busy("data"):
             # What was read before stays in use; files not read yet count as unusable until a reload.
-            study = self.document.study
-            self._apply(load_study_data(study.data_sources, self._variables(), study.equations,
+            project = self.document.project
+            self._apply(load_study_data(project.data_sources, self._variables(), project.equations,
                                         cache=self._cache, read=False))
             self.message.emit("Data loading cancelled: files not read yet are undefined until you reload them.")

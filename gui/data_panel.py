@@ -127,7 +127,7 @@ class DataPanel(QWidget):
         layout.addLayout(buttons)
         layout.addWidget(self.details)
         document.data_sources_changed.connect(self.refresh)
-        document.study_replaced.connect(self.refresh)
+        document.project_replaced.connect(self.refresh)
         self.refresh()
 
     # -- display --------------------------------------------------------------------------------------------
@@ -140,8 +140,8 @@ class DataPanel(QWidget):
         return next((s for s in self.statuses if s.ref == ref), None)
 
     def refresh(self) -> None:
-        refs = self.document.study.data_sources
-        variables = tuple(self.document.study.equation.variables)
+        refs = self.document.project.data_sources
+        variables = tuple(self.document.equation.variables)
         selected = self.selected_index()
         self.table.blockSignals(True)
         try:
@@ -174,7 +174,7 @@ class DataPanel(QWidget):
         return rows[0].row() if rows else -1
 
     def _show_details(self) -> None:
-        refs = self.document.study.data_sources
+        refs = self.document.project.data_sources
         index = self.selected_index()
         has = 0 <= index < len(refs)
         status = self._status_for(refs[index]) if has else None
@@ -202,13 +202,13 @@ class DataPanel(QWidget):
     # -- edits ----------------------------------------------------------------------------------------------
     def remove_selected(self) -> bool:
         index = self.selected_index()
-        if not 0 <= index < len(self.document.study.data_sources):
+        if not 0 <= index < len(self.document.project.data_sources):
             return False
         return self.document.remove_data_source(index)
 
     def accept_selected(self) -> bool:
         index = self.selected_index()
-        refs = self.document.study.data_sources
+        refs = self.document.project.data_sources
         if not 0 <= index < len(refs):
             return False
         status = self._status_for(refs[index])
@@ -227,7 +227,7 @@ class DataPanel(QWidget):
 
     def rename_dialog(self) -> bool:
         index = self.selected_index()
-        refs = self.document.study.data_sources
+        refs = self.document.project.data_sources
         status = self._status_for(refs[index]) if 0 <= index < len(refs) else None
         if status is None or status.dataset is None:
             return False
@@ -236,7 +236,7 @@ class DataPanel(QWidget):
 
     def rename_quantity(self, index: int, old: str, new: str) -> bool:
         """Give quantity ``old`` of data file ``index`` the name ``new`` (an undoable edit)."""
-        refs = self.document.study.data_sources
+        refs = self.document.project.data_sources
         status = self._status_for(refs[index])
         if status is None or status.dataset is None or old not in status.dataset.quantities or old == new:
             return False
@@ -245,7 +245,7 @@ class DataPanel(QWidget):
         except ExpressionError as error:
             self.details.setText(f"Cannot rename {old}: {error}")
             return False
-        variables = tuple(self.document.study.equation.variables)
+        variables = tuple(self.document.equation.variables)
         if new in variables or new in ("a", "b", "c"):
             self.details.setText(f"Cannot rename {old}: {new!r} is a variable or a coefficient")
             return False

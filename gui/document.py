@@ -1,6 +1,7 @@
 """The open study as a QObject: applies edits as undoable commands and says precisely what changed.
 
-Every edit builds a new ``Study`` and pushes a command holding the states before and after. Commands that share
+The document owns a ``core.project.Project`` (its data file paths absolute, see gui.project_bridge). Every
+edit builds a new Project and pushes a command holding the states before and after. Commands that share
 a merge key (one slider drag, one burst of typing in one field) merge into one undo step. After each change the
 document compares old and new and emits only the signals that apply, once each.
 """
@@ -17,19 +18,40 @@ from PySide6.QtGui import QUndoCommand, QUndoStack
 from core.domain import Domain
 from core.equation import CompiledEquation, Equation, Parameter
 from core.expr import ExpressionError
+from core.project import Pin, Project, Seed
 from core.project_data import compile_with_data
-from gui.study import Layers, PinMark, SeedLine, Study
 
-__all__ = ["UNDO_LIMIT", "Document"]
+__all__ = ["LAYER_FIELDS", "LAYER_LABELS", "UNDO_LIMIT", "Document"]
 
 UNDO_LIMIT = 500
 _MERGEABLE_ID = 4711
 
+# The map's layers as the window names them, in the order the layers panel lists them, with the
+# ViewSettings switch each one sets.
+LAYER_LABELS = {
+    "type_map": "Type zones",
+    "type_lines": "Type-change lines",
+    "family_1": "Characteristics, family 1",
+    "family_2": "Characteristics, family 2",
+    "pins": "Pins",
+    "seeds": "Seed segments",
+    "legend": "Legend",
+}
+LAYER_FIELDS = {
+    "type_map": "show_type_map",
+    "type_lines": "show_type_change_lines",
+    "family_1": "show_characteristics_family_1",
+    "family_2": "show_characteristics_family_2",
+    "pins": "show_pins",
+    "seeds": "show_seed_segments",
+    "legend": "show_legend",
+}
 
-class _StudyEdit(QUndoCommand):
-    """One edit: the study before and after. Edits with the same non-empty merge key merge into one."""
 
-    def __init__(self, document: Document, before: Study, after: Study, text: str, merge_key: str) -> None:
+class _ProjectEdit(QUndoCommand):
+    """One edit: the project before and after. Edits with the same non-empty merge key merge into one."""
+
+    def __init__(self, document: Document, before: Project, after: Project, text: str, merge_key: str) -> None:
         super().__init__(text)
         self.document = document
         self.before = before
@@ -40,7 +62,7 @@ class _StudyEdit(QUndoCommand):
         return _MERGEABLE_ID if self.merge_key else -1
 
     def mergeWith(self, other: QUndoCommand) -> bool:
-        if not isinstance(other, _StudyEdit) or other.merge_key != self.merge_key:
+        if not isinstance(other, _ProjectEdit) or other.merge_key != self.merge_key:
             return False
         self.after = other.after
         return True
@@ -72,9 +94,9 @@ def _free_name(name: str, taken: list[str]) -> str:
 
 
 class Document(QObject):
-    """Owns the current study, its file path and undo stack."""
+    """Owns the current project, its file path and undo stack."""
 
-    study_replaced = Signal()          # a different study: everything changed, undo history cleared
+    project_replaced = Signal()        # a different project: everything changed, undo history cleared
     equation_changed = Signal()        # text, definitions, parameter set or the shown equation changed
     parameters_changed = Signal()      # only parameter values of the shown equation changed
     equations_listed = Signal()        # the list of equations or domains (names, count) changed
@@ -88,9 +110,9 @@ class Document(QObject):
     dirty_changed = Signal(bool)
     path_changed = Signal(str)
 
-    def __init__(self, study: Study, parent: QObject | None = None) -> None:
+    def __init__(self, project: Project, parent: QObject | None = None) -> None:
         super().__init__(parent)
-        self._study = study
+        self._project = project
         self._path: Path | None = None
         self._compiled_for: tuple | None = None
         self._compiled: CompiledEquation | None = None
@@ -105,8 +127,27 @@ class Document(QObject):
 
     # -- state ----------------------------------------------------------------------------------------------
     @property
-    def study(self) -> Study:
-        return self._study
+    def project(self) -> Project:
+        return self._project
+
+    @property
+    def equation(self) -> Equation:
+        """The shown equation."""
+        return self._project.equation(self._project.shown_equation)
+
+    @property
+    def domain(self) -> Domain:
+        """The shown domain."""
+        return self._project.domain(self._project.shown_domain)
+
+    @property
+    def tolerance(self) -> float:
+        """The parabolic band (dimensionless), kept in the project's view settings."""
+        return float(self._project.view.parabolic_tolerance)
+
+    def layer_visible(self, name: str) -> bool:
+        """Whether the map layer ``name`` (a key of LAYER_LABELS) is drawn."""
+        return bool(getattr(self._project.view, LAYER_FIELDS[name]))
 
     @property
     def path(self) -> Path | None:
@@ -157,7 +198,7 @@ class Document(QObject):
     @property
     def compiled(self) -> CompiledEquation | None:
         """The shown equation compiled with the data names (cached); None when it does not compile."""
-        equation = self._study.equation
+        equation = self.equation
         key = (equation, self._data_names)
         if self._compiled_for is None or self._compiled_for[0] is not equation \
                 or self._compiled_for[1] != self._data_names:
@@ -179,14 +220,14 @@ class Document(QObject):
         """A fresh key for one drag or one burst of typing: edits carrying it become one undo step."""
         return f"{what}#{next(self._sessions)}"
 
-    # -- whole-study operations -----------------------------------------------------------------------------
-    def replace_study(self, study: Study, path: Path | str | None = None, *, dirty: bool = False) -> None:
-        """Show another study (new, opened, recovered); clears the undo history."""
+    # -- whole-project operations ---------------------------------------------------------------------------
+    def replace_project(self, project: Project, path: Path | str | None = None, *, dirty: bool = False) -> None:
+        """Show another project (new, opened, recovered); clears the undo history."""
         self.undo_stack.clear()
-        self._study = study
+        self._project = project
         self._compiled_for = None
         self.set_path(path)
-        self.study_replaced.emit()
+        self.project_replaced.emit()
         self.equation_changed.emit()
         self.equations_listed.emit()
         self.domain_changed.emit()
@@ -195,7 +236,7 @@ class Document(QObject):
         self.layers_changed.emit()
         self.notes_changed.emit()
         if dirty:
-            # An empty, never-clean marker: a recovered study must be saved before it is safe.
+            # An empty, never-clean marker: a recovered project must be saved before it is safe.
             self.undo_stack.resetClean()
             self.dirty_changed.emit(True)
         else:
@@ -206,154 +247,153 @@ class Document(QObject):
         self._path = Path(path) if path is not None else None
         self.path_changed.emit(str(self._path) if self._path else "")
 
-    def mark_saved(self, path: Path | str, written: Study | None = None) -> None:
-        """The study is now stored at ``path``; ``written`` (same content, metadata as stored) replaces it
+    def mark_saved(self, path: Path | str, written: Project | None = None) -> None:
+        """The project is now stored at ``path``; ``written`` (same content, metadata as stored) replaces it
         without an undo step."""
         if written is not None:
-            self._study = written
+            self._project = written
         self.set_path(path)
         self.undo_stack.setClean()
 
     # -- edits ----------------------------------------------------------------------------------------------
-    def edit(self, after: Study, text: str, *, merge_key: str = "") -> bool:
-        """Push an undoable change to ``after``; nothing happens (False) when it equals the current study."""
-        if after == self._study:
+    def edit(self, after: Project, text: str, *, merge_key: str = "") -> bool:
+        """Push an undoable change to ``after``; nothing happens (False) when it equals the current project."""
+        if after == self._project:
             return False
-        self.undo_stack.push(_StudyEdit(self, self._study, after, text, merge_key))
+        self.undo_stack.push(_ProjectEdit(self, self._project, after, text, merge_key))
         return True
 
     def set_equation(self, equation: Equation, text: str = "Edit equation", *, merge_key: str = "") -> bool:
-        return self.edit(self._study.with_equation(equation), text, merge_key=merge_key)
+        return self.edit(self._project.with_equation(equation, replacing=self._project.shown_equation), text, merge_key=merge_key)
 
     def set_coefficient(self, which: str, text: str, *, merge_key: str = "") -> bool:
         if which not in ("a", "b", "c"):
             raise ValueError(f"coefficient must be 'a', 'b' or 'c', got {which!r}")
-        equation = replace(self._study.equation, **{which: text})
+        equation = replace(self.equation, **{which: text})
         return self.set_equation(equation, f"Edit coefficient {which}", merge_key=merge_key)
 
     def set_definitions(self, definitions: dict[str, str], *, merge_key: str = "") -> bool:
-        equation = replace(self._study.equation, definitions=dict(definitions))
+        equation = replace(self.equation, definitions=dict(definitions))
         return self.set_equation(equation, "Edit definitions", merge_key=merge_key)
 
     def set_parameters(self, parameters: dict[str, Parameter], text: str = "Edit parameters", *,
                        merge_key: str = "") -> bool:
-        equation = replace(self._study.equation, parameters=dict(parameters))
+        equation = replace(self.equation, parameters=dict(parameters))
         return self.set_equation(equation, text, merge_key=merge_key)
 
     def set_parameter_value(self, name: str, value: float, *, merge_key: str = "") -> bool:
-        parameters = dict(self._study.equation.parameters)
+        parameters = dict(self.equation.parameters)
         if name not in parameters:
             raise KeyError(f"no parameter named {name!r}")
         parameters[name] = replace(parameters[name], value=float(value))
         return self.set_parameters(parameters, f"Set {name} = {value:.6g}", merge_key=merge_key)
 
     def set_domain(self, domain: Domain, text: str = "Edit domain", *, merge_key: str = "") -> bool:
-        return self.edit(self._study.with_domain(domain), text, merge_key=merge_key)
+        return self.edit(self._project.with_domain(domain, replacing=self._project.shown_domain), text, merge_key=merge_key)
 
     def show_equation(self, index: int) -> bool:
-        return self.edit(replace(self._study, shown_equation=index), "Show another equation")
+        return self.edit(self._project.with_shown(equation=self._project.equation_names[index]),
+                         "Show another equation")
 
     def show_domain(self, index: int) -> bool:
-        return self.edit(replace(self._study, shown_domain=index), "Show another domain")
+        return self.edit(self._project.with_shown(domain=self._project.domain_names[index]), "Show another domain")
 
     def add_equation(self, equation: Equation) -> bool:
-        study = replace(self._study, equations=self._study.equations + (equation,),
-                        shown_equation=len(self._study.equations))
-        return self.edit(study, f"Add equation {equation.name}")
+        project = self._project.with_equation(equation).with_shown(equation=equation.name)
+        return self.edit(project, f"Add equation {equation.name}")
 
     def add_equation_and_domain(self, equation: Equation, domain: Domain | None, text: str) -> bool:
         """Add ``equation`` (renamed if its name is taken) and show it, as one undo step. ``domain`` is shown
-        too: a domain of the study with the same bounds when there is one, else ``domain`` itself, added
+        too: a domain of the project with the same bounds when there is one, else ``domain`` itself, added
         (renamed if needed). None keeps the shown domain."""
-        study = self._study
-        equation = replace(equation, name=_free_name(equation.name, [e.name for e in study.equations]))
-        study = replace(study, equations=study.equations + (equation,), shown_equation=len(study.equations))
+        project = self._project
+        equation = replace(equation, name=_free_name(equation.name, list(project.equation_names)))
+        project = project.with_equation(equation).with_shown(equation=equation.name)
         if domain is not None:
             bounds = (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
-            same = [i for i, d in enumerate(study.domains) if (d.xmin, d.xmax, d.ymin, d.ymax) == bounds]
+            same = [d.name for d in project.domains if (d.xmin, d.xmax, d.ymin, d.ymax) == bounds]
             if same:
-                study = replace(study, shown_domain=same[0])
+                project = project.with_shown(domain=same[0])
             else:
-                domain = replace(domain, name=_free_name(domain.name, [d.name for d in study.domains]))
-                study = replace(study, domains=study.domains + (domain,), shown_domain=len(study.domains))
-        return self.edit(study, text)
+                domain = replace(domain, name=_free_name(domain.name, list(project.domain_names)))
+                project = project.with_domain(domain).with_shown(domain=domain.name)
+        return self.edit(project, text)
 
     def add_domain(self, domain: Domain) -> bool:
-        study = replace(self._study, domains=self._study.domains + (domain,),
-                        shown_domain=len(self._study.domains))
-        return self.edit(study, f"Add domain {domain.name}")
+        project = self._project.with_domain(domain).with_shown(domain=domain.name)
+        return self.edit(project, f"Add domain {domain.name}")
 
     def add_pin(self, x: float, y: float, label: str = "") -> bool:
-        label = label or f"P{len(self._study.pins) + 1}"
-        return self.edit(replace(self._study, pins=self._study.pins + (PinMark(float(x), float(y), label),)),
+        label = label or f"P{len(self._project.pins) + 1}"
+        return self.edit(replace(self._project, pins=self._project.pins + (Pin(float(x), float(y), label),)),
                          f"Pin {label}")
 
     def move_pin(self, index: int, x: float, y: float, *, merge_key: str = "") -> bool:
-        pins = list(self._study.pins)
+        pins = list(self._project.pins)
         pins[index] = replace(pins[index], x=float(x), y=float(y))
-        return self.edit(replace(self._study, pins=tuple(pins)), f"Move pin {pins[index].label}",
+        return self.edit(replace(self._project, pins=tuple(pins)), f"Move pin {pins[index].label}",
                          merge_key=merge_key)
 
     def relabel_pin(self, index: int, label: str) -> bool:
-        pins = list(self._study.pins)
+        pins = list(self._project.pins)
         pins[index] = replace(pins[index], label=label)
-        return self.edit(replace(self._study, pins=tuple(pins)), f"Rename pin to {label}")
+        return self.edit(replace(self._project, pins=tuple(pins)), f"Rename pin to {label}")
 
     def remove_pin(self, index: int) -> bool:
-        pins = list(self._study.pins)
+        pins = list(self._project.pins)
         removed = pins.pop(index)
-        return self.edit(replace(self._study, pins=tuple(pins)), f"Delete pin {removed.label}")
+        return self.edit(replace(self._project, pins=tuple(pins)), f"Delete pin {removed.label}")
 
-    def add_seed(self, seed: SeedLine) -> bool:
-        what = "Trace through a point" if seed.is_point else f"Trace along a segment ({seed.curves} seeds)"
-        return self.edit(replace(self._study, seeds=self._study.seeds + (seed,)), what)
+    def add_seed(self, seed: Seed) -> bool:
+        what = "Trace through a point" if not seed.is_segment else f"Trace along a segment ({seed.curves} seeds)"
+        return self.edit(replace(self._project, seeds=self._project.seeds + (seed,)), what)
 
     def remove_seed(self, index: int) -> bool:
-        seeds = list(self._study.seeds)
+        seeds = list(self._project.seeds)
         seeds.pop(index)
-        return self.edit(replace(self._study, seeds=tuple(seeds)), "Remove characteristics")
+        return self.edit(replace(self._project, seeds=tuple(seeds)), "Remove characteristics")
 
     def clear_seeds(self) -> bool:
-        return self.edit(replace(self._study, seeds=()), "Remove all characteristics")
+        return self.edit(replace(self._project, seeds=()), "Remove all characteristics")
 
     def set_layer(self, name: str, visible: bool) -> bool:
-        layers = self._study.layers.with_layer(name, visible)
-        return self.edit(replace(self._study, layers=layers), f"{'Show' if visible else 'Hide'} {name}")
-
-    def set_layers(self, layers: Layers) -> bool:
-        return self.edit(replace(self._study, layers=layers), "Change layers")
+        if name not in LAYER_FIELDS:
+            raise ValueError(f"unknown layer {name!r}; expected one of {', '.join(LAYER_FIELDS)}")
+        view = replace(self._project.view, **{LAYER_FIELDS[name]: bool(visible)})
+        return self.edit(replace(self._project, view=view), f"{'Show' if visible else 'Hide'} {name}")
 
     def set_tolerance(self, tolerance: float) -> bool:
         """The parabolic band: |D|/(b^2 + 4|ac|) at or below it counts as parabolic (dimensionless)."""
         tolerance = float(tolerance)
         if not 0.0 <= tolerance < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance:g}")
-        return self.edit(replace(self._study, tolerance=tolerance), f"Parabolic tolerance {tolerance:g}")
+        view = replace(self._project.view, parabolic_tolerance=tolerance)
+        return self.edit(replace(self._project, view=view), f"Parabolic tolerance {tolerance:g}")
 
     def set_data_source(self, index: int, ref, text: str) -> bool:
-        """Replace the study's data file ``index`` by ``ref`` (renamed quantities, accepted checksum)."""
-        sources = list(self._study.data_sources)
+        """Replace the project's data file ``index`` by ``ref`` (renamed quantities, accepted checksum)."""
+        sources = list(self._project.data_sources)
         sources[index] = ref
-        return self.edit(replace(self._study, data_sources=tuple(sources)), text)
+        return self.edit(replace(self._project, data_sources=tuple(sources)), text)
 
     def remove_data_source(self, index: int) -> bool:
-        sources = list(self._study.data_sources)
+        sources = list(self._project.data_sources)
         removed = sources.pop(index)
-        return self.edit(replace(self._study, data_sources=tuple(sources)),
+        return self.edit(replace(self._project, data_sources=tuple(sources)),
                          f"Remove data file {Path(removed.path).name}")
 
     def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
-        return self.edit(replace(self._study, notes=notes), "Edit notes", merge_key=merge_key)
+        return self.edit(replace(self._project, notes=notes), "Edit notes", merge_key=merge_key)
 
     @Slot(bool)
     def _clean_changed(self, clean: bool) -> None:
         self.dirty_changed.emit(not clean)
 
     # -- change notification --------------------------------------------------------------------------------
-    def _apply(self, after: Study) -> None:
-        before, self._study = self._study, after
-        old_eq, new_eq = before.equation, after.equation
-        if before.shown_equation != after.shown_equation or _structure(old_eq) != _structure(new_eq):
+    def _apply(self, after: Project) -> None:
+        before, self._project = self._project, after
+        (old_eq, old_domain), (new_eq, new_domain) = before.shown(), after.shown()
+        if before.shown_equation_index != after.shown_equation_index or _structure(old_eq) != _structure(new_eq):
             self.equation_changed.emit()
         elif old_eq.parameters != new_eq.parameters:
             self.parameters_changed.emit()
@@ -361,13 +401,13 @@ class Document(QObject):
                 or [e.name for e in before.equations] != [e.name for e in after.equations] \
                 or [d.name for d in before.domains] != [d.name for d in after.domains]:
             self.equations_listed.emit()
-        if before.domain != after.domain or before.tolerance != after.tolerance:
+        if old_domain != new_domain or before.view.parabolic_tolerance != after.view.parabolic_tolerance:
             self.domain_changed.emit()
         if before.pins != after.pins:
             self.pins_changed.emit()
         if before.seeds != after.seeds:
             self.seeds_changed.emit()
-        if before.layers != after.layers:
+        if replace(before.view, parabolic_tolerance=0.0) != replace(after.view, parabolic_tolerance=0.0):
             self.layers_changed.emit()
         if before.notes != after.notes:
             self.notes_changed.emit()

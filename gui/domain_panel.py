@@ -96,26 +96,26 @@ class DomainPanel(QWidget):
         self.refresh()
 
     def refresh(self) -> None:
-        study = self.document.study
-        domain = study.domain
+        project = self.document.project
+        domain = self.document.domain
         self._updating = True
         try:
             self.choice.clear()
-            self.choice.addItems([d.name for d in study.domains])
-            self.choice.setCurrentIndex(study.shown_domain)
+            self.choice.addItems(list(project.domain_names))
+            self.choice.setCurrentIndex(project.shown_domain_index)
             self.name.setText(domain.name)
             for key, edit in self.bounds.items():
                 edit.setText(f"{getattr(domain, key):.10g}")
             self.nodes["nx"].setValue(domain.nx)
             self.nodes["ny"].setValue(domain.ny)
-            self.tolerance.setText(f"{study.tolerance:g}")
+            self.tolerance.setText(f"{self.document.tolerance:g}")
             self.error.setVisible(False)
         finally:
             self._updating = False
         self._name_axes()
 
     def _name_axes(self) -> None:
-        first, second = self.document.study.equation.variables
+        first, second = self.document.equation.variables
         for key in self.bounds:
             variable = first if key.startswith("x") else second
             self.labels[key].setText(f"{variable} {'from' if key.endswith('min') else 'to'}")
@@ -157,8 +157,8 @@ class DomainPanel(QWidget):
         self.error.setVisible(False)
 
     def _duplicate(self) -> None:
-        domain = self.document.study.domain
-        names = {d.name for d in self.document.study.domains}
+        domain = self.document.domain
+        names = {d.name for d in self.document.project.domains}
         number = 2
         while f"{domain.name} ({number})" in names:
             number += 1

@@ -200,14 +200,14 @@ class EquationPanel(QWidget):
         document.equation_changed.connect(self.refresh)
         document.parameters_changed.connect(self._refresh_parameter_values)
         document.equations_listed.connect(self._refresh_choice)
-        document.data_changed.connect(lambda: self._render(self.document.study.equation))
+        document.data_changed.connect(lambda: self._render(self.document.equation))
         self._refresh_choice()
         self.refresh()
 
     # -- from the document ----------------------------------------------------------------------------------
     def refresh(self) -> None:
         """Show the document's equation (texts, tables, sliders, rendered form); clears stale errors."""
-        equation = self.document.study.equation
+        equation = self.document.equation
         self._updating = True
         try:
             for which, edit in self.coefficient_edits.items():
@@ -223,18 +223,18 @@ class EquationPanel(QWidget):
             self._updating = False
         self._build_sliders(equation)
         self._render(equation)
-        self.equation_choice.setCurrentIndex(self.document.study.shown_equation)
+        self.equation_choice.setCurrentIndex(self.document.project.shown_equation_index)
 
     def _refresh_choice(self) -> None:
         self.equation_choice.blockSignals(True)
         self.equation_choice.clear()
-        for equation in self.document.study.equations:
+        for equation in self.document.project.equations:
             self.equation_choice.addItem(equation.name)
-        self.equation_choice.setCurrentIndex(self.document.study.shown_equation)
+        self.equation_choice.setCurrentIndex(self.document.project.shown_equation_index)
         self.equation_choice.blockSignals(False)
 
     def _refresh_parameter_values(self) -> None:
-        equation = self.document.study.equation
+        equation = self.document.equation
         self._updating = True
         try:
             self._fill_parameters(equation)
@@ -332,7 +332,7 @@ class EquationPanel(QWidget):
         self.coefficient_edits[which].setStyleSheet(_BAD_FIELD if text else "")
 
     def _coefficient_typed(self, which: str, text: str) -> None:
-        candidate = replace(self.document.study.equation, **{which: text})
+        candidate = replace(self.document.equation, **{which: text})
         error = self._check(candidate)
         if error is not None:
             where = f"column {error.column}: " if error.column is not None else ""
@@ -358,7 +358,7 @@ class EquationPanel(QWidget):
                 self._table_error(self.definition_error, f"row {row + 1}: {name!r} is defined twice")
                 return
             definitions[name] = text
-        candidate = replace(self.document.study.equation, definitions=definitions)
+        candidate = replace(self.document.equation, definitions=definitions)
         error = self._check(candidate)
         if error is not None:
             self._table_error(self.definition_error, str(error))
@@ -369,7 +369,7 @@ class EquationPanel(QWidget):
     def _parameters_edited(self, item: QTableWidgetItem) -> None:
         if self._updating:
             return
-        old = self.document.study.equation.parameters
+        old = self.document.equation.parameters
         parameters: dict[str, Parameter] = {}
         try:
             for row in range(self.parameters.rowCount()):
@@ -391,7 +391,7 @@ class EquationPanel(QWidget):
         except ValueError as error:
             self._table_error(self.parameter_error, str(error))
             return
-        candidate = replace(self.document.study.equation, parameters=parameters)
+        candidate = replace(self.document.equation, parameters=parameters)
         error = self._check(candidate)
         if error is not None:
             self._table_error(self.parameter_error, str(error))
@@ -405,22 +405,22 @@ class EquationPanel(QWidget):
         label.setVisible(True)
 
     def _add_definition(self) -> None:
-        existing = set(self.document.study.equation.definitions) | set(self.document.study.equation.parameters)
+        existing = set(self.document.equation.definitions) | set(self.document.equation.parameters)
         number = 1
         while f"q{number}" in existing:
             number += 1
-        definitions = dict(self.document.study.equation.definitions)
+        definitions = dict(self.document.equation.definitions)
         definitions[f"q{number}"] = "0"
         self.document.set_definitions(definitions)
 
     def _remove_definition(self) -> None:
         row = self.definitions.currentRow()
-        names = list(self.document.study.equation.definitions)
+        names = list(self.document.equation.definitions)
         if not 0 <= row < len(names):
             return
-        definitions = dict(self.document.study.equation.definitions)
+        definitions = dict(self.document.equation.definitions)
         del definitions[names[row]]
-        candidate = replace(self.document.study.equation, definitions=definitions)
+        candidate = replace(self.document.equation, definitions=definitions)
         error = self._check(candidate)
         if error is not None:
             self._table_error(self.definition_error, f"cannot remove {names[row]!r}: {error}")
@@ -428,7 +428,7 @@ class EquationPanel(QWidget):
         self.document.set_definitions(definitions)
 
     def _add_parameter(self) -> None:
-        equation = self.document.study.equation
+        equation = self.document.equation
         existing = set(equation.definitions) | set(equation.parameters)
         number = 1
         while f"k{number}" in existing:
@@ -439,12 +439,12 @@ class EquationPanel(QWidget):
 
     def _remove_parameter(self) -> None:
         row = self.parameters.currentRow()
-        names = list(self.document.study.equation.parameters)
+        names = list(self.document.equation.parameters)
         if not 0 <= row < len(names):
             return
-        parameters = dict(self.document.study.equation.parameters)
+        parameters = dict(self.document.equation.parameters)
         del parameters[names[row]]
-        error = self._check(replace(self.document.study.equation, parameters=parameters))
+        error = self._check(replace(self.document.equation, parameters=parameters))
         if error is not None:
             self._table_error(self.parameter_error, f"cannot remove {names[row]!r}: {error}")
             return
@@ -454,8 +454,8 @@ class EquationPanel(QWidget):
         self.document.show_equation(index)
 
     def _duplicate(self) -> None:
-        equation = self.document.study.equation
-        names = {e.name for e in self.document.study.equations}
+        equation = self.document.equation
+        names = {e.name for e in self.document.project.equations}
         number = 2
         while f"{equation.name} ({number})" in names:
             number += 1
@@ -471,7 +471,7 @@ class EquationPanel(QWidget):
         self.drag_finished.emit()
 
     def _slider_moved(self, name: str, position: int) -> None:
-        parameter = self.document.study.equation.parameters.get(name)
+        parameter = self.document.equation.parameters.get(name)
         if parameter is None or parameter.minimum is None or parameter.maximum is None:
             return
         value = parameter.minimum + (parameter.maximum - parameter.minimum) * position / SLIDER_STEPS

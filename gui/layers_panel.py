@@ -16,9 +16,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from gui.document import Document
+from gui.document import LAYER_LABELS, Document
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
-from gui.study import LAYER_LABELS
 
 __all__ = ["LayersPanel"]
 
@@ -114,8 +113,7 @@ class LayersPanel(QWidget):
         return chosen or (1, 2)
 
     def refresh(self) -> None:
-        layers = self.document.study.layers
         for name, box in self.boxes.items():
             box.blockSignals(True)
-            box.setChecked(layers.visible(name))
+            box.setChecked(self.document.layer_visible(name))
             box.blockSignals(False)

@@ -25,6 +25,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.project import Project, Seed
 from core.result_tables import (
     BOUNDARY_COLUMNS,
     CHARACTERISTIC_COLUMNS,
@@ -50,8 +51,13 @@ from gui.notes_panel import NotesPanel
 from gui.pins_panel import PinsPanel, main_trade_text
 from gui.pockets_panel import PocketsPanel
 from gui.preferences import Preferences
-from gui.project_bridge import PROJECT_FILTER, StudyFileError, load_study, save_study, scratch_study
-from gui.study import SeedLine, Study
+from gui.project_bridge import (
+    PROJECT_FILTER,
+    ProjectFileError,
+    open_project_file,
+    save_project_file,
+    scratch_project,
+)
 from gui.template_dialog import TemplateChoice, TemplateDialog
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
@@ -69,12 +75,12 @@ CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data",
 class MainWindow(QMainWindow):
     """The whole study window. ``synchronous`` computes on the calling thread (tests, headless render)."""
 
-    def __init__(self, study: Study | None = None, *, path: str | Path | None = None,
+    def __init__(self, project: Project | None = None, *, path: str | Path | None = None,
                  preferences: Preferences | None = None, synchronous: bool = False,
                  autosave_ms: int = 30_000) -> None:
         super().__init__()
         self.preferences = preferences or Preferences()
-        self.document = Document(study or scratch_study(), self)
+        self.document = Document(project or scratch_project(), self)
         if path is not None:
             self.document.set_path(path)
         self.runner = JobRunner(self, synchronous=synchronous)
@@ -246,8 +252,8 @@ class MainWindow(QMainWindow):
         d.equation_changed.connect(self._equation_shown)
         d.parameters_changed.connect(self._update_titles)
         d.domain_changed.connect(self._domain_shown)
-        d.pins_changed.connect(lambda: m.show_pins(d.study.pins))
-        d.seeds_changed.connect(lambda: m.show_seeds(d.study.seeds))
+        d.pins_changed.connect(lambda: m.show_pins(d.project.pins))
+        d.seeds_changed.connect(lambda: m.show_seeds(d.project.seeds))
         d.layers_changed.connect(self._layers_shown)
         d.dirty_changed.connect(lambda dirty: self._update_title())
         d.path_changed.connect(lambda path: self._update_title())
@@ -282,17 +288,17 @@ class MainWindow(QMainWindow):
         self.runner.failed.connect(lambda channel, number, text: None)
 
     def _show_everything(self) -> None:
-        study = self.document.study
+        project = self.document.project
         self._equation_shown()
-        self.map_view.show_domain(study.domain)
-        self.map_view.show_pins(study.pins)
-        self.map_view.show_seeds(study.seeds)
+        self.map_view.show_domain(self.document.domain)
+        self.map_view.show_pins(project.pins)
+        self.map_view.show_seeds(project.seeds)
         self._layers_shown()
         self.analysis.refresh_all()
 
     # -- reactions ------------------------------------------------------------------------------------------
     def _equation_shown(self) -> None:
-        variables = self.document.study.equation.variables
+        variables = self.document.equation.variables
         self.map_view.set_variables(*variables)
         self._update_titles()
         if self.document.data_pending:
@@ -303,39 +309,38 @@ class MainWindow(QMainWindow):
             self.show_notice("")
 
     def _update_titles(self) -> None:
-        study = self.document.study
-        equation = study.equation
+        equation = self.document.equation
         values = []
         for name, parameter in equation.parameters.items():
             unit = f" {parameter.unit}" if parameter.unit else ""
             values.append(f"{name} = {parameter.value:.4g}{unit}")
-        title = f"Type of “{equation.name}” on “{study.domain.name}”"
-        domain = study.domain
+        domain = self.document.domain
+        title = f"Type of “{equation.name}” on “{domain.name}”"
         ratio = (domain.ymax - domain.ymin) / (domain.xmax - domain.xmin)
         scale = "" if 1 / MAX_STRETCH <= ratio <= MAX_STRETCH else \
             "; axes not to scale (angles on screen are stretched, readouts are exact)"
         subtitle = (f"{domain.nx} × {domain.ny} grid nodes; parabolic when |D|/(b² + 4|ac|) ≤ "
-                    f"{study.tolerance:g}" + (f"; {', '.join(values)}" if values else "") + scale)
+                    f"{self.document.tolerance:g}" + (f"; {', '.join(values)}" if values else "") + scale)
         self.map_view.set_titles(title, subtitle)
 
     def _domain_shown(self) -> None:
         previous = self.map_view._domain
-        domain = self.document.study.domain
+        domain = self.document.domain
         same_box = previous is not None and (previous.xmin, previous.xmax, previous.ymin, previous.ymax) == \
             (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
         self.map_view.show_domain(domain, fit=not same_box)
         self._update_titles()
 
     def _layers_shown(self) -> None:
-        layers = self.document.study.layers
-        self.map_view.set_layers(layers)
-        self.map_view.legend.setVisible(layers.legend)
+        view = self.document.project.view
+        self.map_view.set_layers(view)
+        self.map_view.legend.setVisible(view.show_legend)
 
     def _map_ready(self, type_map) -> None:
         self.map_view.show_type_map(type_map)
 
     def _show_hover(self, reading) -> None:
-        x_name, y_name = self.document.study.equation.variables
+        x_name, y_name = self.document.equation.variables
         where = f"{x_name} = {reading.x:.5g}, {y_name} = {reading.y:.5g}"
         outside = "" if reading.inside else " (outside the domain)"
         d = "undefined" if reading.discriminant != reading.discriminant else f"{reading.discriminant:.5g}"
@@ -419,8 +424,8 @@ class MainWindow(QMainWindow):
     def _segment_drawn(self, x0: float, y0: float, x1: float, y1: float) -> None:
         if (x0, y0) == (x1, y1):
             return
-        seed = SeedLine(start=(x0, y0), end=(x1, y1), curves=self.layers_panel.seed_count.value(),
-                        families=self.layers_panel.families())
+        seed = Seed(start=(x0, y0), end=(x1, y1), curves=self.layers_panel.seed_count.value(),
+                    families=self.layers_panel.families())
         self.document.add_seed(seed)
 
     def _progress(self, channel: str, fraction: float, label: str) -> None:
@@ -489,7 +494,7 @@ class MainWindow(QMainWindow):
     def new_study(self) -> bool:
         if not self.may_discard():
             return False
-        self.document.replace_study(scratch_study())
+        self.document.replace_project(scratch_project())
         self._after_replace()
         return True
 
@@ -504,11 +509,11 @@ class MainWindow(QMainWindow):
         if ask and not self.may_discard():
             return False
         try:
-            study = load_study(path)
-        except StudyFileError as error:
+            project = open_project_file(path)
+        except ProjectFileError as error:
             self.report_error("Could not open the study", str(error))
             return False
-        self.document.replace_study(study, path)
+        self.document.replace_project(project, path)
         self.preferences.add_recent_file(path)
         self.preferences.set_last_folder(str(Path(path).resolve().parent))
         self._refresh_recent_menu()
@@ -516,7 +521,7 @@ class MainWindow(QMainWindow):
         return True
 
     def _after_replace(self) -> None:
-        self.map_view.show_domain(self.document.study.domain)
+        self.map_view.show_domain(self.document.domain)
         self._layers_shown()
         self.show_notice("")
 
@@ -535,8 +540,8 @@ class MainWindow(QMainWindow):
 
     def save_to(self, path: str | Path) -> bool:
         try:
-            written = save_study(self.document.study, path)
-        except StudyFileError as error:
+            written = save_project_file(self.document.project, path)
+        except ProjectFileError as error:
             self.report_error("Could not save the study", str(error))
             return False
         self.document.mark_saved(path, written)
@@ -571,8 +576,8 @@ class MainWindow(QMainWindow):
         if not self.document.is_dirty:
             return False
         try:
-            save_study(self.document.study, self.preferences.recovery_path)
-        except StudyFileError as error:
+            save_project_file(self.document.project, self.preferences.recovery_path)
+        except ProjectFileError as error:
             self.statusBar().showMessage(f"Autosave failed: {error}", 8000)
             return False
         return True
@@ -588,14 +593,14 @@ class MainWindow(QMainWindow):
         if not path.exists():
             return False
         try:
-            study = load_study(path)
-        except StudyFileError:
+            project = open_project_file(path)
+        except ProjectFileError:
             self.remove_recovery()
             return False
         if not self.ask_restore(path):
             self.remove_recovery()
             return False
-        self.document.replace_study(study, None, dirty=True)
+        self.document.replace_project(project, None, dirty=True)
         self._after_replace()
         return True
 
@@ -646,7 +651,7 @@ class MainWindow(QMainWindow):
         if what == "characteristics":
             return write_csv(characteristic_rows(self._characteristic_curves()), path, CHARACTERISTIC_COLUMNS)
         if what == "pins":
-            return write_csv(pin_rows(self.document.study.pins, self.pin_readouts()), path)
+            return write_csv(pin_rows(self.document.project.pins, self.pin_readouts()), path)
         raise ValueError(f"unknown table {what!r}; expected lines, characteristics or pins")
 
     def _export_table_dialog(self, what: str) -> None:
@@ -661,11 +666,11 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage(f"{rows} rows written to {path}", 5000)
 
     def export_json(self, path: str | Path) -> None:
-        study = self.document.study
-        data = results_dict(equation=study.equation, domain=study.domain,
-                            parameters=study.equation.parameter_values(), type_map=self.analysis.type_map,
+        equation = self.document.equation
+        data = results_dict(equation=equation, domain=self.document.domain,
+                            parameters=equation.parameter_values(), type_map=self.analysis.type_map,
                             boundaries=self.analysis.boundaries, characteristics=self._characteristic_curves(),
-                            pins=study.pins, readouts=self.pin_readouts())
+                            pins=self.document.project.pins, readouts=self.pin_readouts())
         write_json(data, path)
 
     def _export_json_dialog(self) -> None:

@@ -15,6 +15,7 @@ from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from core.classify import TypeCode
+from core.project import Pin, Seed, ViewSettings
 from gui.palette import (
     FAMILY_COLOURS,
     HIGHLIGHT_COLOUR,
@@ -24,7 +25,6 @@ from gui.palette import (
     TYPE_LINE_COLOUR,
     type_lookup_table,
 )
-from gui.study import Layers, PinMark, SeedLine
 
 __all__ = ["MapView", "MapViewBox", "pocket_outline", "polyline_with_breaks"]
 
@@ -111,8 +111,8 @@ class MapView(QWidget):
         configure_plotting()
         self.mode = "pin"
         self._drag_pin: int | None = None
-        self._pins: tuple[PinMark, ...] = ()
-        self._layers = Layers()
+        self._pins: tuple[Pin, ...] = ()
+        self._layers = ViewSettings()
         self._domain = None
         self.to_scale = True
 
@@ -278,12 +278,12 @@ class MapView(QWidget):
             x, y = polyline_with_breaks(by_family.get(family, []))
             item.setData(x, y, connect="finite")
 
-    def show_seeds(self, seeds: tuple[SeedLine, ...]) -> None:
-        segments = [np.array([s.start, s.end]) for s in seeds if not s.is_point]
+    def show_seeds(self, seeds: tuple[Seed, ...]) -> None:
+        segments = [np.array([s.start, s.end]) for s in seeds if s.is_segment]
         x, y = polyline_with_breaks(segments)
         self.seed_lines.setData(x, y, connect="finite")
 
-    def show_pins(self, pins: tuple[PinMark, ...]) -> None:
+    def show_pins(self, pins: tuple[Pin, ...]) -> None:
         self._pins = tuple(pins)
         self.pin_markers.setData([p.x for p in pins], [p.y for p in pins])
         for label in self._pin_labels:
@@ -293,20 +293,20 @@ class MapView(QWidget):
             text = pg.TextItem(pin.label, color="#222222", anchor=(-0.15, 1.1), fill=pg.mkBrush(255, 255, 255, 190))
             text.setPos(pin.x, pin.y)
             text.setZValue(31)
-            text.setVisible(self._layers.pins)
+            text.setVisible(self._layers.show_pins)
             self.plot.addItem(text)
             self._pin_labels.append(text)
 
-    def set_layers(self, layers: Layers) -> None:
-        self._layers = layers
-        self.image.setVisible(layers.type_map)
-        self.lines.setVisible(layers.type_lines)
-        self.family_curves[1].setVisible(layers.family_1)
-        self.family_curves[2].setVisible(layers.family_2)
-        self.pin_markers.setVisible(layers.pins)
+    def set_layers(self, view: ViewSettings) -> None:
+        self._layers = view
+        self.image.setVisible(view.show_type_map)
+        self.lines.setVisible(view.show_type_change_lines)
+        self.family_curves[1].setVisible(view.show_characteristics_family_1)
+        self.family_curves[2].setVisible(view.show_characteristics_family_2)
+        self.pin_markers.setVisible(view.show_pins)
         for label in self._pin_labels:
-            label.setVisible(layers.pins)
-        self.seed_lines.setVisible(layers.seeds)
+            label.setVisible(view.show_pins)
+        self.seed_lines.setVisible(view.show_seed_segments)
 
     def set_mode(self, mode: str) -> None:
         """'pin': a click pins a point; 'segment': a left drag draws a seed segment."""
@@ -336,7 +336,7 @@ class MapView(QWidget):
     # -- geometry helpers -----------------------------------------------------------------------------------
     def pin_near(self, scene_pos: QPointF) -> int | None:
         """Index of the visible pin within a few pixels of a scene position, or None."""
-        if not self._layers.pins:
+        if not self._layers.show_pins:
             return None
         best, best_distance = None, PIN_GRAB_PIXELS
         for index, pin in enumerate(self._pins):

@@ -30,7 +30,7 @@ class _NotesEdit(QPlainTextEdit):
 
 
 class NotesPanel(QWidget):
-    """Edits ``Study.notes`` through the document (undoable)."""
+    """Edits ``Project.notes`` through the document (undoable)."""
 
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)
@@ -57,7 +57,7 @@ class NotesPanel(QWidget):
 
     def refresh(self) -> None:
         """Show the document's notes (after undo, redo or opening a study)."""
-        text = self.document.study.notes
+        text = self.document.project.notes
         if self.editor.toPlainText() == text:
             return
         position = self.editor.textCursor().position()

@@ -27,9 +27,9 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.project import Seed
 from core.trade import READOUT_UNITS
 from gui.document import Document
-from gui.study import SeedLine
 
 __all__ = ["TRADE_LABELS", "PinsPanel", "main_trade_text", "pins_as_text", "probe_rows", "trade_rows"]
 
@@ -254,10 +254,10 @@ class PinsPanel(QWidget):
         self.trades = tuple(readouts or ())
 
     def _variables(self) -> tuple[str, str]:
-        return tuple(self.document.study.equation.variables)  # type: ignore[return-value]
+        return tuple(self.document.equation.variables)  # type: ignore[return-value]
 
     def refresh(self) -> None:
-        pins = self.document.study.pins
+        pins = self.document.project.pins
         selected = self.selected_index()
         self._updating = True
         try:
@@ -295,7 +295,7 @@ class PinsPanel(QWidget):
 
     def _show_details(self) -> None:
         index = self.selected_index()
-        pins = self.document.study.pins
+        pins = self.document.project.pins
         if not 0 <= index < len(pins):
             self.details.setHtml("<p style='color:#555'>No pin selected. Click the map to pin a point.</p>")
             return
@@ -311,7 +311,7 @@ class PinsPanel(QWidget):
         # Where the point is and its type first, then what the trade reads there, then the equation's details.
         rows = probe_rows(result, self._variables())
         body = f"<p><b>{html.escape(pin.label)}</b></p><table>{table(rows[:4])}</table>"
-        trade = self.document.study.equation.trade
+        trade = self.document.equation.trade
         readout = self.trades[index] if index < len(self.trades) else None
         if trade and readout is not None:
             kinds = ", ".join(_TRADE_TITLES.get(kind, kind) for kind in trade)
@@ -326,7 +326,7 @@ class PinsPanel(QWidget):
         if self._updating:
             return
         row, column = item.row(), item.column()
-        pins = self.document.study.pins
+        pins = self.document.project.pins
         if not 0 <= row < len(pins):
             return
         if column == 0:
@@ -344,20 +344,20 @@ class PinsPanel(QWidget):
 
     def trace_selected(self) -> bool:
         index = self.selected_index()
-        pins = self.document.study.pins
+        pins = self.document.project.pins
         if not 0 <= index < len(pins):
             return False
         pin = pins[index]
-        return self.document.add_seed(SeedLine(start=(pin.x, pin.y), label=f"through {pin.label}"))
+        return self.document.add_seed(Seed(start=(pin.x, pin.y), label=f"through {pin.label}"))
 
     def delete_selected(self) -> bool:
         index = self.selected_index()
-        if not 0 <= index < len(self.document.study.pins):
+        if not 0 <= index < len(self.document.project.pins):
             return False
         return self.document.remove_pin(index)
 
     def copy_text(self) -> str:
-        text = pins_as_text(self.document.study.pins, self.results, self._variables(), self.trades,
-                            self.document.study.equation.trade)
+        text = pins_as_text(self.document.project.pins, self.results, self._variables(), self.trades,
+                            self.document.equation.trade)
         QGuiApplication.clipboard().setText(text)
         return text

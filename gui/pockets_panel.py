@@ -80,8 +80,8 @@ class PocketsPanel(QWidget):
 
     # -- display --------------------------------------------------------------------------------------------
     def _label_columns(self, quantity: str | None = None) -> None:
-        first, second = self.document.study.equation.variables
-        quantity = quantity or self.document.study.equation.peak_quantity or ""
+        first, second = self.document.equation.variables
+        quantity = quantity or self.document.equation.peak_quantity or ""
         peak = f"peak {quantity}" if quantity else "peak"
         headers = ["#", f"area ({first} unit × {second} unit)", "nodes", f"centroid ({first}, {second})", peak,
                    "peak at", "reaches edge"]
@@ -127,7 +127,7 @@ class PocketsPanel(QWidget):
         pockets = report.pockets
         if not pockets:
             return "No hyperbolic pocket on this map."
-        first, second = self.document.study.equation.variables
+        first, second = self.document.equation.variables
         total = sum(p.area for p in pockets)
         share = 100.0 * float(report.type_map.fractions.get("hyperbolic", math.nan))
         noun = "pocket" if len(pockets) == 1 else "pockets"

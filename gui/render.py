@@ -15,10 +15,10 @@ __all__ = ["render_project"]
 
 def render_project(project_path_or_project, out_png: str | os.PathLike, *, whole_window: bool = False,
                    size: tuple[int, int] | None = None) -> None:
-    """Write a PNG of the study at ``project_path_or_project`` (a path, a core Project or a gui Study).
+    """Write a PNG of the study at ``project_path_or_project`` (a path, or a core Project).
 
     ``whole_window`` pictures the window with its panels; otherwise the map with its title and legend.
-    ``size`` is the window size in pixels (width, height), 1200 x 900 when None. Raises StudyFileError when the file is unusable.
+    ``size`` is the window size in pixels (width, height), 1200 x 900 when None. Raises ProjectFileError when the file is unusable.
     """
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from gui.app import ensure_application
@@ -28,20 +28,17 @@ def render_project(project_path_or_project, out_png: str | os.PathLike, *, whole
 
     from gui.main_window import MainWindow
     from gui.preferences import Preferences
-    from gui.project_bridge import load_study, study_from_project
-    from gui.study import Study
+    from gui.project_bridge import open_project_file, with_absolute_data_paths
 
     source = project_path_or_project
     path = None
-    if isinstance(source, Study):
-        study = source
-    elif isinstance(source, str | os.PathLike):
+    if isinstance(source, str | os.PathLike):
         path = Path(source)
-        study = load_study(path)
+        project = open_project_file(path)
     else:
-        study = study_from_project(source)
+        project = with_absolute_data_paths(source)
     with tempfile.TemporaryDirectory(prefix="mixtype-render-") as folder:
-        window = MainWindow(study, path=path, preferences=Preferences(Path(folder)), synchronous=True,
+        window = MainWindow(project, path=path, preferences=Preferences(Path(folder)), synchronous=True,
                             autosave_ms=3_600_000)
         try:
             width, height = (int(v) for v in (size or (1200, 900)))

@@ -1,4 +1,4 @@
-"""Fixtures for window tests: a temporary preferences folder and small studies computed synchronously."""
+"""Fixtures for window tests: a temporary preferences folder and small projects computed synchronously."""
 
 from __future__ import annotations
 
@@ -6,7 +6,7 @@ import pytest
 
 from core.domain import Domain
 from core.equation import Equation, Parameter
-from gui.study import Study
+from core.project import Project, new_project
 
 
 @pytest.fixture(autouse=True)
@@ -18,18 +18,18 @@ def settings_folder(tmp_path, monkeypatch):
     return folder
 
 
-def hump_study(nx: int = 121, ny: int = 81, m_inf: float = 0.8) -> Study:
+def hump_project(nx: int = 121, ny: int = 81, m_inf: float = 0.8) -> Project:
     """Demo scenario: (1 - M^2) u_xx + u_yy with M = M_inf (1 + 0.35 exp(-(x^2 + 4 y^2))) on [-3,3]x[-2,2]."""
     equation = Equation(a="1 - M**2", b="0", c="1",
                         definitions={"M": "M_inf*(1 + 0.35*exp(-(x**2 + 4*y**2)))"},
                         parameters={"M_inf": Parameter(m_inf, 0.3, 1.2)}, name="hump flow")
-    return Study(equations=(equation,), domains=(Domain(-3.0, 3.0, -2.0, 2.0, nx, ny, name="near field"),))
+    return new_project(equation, Domain(-3.0, 3.0, -2.0, 2.0, nx, ny, name="near field"))
 
 
-def tricomi_study(n: int = 81) -> Study:
+def tricomi_project(n: int = 81) -> Project:
     """The Tricomi equation y u_xx + u_yy = 0 on [-2,2]x[-2,2]: hyperbolic below y = 0, elliptic above."""
     equation = Equation(a="y", b="0", c="1", name="Tricomi")
-    return Study(equations=(equation,), domains=(Domain(-2.0, 2.0, -2.0, 2.0, n, n, name="square"),))
+    return new_project(equation, Domain(-2.0, 2.0, -2.0, 2.0, n, n, name="square"))
 
 
 @pytest.fixture
@@ -38,8 +38,8 @@ def make_window(qtbot, settings_folder):
     from gui.main_window import MainWindow
     from gui.preferences import Preferences
 
-    def build(study: Study | None = None, *, synchronous: bool = True, **options):
-        window = MainWindow(study or hump_study(), preferences=Preferences(settings_folder),
+    def build(project: Project | None = None, *, synchronous: bool = True, **options):
+        window = MainWindow(project or hump_project(), preferences=Preferences(settings_folder),
                             synchronous=synchronous, **options)
         window.ask_unsaved = lambda: "discard"
         qtbot.addWidget(window)

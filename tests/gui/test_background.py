@@ -5,11 +5,11 @@ from __future__ import annotations
 import pytest
 
 from core.domain import Domain
-from tests.gui.conftest import hump_study
+from tests.gui.conftest import hump_project
 
 
 def test_parameter_change_updates_map_in_the_background(make_window, qtbot):
-    window = make_window(hump_study(), synchronous=False)
+    window = make_window(hump_project(), synchronous=False)
     assert window.analysis.type_map is not None
     small = window.analysis.type_map.fractions["hyperbolic"]
     with qtbot.waitSignal(window.analysis.map_ready, timeout=10000) as blocker:
@@ -22,7 +22,7 @@ def test_parameter_change_updates_map_in_the_background(make_window, qtbot):
 
 
 def test_cancel_a_long_classification_keeps_the_last_map(make_window, qtbot):
-    window = make_window(hump_study(), synchronous=False)
+    window = make_window(hump_project(), synchronous=False)
     old = window.analysis.type_map
     cancelled = []
     window.runner.cancelled.connect(lambda channel, number: cancelled.append(channel))
@@ -39,7 +39,7 @@ def test_cancel_a_long_classification_keeps_the_last_map(make_window, qtbot):
 
 
 def test_worker_failure_reaches_the_window(make_window):
-    window = make_window(hump_study())
+    window = make_window(hump_project())
 
     def broken(cancel, progress):
         raise RuntimeError("grid memory exhausted")
@@ -51,7 +51,7 @@ def test_worker_failure_reaches_the_window(make_window):
 @pytest.mark.parametrize("nodes", [1024])
 def test_slider_drag_at_fine_grid_keeps_up(make_window, qtbot, nodes):
     """During a drag the newest value is shown once the worker is free (queued, not restarted)."""
-    window = make_window(hump_study(nx=nodes, ny=nodes), synchronous=False)
+    window = make_window(hump_project(nx=nodes, ny=nodes), synchronous=False)
     slider = window.equation_panel.sliders["M_inf"]
     shown = []
     window.analysis.map_ready.connect(lambda type_map: shown.append(type_map.parameters["M_inf"]))
@@ -62,6 +62,6 @@ def test_slider_drag_at_fine_grid_keeps_up(make_window, qtbot, nodes):
     slider.setSliderDown(False)
     window.analysis.flush()
     assert window.runner.wait_idle(20)
-    final = window.document.study.equation.parameters["M_inf"].value
+    final = window.document.equation.parameters["M_inf"].value
     assert shown and shown[-1] == pytest.approx(final)
     assert len(shown) >= 2   # intermediate maps appeared while dragging

@@ -14,7 +14,7 @@ from core.classify import TypeCode, classify_grid
 from core.data import DataSources, file_checksum, load_data
 from core.equation import compile_equation
 from core.templates import load_template
-from tests.gui.conftest import hump_study
+from tests.gui.conftest import hump_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 
@@ -29,7 +29,7 @@ def bump_npz(tmp_path) -> Path:
 
 def _data_study_window(make_window, path: Path, **options):
     """A window on the full-potential template with u and v taken from the data file at ``path``."""
-    window = make_window(hump_study(nx=41, ny=31), **options)
+    window = make_window(hump_project(nx=41, ny=31), **options)
     window.add_data_file(path)
     window.runner.wait_idle()
     assert window.add_template("full_potential")
@@ -38,29 +38,30 @@ def _data_study_window(make_window, path: Path, **options):
     return window
 
 
-def _core_map(study, path: Path, names=None):
-    """The type map core computes for the study's shown equation with the file's quantities."""
-    dataset = load_data(path, variables=study.equation.variables, names=names)
+def _core_map(project, path: Path, names=None):
+    """The type map core computes for the project's shown equation with the file's quantities."""
+    equation, domain = project.shown()
+    dataset = load_data(path, variables=equation.variables, names=names)
     data = DataSources([dataset])
-    compiled = compile_equation(study.equation, data_names=data.names)
-    return classify_grid(compiled, study.domain, parameters=study.equation.parameter_values(), data=data,
-                         tolerance=study.tolerance)
+    compiled = compile_equation(equation, data_names=data.names)
+    return classify_grid(compiled, domain, parameters=equation.parameter_values(), data=data,
+                         tolerance=project.view.parabolic_tolerance)
 
 
 def test_added_data_file_is_listed_and_classifies_like_core(make_window, bump_npz):
     window = _data_study_window(make_window, bump_npz)
-    study = window.document.study
-    assert len(study.data_sources) == 1
-    ref = study.data_sources[0]
+    project = window.document.project
+    assert len(project.data_sources) == 1
+    ref = project.data_sources[0]
     assert ref.path == str(bump_npz) and ref.checksum == file_checksum(bump_npz)
     assert window.document.data_names == ("u", "v")
     # The template's formulas for u and v give way to the data (core.templates.equation_with_data).
-    assert "u" not in study.equation.definitions and "v" not in study.equation.definitions
+    assert "u" not in window.document.equation.definitions and "v" not in window.document.equation.definitions
     table = window.data_panel.table
     assert [table.item(0, c).text() for c in range(5)] == [
         "bump_flow.npz", "NumPy .npz", "u, v", "x −3 to 3, y 0 to 3", "ok"]
 
-    expected = _core_map(study, bump_npz)
+    expected = _core_map(project, bump_npz)
     type_map = window.analysis.type_map
     assert np.array_equal(type_map.codes, expected.codes)
     assert type_map.fractions == expected.fractions
@@ -78,12 +79,12 @@ def test_added_data_file_is_listed_and_classifies_like_core(make_window, bump_np
     window.document.undo_stack.undo()
     window.document.undo_stack.undo()
     window.document.undo_stack.undo()
-    assert window.document.study.data_sources == () and window.document.data is None
+    assert window.document.project.data_sources == () and window.document.data is None
     assert table.rowCount() == 0
 
 
 def test_loading_reports_progress_on_its_own_channel(make_window, bump_npz):
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     seen = []
     window.runner.progressed.connect(lambda channel, fraction, label: seen.append((channel, fraction, label)))
     window.add_data_file(bump_npz)
@@ -98,10 +99,10 @@ def test_data_study_saves_relative_paths_and_reopens(make_window, bump_npz, tmp_
     assert stored == [{"path": "data/bump_flow.npz", "checksum": file_checksum(bump_npz)}]
     fractions = window.analysis.type_map.fractions
 
-    other = make_window(hump_study(nx=41, ny=31))
+    other = make_window(hump_project(nx=41, ny=31))
     assert other.open_path(path)
     other.analysis.flush()
-    assert other.document.study.data_sources[0].path == str(bump_npz)
+    assert other.document.project.data_sources[0].path == str(bump_npz)
     assert other.analysis.type_map.fractions == fractions
     assert other.data_panel.table.item(0, 4).text() == "ok"
 
@@ -112,7 +113,7 @@ def test_missing_data_file_gives_a_message_and_an_undefined_map(make_window, bum
     assert window.save_to(path)
     bump_npz.rename(tmp_path / "elsewhere.npz")
 
-    other = make_window(hump_study(nx=41, ny=31))
+    other = make_window(hump_project(nx=41, ny=31))
     assert other.open_path(path)
     other.analysis.flush()
     assert other.data_notice.isVisible()
@@ -140,31 +141,31 @@ def test_changed_data_file_is_flagged_and_can_be_accepted(make_window, bump_npz,
     arrays["u"] = arrays["u"] * 1.05           # a faster flow: a larger supersonic pocket
     np.savez(bump_npz, **arrays)
 
-    other = make_window(hump_study(nx=41, ny=31))
+    other = make_window(hump_project(nx=41, ny=31))
     assert other.open_path(path)
     other.analysis.flush()
     assert other.data_panel.table.item(0, 4).text() == "changed since saved"
     assert "changed since the study was saved" in other.data_notice.text()
-    expected = _core_map(other.document.study, bump_npz)
+    expected = _core_map(other.document.project, bump_npz)
     assert other.analysis.type_map.fractions == expected.fractions
     assert expected.fractions["hyperbolic"] > window.analysis.type_map.fractions["hyperbolic"]
 
     other.data_panel.table.selectRow(0)
     assert other.data_panel.accept_selected()
-    assert other.document.study.data_sources[0].checksum == file_checksum(bump_npz)
+    assert other.document.project.data_sources[0].checksum == file_checksum(bump_npz)
     assert other.data_panel.table.item(0, 4).text() == "ok" and not other.data_notice.isVisible()
     other.document.undo_stack.undo()
     assert other.data_panel.table.item(0, 4).text() == "changed since saved"
 
 
 def test_unusable_file_shows_the_one_line_data_error(make_window, tmp_path):
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     bad = tmp_path / "broken.csv"
     bad.write_text("x,y,speed\n0,0,1\n1,oops,2\n", encoding="utf-8")
-    before = window.document.study
+    before = window.document.project
     window.add_data_file(bad)
     window.runner.wait_idle()
-    assert window.document.study is before
+    assert window.document.project is before
     text = window.notice.text()
     assert text.startswith(str(bad)) and "\n" not in text
     assert window.notice.isVisible()
@@ -172,7 +173,7 @@ def test_unusable_file_shows_the_one_line_data_error(make_window, tmp_path):
 
 def test_renamed_mesh_quantities_feed_the_template(make_window, tmp_path):
     mesh = Path(shutil.copy(DEMO_DATA / "bump_flow.vtu", tmp_path / "bump_flow.vtu"))
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     window.add_data_file(mesh)
     panel = window.data_panel
     assert "velocity_x" in panel.table.item(0, 2).text()
@@ -185,15 +186,15 @@ def test_renamed_mesh_quantities_feed_the_template(make_window, tmp_path):
     assert "variable" in panel.details.text()
     assert window.add_template("full_potential")
     window.analysis.flush()
-    study = window.document.study
-    names = dict(study.data_sources[0].names)
+    project = window.document.project
+    names = dict(project.data_sources[0].names)
     assert names["velocity_x"] == "u" and names["velocity_y"] == "v"
-    expected = _core_map(study, mesh, names=names)
+    expected = _core_map(project, mesh, names=names)
     assert window.analysis.type_map.fractions == expected.fractions
     assert expected.fractions["hyperbolic"] > 0
     # Undo the renames: the template's equation no longer finds u and v and says so.
     template = load_template("full_potential")
-    assert study.equation.name == template.title
+    assert project.shown()[0].name == template.title
 
 
 def test_background_loading_can_be_cancelled(make_window, bump_npz, monkeypatch, qtbot):
@@ -206,7 +207,7 @@ def test_background_loading_can_be_cancelled(make_window, bump_npz, monkeypatch,
         release.wait(5.0)
         return real_load(*args, **kwargs)
 
-    window = make_window(hump_study(nx=41, ny=31), synchronous=False)
+    window = make_window(hump_project(nx=41, ny=31), synchronous=False)
     window.add_data_file(bump_npz)                  # reads once (not slowed), then adds and loads from cache
     assert window.runner.wait_idle(10.0)
     window.analysis.flush()
@@ -221,7 +222,7 @@ def test_background_loading_can_be_cancelled(make_window, bump_npz, monkeypatch,
     window.cancel_work()
     release.set()
     assert window.runner.wait_idle(10.0)
-    assert len(window.document.study.data_sources) == 1          # the cancelled file was not added
+    assert len(window.document.project.data_sources) == 1          # the cancelled file was not added
     assert window.document.data_names == ("u", "v") and not window.document.data_pending
 
 
@@ -240,7 +241,7 @@ def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_win
         return real_load(*args, **kwargs)
 
     monkeypatch.setattr(loading, "load_data", slow_load)
-    other = make_window(hump_study(nx=41, ny=31), synchronous=False)
+    other = make_window(hump_project(nx=41, ny=31), synchronous=False)
     assert other.open_path(path)
     qtbot.waitUntil(lambda: other.runner.is_busy("data"), timeout=5000)
     assert other.document.data_pending
@@ -267,14 +268,14 @@ def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_win
 def test_equation_defining_a_data_name_itself_keeps_its_formula(make_window, bump_npz):
     from gui.template_dialog import TemplateChoice
 
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     window.add_data_file(bump_npz)
     assert window.add_template(TemplateChoice("full_potential", use_data=False))
     window.analysis.flush()
-    equation = window.document.study.equation
+    equation = window.document.equation
     assert "u" in equation.definitions and window.document.compiled is not None
     # The template's own formula flow, as core computes it without any data (core.project_data rule).
-    expected = classify_grid(compile_equation(equation), window.document.study.domain,
+    expected = classify_grid(compile_equation(equation), window.document.domain,
                              parameters=equation.parameter_values())
     assert np.array_equal(window.analysis.type_map.codes, expected.codes)
 
@@ -287,7 +288,7 @@ def test_shipped_data_demos_open_and_classify_like_core(make_window, name):
     from core.project_io import load_project
 
     path = demo_project_path(name)
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     assert window.open_path(path)
     window.analysis.flush()
     project = load_project(path)

@@ -7,16 +7,16 @@ import json
 from PySide6.QtWidgets import QApplication
 
 from gui.main_window import MainWindow
-from gui.project_bridge import save_study
-from tests.gui.conftest import hump_study, tricomi_study
+from gui.project_bridge import save_project_file
+from tests.gui.conftest import hump_project, tricomi_project
 
 
 def test_notes_typing_is_one_undo_step_and_saved(make_window, qtbot, tmp_path):
-    window = make_window(hump_study(nx=41, ny=31))
+    window = make_window(hump_project(nx=41, ny=31))
     editor = window.notes_panel.editor
     editor.setFocus()
     qtbot.keyClicks(editor, "Pocket grows with M_inf")
-    assert window.document.study.notes == "Pocket grows with M_inf"
+    assert window.document.project.notes == "Pocket grows with M_inf"
     assert window.document.undo_stack.count() == 1
     assert window.isWindowModified()
     window.notes_panel._end_burst()            # a pause in typing: the next words are a new undo step
@@ -25,14 +25,14 @@ def test_notes_typing_is_one_undo_step_and_saved(make_window, qtbot, tmp_path):
     window.document.undo_stack.undo()
     assert editor.toPlainText() == "Pocket grows with M_inf"
     window.document.undo_stack.undo()
-    assert editor.toPlainText() == "" and window.document.study.notes == ""
+    assert editor.toPlainText() == "" and window.document.project.notes == ""
     window.document.undo_stack.redo()
     assert editor.toPlainText() == "Pocket grows with M_inf"
 
     path = tmp_path / "noted.mixtype.json"
     assert window.save_to(path)
     assert json.loads(path.read_text(encoding="utf-8"))["notes"] == "Pocket grows with M_inf"
-    other = make_window(tricomi_study(21))
+    other = make_window(tricomi_project(21))
     assert other.open_path(path)
     assert other.notes_panel.editor.toPlainText() == "Pocket grows with M_inf"
 
@@ -51,8 +51,8 @@ def test_main_offers_to_restore_the_recovery_file(monkeypatch, settings_folder, 
     from gui import app as app_module
     from gui.preferences import Preferences
 
-    recovered = tricomi_study(21)
-    save_study(recovered, Preferences(settings_folder).recovery_path)
+    recovered = tricomi_project(21)
+    save_project_file(recovered, Preferences(settings_folder).recovery_path)
     asked, seen = [], {}
 
     def answer(self, path):
@@ -61,7 +61,7 @@ def test_main_offers_to_restore_the_recovery_file(monkeypatch, settings_folder, 
 
     def check() -> int:
         window = next(w for w in QApplication.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible())
-        seen["equation"] = window.document.study.equation
+        seen["equation"] = window.document.equation
         seen["dirty"] = window.document.is_dirty
         window.runner.cancel()
         window.runner.wait_idle()
@@ -76,7 +76,7 @@ def test_main_offers_to_restore_the_recovery_file(monkeypatch, settings_folder, 
     monkeypatch.setattr(MainWindow, "ask_unsaved", lambda self: "discard")
     assert app_module.main([]) == 0
     assert asked == [Preferences(settings_folder).recovery_path]
-    assert seen["equation"] == recovered.equation      # the autosaved study, not the demo
+    assert seen["equation"] == recovered.shown()[0]     # the autosaved study, not the demo
     assert seen["dirty"] is True                        # recovered work must be saved before it is safe
 
 
@@ -85,12 +85,12 @@ def test_main_without_restoring_removes_the_recovery_file(monkeypatch, settings_
     from gui.preferences import Preferences
 
     recovery = Preferences(settings_folder).recovery_path
-    save_study(tricomi_study(21), recovery)
+    save_project_file(tricomi_project(21), recovery)
     seen = {}
 
     def check() -> int:
         window = next(w for w in QApplication.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible())
-        seen["equation"] = window.document.study.equation.name
+        seen["equation"] = window.document.equation.name
         window.runner.cancel()
         window.runner.wait_idle()
         window.close()

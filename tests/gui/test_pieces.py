@@ -13,7 +13,7 @@ from core.equation import Equation, compile_equation
 from gui.main_window import ABOUT_TEXT, CAUTION
 from gui.math_render import equation_html, expression_html
 from gui.palette import type_lookup_table
-from tests.gui.conftest import tricomi_study
+from tests.gui.conftest import tricomi_project
 
 
 def test_lookup_table_rows_follow_type_codes():
@@ -39,7 +39,7 @@ def test_rendered_equation_reads_like_paper():
 
 
 def test_dragging_a_pin_moves_it_in_one_undo_step(make_window):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     window.document.add_pin(0.5, -1.0, "drag me")
     window.runner.wait_idle()
     QApplication.processEvents()
@@ -60,14 +60,14 @@ def test_dragging_a_pin_moves_it_in_one_undo_step(make_window):
         send(QMouseEvent.Type.MouseMove, start + (end - start) * step / 8, Qt.MouseButton.LeftButton)
     send(QMouseEvent.Type.MouseButtonRelease, end, Qt.MouseButton.NoButton)
     window.analysis.flush()
-    pin = window.document.study.pins[0]
+    pin = window.document.project.pins[0]
     assert (pin.x, pin.y) == pytest.approx((-0.5, 0.5), abs=0.05)
     assert window.document.undo_stack.count() == steps_before + 1
     assert window.pins_panel.results[0].type == TypeCode.ELLIPTIC  # y > 0: elliptic for Tricomi
 
 
 def test_standard_shortcuts_and_about_caution(make_window):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     assert window.save_action.shortcut() == QKeySequence(QKeySequence.StandardKey.Save)
     assert window.open_action.shortcut() == QKeySequence(QKeySequence.StandardKey.Open)
     assert window.undo_action.shortcut() == QKeySequence(QKeySequence.StandardKey.Undo)
@@ -77,9 +77,9 @@ def test_standard_shortcuts_and_about_caution(make_window):
 
 
 def test_layer_switches_follow_the_document(make_window):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     window.layers_panel.boxes["type_map"].setChecked(False)
-    assert not window.document.study.layers.type_map
+    assert not window.document.layer_visible("type_map")
     assert not window.map_view.image.isVisible()
     window.undo_action.trigger()
     assert window.layers_panel.boxes["type_map"].isChecked() and window.map_view.image.isVisible()

@@ -14,7 +14,7 @@ from core.trade import readout_at
 from gui.pins_panel import trade_rows
 from gui.pockets_panel import pocket_row
 from gui.template_dialog import TemplateChoice, TemplateDialog
-from tests.gui.conftest import hump_study
+from tests.gui.conftest import hump_project
 
 
 def _cylinder_crest_mach(y: float, *, c0=340.3, gamma=1.4, m_inf=0.55, radius=1.0) -> float:
@@ -30,33 +30,34 @@ def _cylinder_crest_mach(y: float, *, c0=340.3, gamma=1.4, m_inf=0.55, radius=1.
 
 
 def test_template_is_added_as_one_undo_step_and_undone(make_window):
-    window = make_window(hump_study(nx=61, ny=41))
-    before = window.document.study
+    window = make_window(hump_project(nx=61, ny=41))
+    before = window.document.project
     chosen = []
     window.choose_template = lambda: chosen.append(1) or TemplateChoice("full_potential")
     window.template_action.trigger()
     assert chosen == [1]
     template = load_template("full_potential")
-    study = window.document.study
-    assert len(study.equations) == 2 and study.shown_equation == 1
-    assert study.equation.name == template.title
-    assert study.equation.a == "c2 - u**2" and study.equation.trade == template.equation.trade
-    assert (study.domain.xmin, study.domain.xmax, study.domain.ymin, study.domain.ymax) == (-3.0, 3.0, 0.0, 3.0)
+    project = window.document.project
+    equation, domain = project.shown()
+    assert len(project.equations) == 2 and project.shown_equation_index == 1
+    assert equation.name == template.title
+    assert equation.a == "c2 - u**2" and equation.trade == template.equation.trade
+    assert (domain.xmin, domain.xmax, domain.ymin, domain.ymax) == (-3.0, 3.0, 0.0, 3.0)
     assert window.document.undo_stack.count() == 1
     assert window.equation_panel.equation_choice.currentText() == template.title
     window.analysis.flush()
-    assert window.analysis.type_map.domain == study.domain
+    assert window.analysis.type_map.domain == domain
 
     # The same template again: a second equation with a fresh name, the region with the same bounds reused.
     assert window.add_template("full_potential")
-    again = window.document.study
+    again = window.document.project
     assert [e.name for e in again.equations][-1] == f"{template.title} (2)"
-    assert len(again.domains) == 2 and again.shown_domain == 1
+    assert len(again.domains) == 2 and again.shown_domain_index == 1
     window.document.undo_stack.undo()
     window.document.undo_stack.undo()
-    assert window.document.study == before
+    assert window.document.project == before
     window.analysis.flush()
-    assert window.analysis.type_map.domain == before.domain
+    assert window.analysis.type_map.domain == before.shown()[1]
 
 
 def test_template_dialog_lists_every_template_and_describes_it(qtbot):
@@ -75,7 +76,7 @@ def test_template_dialog_lists_every_template_and_describes_it(qtbot):
 
 
 def test_pin_shows_mach_angle_at_a_supersonic_point(make_window):
-    window = make_window(hump_study(nx=61, ny=41))
+    window = make_window(hump_project(nx=61, ny=41))
     window.add_template("full_potential")
     window.document.add_pin(0.0, 1.05, "crest")
     window.analysis.flush()
@@ -85,7 +86,7 @@ def test_pin_shows_mach_angle_at_a_supersonic_point(make_window):
     assert readout["mach"] == pytest.approx(expected_mach, rel=1e-12)
     # Mach angle mu = asin(1/M) (NACA Report 1135, 1953).
     assert readout["mach_angle_deg"] == pytest.approx(math.degrees(math.asin(1 / expected_mach)), rel=1e-12)
-    equation = window.document.study.equation
+    equation = window.document.equation
     core_readout = readout_at(equation.trade, compile_equation(equation), 0.0, 1.05,
                               parameters=equation.parameter_values())
     assert readout == core_readout
@@ -108,7 +109,7 @@ def test_pin_shows_mach_angle_at_a_supersonic_point(make_window):
 
 
 def test_equation_without_trade_shows_no_trade_rows(make_window):
-    window = make_window(hump_study(nx=61, ny=41))
+    window = make_window(hump_project(nx=61, ny=41))
     window.document.add_pin(0.0, 0.0, "centre")
     window.analysis.flush()
     assert window.analysis.trade_readouts == ({},)
@@ -116,11 +117,10 @@ def test_equation_without_trade_shows_no_trade_rows(make_window):
 
 
 def test_pocket_table_matches_core_and_click_centres_the_map(make_window):
-    window = make_window(hump_study(nx=61, ny=41))
+    window = make_window(hump_project(nx=61, ny=41))
     window.add_template("full_potential")
     window.analysis.flush()
-    study = window.document.study
-    compiled = compile_equation(study.equation)
+    compiled = compile_equation(window.document.equation)
     expected = pocket_statistics(compiled, window.analysis.type_map, quantity="M")
     assert len(expected) == 1          # one supersonic pocket on the crest of the bump
     report = window.analysis.pockets
@@ -141,7 +141,7 @@ def test_pocket_table_matches_core_and_click_centres_the_map(make_window):
     cx, cy = expected[0].centroid
     assert (x0 + x1) / 2 == pytest.approx(cx, abs=1e-6) and (y0 + y1) / 2 == pytest.approx(cy, abs=1e-6)
     outline_x, outline_y = window.map_view.pocket_outline.getData()
-    dx, dy = study.domain.spacing
+    dx, dy = window.document.domain.spacing
     x0, x1, y0, y1 = expected[0].bounding_box
     # The halo runs half-way between the pocket's edge nodes and their neighbours outside it.
     assert np.nanmin(outline_x) == pytest.approx(x0 - dx / 2) and np.nanmax(outline_x) == pytest.approx(x1 + dx / 2)
@@ -153,14 +153,14 @@ def test_pocket_table_matches_core_and_click_centres_the_map(make_window):
 
 
 def test_no_pocket_says_so(make_window):
-    window = make_window(hump_study(nx=61, ny=41, m_inf=0.5))
+    window = make_window(hump_project(nx=61, ny=41, m_inf=0.5))
     assert window.analysis.pockets.pockets == ()
     assert window.pockets_panel.table.rowCount() == 0
     assert window.pockets_panel.summary.text() == "No hyperbolic pocket on this map."
 
 
 def test_trade_readout_where_its_inputs_are_undefined_says_so(make_window):
-    window = make_window(hump_study(nx=61, ny=41))
+    window = make_window(hump_project(nx=61, ny=41))
     window.add_template("full_potential")
     window.document.add_pin(0.0, 0.5, "inside the bump")      # r < R: the template leaves u, v undefined
     window.analysis.flush()

@@ -12,7 +12,7 @@ from core.classify import TypeCode, classify_grid
 from core.equation import compile_equation
 from core.probe import probe_point
 from gui.palette import TYPE_COLOURS
-from tests.gui.conftest import hump_study, tricomi_study
+from tests.gui.conftest import hump_project, tricomi_project
 
 
 def _hyperbolic_fraction_closed_form(m_inf: float, width: float = 6.0, height: float = 4.0) -> float:
@@ -31,7 +31,7 @@ def _view_point(window, x: float, y: float) -> QPoint:
 
 
 def test_map_shows_core_classification_with_palette_colours(make_window):
-    window = make_window(hump_study(nx=241, ny=161))
+    window = make_window(hump_project(nx=241, ny=161))
     type_map = window.analysis.type_map
     assert type_map is not None and type_map.codes.shape == (161, 241)
     # Closed-form hyperbolic pocket area vs the grid's node share (O(h) agreement).
@@ -54,26 +54,26 @@ def test_map_shows_core_classification_with_palette_colours(make_window):
 
 
 def test_valid_expression_updates_document_and_map(make_window, qtbot):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     before = window.analysis.type_map
     edit = window.equation_panel.coefficient_edits["a"]
     edit.clear()
     qtbot.keyClicks(edit, "-y")
     window.analysis.flush()
     after = window.analysis.type_map
-    assert window.document.study.equation.a == "-y"
+    assert window.document.equation.a == "-y"
     assert after is not before
     # y u_xx + u_yy is hyperbolic below y = 0 (Tricomi, closed form); with a = -y the halves swap.
     assert before.codes[0, 40] == TypeCode.HYPERBOLIC and before.codes[-1, 40] == TypeCode.ELLIPTIC
     assert after.codes[0, 40] == TypeCode.ELLIPTIC and after.codes[-1, 40] == TypeCode.HYPERBOLIC
-    expected = classify_grid(compile_equation(window.document.study.equation), window.document.study.domain)
+    expected = classify_grid(compile_equation(window.document.equation), window.document.domain)
     assert np.array_equal(after.codes, expected.codes)
     assert not window.equation_panel.coefficient_errors["a"].isVisibleTo(window)
     assert "&minus;<i>y</i>" in window.equation_panel.rendered.text()
 
 
 def test_invalid_expression_shows_error_with_column_and_keeps_map(make_window, qtbot):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     before = window.analysis.type_map
     edit = window.equation_panel.coefficient_edits["a"]
     edit.clear()
@@ -82,7 +82,7 @@ def test_invalid_expression_shows_error_with_column_and_keeps_map(make_window, q
     error = window.equation_panel.coefficient_errors["a"]
     assert error.isVisibleTo(window)
     assert error.text() == "column 3: unknown name 'zeta'"
-    assert window.document.study.equation.a == "y"      # the last text that compiled
+    assert window.document.equation.a == "y"      # the last text that compiled
     assert window.analysis.type_map is before            # the last good map stays on screen
     qtbot.keyClick(edit, Qt.Key.Key_Backspace)            # "y*zet" is still wrong
     assert "zet" in error.text()
@@ -92,7 +92,7 @@ def test_invalid_expression_shows_error_with_column_and_keeps_map(make_window, q
 
 
 def test_slider_drag_moves_zones_and_is_one_undo_step(make_window):
-    window = make_window(hump_study(nx=241, ny=161))
+    window = make_window(hump_project(nx=241, ny=161))
     slider = window.equation_panel.sliders["M_inf"]
     small = window.analysis.type_map.fractions["hyperbolic"]
     slider.setSliderDown(True)                  # press: a drag starts
@@ -102,7 +102,7 @@ def test_slider_drag_moves_zones_and_is_one_undo_step(make_window):
         window.analysis.flush()
     slider.setSliderDown(False)                 # release
     assert not window.analysis.dragging
-    m_inf = window.document.study.equation.parameters["M_inf"].value
+    m_inf = window.document.equation.parameters["M_inf"].value
     assert m_inf == pytest.approx(0.3 + 0.9 * 628 / 1000)
     grown = window.analysis.type_map.fractions["hyperbolic"]
     assert grown > small
@@ -110,7 +110,7 @@ def test_slider_drag_moves_zones_and_is_one_undo_step(make_window):
     assert window.document.undo_stack.count() == 1
     window.undo_action.trigger()
     window.analysis.flush()
-    assert window.document.study.equation.parameters["M_inf"].value == 0.8
+    assert window.document.equation.parameters["M_inf"].value == 0.8
     assert window.analysis.type_map.fractions["hyperbolic"] == pytest.approx(small)
     window.redo_action.trigger()
     window.analysis.flush()
@@ -118,15 +118,15 @@ def test_slider_drag_moves_zones_and_is_one_undo_step(make_window):
 
 
 def test_click_pins_a_point_whose_readout_is_cores_probe(make_window, qtbot):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     where = _view_point(window, 0.5, -1.0)
     qtbot.mouseClick(window.map_view.plot_widget.viewport(), Qt.MouseButton.LeftButton, pos=where)
     window.analysis.flush()
-    pins = window.document.study.pins
+    pins = window.document.project.pins
     assert len(pins) == 1
     pin = pins[0]
     assert pin.x == pytest.approx(0.5, abs=0.03) and pin.y == pytest.approx(-1.0, abs=0.03)
-    reference = probe_point(compile_equation(window.document.study.equation), pin.x, pin.y)
+    reference = probe_point(compile_equation(window.document.equation), pin.x, pin.y)
     shown = window.pins_panel.results[0]
     assert shown.type == reference.type == TypeCode.HYPERBOLIC
     assert shown.discriminant == reference.discriminant == pytest.approx(-4 * pin.y)
@@ -143,7 +143,7 @@ def test_click_pins_a_point_whose_readout_is_cores_probe(make_window, qtbot):
 
 
 def test_trace_through_pin_follows_tricomi_characteristics(make_window):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     window.document.add_pin(0.0, -1.0)
     window.pins_panel.select(0)
     assert window.pins_panel.trace_selected()
@@ -169,7 +169,7 @@ def test_dragged_segment_seeds_a_family_net(make_window, qtbot):
     from PySide6.QtGui import QMouseEvent
     from PySide6.QtWidgets import QApplication
 
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     window.layers_panel.segment_tool.setChecked(True)
     window.layers_panel.seed_count.setValue(5)
     assert window.map_view.mode == "segment"
@@ -187,17 +187,17 @@ def test_dragged_segment_seeds_a_family_net(make_window, qtbot):
         send(QMouseEvent.Type.MouseMove, start + (end - start) * step / 10, left)
     send(QMouseEvent.Type.MouseButtonRelease, end, Qt.MouseButton.NoButton)
     window.analysis.flush()
-    seeds = window.document.study.seeds
+    seeds = window.document.project.seeds
     assert len(seeds) == 1 and seeds[0].curves == 5
     assert seeds[0].start == pytest.approx((-1.0, -1.5), abs=0.05)
     assert seeds[0].end == pytest.approx((1.0, -1.5), abs=0.05)
     curves = window.analysis.traced[0].curves
     assert len(curves) == 10
-    assert window.document.study.pins == ()  # a drag in segment mode pins nothing
+    assert window.document.project.pins == ()  # a drag in segment mode pins nothing
 
 
 def test_hover_reports_type_and_discriminant(make_window, qtbot):
-    window = make_window(tricomi_study())
+    window = make_window(tricomi_project())
     where = _view_point(window, 0.25, 0.5)
     qtbot.mouseMove(window.map_view.plot_widget.viewport(), where)
     qtbot.waitUntil(lambda: "elliptic" in window.hover_label.text(), timeout=3000)
