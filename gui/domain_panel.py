@@ -142,8 +142,13 @@ class DomainPanel(QWidget):
             self.error.setText(str(error))
             self.error.setVisible(True)
             return
+        try:
+            self.document.set_domain(domain)
+        except ValueError as error:  # a name another domain of the project has
+            self.error.setText(str(error))
+            self.error.setVisible(True)
+            return
         self.error.setVisible(False)
-        self.document.set_domain(domain)
 
     def _apply_tolerance(self) -> None:
         if self._updating:

@@ -85,6 +85,20 @@ def test_layer_switches_follow_the_document(make_window):
     assert window.layers_panel.boxes["type_map"].isChecked() and window.map_view.image.isVisible()
 
 
+def test_a_domain_name_another_domain_has_is_refused_with_a_message(make_window):
+    window = make_window(tricomi_project(21))
+    panel = window.domain_panel
+    panel._duplicate()
+    assert window.document.project.domain_names == ("square", "square (2)")
+    panel.name.setText("square")
+    panel.apply()
+    assert window.document.project.domain_names == ("square", "square (2)")   # unchanged
+    assert panel.error.isVisibleTo(panel) and "two domains are named 'square'" in panel.error.text()
+    panel.name.setText("wider")
+    panel.apply()
+    assert window.document.project.domain_names == ("square", "wider") and not panel.error.isVisibleTo(panel)
+
+
 def test_emitting_signals_does_not_leak_references_to_true():
     """PySide6 6.12.0 dropped a reference to True on every Python-side emit, aborting the interpreter after a
     few thousand mouse moves ("bool_dealloc"); pyproject pins a release without the defect. This guards the pin.
