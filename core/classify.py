@@ -93,26 +93,25 @@ class _Scratch:
 
 
 def _normalized_into(a, b, c, out: np.ndarray, scratch: _Scratch) -> None:
-    """D/S into the float64 array ``out`` with plain numpy passes over cache-sized buffers.
+    """D/S into ``out`` (float64, or float32 for grid storage) with numpy passes over cache-sized buffers.
 
-    Computed as (b^2/4 - ac) / (b^2/4 + |ac|). (numexpr evaluates this several times slower than numpy
-    here: its abs and division are not vectorised.) NaN where a coefficient is not finite; 0 where
-    b = 0 and ac = 0, where D = 0 exactly.
+    Computed as (b^2/4 - ac) / (b^2/4 + |ac|). b^2/4 and ac are formed in the coefficients' own broadcast
+    shapes (a row, a column or a constant costs almost nothing), so only three passes span the whole block.
+    (numexpr evaluates this several times slower than numpy: its abs and division are not vectorised.)
+    NaN where a coefficient is not finite; 0 where the scale is exactly 0, where D = 0 exactly.
     """
-    product, quarter_b2 = scratch.views(out.shape)
+    scale, numerator = scratch.views(out.shape)
     with np.errstate(all="ignore"):
-        half_b = np.multiply(b, 0.5)                    # small when b is constant along a direction
-        np.multiply(half_b, half_b, out=quarter_b2)     # b^2/4
-        np.multiply(a, c, out=product)                  # ac
-        np.subtract(quarter_b2, product, out=out)       # D/4
-        np.abs(product, out=product)
-        np.add(quarter_b2, product, out=product)        # S/4
-        np.divide(out, product, out=out)                # D/S
-        undefined = np.isnan(out)
-    if undefined.any():
-        # 0/0: the computed scale b^2/4 + |ac| is exactly 0, so the computed D/4 = b^2/4 - ac is 0 too (this also
-        # covers b^2 and ac underflowing). Non-finite coefficients make the scale NaN or inf, and stay NaN.
-        out[undefined & (product == 0)] = 0.0
+        half_b = np.multiply(b, 0.5)
+        quarter_b2 = np.multiply(half_b, half_b)        # b^2/4
+        product = np.multiply(a, c)                     # ac
+        np.subtract(quarter_b2, product, out=numerator)  # D/4
+        np.add(quarter_b2, np.abs(product), out=scale)  # S/4
+        np.divide(numerator, scale, out=out, casting="same_kind")  # D/S, stored as out's dtype
+    # 0/0: the computed scale b^2/4 + |ac| is exactly 0, so the computed D/4 = b^2/4 - ac is 0 too (this also
+    # covers b^2 and ac underflowing). Non-finite coefficients make the scale NaN or inf, and stay NaN.
+    if not scale.all():
+        out[scale == 0] = 0.0
 
 
 def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.ndarray) -> np.ndarray:
@@ -218,12 +217,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         stop = min(ny, start + rows)
         if not hasattr(local, "scratch"):
             local.scratch = _Scratch(rows * nx)
-            local.block = np.empty(rows * nx)
-        block = local.block[: (stop - start) * nx].reshape(stop - start, nx)
+        block = normalized[start:stop]
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=prepared)
-        a, b, c = raw["a"], raw["b"], raw["c"]
-        _normalized_into(a, b, c, block, local.scratch)
-        normalized[start:stop] = block
+        _normalized_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:
             with lock:
