@@ -142,7 +142,7 @@ class Document(QObject):
 
     @property
     def tolerance(self) -> float:
-        """The parabolic band (dimensionless), kept in the project's view settings."""
+        """The parabolic tolerance (dimensionless), kept in the project's view settings."""
         return float(self._project.view.parabolic_tolerance)
 
     def layer_visible(self, name: str) -> bool:
@@ -363,7 +363,7 @@ class Document(QObject):
         return self.edit(replace(self._project, view=view), f"{'Show' if visible else 'Hide'} {name}")
 
     def set_tolerance(self, tolerance: float) -> bool:
-        """The parabolic band: |D|/(b^2 + 4|ac|) at or below it counts as parabolic (dimensionless)."""
+        """The parabolic tolerance: |D|/(b^2 + 4|ac|) at or below it counts as parabolic (dimensionless)."""
         tolerance = float(tolerance)
         if not 0.0 <= tolerance < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance:g}")

@@ -77,7 +77,7 @@ class DomainPanel(QWidget):
         self.tolerance.setToolTip("A node counts as parabolic when |D| / (b² + 4|ac|) is at or below this "
                                   "dimensionless number (0 up to, not including, 1)")
         self.tolerance.editingFinished.connect(self._apply_tolerance)
-        form.addRow("parabolic band", self.tolerance)
+        form.addRow("parabolic tolerance", self.tolerance)
         self.error = QLabel()
         self.error.setStyleSheet("color: #B00020;")
         self.error.setWordWrap(True)
@@ -156,7 +156,7 @@ class DomainPanel(QWidget):
         try:
             self.document.set_tolerance(float(self.tolerance.text()))
         except ValueError as error:
-            self.error.setText(f"parabolic band: {error}")
+            self.error.setText(f"parabolic tolerance: {error}")
             self.error.setVisible(True)
             return
         self.error.setVisible(False)
