@@ -6,36 +6,28 @@ a new type map (then its type-change lines and its hyperbolic pockets), characte
 document's background data. Requests made in one pass of the event loop are coalesced. Every number comes
 from core (classify_grid, find_type_boundaries, pocket_statistics, trace_characteristics, probe_point,
 readout_at); this module only schedules.
-Core modules still being written elsewhere are imported lazily: until they exist the matching layer stays
-empty and the window says so once.
 """
 
 from __future__ import annotations
 
-import importlib
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
+from core.boundary import find_type_boundaries
+from core.characteristics import trace_characteristics
 from core.classify import TypeCode, classify_grid, classify_points
 from core.pockets import label_pockets, pocket_statistics
+from core.probe import probe_point
 from core.progress import Cancelled
 from core.project import Seed
 from core.trade import point_values, readout_at
 from gui.document import Document
 from gui.jobs import JobRunner
 
-__all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "optional_core", "trade_at"]
-
-
-def optional_core(name: str):
-    """The core module ``core.<name>``, or None while it is not part of this build."""
-    try:
-        return importlib.import_module(f"core.{name}")
-    except ImportError:
-        return None
+__all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "trade_at"]
 
 
 @dataclass(frozen=True)
@@ -117,7 +109,6 @@ class StudyAnalysis(QObject):
         self.trade_readouts: tuple = ()
         self.pockets: PocketReport | None = None
         self._wanted: set[str] = set()
-        self._told_missing: set[str] = set()
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(0)
@@ -176,9 +167,8 @@ class StudyAnalysis(QObject):
         self.runner.request("map", work, policy="queue" if self.dragging else "replace", label=_LABELS["map"])
 
     def _request_lines(self, type_map) -> None:
-        boundary = self._module("boundary", "type-change lines")
         compiled = self.document.compiled
-        if boundary is None or compiled is None:
+        if compiled is None:
             return
         if self.dragging:
             # Lines cost about as much as the map itself: while a slider moves, the zones' own edges show
@@ -193,7 +183,7 @@ class StudyAnalysis(QObject):
         data = self.document.data
 
         def work(cancel, progress):
-            return boundary.find_type_boundaries(compiled, type_map, parameters=parameters, data=data,
+            return find_type_boundaries(compiled, type_map, parameters=parameters, data=data,
                                                  refine=refine, cancel=cancel, progress=progress)
 
         self.runner.request("lines", work, label=_LABELS["lines"])
@@ -229,9 +219,6 @@ class StudyAnalysis(QObject):
             self.runner.cancel("characteristics")
             self.characteristics_ready.emit(())
             return
-        module = self._module("characteristics", "characteristic curves")
-        if module is None:
-            return
         domain, parameters, _ = self._inputs()
         data = self.document.data
 
@@ -243,7 +230,7 @@ class StudyAnalysis(QObject):
                 def part(fraction, number=number):
                     progress((number + fraction) / len(seeds))
 
-                curves = module.trace_characteristics(compiled, domain, points, families=seed.families,
+                curves = trace_characteristics(compiled, domain, points, families=seed.families,
                                                       parameters=parameters, data=data, cancel=cancel,
                                                       progress=part)
                 traced.append(TracedSeed(seed=seed, curves=tuple(curves)))
@@ -260,9 +247,6 @@ class StudyAnalysis(QObject):
             self.probes_ready.emit(())
             self.trade_ready.emit(())
             return
-        module = self._module("probe", "pin readouts")
-        if module is None:
-            return
         domain, parameters, tolerance = self._inputs()
         data = self.document.data
         equation = self.document.equation
@@ -272,7 +256,7 @@ class StudyAnalysis(QObject):
             for pin in pins:
                 if cancel():
                     raise Cancelled("probes cancelled")
-                results.append(module.probe_point(compiled, pin.x, pin.y, parameters=parameters, data=data,
+                results.append(probe_point(compiled, pin.x, pin.y, parameters=parameters, data=data,
                                                   tolerance=tolerance, domain=domain))
                 trades.append(trade_at(equation, compiled, pin.x, pin.y, parameters=parameters, data=data))
             return tuple(results), tuple(trades)
@@ -299,13 +283,6 @@ class StudyAnalysis(QObject):
                                 inside=bool(domain.contains(x, y)), trade=trade if isinstance(trade, dict) else {})
 
         self.runner.request("hover", work, label=_LABELS["hover"])
-
-    def _module(self, name: str, what: str):
-        module = optional_core(name)
-        if module is None and name not in self._told_missing:
-            self._told_missing.add(name)
-            self.message.emit(f"No {what} in this build yet (core.{name} is missing).")
-        return module
 
     # -- results --------------------------------------------------------------------------------------------
     def _on_finished(self, channel: str, number: int, result: object) -> None:

@@ -25,6 +25,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.probe import probe_to_dict
 from core.project import Project, Seed
 from core.result_tables import (
     BOUNDARY_COLUMNS,
@@ -37,7 +38,7 @@ from core.result_tables import (
     write_json,
 )
 from core.templates import TemplateError, load_template
-from gui.analysis import StudyAnalysis, optional_core
+from gui.analysis import StudyAnalysis
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.data_panel import DataPanel
 from gui.document import Document
@@ -631,15 +632,7 @@ class MainWindow(QMainWindow):
         return written
 
     def pin_readouts(self) -> list:
-        probe = optional_core("probe")
-        results = self.analysis.probes
-        readouts = []
-        for result in results:
-            if probe is not None and hasattr(probe, "probe_to_dict"):
-                readouts.append(probe.probe_to_dict(result))
-            else:
-                readouts.append({k: v for k, v in vars(result).items()} if result is not None else None)
-        return readouts
+        return [probe_to_dict(result) if result is not None else None for result in self.analysis.probes]
 
     def _characteristic_curves(self) -> list:
         return [curve for traced in self.analysis.traced for curve in traced.curves]
