@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (
 
 from core.domain import MAX_GRID, MIN_GRID, Domain
 from gui.document import Document
+from gui.widgets import copy_name
 
 __all__ = ["DomainPanel"]
 
@@ -163,8 +164,5 @@ class DomainPanel(QWidget):
 
     def _duplicate(self) -> None:
         domain = self.document.domain
-        names = {d.name for d in self.document.project.domains}
-        number = 2
-        while f"{domain.name} ({number})" in names:
-            number += 1
-        self.document.add_domain(replace(domain, name=f"{domain.name} ({number})"))
+        taken = {d.name for d in self.document.project.domains}
+        self.document.add_domain(replace(domain, name=copy_name(domain.name, taken)))

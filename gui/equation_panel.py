@@ -35,6 +35,7 @@ from core.equation import Equation, Parameter
 from core.expr import ExpressionError
 from gui.document import Document
 from gui.math_render import equation_html
+from gui.widgets import button_row, copy_name, push_button
 
 __all__ = ["SLIDER_STEPS", "EquationPanel"]
 
@@ -140,20 +141,12 @@ class EquationPanel(QWidget):
         self.definitions.setToolTip("Each row defines a name; rows may use each other in any order")
         self.definitions.itemChanged.connect(self._definitions_edited)
         self.definition_error = _error_label()
-        add_definition = QPushButton("Add")
-        add_definition.setToolTip("Add a definition row")
-        add_definition.clicked.connect(self._add_definition)
-        remove_definition = QPushButton("Remove")
-        remove_definition.setToolTip("Remove the selected definition")
-        remove_definition.clicked.connect(self._remove_definition)
         layout = QVBoxLayout(definition_box)
         layout.addWidget(self.definitions)
         layout.addWidget(self.definition_error)
-        buttons = QHBoxLayout()
-        buttons.addWidget(add_definition)
-        buttons.addWidget(remove_definition)
-        buttons.addStretch(1)
-        layout.addLayout(buttons)
+        layout.addLayout(button_row(
+            push_button("Add", "Add a definition row", self._add_definition),
+            push_button("Remove", "Remove the selected definition", self._remove_definition)))
 
         parameter_box = QGroupBox("Parameters (drag a slider to watch the zones move)")
         self.parameters = QTableWidget(0, 5)
@@ -169,21 +162,13 @@ class EquationPanel(QWidget):
         self.slider_grid.setContentsMargins(0, 0, 0, 0)
         self.sliders: dict[str, QSlider] = {}
         self.slider_values: dict[str, QLabel] = {}
-        add_parameter = QPushButton("Add")
-        add_parameter.setToolTip("Add a parameter")
-        add_parameter.clicked.connect(self._add_parameter)
-        remove_parameter = QPushButton("Remove")
-        remove_parameter.setToolTip("Remove the selected parameter")
-        remove_parameter.clicked.connect(self._remove_parameter)
         layout = QVBoxLayout(parameter_box)
         layout.addWidget(self.slider_area)
         layout.addWidget(self.parameters)
         layout.addWidget(self.parameter_error)
-        buttons = QHBoxLayout()
-        buttons.addWidget(add_parameter)
-        buttons.addWidget(remove_parameter)
-        buttons.addStretch(1)
-        layout.addLayout(buttons)
+        layout.addLayout(button_row(
+            push_button("Add", "Add a parameter", self._add_parameter),
+            push_button("Remove", "Remove the selected parameter", self._remove_parameter)))
         for table in (self.definitions, self.parameters):
             table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
             table.setMinimumHeight(90)
@@ -455,11 +440,8 @@ class EquationPanel(QWidget):
 
     def _duplicate(self) -> None:
         equation = self.document.equation
-        names = {e.name for e in self.document.project.equations}
-        number = 2
-        while f"{equation.name} ({number})" in names:
-            number += 1
-        self.document.add_equation(replace(equation, name=f"{equation.name} ({number})"))
+        taken = {e.name for e in self.document.project.equations}
+        self.document.add_equation(replace(equation, name=copy_name(equation.name, taken)))
 
     # -- sliders --------------------------------------------------------------------------------------------
     def _slider_pressed(self, name: str) -> None:

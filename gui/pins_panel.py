@@ -16,10 +16,8 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QGuiApplication
 from PySide6.QtWidgets import (
     QAbstractItemView,
-    QHBoxLayout,
     QHeaderView,
     QLabel,
-    QPushButton,
     QTableWidget,
     QTableWidgetItem,
     QTextBrowser,
@@ -30,6 +28,7 @@ from PySide6.QtWidgets import (
 from core.project import Seed
 from core.trade import READOUT_UNITS
 from gui.document import Document
+from gui.widgets import button_row, push_button
 
 __all__ = ["TRADE_LABELS", "PinsPanel", "main_trade_text", "pins_as_text", "probe_rows", "trade_rows"]
 
@@ -220,19 +219,12 @@ class PinsPanel(QWidget):
         self.details.setToolTip("Everything core.probe reports at the selected pin")
         self.details.setMinimumHeight(180)
 
-        self.trace_button = QPushButton("Trace through pin")
-        self.trace_button.setToolTip("Draw both characteristics through the selected pin (hyperbolic points)")
-        self.trace_button.clicked.connect(self.trace_selected)
-        self.delete_button = QPushButton("Delete")
-        self.delete_button.setToolTip("Delete the selected pin")
-        self.delete_button.clicked.connect(self.delete_selected)
-        self.copy_button = QPushButton("Copy as text")
-        self.copy_button.setToolTip("Copy every pin's readout to the clipboard as plain text")
-        self.copy_button.clicked.connect(self.copy_text)
-        buttons = QHBoxLayout()
-        for button in (self.trace_button, self.delete_button, self.copy_button):
-            buttons.addWidget(button)
-        buttons.addStretch(1)
+        self.trace_button = push_button("Trace through pin", "Draw both characteristics through the selected "
+                                        "pin (hyperbolic points)", self.trace_selected)
+        self.delete_button = push_button("Delete", "Delete the selected pin", self.delete_selected)
+        self.copy_button = push_button("Copy as text", "Copy every pin's readout to the clipboard as plain text",
+                                       self.copy_text)
+        buttons = button_row(self.trace_button, self.delete_button, self.copy_button)
 
         layout = QVBoxLayout(self)
         layout.addWidget(purpose)
