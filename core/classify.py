@@ -207,6 +207,8 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     rows = max(1, _BLOCK_ELEMENTS // nx)
     starts = list(range(0, ny, rows))
     x_row = x[np.newaxis, :]
+    rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y)
+    prepared = {**prepared, **rows_along_x}
     local = threading.local()
     done = [0]
     lock = threading.Lock()
@@ -218,7 +220,8 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         if not hasattr(local, "scratch"):
             local.scratch = _Scratch(rows * nx)
         block = normalized[start:stop]
-        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=prepared)
+        block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
+        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared)
         _normalized_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:

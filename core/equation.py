@@ -92,6 +92,7 @@ class _Step:
     code: str            # numexpr text over internal names
     pointwise: bool      # depends on the variables or on data (else on parameters only)
     alias: str | None    # the code is just another internal name: copy, do not evaluate
+    inputs: frozenset[str] = frozenset()   # internal names of the variables and data keys it depends on
 
 
 @dataclass(frozen=True, eq=False)
@@ -139,7 +140,7 @@ class CompiledEquation:
                 env[self._internal[key]] = np.asarray(data.sample(key, x, y), dtype=np.float64)
         values: dict[str, np.ndarray] = {}
         for step in self._steps:
-            if step.pointwise:
+            if step.pointwise and step.target not in env:   # (a grid run may have it from along_axes)
                 if step.alias is not None:
                     env[step.target] = env[step.alias]
                 else:
@@ -157,6 +158,28 @@ class CompiledEquation:
                 if not step.pointwise:
                     env[step.target] = np.float64(numexpr.evaluate(step.code, local_dict=env))
         return env
+
+    def along_axes(self, prepared: Mapping[str, object], x_nodes: np.ndarray, y_nodes: np.ndarray
+                   ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+        """Steps of a grid run that depend on one variable only, evaluated once on that axis.
+
+        Returns ({internal name: (1, nx) row}, {internal name: (ny, 1) column}); a block of rows adds the
+        rows to ``prepared`` and the matching slice of the columns, and evaluate_raw skips those steps.
+        """
+        first, second = (self._internal[v] for v in self.variables)
+        along_x = dict(prepared)
+        along_x[first] = np.asarray(x_nodes, dtype=np.float64)[np.newaxis, :]
+        along_y = dict(prepared)
+        along_y[second] = np.asarray(y_nodes, dtype=np.float64)[:, np.newaxis]
+        rows: dict[str, np.ndarray] = {}
+        columns: dict[str, np.ndarray] = {}
+        for step in self._steps:
+            for inputs, env, out in ((frozenset({first}), along_x, rows), (frozenset({second}), along_y, columns)):
+                if step.pointwise and step.inputs == inputs:
+                    value = env[step.alias] if step.alias is not None else \
+                        numexpr.evaluate(step.code, local_dict=env)
+                    env[step.target] = out[step.target] = value
+        return rows, columns
 
     def coefficients(self, x, y, *, parameters: Mapping[str, float] | None = None,
                      data: QuantitySource | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -276,6 +299,7 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
     by_symbol = {symbols[name]: internal[name] for name in symbols}
     steps = []
     pointwise_names = set(variables) | set(used_data)
+    depends: dict[str, frozenset[str]] = {n: frozenset({internal[n]}) for n in (*variables, *used_data)}
     for name in (*order, *COEFFICIENT_NAMES):
         try:
             code = to_numexpr(parsed[name], by_symbol)
@@ -283,10 +307,13 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
             prefix = "definitions." if name not in COEFFICIENT_NAMES else ""
             raise ExpressionError(str(error), field=prefix + name) from None
         pointwise = bool(uses[name] & pointwise_names)
+        inputs = frozenset().union(*(depends.get(n, frozenset()) for n in uses[name]))
         if pointwise:
             pointwise_names.add(name)
+            depends[name] = inputs
         alias = code if code in internal.values() else None
-        steps.append(_Step(name=name, target=internal[name], code=code, pointwise=pointwise, alias=alias))
+        steps.append(_Step(name=name, target=internal[name], code=code, pointwise=pointwise, alias=alias,
+                           inputs=inputs))
     return CompiledEquation(
         equation=equation,
         variables=variables,  # type: ignore[arg-type]
