@@ -1,6 +1,5 @@
 """The `mixtype` command's inline-equation contract: JSON shapes, values, and one-line errors."""
 
-import io
 import json
 import math
 import subprocess
@@ -8,15 +7,10 @@ import sys
 
 import pytest
 
-from core.cli import main
+from tests.core.cli_runner import run
 
 TRICOMI = ["--a", "y", "--b", "0", "--c", "1", "--domain", "-1", "1", "-1", "1"]
 
-
-def run(*argv):
-    out, err = io.StringIO(), io.StringIO()
-    status = main(list(argv), out=out, err=err)
-    return status, out.getvalue(), err.getvalue()
 
 
 def test_classify_json_contract_on_tricomi():

@@ -3,7 +3,6 @@ and projects that record their data files."""
 
 from __future__ import annotations
 
-import io
 import json
 import math
 import shutil
@@ -12,11 +11,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.cli import main
 from core.cli_study import parse_data_option
 from core.project import demo_project_names, demo_project_path
 from core.project_io import load_project
 from core.templates import list_templates, load_template
+from tests.core.cli_runner import run, run_json
 
 DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 NPZ, VTU = str(DATA / "bump_flow.npz"), str(DATA / "bump_flow.vtu")
@@ -28,16 +27,6 @@ PROFILE = "N=0.011*exp(-((z + 120)/35)**2) + 0.0016*exp(z/900)*(1 - exp(z/15))"
 ABOVE_CREST = ("--domain", "-0.8", "0.8", "1.08", "1.4", "--grid", "129", "65", "--raw")
 
 
-def run(*argv: str) -> tuple[int, str, str]:
-    out, err = io.StringIO(), io.StringIO()
-    status = main(list(argv), out=out, err=err)
-    return status, out.getvalue(), err.getvalue()
-
-
-def run_json(*argv: str) -> dict:
-    status, out, err = run(*argv, "--json")
-    assert status == 0, err
-    return json.loads(out)
 
 
 # -- --data PATH[:NAMES] ---------------------------------------------------------------------------------

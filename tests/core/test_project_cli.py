@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import io
 import json
 import subprocess
 import sys
@@ -12,27 +11,17 @@ import numpy as np
 import pytest
 
 from core.classify import classify_grid
-from core.cli import main
 from core.domain import Domain
 from core.equation import compile_equation
 from core.project import demo_project_path
 from core.project_io import ProjectError, load_project
+from tests.core.cli_runner import run, run_json
 
 ROOT = Path(__file__).resolve().parents[2]
 TRICOMI = str(demo_project_path("tricomi"))
 BUMP = str(demo_project_path("transonic_bump"))
 
 
-def run(*argv: str) -> tuple[int, str, str]:
-    out, err = io.StringIO(), io.StringIO()
-    status = main(list(argv), out=out, err=err)
-    return status, out.getvalue(), err.getvalue()
-
-
-def run_json(*argv: str) -> dict:
-    status, out, err = run(*argv, "--json")
-    assert status == 0, err
-    return json.loads(out)
 
 
 # -- check ---------------------------------------------------------------------------------------------
