@@ -56,7 +56,6 @@ def test_a_fresh_process_killed_while_writing_leaves_a_complete_file(tmp_path):
     target = folder / "study.mixtype.json"
     target.write_bytes(payloads[0])
     rng = random.Random(7)
-    started = time.monotonic()
     for _ in range(12):
         child = subprocess.Popen([sys.executable, "-I", "-c", _CHILD, str(ROOT), str(target), *map(str, paths)],
                                  stdout=subprocess.PIPE)
@@ -71,7 +70,6 @@ def test_a_fresh_process_killed_while_writing_leaves_a_complete_file(tmp_path):
         assert stray == {p.name for p in leftover_temporaries(target)}  # only the documented kind
     write_file_atomically(target, payloads[1])
     assert _folder_names(folder) == sorted([target.name, backup_path(target).name]), _folder_names(folder)
-    assert time.monotonic() - started < 15
 
 
 @posix_only
@@ -83,7 +81,6 @@ def test_save_project_killed_at_random_moments_leaves_the_old_or_the_new_project
     versions[0] = save_project(versions[0], target, now=T0)
     expected_notes = {v.notes for v in versions}
     rng = random.Random(11)
-    started = time.monotonic()
     for _ in range(18):
         ready_read, ready_write = os.pipe()
         pid = os.fork()
@@ -109,7 +106,6 @@ def test_save_project_killed_at_random_moments_leaves_the_old_or_the_new_project
         assert stray == {p.name for p in leftover_temporaries(target)}
     save_project(versions[1], target, now=T0)
     assert _folder_names(tmp_path) == sorted([target.name, backup_path(target).name])
-    assert time.monotonic() - started < 15
 
 
 @posix_only
