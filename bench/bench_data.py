@@ -1,0 +1,93 @@
+"""Background-data sampling speed, as ratios measured in one run (not run by CI).
+
+The demo bump flow is sampled at the nodes of a 1024^2 grid, from the NPZ grid and from the VTU mesh, through
+core.data (what classification uses), against the obvious hand-made baselines: scipy's
+RegularGridInterpolator built per call for the grid, and scipy.interpolate.griddata (which triangulates the
+points again on every call) for the mesh. Also: classifying the data-driven flow against the formula flow
+on the same grid, and the agreement of the two type maps.
+"""
+
+from __future__ import annotations
+
+import json
+import pathlib
+import time
+
+import numpy as np
+from scipy import interpolate
+
+from core.classify import TypeCode, classify_grid
+from core.data import DataSources, load_data
+from core.domain import Domain
+from core.equation import compile_equation
+from core.templates import load_template
+
+DATA = pathlib.Path(__file__).resolve().parents[1] / "resources" / "demo" / "data"
+
+
+def _best(function, repeats: int = 3) -> float:
+    best = float("inf")
+    for _ in range(repeats):
+        start = time.perf_counter()
+        function()
+        best = min(best, time.perf_counter() - start)
+    return best
+
+
+def run(n: int = 1024) -> dict:
+    domain = Domain(-3.0, 3.0, 0.0, 3.0, n, n // 2)
+    xx, yy = np.meshgrid(domain.x_nodes, domain.y_nodes)
+    results: dict = {"grid": [domain.nx, domain.ny]}
+
+    start = time.perf_counter()
+    grid = load_data(DATA / "bump_flow.npz")
+    results["load_npz_s"] = round(time.perf_counter() - start, 4)
+    start = time.perf_counter()
+    mesh = load_data(DATA / "bump_flow.vtu", names={"velocity_x": "u", "velocity_y": "v"})
+    results["load_vtu_s"] = round(time.perf_counter() - start, 4)
+
+    raw = np.load(DATA / "bump_flow.npz")
+    grid_ours = _best(lambda: grid.sample("u", xx, yy))
+    # the form classification uses: a row of x and a column of y, each axis located once
+    grid_axes = _best(lambda: grid.sample("u", domain.x_nodes[np.newaxis, :], domain.y_nodes[:, np.newaxis]))
+
+    def grid_baseline():
+        interpolator = interpolate.RegularGridInterpolator((raw["y"], raw["x"]), raw["u"], bounds_error=False,
+                                                           fill_value=np.nan)
+        return interpolator(np.column_stack([yy.ravel(), xx.ravel()]))
+
+    grid_base = _best(grid_baseline)
+    results["grid_sample_scattered_points_s"] = round(grid_ours, 4)
+    results["grid_sample_row_and_column_s"] = round(grid_axes, 4)
+    results["grid_baseline_regular_grid_interpolator_s"] = round(grid_base, 4)
+    results["grid_speedup_scattered_points"] = round(grid_base / grid_ours, 2)
+    results["grid_speedup_row_and_column"] = round(grid_base / grid_axes, 2)
+
+    mesh.sample("u", xx, yy)  # the first call builds the point location
+    mesh_ours = _best(lambda: mesh.sample("u", xx, yy))
+    import meshio
+
+    vtu = meshio.read(DATA / "bump_flow.vtu")
+    points, values = vtu.points[:, :2], vtu.point_data["velocity"][:, 0]
+    mesh_base = _best(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"), 1)
+    results["mesh_sample_s"] = round(mesh_ours, 4)
+    results["mesh_baseline_griddata_s"] = round(mesh_base, 4)
+    results["mesh_speedup"] = round(mesh_base / mesh_ours, 2)
+
+    template = load_template("full_potential")
+    formula = compile_equation(template.equation)
+    sources = DataSources([grid])
+    driven = compile_equation(template.equation_with_data(sources.names), data_names=sources.names)
+    formula_time = _best(lambda: classify_grid(formula, domain))
+    data_time = _best(lambda: classify_grid(driven, domain, data=sources))
+    a, b = classify_grid(formula, domain).codes, classify_grid(driven, domain, data=sources).codes
+    both = (a != TypeCode.UNDEFINED) & (b != TypeCode.UNDEFINED)
+    results["classify_formula_s"] = round(formula_time, 4)
+    results["classify_npz_data_s"] = round(data_time, 4)
+    results["data_over_formula_time"] = round(data_time / formula_time, 2)
+    results["type_agreement_where_both_defined"] = round(float(np.mean(a[both] == b[both])), 5)
+    return results
+
+
+if __name__ == "__main__":
+    print(json.dumps(run(), indent=2))
