@@ -8,11 +8,11 @@ tolerance rule. Extra memory is the tracemalloc peak above the outputs, with out
 from __future__ import annotations
 
 import json
-import time
 import tracemalloc
 
 import numpy as np
 import sympy
+from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
 from core.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
 from core.domain import Domain
@@ -28,15 +28,6 @@ CASES = {
                      "c2": "1 - (gam - 1)/2*(u**2 + v**2)"},
         parameters={"U": Parameter(0.8), "gam": Parameter(1.4)}),
 }
-
-
-def _best(function, repeats: int) -> float:
-    best = float("inf")
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def _baseline(equation: Equation, domain: Domain):
@@ -71,21 +62,21 @@ def run(sizes=(2048, 4096), repeats: int = 3) -> dict:
         source = np.random.default_rng(0).random((n, n))
         target = np.empty_like(source)
         np.multiply(source, 2.0, out=target)
-        floor = _best(lambda s=source, t=target: np.multiply(s, 2.0, out=t), repeats + 2)
+        floor = best_time(lambda s=source, t=target: np.multiply(s, 2.0, out=t), repeats + 2)
         del source, target
         for name, equation in CASES.items():
             compiled = compile_equation(equation)
             out = (np.zeros((n, n), np.int8), np.zeros((n, n), np.float32))
             classify_grid(compiled, domain, out=out)
-            warm = _best(lambda c=compiled, d=domain, o=out: classify_grid(c, d, out=o), repeats)
-            cold = _best(lambda c=compiled, d=domain: classify_grid(c, d), repeats)
+            warm = best_time(lambda c=compiled, d=domain, o=out: classify_grid(c, d, out=o), repeats)
+            cold = best_time(lambda c=compiled, d=domain: classify_grid(c, d), repeats)
             tracemalloc.start()
             classify_grid(compiled, domain, out=out)
             _, peak = tracemalloc.get_traced_memory()
             tracemalloc.stop()
             baseline_run = _baseline(equation, domain)
             reference = baseline_run()
-            baseline = _best(baseline_run, 1)
+            baseline = best_time(baseline_run, 1)
             agree = float(np.mean(reference == out[0]))
             del reference
             results[f"{name}_{n}"] = {

@@ -15,6 +15,7 @@ import time
 
 import numpy as np
 from scipy import interpolate
+from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
 from core.classify import TypeCode, classify_grid
 from core.data import DataSources, load_data
@@ -23,15 +24,6 @@ from core.equation import compile_equation
 from core.templates import load_template
 
 DATA = pathlib.Path(__file__).resolve().parents[1] / "resources" / "demo" / "data"
-
-
-def _best(function, repeats: int = 3) -> float:
-    best = float("inf")
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        best = min(best, time.perf_counter() - start)
-    return best
 
 
 def run(n: int = 1024) -> dict:
@@ -47,16 +39,16 @@ def run(n: int = 1024) -> dict:
     results["load_vtu_s"] = round(time.perf_counter() - start, 4)
 
     raw = np.load(DATA / "bump_flow.npz")
-    grid_ours = _best(lambda: grid.sample("u", xx, yy))
+    grid_ours = best_time(lambda: grid.sample("u", xx, yy))
     # the form classification uses: a row of x and a column of y, each axis located once
-    grid_axes = _best(lambda: grid.sample("u", domain.x_nodes[np.newaxis, :], domain.y_nodes[:, np.newaxis]))
+    grid_axes = best_time(lambda: grid.sample("u", domain.x_nodes[np.newaxis, :], domain.y_nodes[:, np.newaxis]))
 
     def grid_baseline():
         interpolator = interpolate.RegularGridInterpolator((raw["y"], raw["x"]), raw["u"], bounds_error=False,
                                                            fill_value=np.nan)
         return interpolator(np.column_stack([yy.ravel(), xx.ravel()]))
 
-    grid_base = _best(grid_baseline)
+    grid_base = best_time(grid_baseline)
     results["grid_sample_scattered_points_s"] = round(grid_ours, 4)
     results["grid_sample_row_and_column_s"] = round(grid_axes, 4)
     results["grid_baseline_regular_grid_interpolator_s"] = round(grid_base, 4)
@@ -64,12 +56,12 @@ def run(n: int = 1024) -> dict:
     results["grid_speedup_row_and_column"] = round(grid_base / grid_axes, 2)
 
     mesh.sample("u", xx, yy)  # the first call builds the point location
-    mesh_ours = _best(lambda: mesh.sample("u", xx, yy))
+    mesh_ours = best_time(lambda: mesh.sample("u", xx, yy))
     import meshio
 
     vtu = meshio.read(DATA / "bump_flow.vtu")
     points, values = vtu.points[:, :2], vtu.point_data["velocity"][:, 0]
-    mesh_base = _best(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"), 1)
+    mesh_base = best_time(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"), 1)
     results["mesh_sample_s"] = round(mesh_ours, 4)
     results["mesh_baseline_griddata_s"] = round(mesh_base, 4)
     results["mesh_speedup"] = round(mesh_base / mesh_ours, 2)
@@ -78,8 +70,8 @@ def run(n: int = 1024) -> dict:
     formula = compile_equation(template.equation)
     sources = DataSources([grid])
     driven = compile_equation(template.equation_with_data(sources.names), data_names=sources.names)
-    formula_time = _best(lambda: classify_grid(formula, domain))
-    data_time = _best(lambda: classify_grid(driven, domain, data=sources))
+    formula_time = best_time(lambda: classify_grid(formula, domain))
+    data_time = best_time(lambda: classify_grid(driven, domain, data=sources))
     a, b = classify_grid(formula, domain).codes, classify_grid(driven, domain, data=sources).codes
     both = (a != TypeCode.UNDEFINED) & (b != TypeCode.UNDEFINED)
     results["classify_formula_s"] = round(formula_time, 4)

@@ -35,6 +35,7 @@ from core.project_schema import (
     PATH_PATTERN,
     TIMESTAMP_PATTERN,
     TITLE_PATTERN,
+    describe_json_value,
     project_schema,
 )
 
@@ -87,22 +88,6 @@ def _clip(text: str, limit: int = _MAX_MESSAGE) -> str:
 
 
 # -- reading: plain JSON sanity -----------------------------------------------------------------------------
-def _kind(value: object) -> str:
-    if value is None:
-        return "null"
-    if isinstance(value, bool):
-        return "true/false"
-    if isinstance(value, int | float):
-        return "a number"
-    if isinstance(value, str):
-        return "text"
-    if isinstance(value, list):
-        return "a list"
-    if isinstance(value, Mapping):
-        return "an object"
-    return type(value).__name__
-
-
 def sanity_problems(data: object) -> list[tuple[str, str]]:
     """Depth, repeated keys, non-finite numbers, text UTF-8 cannot hold, non-JSON values (iteratively)."""
     problems: list[tuple[str, str]] = []
@@ -117,7 +102,7 @@ def sanity_problems(data: object) -> list[tuple[str, str]]:
                 problems.append((json_path(parts), f"the key {_clip(key, 40)!r} appears more than once"))
             for key, item in value.items():
                 if not isinstance(key, str):
-                    problems.append((json_path(parts), f"keys must be text, got {_kind(key)}"))
+                    problems.append((json_path(parts), f"keys must be text, got {describe_json_value(key)}"))
                     continue
                 if not _encodable(key):
                     problems.append((json_path(parts), "a key holds a lone UTF-16 surrogate"))
@@ -139,7 +124,7 @@ def sanity_problems(data: object) -> list[tuple[str, str]]:
             if not _encodable(value):
                 problems.append((json_path(parts), "text holds a lone UTF-16 surrogate (not valid Unicode)"))
         elif value is not None and not isinstance(value, bool):
-            problems.append((json_path(parts), f"{_kind(value)} is not a JSON value"))
+            problems.append((json_path(parts), f"{describe_json_value(value)} is not a JSON value"))
     return sorted(problems)
 
 
@@ -176,7 +161,7 @@ def _describe(error: jsonschema.ValidationError) -> str:
                  "array": "a list", "object": "an object", "null": "null"}
         if isinstance(instance, float) and expected == "integer":
             return f"must be a whole number, not {instance!r}"
-        return f"must be {names.get(expected, expected)}, not {_kind(instance)}"
+        return f"must be {names.get(expected, expected)}, not {describe_json_value(instance)}"
     if kind == "required":
         missing = [name for name in expected if isinstance(instance, Mapping) and name not in instance]
         return f"the field {missing[0]!r} is missing" if missing else "a required field is missing"

@@ -13,7 +13,7 @@ import copy
 from collections.abc import Callable, Mapping
 
 import core
-from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
+from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME, describe_json_value
 
 __all__ = ["MIGRATIONS", "OLDEST_FORMAT_VERSION", "MigrationError", "format_version_of", "migrate"]
 
@@ -64,7 +64,7 @@ class MigrationError(ValueError):
 def format_version_of(data: object) -> int:
     """The format version a parsed file declares; MigrationError when it is absent or not a version."""
     if not isinstance(data, Mapping):
-        raise MigrationError(f"a project file holds a JSON object, not {_kind(data)}")
+        raise MigrationError(f"a project file holds a JSON object, not {describe_json_value(data, show=True)}")
     if data.get("format") != FORMAT_NAME:
         found = data.get("format")
         hint = f"its 'format' is {found!r}" if "format" in data else "it has no 'format' field"
@@ -73,7 +73,7 @@ def format_version_of(data: object) -> int:
         raise MigrationError("the file does not say its format version ('format_version' is missing)")
     version = data["format_version"]
     if isinstance(version, bool) or not isinstance(version, int):
-        raise MigrationError(f"the format version must be a whole number, got {_kind(version)}",
+        raise MigrationError(f"the format version must be a whole number, got {describe_json_value(version, show=True)}",
                              path="$.format_version")
     return version
 
@@ -108,17 +108,3 @@ def migrate(data: Mapping, *, target: int = CURRENT_FORMAT_VERSION,
             raise AssertionError(f"the migration from version {version} declared version {declared!r}")
         version += 1
     return result
-
-
-def _kind(value: object) -> str:
-    if value is None:
-        return "null"
-    if isinstance(value, bool):
-        return "true/false"
-    if isinstance(value, int | float):
-        return f"the number {value!r}"
-    if isinstance(value, str):
-        return "text" if len(value) > 40 else f"the text {value!r}"
-    if isinstance(value, list):
-        return "a list"
-    return "an object"

@@ -30,6 +30,7 @@ __all__ = [
     "MAX_NOTES_LENGTH",
     "MAX_PINS",
     "MAX_SEEDS",
+    "describe_json_value",
     "project_schema",
     "schema_path",
     "schema_text",
@@ -248,3 +249,20 @@ def schema_path(version: int = CURRENT_FORMAT_VERSION) -> Path:
 if __name__ == "__main__":
     schema_path().write_text(schema_text(), encoding="utf-8")
     print(f"wrote {schema_path()}")
+
+
+def describe_json_value(value: object, *, show: bool = False) -> str:
+    """What kind of JSON value this is, for messages ('a number', 'text'...); ``show`` quotes short values."""
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true/false"
+    if isinstance(value, int | float):
+        return f"the number {value!r}" if show else "a number"
+    if isinstance(value, str):
+        return f"the text {value!r}" if show and len(value) <= 40 else "text"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, dict):
+        return "an object"
+    return type(value).__name__
