@@ -26,21 +26,25 @@ from gui.document import Document
 __all__ = ["PocketsPanel", "pocket_row"]
 
 
-def _number(value, digits: int = 4) -> str:
+def _number(value, digits: int = 4, *, resolution: float = 0.0) -> str:
+    """``value`` to ``digits`` significant digits; magnitudes below ``resolution`` are rounding noise: 0."""
     if value is None or not math.isfinite(float(value)):
         return "—"
-    return f"{float(value) + 0.0:.{digits}g}"
+    value = float(value)
+    return f"{0.0 if abs(value) < resolution else value + 0.0:.{digits}g}"
 
 
 def pocket_row(pocket) -> tuple[str, ...]:
     """The table cells of one core.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge."""
     cx, cy = pocket.centroid
+    xmin, xmax, ymin, ymax = pocket.bounding_box
+    noise = 1e-9 * max(xmax - xmin, ymax - ymin, abs(xmin), abs(xmax), abs(ymin), abs(ymax))
     if pocket.peak is None:
         peak, where = "—", "—"
     else:
         peak = _number(pocket.peak)
         where = f"({_number(pocket.peak_at[0])}, {_number(pocket.peak_at[1])})"
-    return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx)}, {_number(cy)})",
+    return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx, resolution=noise)}, {_number(cy, resolution=noise)})",
             peak, where, "yes" if pocket.touches_boundary else "no")
 
 
