@@ -13,10 +13,10 @@ import time
 
 import numpy as np
 
-from core.boundary import find_type_boundaries
-from core.classify import classify_grid
-from core.domain import Domain
-from core.equation import Equation, compile_equation
+from core.analysis.type_change_lines import find_type_boundaries
+from core.analysis.classify import classify_grid
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, compile_equation
 
 NODES = 1024
 REPEATS = 15

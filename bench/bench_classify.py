@@ -14,9 +14,9 @@ import numpy as np
 import sympy
 from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
-from core.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
+from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter, compile_equation
 
 CASES = {
     # D = 4(x^2 + y^2 - 1): a polynomial field that depends on both variables.

@@ -1,7 +1,7 @@
 """Background-data sampling speed, as ratios measured in one run (not run by CI).
 
 The demo bump flow is sampled at the nodes of a 1024^2 grid, from the NPZ grid and from the VTU mesh, through
-core.data (what classification uses), against the obvious hand-made baselines: scipy's
+core.data.sources (what classification uses), against the obvious hand-made baselines: scipy's
 RegularGridInterpolator built per call for the grid, and scipy.interpolate.griddata (which triangulates the
 points again on every call) for the mesh. Also: classifying the data-driven flow against the formula flow
 on the same grid, and the agreement of the two type maps.
@@ -17,11 +17,11 @@ import numpy as np
 from scipy import interpolate
 from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
-from core.classify import TypeCode, classify_grid
-from core.data import DataSources, load_data
-from core.domain import Domain
-from core.equation import compile_equation
-from core.templates import load_template
+from core.analysis.classify import TypeCode, classify_grid
+from core.data.sources import DataSources, load_data
+from core.analysis.domain import Domain
+from core.equations.equation import compile_equation
+from core.equations.templates import load_template
 
 DATA = pathlib.Path(__file__).resolve().parents[1] / "resources" / "demo" / "data"
 

@@ -24,8 +24,8 @@ def run() -> dict:
     os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from PySide6.QtCore import QCoreApplication
 
-    from core.classify import classify_grid
-    from core.domain import Domain
+    from core.analysis.classify import classify_grid
+    from core.analysis.domain import Domain
     from gui.app import ensure_application
     from gui.main_window import MainWindow
     from gui.preferences import Preferences

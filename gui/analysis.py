@@ -16,14 +16,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
-from core.boundary import find_type_boundaries
-from core.characteristics import trace_characteristics
-from core.classify import TypeCode, classify_grid, classify_points
-from core.pockets import label_pockets, pocket_statistics
-from core.probe import probe_point
+from core.analysis.type_change_lines import find_type_boundaries
+from core.analysis.characteristics import trace_characteristics
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.pockets import label_pockets, pocket_statistics
+from core.analysis.probe import probe_point
 from core.progress import Cancelled
-from core.project import Seed
-from core.trade import point_values, readout_at
+from core.project.model import Seed
+from core.equations.trade import point_values, readout_at
 from gui.document import Document
 from gui.jobs import JobRunner
 
@@ -39,7 +39,7 @@ class HoverReading:
     type: TypeCode
     discriminant: float
     inside: bool
-    trade: dict = field(default_factory=dict)   # core.trade readout at the point ({} without a trade spec)
+    trade: dict = field(default_factory=dict)   # core.equations.trade readout at the point ({} without a trade spec)
 
 
 @dataclass(frozen=True)
@@ -62,7 +62,7 @@ class PocketReport:
 
 
 def trade_at(equation, compiled, x: float, y: float, *, parameters, data) -> dict | str:
-    """core.trade.readout_at for the equation's trade spec at one point: {} without a spec, the readout
+    """core.equations.trade.readout_at for the equation's trade spec at one point: {} without a spec, the readout
     dict, or a one-line reason (str) when it cannot be read there (an input is undefined at the point)."""
     if not equation.trade:
         return {}
@@ -88,8 +88,8 @@ _LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",
 class StudyAnalysis(QObject):
     """Results for the shown equation and domain; each arrives by its own signal."""
 
-    map_ready = Signal(object)              # core.classify.TypeMap
-    lines_ready = Signal(object)            # core.boundary.TypeBoundaries, or None when unavailable
+    map_ready = Signal(object)              # core.analysis.classify.TypeMap
+    lines_ready = Signal(object)            # core.analysis.type_change_lines.TypeBoundaries, or None when unavailable
     characteristics_ready = Signal(object)  # tuple[TracedSeed, ...]
     probes_ready = Signal(object)           # tuple[ProbeResult, ...], one per pin
     trade_ready = Signal(object)            # tuple[dict | str, ...], one trade readout per pin (see trade_at)

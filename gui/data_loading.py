@@ -1,7 +1,7 @@
 """Background data of the open study: loads its data files off the GUI thread and hands them to the document.
 
-The study lists its data files (``Project.data_sources``, core.project.DataSourceRef, absolute in the window).
-When that list changes, or the shown equation's variables do, the files are read with core.data.load_data as one
+The study lists its data files (``Project.data_sources``, core.project.model.DataSourceRef, absolute in the window).
+When that list changes, or the shown equation's variables do, the files are read with core.data.sources.load_data as one
 background job ("data" channel: progress per file, cancellable between files) and each gets a status:
 
 * ``ok``: loaded, and the file is the one the study was saved with (same SHA-256);
@@ -23,9 +23,9 @@ from dataclasses import dataclass, replace
 import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
-from core.data import DataError, DataSet, DataSources, load_data, parse_quantity_key
+from core.data.sources import DataError, DataSet, DataSources, load_data, parse_quantity_key
 from core.progress import Cancelled
-from core.project_checks import equation_data_names
+from core.project.checks import equation_data_names
 from gui.document import Document
 from gui.jobs import JobRunner
 
@@ -41,7 +41,7 @@ STATES = ("ok", "changed", "missing", "error")
 class DataStatus:
     """One data file of the study: its reference, what became of it and the quantities it stands for."""
 
-    ref: object                      # core.project.DataSourceRef (absolute path)
+    ref: object                      # core.project.model.DataSourceRef (absolute path)
     state: str                       # one of STATES
     message: str = ""                # why it is missing, changed or unusable (one line)
     dataset: DataSet | None = None   # the loaded data (also for 'error' when only the names clash)
@@ -279,7 +279,7 @@ class DataLoader(QObject):
         self.settled.emit()
 
     def _add_loaded(self, dataset: DataSet) -> None:
-        from core.project import DataSourceRef
+        from core.project.model import DataSourceRef
 
         ref = DataSourceRef(path=dataset.path, checksum=dataset.checksum)
         key = _cache_key(ref, dataset.variables)

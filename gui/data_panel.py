@@ -1,6 +1,6 @@
 """The study's background data files: what each provides, over which region, and whether it is usable.
 
-Each row is one data file (core.data reads CSV, NumPy .npz, NetCDF and VTK/VTU): its format, the quantities
+Each row is one data file (core.data.sources reads CSV, NumPy .npz, NetCDF and VTK/VTU): its format, the quantities
 equations may use (renamed ones show their name in the file), the region it covers in the equation's
 variables, and its status (ok / changed since saved / missing / cannot be used). Adding, removing, renaming a
 quantity and accepting a changed file are undoable edits of the study; reading the files happens in the
@@ -28,7 +28,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.expr import ExpressionError, check_name
+from core.equations.parser import ExpressionError, check_name
 from gui.document import Document
 
 __all__ = ["STATUS_TEXT", "DataPanel", "extent_text", "quantities_text"]

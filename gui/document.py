@@ -1,6 +1,6 @@
 """The open study as a QObject: applies edits as undoable commands and says precisely what changed.
 
-The document owns a ``core.project.Project`` (its data file paths absolute, see gui.project_bridge). Every
+The document owns a ``core.project.model.Project`` (its data file paths absolute, see gui.project_bridge). Every
 edit builds a new Project and pushes a command holding the states before and after. Commands that share
 a merge key (one slider drag, one burst of typing in one field) merge into one undo step. After each change the
 document compares old and new and emits only the signals that apply, once each.
@@ -15,11 +15,11 @@ from pathlib import Path
 from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
-from core.domain import Domain
-from core.equation import CompiledEquation, Equation, Parameter
-from core.expr import ExpressionError
-from core.project import Pin, Project, Seed
-from core.project_data import compile_with_data
+from core.analysis.domain import Domain
+from core.equations.equation import CompiledEquation, Equation, Parameter
+from core.equations.parser import ExpressionError
+from core.project.model import Pin, Project, Seed
+from core.project.data_files import compile_with_data
 
 __all__ = ["LAYER_FIELDS", "LAYER_LABELS", "UNDO_LIMIT", "Document"]
 
@@ -165,7 +165,7 @@ class Document(QObject):
     @property
     def data_names(self) -> tuple[str, ...]:
         """Names of the data quantities equations may use (also those of files that are missing); an
-        equation that defines one of them itself uses its own definition (core.project_data)."""
+        equation that defines one of them itself uses its own definition (core.project.data_files)."""
         return self._data_names
 
     @property

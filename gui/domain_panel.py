@@ -17,7 +17,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.domain import MAX_GRID, MIN_GRID, Domain
+from core.analysis.domain import MAX_GRID, MIN_GRID, Domain
 from gui.document import Document
 from gui.widgets import copy_name
 

@@ -31,8 +31,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.equation import Equation, Parameter
-from core.expr import ExpressionError
+from core.equations.equation import Equation, Parameter
+from core.equations.parser import ExpressionError
 from gui.document import Document
 from gui.math_render import equation_html
 from gui.widgets import button_row, copy_name, push_button

@@ -25,9 +25,9 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.probe import probe_to_dict
-from core.project import Project, Seed
-from core.result_tables import (
+from core.analysis.probe import probe_to_dict
+from core.project.model import Project, Seed
+from core.results.tables import (
     BOUNDARY_COLUMNS,
     CHARACTERISTIC_COLUMNS,
     boundary_rows,
@@ -37,7 +37,7 @@ from core.result_tables import (
     write_csv,
     write_json,
 )
-from core.templates import TemplateError, load_template
+from core.equations.templates import TemplateError, load_template
 from gui.analysis import StudyAnalysis
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.data_panel import DataPanel

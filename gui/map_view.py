@@ -14,8 +14,8 @@ import pyqtgraph as pg
 from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
-from core.classify import TypeCode
-from core.project import Pin, Seed, ViewSettings
+from core.analysis.classify import TypeCode
+from core.project.model import Pin, Seed, ViewSettings
 from gui.palette import (
     FAMILY_COLOURS,
     HIGHLIGHT_COLOUR,
@@ -229,7 +229,7 @@ class MapView(QWidget):
 
     def highlight_pocket(self, pocket, labels: np.ndarray | None = None, type_map=None, *,
                          centre: bool = True) -> None:
-        """Outline ``pocket`` (a core.pockets.Pocket; ``labels`` the (ny, nx) label array of ``type_map``)
+        """Outline ``pocket`` (a core.analysis.pockets.Pocket; ``labels`` the (ny, nx) label array of ``type_map``)
         with a halo, star its peak and, with ``centre``, bring it into the middle of the view."""
         if pocket is None or labels is None or type_map is None:
             self.pocket_outline.setData([], [])
@@ -263,7 +263,7 @@ class MapView(QWidget):
         self.show_fractions(None)
 
     def show_lines(self, boundaries) -> None:
-        """Type-change curves from core.boundary (``curves[k].points`` (n, 2)); None clears them."""
+        """Type-change curves from core.analysis.type_change_lines (``curves[k].points`` (n, 2)); None clears them."""
         curves = [] if boundaries is None else [curve.points for curve in boundaries.curves]
         x, y = polyline_with_breaks(curves)
         self.lines.setData(x, y, connect="finite")

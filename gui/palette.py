@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from core.classify import TypeCode
+from core.analysis.classify import TypeCode
 
 __all__ = [
     "FAMILY_COLOURS",

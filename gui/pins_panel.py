@@ -1,7 +1,7 @@
 """Pinned points and everything core knows at each: type, D, a, b, c, characteristic directions, definitions.
 
 Click the map to pin a point. The table lists the pins (label, position, type, D); the label and position can
-be edited in place. The selected pin's full readout comes from core.probe, shown as a table and copyable as
+be edited in place. The selected pin's full readout comes from core.analysis.probe, shown as a table and copyable as
 plain text. Numbers carry their units: coordinates are in the equation's own length units, angles in
 degrees from the first variable's axis, D in the units of b squared; ratios are marked dimensionless.
 """
@@ -25,8 +25,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.project import Seed
-from core.trade import READOUT_UNITS
+from core.project.model import Seed
+from core.equations.trade import READOUT_UNITS
 from gui.document import Document
 from gui.widgets import button_row, push_button
 
@@ -61,7 +61,7 @@ def _type_label(result) -> str:
 
 
 def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[str, str]]:
-    """(quantity, value with unit) rows for one core.probe result, in reading order."""
+    """(quantity, value with unit) rows for one core.analysis.probe result, in reading order."""
     x_name, y_name = variables
     point = getattr(result, "point", (math.nan, math.nan))
     rows = [
@@ -94,7 +94,7 @@ def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[st
     return rows
 
 
-# readout key (core.trade) -> (what it is, why it can be missing); units come from core.trade.READOUT_UNITS
+# readout key (core.equations.trade) -> (what it is, why it can be missing); units come from core.equations.trade.READOUT_UNITS
 TRADE_LABELS: dict[str, tuple[str, str]] = {
     "speed": ("flow speed |V|", ""),
     "mach": ("local Mach number M", ""),
@@ -120,7 +120,7 @@ _DIRECTION_KEYS = ("flow_angle_deg", "characteristic_plus_deg", "characteristic_
 
 
 def _unit_text(key: str, first_variable: str, spec=None) -> str:
-    """The unit after a trade value: core.trade.READOUT_UNITS worded for the panel."""
+    """The unit after a trade value: core.equations.trade.READOUT_UNITS worded for the panel."""
     unit = READOUT_UNITS.get(key, "")
     if unit == "deg":
         return f"° from the {first_variable} axis" if key in _DIRECTION_KEYS else "°"
@@ -135,7 +135,7 @@ def _unit_text(key: str, first_variable: str, spec=None) -> str:
 
 
 def trade_rows(readout, trade=None, variables: tuple[str, str] = ("x", "y")) -> list[tuple[str, str]]:
-    """(quantity, value with unit) rows for a core.trade readout dict (a str is a reason it is missing).
+    """(quantity, value with unit) rows for a core.equations.trade readout dict (a str is a reason it is missing).
 
     ``trade`` is the equation's trade spec (it decides the wording for the shallow-water analogy).
     """
@@ -216,7 +216,7 @@ class PinsPanel(QWidget):
 
         self.details = QTextBrowser()
         self.details.setObjectName("pinReadout")
-        self.details.setToolTip("Everything core.probe reports at the selected pin")
+        self.details.setToolTip("Everything core.analysis.probe reports at the selected pin")
         self.details.setMinimumHeight(180)
 
         self.trace_button = push_button("Trace through pin", "Draw both characteristics through the selected "
@@ -242,7 +242,7 @@ class PinsPanel(QWidget):
         self.refresh()
 
     def set_trade_readouts(self, readouts) -> None:
-        """Trade readouts (core.trade dicts, or a reason as text), one per pin; shown with the next results."""
+        """Trade readouts (core.equations.trade dicts, or a reason as text), one per pin; shown with the next results."""
         self.trades = tuple(readouts or ())
 
     def _variables(self) -> tuple[str, str]:

@@ -1,7 +1,7 @@
 """The hyperbolic pockets of the current map: a table of their areas, centres and peaks.
 
 A pocket is a connected region of hyperbolic grid nodes (a supersonic zone over a wing, a supercritical reach
-of a river, the depth band where internal waves propagate). core.pockets measures them in the background after
+of a river, the depth band where internal waves propagate). core.analysis.pockets measures them in the background after
 each map; this panel lists them, largest first, and asks the map to centre on and highlight the one clicked.
 Areas are in (first variable's unit) × (second variable's unit); positions in the equation's length units.
 """
@@ -35,7 +35,7 @@ def _number(value, digits: int = 4, *, resolution: float = 0.0) -> str:
 
 
 def pocket_row(pocket) -> tuple[str, ...]:
-    """The table cells of one core.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge."""
+    """The table cells of one core.analysis.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge."""
     cx, cy = pocket.centroid
     xmin, xmax, ymin, ymax = pocket.bounding_box
     noise = 1e-9 * max(xmax - xmin, ymax - ymin, abs(xmin), abs(xmax), abs(ymin), abs(ymax))
@@ -51,7 +51,7 @@ def pocket_row(pocket) -> tuple[str, ...]:
 class PocketsPanel(QWidget):
     """Lists a PocketReport (gui.analysis); emits ``pocket_chosen`` with the pocket clicked (None: none)."""
 
-    pocket_chosen = Signal(object)   # core.pockets.Pocket or None
+    pocket_chosen = Signal(object)   # core.analysis.pockets.Pocket or None
 
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)

@@ -1,4 +1,4 @@
-"""Project files for the window: reading and writing with core.project_io, and the starting project.
+"""Project files for the window: reading and writing with core.project.io, and the starting project.
 
 Data files are recorded in the project file relative to the file's folder; in the window they are absolute,
 so that a project can be saved elsewhere (or not saved yet) without its data references breaking.
@@ -10,11 +10,11 @@ import os
 from dataclasses import replace
 from pathlib import Path, PurePosixPath
 
-from core.domain import Domain
-from core.equation import Equation, Parameter
-from core.project import Project, demo_project_path, new_project
-from core.project_data import relative_data_path, resolve_data_path
-from core.project_io import ProjectError, load_project, save_project
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter
+from core.project.model import Project, demo_project_path, new_project
+from core.project.data_files import relative_data_path, resolve_data_path
+from core.project.io import ProjectError, load_project, save_project
 
 __all__ = [
     "PROJECT_FILTER",

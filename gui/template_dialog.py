@@ -1,4 +1,4 @@
-"""Picking a ready-made equation of the trades (core.templates) to add to the study.
+"""Picking a ready-made equation of the trades (core.equations.templates) to add to the study.
 
 The dialog lists the templates by title; the one selected is described below the list (what it models, its
 equation in mathematical form, its parameters with units, the trade quantities a pin reads, the data
@@ -25,9 +25,9 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.equation import compile_equation
-from core.expr import ExpressionError
-from core.templates import Template, TemplateError, list_templates, load_template
+from core.equations.equation import compile_equation
+from core.equations.parser import ExpressionError
+from core.equations.templates import Template, TemplateError, list_templates, load_template
 from gui.math_render import equation_html
 
 __all__ = ["TemplateChoice", "TemplateDialog", "available_templates", "template_html"]

@@ -3,7 +3,7 @@
 import io
 import json
 
-from core.cli import main
+from core.cli.main import main
 
 
 def run(*argv: str) -> tuple[int, str, str]:

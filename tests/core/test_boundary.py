@@ -9,16 +9,16 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.boundary import (
+from core.analysis.type_change_lines import (
     ParabolicRegion,
     TypeBoundaries,
     TypeChangeCurve,
     find_type_boundaries,
     refine_onto_zero_set,
 )
-from core.classify import TypeCode, classify_grid, classify_points
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 
 X, Y = sympy.symbols("x y", real=True)

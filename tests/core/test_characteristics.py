@@ -7,7 +7,7 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from core.characteristics import (
+from core.analysis.characteristics import (
     END_REASONS,
     CharacteristicNet,
     Family,
@@ -19,8 +19,8 @@ from core.characteristics import (
     trace_family_along_segment,
     trace_net,
 )
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 
 BOX = Domain(-2.0, 2.0, -2.0, 1.0, name="box")

@@ -5,9 +5,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.classify import TypeCode, classify_grid, classify_points
-from core.domain import Domain
-from core.equation import Equation, compile_equation
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, compile_equation
 from core.progress import Cancelled
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 81, 61)

@@ -99,7 +99,7 @@ def test_bad_input_exits_2_with_one_line(argv, fragment):
 
 
 def test_console_script_runs_without_traceback():
-    result = subprocess.run([sys.executable, "-m", "core.cli", "probe", *TRICOMI, "--at", "0", "2"],
+    result = subprocess.run([sys.executable, "-m", "core.cli.main", "probe", *TRICOMI, "--at", "0", "2"],
                             check=False, capture_output=True, text=True, timeout=120)
     assert result.returncode == 0
     assert "outside" in result.stdout.lower()

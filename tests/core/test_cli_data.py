@@ -11,10 +11,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.cli_study import parse_data_option
-from core.project import demo_project_names, demo_project_path
-from core.project_io import load_project
-from core.templates import list_templates, load_template
+from core.cli.study import parse_data_option
+from core.project.model import demo_project_names, demo_project_path
+from core.project.io import load_project
+from core.equations.templates import list_templates, load_template
 from tests.core.cli_runner import run, run_json
 
 DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
@@ -195,7 +195,7 @@ def test_probe_of_a_subsonic_point_says_the_mach_angle_does_not_exist():
 
 
 def test_probe_of_the_pins_of_a_data_demo_carries_trade_readouts():
-    from core.data import load_data
+    from core.data.sources import load_data
 
     document = run_json("probe", str(demo_project_path("thermocline_csv_profile")))
     thermocline, deep, mixed = document["pins"]
@@ -287,7 +287,7 @@ def test_rays_traced_through_a_data_profile_cross_the_waveguide_as_the_ray_integ
     # a ray advances by the integral of that over z; computed here with scipy's quad on the same cast
     from scipy.integrate import quad
 
-    from core.data import load_data
+    from core.data.sources import load_data
 
     document = run_json("trace", str(demo_project_path("thermocline_csv_profile")))
     cast = load_data(CSV, variables=("x", "z"))

@@ -7,7 +7,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import pytest
 
-from core.data_fields import GridField, MeshField, ProfileField, triangulate_points
+from core.data.fields import GridField, MeshField, ProfileField, triangulate_points
 
 
 def smooth(x, y):
@@ -193,7 +193,7 @@ def test_concurrent_sampling_gives_the_serial_results():
 
 
 def test_delaunay_of_scattered_points_and_degenerate_input():
-    from core.data_readers import DataError
+    from core.data.readers import DataError
 
     rng = np.random.default_rng(2)
     x, y = rng.uniform(0, 1, 200), rng.uniform(0, 1, 200)

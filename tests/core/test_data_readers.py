@@ -9,7 +9,7 @@ import netCDF4
 import numpy as np
 import pytest
 
-from core.data import DataError, load_data
+from core.data.sources import DataError, load_data
 
 
 def plane(x, y):

@@ -8,11 +8,11 @@ import numpy as np
 import pytest
 from scipy import ndimage
 
-from core.classify import TypeCode, classify_grid
-from core.data import DataError, DataSources, load_data, parse_quantity_key
-from core.domain import Domain
-from core.equation import Equation, compile_equation
-from core.templates import load_template
+from core.analysis.classify import TypeCode, classify_grid
+from core.data.sources import DataError, DataSources, load_data, parse_quantity_key
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, compile_equation
+from core.equations.templates import load_template
 
 DEMO = pathlib.Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 

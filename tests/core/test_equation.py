@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 import sympy
 
-from core.equation import Equation, Parameter, compile_equation
-from core.expr import ExpressionError
+from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.parser import ExpressionError
 
 FLOW = Equation(
     a="c2 - u**2",

@@ -7,7 +7,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.expr import ExpressionError, check_name, parse_expression
+from core.equations.parser import ExpressionError, check_name, parse_expression
 
 X, Y, K = sympy.symbols("x y k", real=True)
 SYMBOLS = {"x": X, "y": Y, "k": K}

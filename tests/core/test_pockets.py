@@ -5,13 +5,13 @@ import math
 import numpy as np
 import pytest
 
-from core.classify import TypeCode, classify_grid
-from core.data import DataSources, load_data
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
-from core.pockets import label_pockets, node_areas, pocket_statistics
+from core.analysis.classify import TypeCode, classify_grid
+from core.data.sources import DataSources, load_data
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter, compile_equation
+from core.analysis.pockets import label_pockets, node_areas, pocket_statistics
 from core.progress import Cancelled
-from core.templates import load_template
+from core.equations.templates import load_template
 
 
 def disc_equation():

@@ -6,10 +6,10 @@ import math
 import numpy as np
 import pytest
 
-from core.classify import TypeCode, classify_points
-from core.domain import Domain
-from core.equation import Equation, Parameter, compile_equation
-from core.probe import probe_point, probe_to_dict
+from core.analysis.classify import TypeCode, classify_points
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter, compile_equation
+from core.analysis.probe import probe_point, probe_to_dict
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, name="square")
 

@@ -10,11 +10,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.classify import classify_grid
-from core.domain import Domain
-from core.equation import compile_equation
-from core.project import demo_project_path
-from core.project_io import ProjectError, load_project
+from core.analysis.classify import classify_grid
+from core.analysis.domain import Domain
+from core.equations.equation import compile_equation
+from core.project.model import demo_project_path
+from core.project.io import ProjectError, load_project
 from tests.core.cli_runner import run, run_json
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -181,7 +181,7 @@ def test_names_that_do_not_exist_and_names_without_a_file():
 
 
 def test_the_installed_entry_point_checks_a_file():
-    completed = subprocess.run([sys.executable, "-m", "core.cli", "check", TRICOMI], cwd=ROOT,
+    completed = subprocess.run([sys.executable, "-m", "core.cli.main", "check", TRICOMI], cwd=ROOT,
                                capture_output=True, text=True, timeout=120, check=False)
     assert completed.returncode == 0 and completed.stderr == ""
     assert completed.stdout.startswith(f"{TRICOMI}: valid, format version 2; 2 equations")

@@ -11,14 +11,14 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.classify import classify_grid
-from core.data import DataError
-from core.domain import Domain
-from core.equation import Equation
-from core.expr import ExpressionError
-from core.project import DataSourceRef, new_project
-from core.project_checks import equation_data_names
-from core.project_data import (
+from core.analysis.classify import classify_grid
+from core.data.sources import DataError
+from core.analysis.domain import Domain
+from core.equations.equation import Equation
+from core.equations.parser import ExpressionError
+from core.project.model import DataSourceRef, new_project
+from core.project.checks import equation_data_names
+from core.project.data_files import (
     accept_changed_data,
     compile_with_data,
     data_source_ref,
@@ -26,7 +26,7 @@ from core.project_data import (
     relative_data_path,
     resolve_data_path,
 )
-from core.project_io import ProjectError, dumps_project, load_project, loads_project, save_project
+from core.project.io import ProjectError, dumps_project, load_project, loads_project, save_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 21, 21, "square")

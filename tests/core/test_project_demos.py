@@ -5,10 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from core.classify import TypeCode, classify_grid, classify_points
-from core.project import demo_project_names, demo_project_path
-from core.project_data import compile_with_data, open_project_data
-from core.project_io import dumps_project, load_project
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.project.model import demo_project_names, demo_project_path
+from core.project.data_files import compile_with_data, open_project_data
+from core.project.io import dumps_project, load_project
 
 RADIUS = 1.0  # the bump of the flow demos (resources/demo/make_data.py)
 

@@ -15,11 +15,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import core
-from core.domain import Domain
-from core.equation import Equation, Parameter
-from core.expr import ExpressionError, check_name
-from core.project import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
-from core.project_io import (
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter
+from core.equations.parser import ExpressionError, check_name
+from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
+from core.project.io import (
     CURRENT_FORMAT_VERSION,
     ProjectError,
     dumps_project,
@@ -30,10 +30,10 @@ from core.project_io import (
     project_to_dict,
     save_project,
 )
-from core.project_migrate import MIGRATIONS, MigrationError
-from core.project_migrate import migrate as migrate_data
-from core.project_schema import project_schema, schema_path, schema_text
-from core.trade import TRADE_INPUTS
+from core.project.migrate import MIGRATIONS, MigrationError
+from core.project.migrate import migrate as migrate_data
+from core.project.schema import project_schema, schema_path, schema_text
+from core.equations.trade import TRADE_INPUTS
 
 DATA = Path(__file__).resolve().parent.parent / "data"
 SAMPLES = sorted(DATA.glob("project-v*.mixtype.json"))

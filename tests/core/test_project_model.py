@@ -8,9 +8,9 @@ from datetime import UTC, datetime, timedelta, timezone
 import numpy as np
 import pytest
 
-from core.domain import Domain
-from core.equation import Equation
-from core.project import Metadata, Pin, Project, Seed, ViewSettings, new_project, utc_timestamp
+from core.analysis.domain import Domain
+from core.equations.equation import Equation
+from core.project.model import Metadata, Pin, Project, Seed, ViewSettings, new_project, utc_timestamp
 
 T0 = datetime(2025, 3, 1, 12, 0, 0, tzinfo=UTC)
 TRICOMI = Equation("y", "0", "1", name="tricomi")

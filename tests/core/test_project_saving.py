@@ -16,9 +16,9 @@ from pathlib import Path
 
 import pytest
 
-from core import safe_write
-from core.project_io import load_project, save_project
-from core.safe_write import backup_path, leftover_temporaries, write_file_atomically
+from core.project import safe_write
+from core.project.io import load_project, save_project
+from core.project.safe_write import backup_path, leftover_temporaries, write_file_atomically
 
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLE = ROOT / "tests" / "data" / "project-v1-all-fields.mixtype.json"
@@ -34,7 +34,7 @@ def _folder_names(folder: Path) -> list[str]:
 _CHILD = """
 import sys
 sys.path.insert(0, sys.argv[1])
-from core.safe_write import write_file_atomically
+from core.project.safe_write import write_file_atomically
 payloads = [open(p, "rb").read() for p in sys.argv[3:]]
 print("ready", flush=True)
 while True:

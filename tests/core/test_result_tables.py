@@ -9,9 +9,9 @@ from types import SimpleNamespace
 
 import numpy as np
 
-from core.domain import Domain
-from core.equation import Equation
-from core.result_tables import (
+from core.analysis.domain import Domain
+from core.equations.equation import Equation
+from core.results.tables import (
     CHARACTERISTIC_COLUMNS,
     characteristic_rows,
     pin_rows,

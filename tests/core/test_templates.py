@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
-from core.classify import TypeCode, classify_grid, classify_points
-from core.equation import compile_equation
-from core.templates import TemplateError, list_templates, load_template
-from core.trade import (
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.equations.equation import compile_equation
+from core.equations.templates import TemplateError, list_templates, load_template
+from core.equations.trade import (
     internal_wave_ray_slope,
     isentropic_ratios,
     local_mach_number,

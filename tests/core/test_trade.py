@@ -5,9 +5,9 @@ import math
 import numpy as np
 import pytest
 
-from core.data import DataSources, load_data
-from core.equation import Equation, compile_equation
-from core.trade import (
+from core.data.sources import DataSources, load_data
+from core.equations.equation import Equation, compile_equation
+from core.equations.trade import (
     READOUT_UNITS,
     characteristic_directions,
     check_trade_spec,
@@ -156,6 +156,6 @@ def test_readout_at_a_point_with_profile_data(tmp_path):
 
 
 def _parameter(value):
-    from core.equation import Parameter
+    from core.equations.equation import Parameter
 
     return Parameter(value)

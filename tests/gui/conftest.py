@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import pytest
 
-from core.domain import Domain
-from core.equation import Equation, Parameter
-from core.project import Project, new_project
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter
+from core.project.model import Project, new_project
 
 
 @pytest.fixture(autouse=True)

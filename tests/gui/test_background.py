@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from core.domain import Domain
+from core.analysis.domain import Domain
 from tests.gui.conftest import hump_project
 
 

@@ -10,10 +10,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.classify import TypeCode, classify_grid
-from core.data import DataSources, file_checksum, load_data
-from core.equation import compile_equation
-from core.templates import load_template
+from core.analysis.classify import TypeCode, classify_grid
+from core.data.sources import DataSources, file_checksum, load_data
+from core.equations.equation import compile_equation
+from core.equations.templates import load_template
 from tests.gui.conftest import hump_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
@@ -55,7 +55,7 @@ def test_added_data_file_is_listed_and_classifies_like_core(make_window, bump_np
     ref = project.data_sources[0]
     assert ref.path == str(bump_npz) and ref.checksum == file_checksum(bump_npz)
     assert window.document.data_names == ("u", "v")
-    # The template's formulas for u and v give way to the data (core.templates.equation_with_data).
+    # The template's formulas for u and v give way to the data (core.equations.templates.equation_with_data).
     assert "u" not in window.document.equation.definitions and "v" not in window.document.equation.definitions
     table = window.data_panel.table
     assert [table.item(0, c).text() for c in range(5)] == [
@@ -274,7 +274,7 @@ def test_equation_defining_a_data_name_itself_keeps_its_formula(make_window, bum
     window.analysis.flush()
     equation = window.document.equation
     assert "u" in equation.definitions and window.document.compiled is not None
-    # The template's own formula flow, as core computes it without any data (core.project_data rule).
+    # The template's own formula flow, as core computes it without any data (core.project.data_files rule).
     expected = classify_grid(compile_equation(equation), window.document.domain,
                              parameters=equation.parameter_values())
     assert np.array_equal(window.analysis.type_map.codes, expected.codes)
@@ -283,9 +283,9 @@ def test_equation_defining_a_data_name_itself_keeps_its_formula(make_window, bum
 @pytest.mark.parametrize("name", ["bump_flow_grid_data", "bump_flow_mesh_data", "thermocline_csv_profile",
                                   "thermocline_netcdf_profile"])
 def test_shipped_data_demos_open_and_classify_like_core(make_window, name):
-    from core.project import demo_project_path
-    from core.project_data import compile_with_data, open_project_data
-    from core.project_io import load_project
+    from core.project.model import demo_project_path
+    from core.project.data_files import compile_with_data, open_project_data
+    from core.project.io import load_project
 
     path = demo_project_path(name)
     window = make_window(hump_project(nx=41, ny=31))

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from core.project import Seed
+from core.project.model import Seed
 from gui.document import Document
 from tests.gui.conftest import hump_project
 

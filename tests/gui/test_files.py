@@ -8,10 +8,10 @@ import json
 import numpy as np
 import pytest
 
-from core.classify import TypeCode
-from core.equation import compile_equation
-from core.probe import probe_point
-from core.project import Seed
+from core.analysis.classify import TypeCode
+from core.equations.equation import compile_equation
+from core.analysis.probe import probe_point
+from core.project.model import Seed
 from tests.gui.conftest import hump_project, tricomi_project
 
 

@@ -7,10 +7,10 @@ import math
 import numpy as np
 import pytest
 
-from core.equation import compile_equation
-from core.pockets import pocket_statistics
-from core.templates import load_template
-from core.trade import readout_at
+from core.equations.equation import compile_equation
+from core.analysis.pockets import pocket_statistics
+from core.equations.templates import load_template
+from core.equations.trade import readout_at
 from gui.pins_panel import trade_rows
 from gui.pockets_panel import pocket_row
 from gui.template_dialog import TemplateChoice, TemplateDialog

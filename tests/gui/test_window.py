@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 from PySide6.QtCore import QPoint, Qt
 
-from core.classify import TypeCode, classify_grid
-from core.equation import compile_equation
-from core.probe import probe_point
+from core.analysis.classify import TypeCode, classify_grid
+from core.equations.equation import compile_equation
+from core.analysis.probe import probe_point
 from gui.palette import TYPE_COLOURS
 from tests.gui.conftest import hump_project, tricomi_project
 

@@ -13,10 +13,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.characteristics import characteristic_directions, parabolic_direction
-from core.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
-from core.domain import Domain
-from core.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
+from core.analysis.characteristics import characteristic_directions, parabolic_direction
+from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
+from core.analysis.domain import Domain
+from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 
 __all__ = ["VERTICAL_TOLERANCE", "ProbeResult", "probe_point", "probe_to_dict"]
 
@@ -83,7 +83,7 @@ def _principal_axes(a: float, b: float, c: float) -> tuple[tuple[float, float], 
 def probe_point(compiled: CompiledEquation, x: float, y: float, *,
                 parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
                 tolerance: float = DEFAULT_TOLERANCE, domain: Domain | None = None) -> ProbeResult:
-    """Evaluate and describe the equation at (x, y); the type uses the map's rule (see core.classify).
+    """Evaluate and describe the equation at (x, y); the type uses the map's rule (see core.analysis.classify).
 
     ``domain`` only decides ``inside``; without one the point counts as inside. Raises ValueError for a
     non-finite point, ExpressionError if the equation needs background data and ``data`` is None.

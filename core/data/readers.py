@@ -2,9 +2,9 @@
 
 Each reader checks what it can about the file itself (coordinates present, finite and monotonic; arrays of
 the right shape; rows complete) and raises ``DataError`` naming the file and the problem. What the arrays
-mean for interpolation is decided in core.data_fields; name selection and renaming in core.data.
+mean for interpolation is decided in core.data.fields; name selection and renaming in core.data.sources.
 
-NetCDF is read in core.data_netcdf. Layouts: ``grid`` (1-D coordinates x (nx,), y (ny,) and arrays (ny, nx)), ``profile`` (one coordinate (n,)
+NetCDF is read in core.data.netcdf. Layouts: ``grid`` (1-D coordinates x (nx,), y (ny,) and arrays (ny, nx)), ``profile`` (one coordinate (n,)
 and arrays (n,), extended over the other variable), ``points`` (scattered x, y (n,) and arrays (n,)) and
 ``mesh`` (points plus the file's own triangles (m, 3)).
 """
@@ -66,7 +66,7 @@ def format_for_path(path: str) -> str:
 
 def read_raw(path: str, fmt: str, variables: tuple[str, str]) -> RawData:
     """Read ``path`` as format ``fmt`` for the two equation ``variables``."""
-    from core.data_netcdf import read_netcdf
+    from core.data.netcdf import read_netcdf
 
     readers = {"csv": _read_csv, "npz": _read_npz, "netcdf": read_netcdf,
                "vtu": lambda p, v: _read_mesh(p, v, "vtu"), "vtk": lambda p, v: _read_mesh(p, v, "vtk")}

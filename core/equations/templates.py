@@ -3,7 +3,7 @@
 A template file (resources/templates/NAME.json) holds an equation as text (coefficients, definitions,
 parameters with units, descriptions and slider ranges), a suggested domain, the data quantities that may
 stand in for some definitions (a measured velocity in place of the formula), the trade quantities that
-apply (core.trade) and the definition whose peak is reported per hyperbolic pocket. File layout::
+apply (core.equations.trade) and the definition whose peak is reported per hyperbolic pocket. File layout::
 
     {"mixtype_template": 1, "name": "...", "title": "...", "description": "...",
      "variables": ["x", "y"], "coefficients": {"a": "...", "b": "...", "c": "..."},
@@ -25,9 +25,9 @@ import types
 from collections.abc import Collection, Mapping
 from dataclasses import dataclass
 
-from core.domain import Domain
-from core.equation import COEFFICIENT_NAMES, Equation, Parameter
-from core.trade import check_trade_spec
+from core.analysis.domain import Domain
+from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
+from core.equations.trade import check_trade_spec
 
 __all__ = [
     "TEMPLATE_DIRECTORY",
@@ -40,7 +40,7 @@ __all__ = [
 ]
 
 TEMPLATE_FORMAT_VERSION = 1
-TEMPLATE_DIRECTORY = pathlib.Path(__file__).resolve().parents[1] / "resources" / "templates"
+TEMPLATE_DIRECTORY = pathlib.Path(__file__).resolve().parents[2] / "resources" / "templates"
 _TOP_KEYS = {"mixtype_template", "name", "title", "description", "variables", "coefficients", "definitions",
              "parameters", "data_quantities", "trade", "domain", "peak_quantity"}
 _PARAMETER_KEYS = {"value", "minimum", "maximum", "unit", "description"}

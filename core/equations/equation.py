@@ -19,8 +19,8 @@ import numexpr
 import numpy as np
 import sympy
 
-from core.expr import ExpressionError, check_name, data_derivative_key, parse_expression
-from core.numexpr_code import INF_NAME, NAN_NAME, CodegenError, to_numexpr
+from core.equations.parser import ExpressionError, check_name, data_derivative_key, parse_expression
+from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 
 __all__ = [
     "COEFFICIENT_NAMES",
@@ -53,7 +53,7 @@ class Equation:
 
     ``definitions`` maps names to expressions usable in a, b, c and in each other; ``parameters`` maps names
     to numbers. ``variables`` are the names of the first and second independent variable. ``trade`` says
-    which of the trade's quantities (core.trade: Mach number, Froude number, ray angle...) a probe reads
+    which of the trade's quantities (core.equations.trade: Mach number, Froude number, ray angle...) a probe reads
     and from which names; ``peak_quantity`` names the definition whose maximum is reported per pocket.
     """
 
@@ -242,7 +242,7 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
                      ) -> CompiledEquation:
     """Parse and order everything in ``equation``; raise ExpressionError naming the field at fault.
 
-    ``data_names`` are names of background-data quantities available to expressions (see core.data).
+    ``data_names`` are names of background-data quantities available to expressions (see core.data.sources).
     """
     variables = tuple(equation.variables)
     if len(variables) != 2:
@@ -329,7 +329,7 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
 
 def _check_readouts(equation: Equation, known: set[str]) -> None:
     """The trade spec and the peak quantity must name values the equation has."""
-    from core.trade import check_trade_spec  # trade depends on nothing here; imported late to keep this light
+    from core.equations.trade import check_trade_spec  # trade depends on nothing here; imported late to keep this light
 
     if equation.trade:
         try:

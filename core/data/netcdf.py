@@ -14,7 +14,7 @@ import os
 
 import numpy as np
 
-from core.data_readers import DataError, RawData, checked_axis, float_array
+from core.data.readers import DataError, RawData, checked_axis, float_array
 
 __all__ = ["read_netcdf"]
 

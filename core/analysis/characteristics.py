@@ -27,8 +27,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.domain import Domain
-from core.equation import CompiledEquation, QuantitySource
+from core.analysis.domain import Domain
+from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [

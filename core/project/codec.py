@@ -1,6 +1,6 @@
 """Project <-> plain JSON data: the fixed layout files use, and the gate every file passes to become a Project.
 
-``project_from_dict`` runs the checks of core.project_checks in order (plain-JSON sanity, then the format
+``project_from_dict`` runs the checks of core.project.checks in order (plain-JSON sanity, then the format
 version, migrating older versions, then the schema, then the meaning) and builds the dataclasses only from
 data that passed them all. Every problem is one line ``SOURCE: JSON-PATH: what is wrong``; they are raised
 together as a ProjectError.
@@ -10,12 +10,12 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 
-from core.domain import Domain
-from core.equation import Parameter
-from core.project import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
-from core.project_checks import equation_from_dict, meaning_problems, sanity_problems, schema_problems
-from core.project_migrate import MigrationError, migrate
-from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
+from core.analysis.domain import Domain
+from core.equations.equation import Parameter
+from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
+from core.project.checks import equation_from_dict, meaning_problems, sanity_problems, schema_problems
+from core.project.migrate import MigrationError, migrate
+from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
 
 __all__ = ["ProjectError", "project_from_dict", "project_to_dict"]
 

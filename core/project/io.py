@@ -1,7 +1,7 @@
 """Reading and writing Mixtype project files (``*.mixtype.json``): strict on the way in, atomic on the way out.
 
 Reading refuses oversized files, text that is not UTF-8, invalid JSON, NaN/Infinity literals and repeated
-keys before the data reach the checks of core.project_codec (format version, schema, meaning). Expressions
+keys before the data reach the checks of core.project.codec (format version, schema, meaning). Expressions
 in a file are text for the whitelist parser, never code. Writing validates the project the same way first
 (a file Mixtype writes is always one it can read back), renders the keys in a fixed order with floats as
 their shortest exact repr, and replaces the file atomically keeping the previous version beside it.
@@ -17,13 +17,13 @@ from dataclasses import replace
 from datetime import datetime
 from pathlib import Path
 
-from core.project import PROJECT_SUFFIX, Project
-from core.project_checks import NonFiniteNumber, RepeatedKeys
-from core.project_codec import ProjectError, project_from_dict, project_to_dict
-from core.project_migrate import MigrationError
-from core.project_migrate import migrate as _migrate
-from core.project_schema import CURRENT_FORMAT_VERSION
-from core.safe_write import BACKUP_SUFFIX, write_file_atomically
+from core.project.model import PROJECT_SUFFIX, Project
+from core.project.checks import NonFiniteNumber, RepeatedKeys
+from core.project.codec import ProjectError, project_from_dict, project_to_dict
+from core.project.migrate import MigrationError
+from core.project.migrate import migrate as _migrate
+from core.project.schema import CURRENT_FORMAT_VERSION
+from core.project.safe_write import BACKUP_SUFFIX, write_file_atomically
 
 __all__ = [
     "BACKUP_SUFFIX",
@@ -46,7 +46,7 @@ _INLINE_WIDTH = 100
 
 
 def migrate(data: dict, *, source: str = "<data>") -> dict:
-    """A copy of parsed file data brought to the current format version (see core.project_migrate).
+    """A copy of parsed file data brought to the current format version (see core.project.migrate).
 
     Raises ProjectError for data that are not a project, or that come from a newer Mixtype.
     """

@@ -22,7 +22,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from core.data_readers import DataError
+from core.data.readers import DataError
 
 __all__ = ["GridField", "MeshField", "ProfileField", "triangulate_points"]
 

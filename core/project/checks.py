@@ -1,7 +1,7 @@
 """The checks a project file's data must pass, each problem located by a JSON path.
 
-Three gates, in order (core.project_codec runs them): plain-JSON sanity (finite numbers, depth, no repeated
-keys, text UTF-8 can hold), the JSON Schema of core.project_schema (all structural errors at once, in short
+Three gates, in order (core.project.codec runs them): plain-JSON sanity (finite numbers, depth, no repeated
+keys, text UTF-8 can hold), the JSON Schema of core.project.schema (all structural errors at once, in short
 words that never quote a whole value), and the meaning the schema cannot express (expressions parse through
 the whitelist parser, definitions form no cycle, names are unique, ranges are ordered, the shown equation and
 domain exist). Each gate returns a list of (JSON path, message) pairs; empty means passed.
@@ -20,8 +20,8 @@ from functools import cache
 import jsonschema
 import sympy
 
-from core.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
-from core.expr import (
+from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
+from core.equations.parser import (
     CONSTANT_NAMES,
     FUNCTION_NAMES,
     ExpressionError,
@@ -29,7 +29,7 @@ from core.expr import (
     data_derivative_key,
     parse_expression,
 )
-from core.project_schema import (
+from core.project.schema import (
     CHECKSUM_PATTERN,
     IDENTIFIER_PATTERN,
     PATH_PATTERN,
@@ -289,7 +289,7 @@ def _unknown_names(variables, parameters, definitions, texts, readouts=()) -> tu
 def equation_data_names(equation: Equation) -> tuple[str, ...]:
     """Names the equation's expressions use that it does not define itself: background-data quantities.
 
-    These must come from the project's data sources (core.project_data checks that once the data are open).
+    These must come from the project's data sources (core.project.data_files checks that once the data are open).
     """
     texts = [*equation.definitions.values(), equation.a, equation.b, equation.c]
     return _unknown_names(equation.variables, equation.parameters, equation.definitions, texts,

@@ -1,6 +1,6 @@
 """The project document: equations, domains, pins, seeds, view settings and notes, as frozen dataclasses.
 
-A ``Project`` is what Mixtype stores in its own JSON project files (see core.project_io for reading and
+A ``Project`` is what Mixtype stores in its own JSON project files (see core.project.io for reading and
 writing). It is plain data: expressions are kept as the text the user typed and are only ever parsed by the
 whitelist parser. Every change makes a new Project (``dataclasses.replace`` or the ``with_*`` helpers), so an
 undo stack can simply keep old ones.
@@ -18,11 +18,11 @@ from pathlib import Path
 import numpy as np
 
 import core
-from core.classify import DEFAULT_TOLERANCE
-from core.data_readers import FORMATS
-from core.domain import Domain
-from core.equation import COEFFICIENT_NAMES, Equation
-from core.expr import ExpressionError, check_name
+from core.analysis.classify import DEFAULT_TOLERANCE
+from core.data.readers import FORMATS
+from core.analysis.domain import Domain
+from core.equations.equation import COEFFICIENT_NAMES, Equation
+from core.equations.parser import ExpressionError, check_name
 
 __all__ = [
     "DATA_FORMATS",
@@ -121,7 +121,7 @@ class ViewSettings:
     """What the map shows, kept with the project so a study reopens as it was left.
 
     The two characteristic families are switched separately (family 1 and family 2 as numbered by
-    core.characteristics). ``show_seed_segments`` draws the segments characteristics start from; it is
+    core.analysis.characteristics). ``show_seed_segments`` draws the segments characteristics start from; it is
     optional in the file (absent means shown), so it comes last.
     """
 
@@ -146,7 +146,7 @@ class ViewSettings:
 
 @dataclass(frozen=True)
 class DataSourceRef:
-    """A data file a project uses (core.data reads it), as the project file records it.
+    """A data file a project uses (core.data.sources reads it), as the project file records it.
 
     ``path`` is relative to the project file's folder with '/' separators (absolute only when the data lie on
     another drive); ``checksum`` the SHA-256 (64 hex digits, stored in lower case) of the file when the

@@ -15,10 +15,10 @@ import os
 import re
 from dataclasses import dataclass, replace
 
-from core.classify import DEFAULT_TOLERANCE
-from core.data import DataError, DataSet, DataSources, load_data
-from core.domain import Domain
-from core.equation import Equation, Parameter
+from core.analysis.classify import DEFAULT_TOLERANCE
+from core.data.sources import DataError, DataSet, DataSources, load_data
+from core.analysis.domain import Domain
+from core.equations.equation import Equation, Parameter
 
 __all__ = ["DataFile", "Study", "UsageError", "add_equation_options", "build_study", "load_project_or_fail",
            "parse_data_option"]
@@ -49,7 +49,7 @@ class Study:
     domain: Domain
     parameters: dict[str, float]
     tolerance: float
-    project: object | None = None    # the core.project.Project read from FILE, if one was given
+    project: object | None = None    # the core.project.model.Project read from FILE, if one was given
     source: dict | None = None       # {"file", "equation", "domain"} when the study comes from a FILE
     data: DataSources | None = None  # every data set read (FILE's and --data), None when there are none
     data_files: tuple[DataFile, ...] = ()
@@ -221,7 +221,7 @@ def build_study(args: argparse.Namespace) -> Study:
     files = [DataFile(path, names) for path, names in args.data]
     data = _combined(_read_data(files, variables))
     if template is not None:
-        from core.templates import TemplateError
+        from core.equations.templates import TemplateError
 
         try:
             base = template.equation_with_data(data.names if data else ())
@@ -246,7 +246,7 @@ def build_study(args: argparse.Namespace) -> Study:
 
 
 def _template(name: str):
-    from core.templates import TemplateError, load_template
+    from core.equations.templates import TemplateError, load_template
 
     try:
         return load_template(name)
@@ -256,7 +256,7 @@ def _template(name: str):
 
 def load_project_or_fail(path: str):
     """The project at ``path``; a UsageError quoting its first problem otherwise."""
-    from core.project_io import ProjectError, load_project
+    from core.project.io import ProjectError, load_project
 
     try:
         return load_project(path)
@@ -272,8 +272,8 @@ def _first_of(problems, path: str) -> str:
 
 def _study_from_file(args: argparse.Namespace) -> Study:
     """The equation and domain of project FILE, with the inline options given beside it put in their place."""
-    from core.project_checks import equation_data_names
-    from core.project_data import MISSING, UNREADABLE, open_project_data
+    from core.project.checks import equation_data_names
+    from core.project.data_files import MISSING, UNREADABLE, open_project_data
 
     project = load_project_or_fail(args.file)
     try:

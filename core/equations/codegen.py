@@ -1,4 +1,4 @@
-"""Translation of the sympy expressions that core.expr builds into numexpr source text.
+"""Translation of the sympy expressions that core.equations.parser builds into numexpr source text.
 
 The input is a sympy tree made only of whitelisted nodes (never raw user text), and every symbol is renamed
 to an internal name, so the generated text can neither clash with numexpr's own names nor carry anything a

@@ -3,7 +3,7 @@
 A file carries its integer ``format_version``. ``MIGRATIONS[n]`` turns the plain JSON data of version n into
 version n + 1 (dict to dict, no dataclasses involved); ``migrate`` applies the steps in turn up to the current
 version, after which the data are validated as current. Adding format version n + 1 means: write
-``_vn_to_vn1``, register it here, bump CURRENT_FORMAT_VERSION in core.project_schema, keep the old schema
+``_vn_to_vn1``, register it here, bump CURRENT_FORMAT_VERSION in core.project.schema, keep the old schema
 file and add a sample file of the new version to tests/data.
 """
 
@@ -13,7 +13,7 @@ import copy
 from collections.abc import Callable, Mapping
 
 import core
-from core.project_schema import CURRENT_FORMAT_VERSION, FORMAT_NAME, describe_json_value
+from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME, describe_json_value
 
 __all__ = ["MIGRATIONS", "OLDEST_FORMAT_VERSION", "MigrationError", "format_version_of", "migrate"]
 

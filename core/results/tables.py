@@ -76,7 +76,7 @@ def characteristic_rows(curves: Iterable) -> list[dict]:
 def pin_rows(pins: Sequence, readouts: Sequence[Mapping]) -> list[dict]:
     """One row per pin: its label and the flattened readout (lists become numbered columns).
 
-    ``readouts`` are plain dicts (e.g. core.probe.probe_to_dict), one per pin, or None for a pin not read.
+    ``readouts`` are plain dicts (e.g. core.analysis.probe.probe_to_dict), one per pin, or None for a pin not read.
     """
     rows = []
     for pin, readout in zip(pins, list(readouts) + [None] * (len(pins) - len(readouts)), strict=False):

@@ -4,7 +4,7 @@ Output formats are a contract: ``--json`` prints one JSON document on stdout; ba
 and a one-line message on stderr, never a traceback, and nothing the user typed is ever executed.
 classify, probe and trace take the equation and domain inline, from a template (``--template NAME``) or from
 a project FILE (inline options then override), plus background data files (``--data PATH[:NAMES]``, added to
-FILE's); see core.cli_study. ``check FILE`` validates a project file, lists every problem in it and opens
+FILE's); see core.cli.study. ``check FILE`` validates a project file, lists every problem in it and opens
 its data files: a missing or unreadable data file exits with status 2, a data file changed since the project
 was saved only prints a warning on stderr. ``templates`` lists the templates.
 """
@@ -18,9 +18,9 @@ import sys
 from collections.abc import Sequence
 from dataclasses import replace
 
-from core.classify import TypeCode, classify_grid
-from core.cli_study import Study, UsageError, add_equation_options, build_study, finite
-from core.expr import ExpressionError
+from core.analysis.classify import TypeCode, classify_grid
+from core.cli.study import Study, UsageError, add_equation_options, build_study, finite
+from core.equations.parser import ExpressionError
 
 __all__ = ["UsageError", "main"]
 
@@ -76,7 +76,7 @@ def _study(args: argparse.Namespace, err) -> Study:
 
 
 def _compiled(study: Study):
-    from core.project_data import compile_with_data
+    from core.project.data_files import compile_with_data
 
     try:
         return compile_with_data(study.equation, study.data)
@@ -122,8 +122,8 @@ def _pocket_document(pocket) -> dict:
 
 
 def _run_classify(args: argparse.Namespace, out, err) -> int:
-    from core.boundary import find_type_boundaries
-    from core.pockets import pocket_statistics
+    from core.analysis.type_change_lines import find_type_boundaries
+    from core.analysis.pockets import pocket_statistics
 
     study = _study(args, err)
     compiled = _compiled(study)
@@ -206,10 +206,10 @@ def _write_pockets(pockets, x: str, y: str, out) -> None:
 
 def _save_study(study: Study, path: str) -> None:
     """Write a new project file holding the study's equation, domain, tolerance and data files."""
-    from core.data import DataError
-    from core.project import ViewSettings, new_project
-    from core.project_data import data_source_ref
-    from core.project_io import ProjectError, save_project
+    from core.data.sources import DataError
+    from core.project.model import ViewSettings, new_project
+    from core.project.data_files import data_source_ref
+    from core.project.io import ProjectError, save_project
 
     project = replace(new_project(study.equation, study.domain),
                       view=ViewSettings(parabolic_tolerance=study.tolerance))
@@ -229,7 +229,7 @@ def _save_study(study: Study, path: str) -> None:
 
 def _trade_values(study: Study, compiled, x: float, y: float) -> dict[str, float] | None:
     """The equation's trade readouts at (x, y), or None when it names none."""
-    from core.trade import readout_at
+    from core.equations.trade import readout_at
 
     if not study.equation.trade:
         return None
@@ -240,7 +240,7 @@ def _trade_values(study: Study, compiled, x: float, y: float) -> dict[str, float
 
 
 def _trade_document(values: dict[str, float] | None) -> dict:
-    from core.trade import READOUT_UNITS
+    from core.equations.trade import READOUT_UNITS
 
     if values is None:
         return {}
@@ -249,7 +249,7 @@ def _trade_document(values: dict[str, float] | None) -> dict:
 
 
 def _run_probe(args: argparse.Namespace, out, err) -> int:
-    from core.probe import probe_point, probe_to_dict
+    from core.analysis.probe import probe_point, probe_to_dict
 
     study = _study(args, err)
     compiled = _compiled(study)
@@ -285,7 +285,7 @@ def _run_probe(args: argparse.Namespace, out, err) -> int:
 
 
 def _write_probe(result, trade: dict[str, float] | None, out) -> None:
-    from core.trade import READOUT_UNITS
+    from core.equations.trade import READOUT_UNITS
 
     rows = [("point", f"({result.point[0]:.9g}, {result.point[1]:.9g})"),
             ("type", TypeCode(result.type).label),
@@ -314,7 +314,7 @@ def _write_probe(result, trade: dict[str, float] | None, out) -> None:
 
 
 def _run_trace(args: argparse.Namespace, out, err) -> int:
-    from core.characteristics import trace_characteristics
+    from core.analysis.characteristics import trace_characteristics
 
     study = _study(args, err)
     compiled = _compiled(study)
@@ -343,7 +343,7 @@ def _curve_document(curve) -> dict:
 
 def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out) -> int:
     """Trace the chosen families from every point of every seed of the project."""
-    from core.characteristics import trace_characteristics
+    from core.analysis.characteristics import trace_characteristics
 
     if not study.project.seeds:
         raise UsageError(f"{args.file}: the project has no seeds; give --from X Y")
@@ -383,8 +383,8 @@ def _run_check(args: argparse.Namespace, out, err) -> int:
 
     A data file that changed since the save is a warning line on stderr; the status stays 0.
     """
-    from core.project_data import open_project_data
-    from core.project_io import CURRENT_FORMAT_VERSION, ProjectError, load_project
+    from core.project.data_files import open_project_data
+    from core.project.io import CURRENT_FORMAT_VERSION, ProjectError, load_project
 
     try:
         project = load_project(args.file)
@@ -424,7 +424,7 @@ def _run_check(args: argparse.Namespace, out, err) -> int:
 
 
 def _run_templates(args: argparse.Namespace, out, err) -> int:
-    from core.templates import TemplateError, list_templates, load_template
+    from core.equations.templates import TemplateError, list_templates, load_template
 
     try:
         templates = [load_template(name) for name in list_templates()]

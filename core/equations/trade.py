@@ -194,7 +194,7 @@ def check_trade_spec(spec: Mapping[str, Mapping[str, str]]) -> None:
 def trade_readout(template_or_spec, values: Mapping[str, float]) -> dict[str, float]:
     """The trade quantities at one point, in a fixed order, NaN where a quantity does not exist there.
 
-    ``template_or_spec`` is a core.templates.Template or its ``trade`` mapping, e.g.
+    ``template_or_spec`` is a core.equations.templates.Template or its ``trade`` mapping, e.g.
     {"mach": {"u": "u", "v": "v", "c2": "c2", "gamma": "gamma"}}; ``values`` holds the values at the point
     of every name the spec uses (definitions, parameters, data quantities, variables). Units: READOUT_UNITS.
     """
@@ -212,7 +212,7 @@ def trade_readout(template_or_spec, values: Mapping[str, float]) -> dict[str, fl
 
 def point_values(compiled, x: float, y: float, *, parameters: Mapping[str, float] | None = None,
                  data=None, extra_data: tuple[str, ...] = ()) -> dict[str, float]:
-    """Every value known at the point (x, y) of a core.equation.CompiledEquation, as floats.
+    """Every value known at the point (x, y) of a core.equations.equation.CompiledEquation, as floats.
 
     Variables, parameters, the data keys the equation uses plus ``extra_data`` keys, every definition and
     a, b, c: what ``trade_readout`` and a probe panel need.

@@ -17,9 +17,9 @@ from itertools import pairwise
 import contourpy
 import numpy as np
 
-from core.classify import TypeCode, TypeMap
-from core.equation import CompiledEquation, QuantitySource
-from core.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
+from core.analysis.classify import TypeCode, TypeMap
+from core.equations.equation import CompiledEquation, QuantitySource
+from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [

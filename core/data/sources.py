@@ -2,8 +2,8 @@
 
 A data set (a CFD velocity field, a buoyancy-frequency profile, a river model's depth) becomes named
 quantities that equations use like any other name, with first derivatives written ``diff(NAME, VAR)``.
-``load_data`` reads CSV, NumPy .npz, NetCDF (CF) and VTK/VTU meshes (see core.data_readers for the layouts)
-and ``DataSources`` combines several data sets into the ``QuantitySource`` that core.equation evaluates
+``load_data`` reads CSV, NumPy .npz, NetCDF (CF) and VTK/VTU meshes (see core.data.readers for the layouts)
+and ``DataSources`` combines several data sets into the ``QuantitySource`` that core.equations.equation evaluates
 with. Points outside a data set, or where its values are missing, get NaN: the equation is undefined there,
 never extrapolated.
 """
@@ -19,9 +19,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from core.data_fields import GridField, MeshField, ProfileField, triangulate_points
-from core.data_readers import FORMATS, DataError, RawData, format_for_path, read_raw
-from core.expr import ExpressionError, check_name, data_derivative_key
+from core.data.fields import GridField, MeshField, ProfileField, triangulate_points
+from core.data.readers import FORMATS, DataError, RawData, format_for_path, read_raw
+from core.equations.parser import ExpressionError, check_name, data_derivative_key
 
 __all__ = [
     "FORMATS",

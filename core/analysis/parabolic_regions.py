@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage
 
-from core.classify import TypeCode
+from core.analysis.classify import TypeCode
 from core.progress import CancelCheck, Cancelled
 
 __all__ = ["ParabolicRegion", "parabolic_cells", "parabolic_regions"]

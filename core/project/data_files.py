@@ -1,12 +1,12 @@
 """Opening the background data a project lists: paths relative to the project file, checksums compared.
 
-A project records each data file as a ``core.project.DataSourceRef``: its path relative to the project file's
+A project records each data file as a ``core.project.model.DataSourceRef``: its path relative to the project file's
 folder and the SHA-256 of its bytes when the project was saved. ``open_project_data`` finds the files from
-wherever the project file now lies (not from the working directory), reads them with core.data, and says
+wherever the project file now lies (not from the working directory), reads them with core.data.sources, and says
 plainly what is wrong: a missing or unreadable file, or a data quantity an equation uses that no file
 provides, is a problem; a file whose bytes changed since the save is only a warning (it is loaded, so the
 user can look and accept it with ``accept_changed_data``). Every message is one line
-``PROJECT: JSON-PATH: what``, like the messages of core.project_io.
+``PROJECT: JSON-PATH: what``, like the messages of core.project.io.
 """
 
 from __future__ import annotations
@@ -16,10 +16,10 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path, PurePosixPath, PureWindowsPath
 
-from core.data import DataError, DataSet, DataSources, file_checksum, load_data
-from core.equation import CompiledEquation, Equation, compile_equation
-from core.project import DataSourceRef, Project
-from core.project_checks import equation_data_names, json_path
+from core.data.sources import DataError, DataSet, DataSources, file_checksum, load_data
+from core.equations.equation import CompiledEquation, Equation, compile_equation
+from core.project.model import DataSourceRef, Project
+from core.project.checks import equation_data_names, json_path
 
 __all__ = [
     "DataSourceStatus",
@@ -71,7 +71,7 @@ def data_source_ref(path: str | os.PathLike, project_path: str | os.PathLike, *,
     """The record of the data file at ``path`` (relative to the working directory) for a project to be saved
     at ``project_path``: its relative path and its checksum now.
 
-    ``names`` as in core.data.load_data: a list of quantities to take, or {name in the file: quantity name}.
+    ``names`` as in core.data.sources.load_data: a list of quantities to take, or {name in the file: quantity name}.
     Raises DataError when the file cannot be read.
     """
     if isinstance(names, str):

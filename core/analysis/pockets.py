@@ -1,6 +1,6 @@
 """Connected regions of one type (supersonic pockets, elliptic islands) and their statistics.
 
-From a type map (core.classify) the nodes of one type are grouped into connected regions with
+From a type map (core.analysis.classify) the nodes of one type are grouped into connected regions with
 scipy.ndimage.label; each region gets its area (trapezoid weights of its nodes: the weights of all nodes
 sum to the domain's area exactly, so areas are in the variables' units squared and accurate to O(h) at the
 region's edge), its bounding box and centroid, whether it reaches the domain's edge, and the peak of a
@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage
 
-from core.classify import TypeCode, TypeMap
-from core.equation import CompiledEquation, QuantitySource
+from core.analysis.classify import TypeCode, TypeMap
+from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = ["Pocket", "label_pockets", "node_areas", "pocket_statistics"]

@@ -1,10 +1,10 @@
 """The JSON Schema (draft 2020-12) of Mixtype project files, built here so code and schema cannot drift.
 
-``project_schema()`` is the single source: core.project_io validates every file against it, and
+``project_schema()`` is the single source: core.project.io validates every file against it, and
 resources/schema/mixtype-project-v<N>.schema.json is its text as written by ``schema_text()`` (a test checks
-the file on disk equals it; regenerate with ``python -m core.project_schema``). The schema checks structure
+the file on disk equals it; regenerate with ``python -m core.project.schema``). The schema checks structure
 and types; what it cannot say (expressions parse, names are unique, ranges are ordered) is checked in
-core.project_codec.
+core.project.codec.
 """
 
 from __future__ import annotations
@@ -13,11 +13,11 @@ import json
 from pathlib import Path
 
 import core
-from core.domain import MAX_GRID, MIN_GRID
-from core.equation import MAX_DEFINITIONS, MAX_PARAMETERS
-from core.expr import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
-from core.project import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
-from core.trade import TRADE_INPUTS
+from core.analysis.domain import MAX_GRID, MIN_GRID
+from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
+from core.equations.parser import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
+from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
+from core.equations.trade import TRADE_INPUTS
 
 __all__ = [
     "CHECKSUM_PATTERN",

@@ -1,0 +1,1 @@
+"""Background data files: readers per format, interpolated fields, data sources for equations."""
