@@ -26,7 +26,7 @@ def run() -> dict:
 
     from core.analysis.classify import classify_grid
     from core.analysis.domain import Domain
-    from gui.app import ensure_application
+    from gui.qt_setup import ensure_application
     from gui.main_window import MainWindow
     from gui.preferences import Preferences
     from gui.project_bridge import scratch_study

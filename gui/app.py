@@ -1,41 +1,15 @@
-"""Start-up of the desktop window: the QApplication, global pyqtgraph options, and ``main``."""
+"""Start-up of the desktop window: ``main`` opens a study (or the demo) and runs until the window closes."""
 
 from __future__ import annotations
 
 import argparse
-import os
 import sys
 
-__all__ = ["configure_plotting", "ensure_application", "main"]
+from gui.main_window import MainWindow
+from gui.project_bridge import starting_project
+from gui.qt_setup import ensure_application
 
-_CONFIGURED = False
-
-
-def configure_plotting() -> None:
-    """Global pyqtgraph options, set once before any plot exists: row-major images, antialiased lines."""
-    global _CONFIGURED
-    if _CONFIGURED:
-        return
-    import pyqtgraph as pg
-
-    pg.setConfigOptions(imageAxisOrder="row-major", antialias=True, background="w", foreground="#222222")
-    _CONFIGURED = True
-
-
-def ensure_application(argv: list[str] | None = None):
-    """The running QApplication, created (offscreen when there is no display) if there is none yet."""
-    from PySide6.QtWidgets import QApplication
-
-    app = QApplication.instance()
-    if app is None:
-        if sys.platform.startswith("linux") and not os.environ.get("DISPLAY") \
-                and not os.environ.get("WAYLAND_DISPLAY"):
-            os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-        app = QApplication(list(argv) if argv is not None else [sys.argv[0]])
-        app.setApplicationName("Mixtype")
-        app.setOrganizationName("Mixtype")
-    configure_plotting()
-    return app
+__all__ = ["main"]
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -44,10 +18,6 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("file", nargs="?", help="a study file (.mixtype.json) to open")
     arguments = parser.parse_args(list(sys.argv[1:] if argv is None else argv))
     app = ensure_application([sys.argv[0]])
-
-    from gui.main_window import MainWindow
-    from gui.project_bridge import starting_project
-
     project, path = starting_project()
     window = MainWindow(project, path=path)
     geometry, state = window.preferences.window_state()

@@ -16,6 +16,7 @@ from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from core.analysis.classify import TypeCode
 from core.project.model import Pin, Seed, ViewSettings
+from gui.qt_setup import configure_plotting
 from gui.palette import (
     FAMILY_COLOURS,
     HIGHLIGHT_COLOUR,
@@ -106,8 +107,6 @@ class MapView(QWidget):
 
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
-        from gui.app import configure_plotting
-
         configure_plotting()
         self.mode = "pin"
         self._drag_pin: int | None = None

@@ -10,6 +10,13 @@ import os
 import tempfile
 from pathlib import Path
 
+from PySide6.QtWidgets import QApplication, QDockWidget
+
+from gui.main_window import MainWindow
+from gui.preferences import Preferences
+from gui.project_bridge import open_project_file, with_absolute_data_paths
+from gui.qt_setup import ensure_application
+
 __all__ = ["render_project"]
 
 
@@ -18,18 +25,11 @@ def render_project(project_path_or_project, out_png: str | os.PathLike, *, whole
     """Write a PNG of the study at ``project_path_or_project`` (a path, or a core Project).
 
     ``whole_window`` pictures the window with its panels; otherwise the map with its title and legend.
-    ``size`` is the window size in pixels (width, height), 1200 x 900 when None. Raises ProjectFileError when the file is unusable.
+    ``size`` is the window size in pixels (width, height), 1200 x 900 when None. 
+    Raises ProjectFileError when the file is unusable.
     """
-    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    from gui.app import ensure_application
-
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # before the application exists: no display needed
     ensure_application()
-    from PySide6.QtWidgets import QApplication, QDockWidget
-
-    from gui.main_window import MainWindow
-    from gui.preferences import Preferences
-    from gui.project_bridge import open_project_file, with_absolute_data_paths
-
     source = project_path_or_project
     path = None
     if isinstance(source, str | os.PathLike):

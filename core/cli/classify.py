@@ -1,0 +1,147 @@
+"""``mixtype classify``: the type map's area fractions, type-change lines and hyperbolic pockets."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from dataclasses import replace
+from typing import TextIO
+
+from core.analysis.classify import TypeCode, classify_grid
+from core.analysis.pockets import pocket_statistics
+from core.analysis.type_change_lines import find_type_boundaries
+from core.cli.command import EXIT_OK, Command, compiled_study, data_document, json_number, points, read_study
+from core.cli.study import Study, UsageError, add_equation_options
+from core.data.sources import DataError
+from core.project.data_files import data_source_ref
+from core.project.io import ProjectError, save_project
+from core.project.model import ViewSettings, new_project
+
+__all__ = ["COMMAND", "MAX_POCKET_ROWS"]
+
+MAX_POCKET_ROWS = 20
+
+
+def _add_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--raw", action="store_true", help="skip refining lines onto D = 0")
+    parser.add_argument("--save-project", metavar="FILE", help="also write a project file holding the "
+                        "equation, domain and data files used (data paths recorded relative to FILE)")
+
+
+def _peak_quantity(study: Study, compiled) -> str | None:
+    """The equation's peak quantity when pockets can report it (a definition, coefficient or data quantity)."""
+    name = study.equation.peak_quantity
+    usable = {*compiled.definition_order, "a", "b", "c", *(study.data.names if study.data else ())}
+    return name if name in usable else None
+
+
+def _pocket_document(pocket) -> dict:
+    peak = None
+    if pocket.peak is not None:
+        peak = {"quantity": pocket.quantity, "value": json_number(pocket.peak), "at": list(pocket.peak_at)}
+    return {"area": float(pocket.area), "centroid": list(pocket.centroid), "bounding_box": list(pocket.bounding_box),
+            "nodes": int(pocket.node_count), "touches_boundary": bool(pocket.touches_boundary), "peak": peak}
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    study = read_study(args, err)
+    compiled = compiled_study(study)
+    type_map = classify_grid(compiled, study.domain, parameters=study.parameters, data=study.data,
+                             tolerance=study.tolerance)
+    boundaries = find_type_boundaries(compiled, type_map, parameters=study.parameters, data=study.data,
+                                      refine=not args.raw)
+    pockets = pocket_statistics(compiled, type_map, quantity=_peak_quantity(study, compiled),
+                                parameters=study.parameters, data=study.data)
+    if args.save_project:
+        _save_study(study, args.save_project)
+    document = {
+        "variables": list(compiled.variables),
+        "domain": [study.domain.xmin, study.domain.xmax, study.domain.ymin, study.domain.ymax],
+        "grid": [study.domain.nx, study.domain.ny],
+        "tolerance": study.tolerance,
+        "fractions": {code.label: float(type_map.fractions[code.label]) for code in
+                      (TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED)},
+        "boundaries": [
+            {"points": points(curve.points), "closed": bool(curve.closed),
+             "left": TypeCode(curve.left_type).label, "right": TypeCode(curve.right_type).label}
+            for curve in boundaries.curves
+        ],
+        "parabolic_regions": [
+            {"outline": points(region.outline), "area": float(region.area)}
+            for region in boundaries.parabolic_regions
+        ],
+        "refined": bool(boundaries.refined),
+        "pockets": [_pocket_document(pocket) for pocket in pockets],
+    }
+    if study.data is not None:
+        document["data"] = data_document(study)
+    if study.source:
+        document["source"] = study.source
+    if args.json:
+        json.dump(document, out)
+        out.write("\n")
+        return EXIT_OK
+    x, y = compiled.variables
+    if study.source:
+        out.write(f"equation {study.source['equation']!r} on domain {study.source['domain']!r} "
+                  f"of {study.source['file']}\n")
+    for dataset in (study.data.datasets if study.data else ()):
+        out.write(f"data {dataset.path}: {', '.join(dataset.quantities)}\n")
+    out.write(f"grid {study.domain.nx} x {study.domain.ny} over {x} in [{study.domain.xmin:g}, "
+              f"{study.domain.xmax:g}], {y} in [{study.domain.ymin:g}, {study.domain.ymax:g}]\n")
+    out.write("type         share of grid nodes\n")
+    for label, share in document["fractions"].items():
+        out.write(f"{label:<12} {100 * share:8.3f} %\n")
+    out.write(f"type-change lines: {len(boundaries.curves)}"
+              f" ({'refined onto D = 0' if boundaries.refined else 'raw contour'})\n")
+    for index, curve in enumerate(boundaries.curves, 1):
+        kind = "closed" if curve.closed else "open"
+        out.write(f"  line {index}: {len(curve.points)} points, {kind}, "
+                  f"{TypeCode(curve.left_type).label} on the left, {TypeCode(curve.right_type).label} on the right\n")
+    for index, region in enumerate(boundaries.parabolic_regions, 1):
+        out.write(f"  parabolic region {index}: area {region.area:.6g} (units of {x}*{y})\n")
+    _write_pockets(pockets, x, y, out)
+    if args.save_project:
+        files = len(study.data_files)
+        listed = f" (with {files} data file{'s' * (files != 1)})" if files else ""
+        out.write(f"saved the equation and domain as a project in {args.save_project}{listed}\n")
+    return EXIT_OK
+
+
+def _write_pockets(pockets, x: str, y: str, out: TextIO) -> None:
+    """The pockets as text lines, largest first, at most MAX_POCKET_ROWS of them."""
+    out.write(f"hyperbolic pockets: {len(pockets)} (areas in units of {x}*{y}, largest first)\n")
+    for index, pocket in enumerate(pockets[:MAX_POCKET_ROWS], 1):
+        x0, x1, y0, y1 = pocket.bounding_box
+        edge = ", reaches the domain's edge" if pocket.touches_boundary else ""
+        line = (f"  pocket {index}: area {pocket.area:.6g}, centroid ({pocket.centroid[0]:.6g}, "
+                f"{pocket.centroid[1]:.6g}), {x} in [{x0:.6g}, {x1:.6g}], {y} in [{y0:.6g}, {y1:.6g}]{edge}")
+        if pocket.peak is not None:
+            line += (f"; peak {pocket.quantity} = {pocket.peak:.6g} at ({pocket.peak_at[0]:.6g}, "
+                     f"{pocket.peak_at[1]:.6g})")
+        out.write(line + "\n")
+    if len(pockets) > MAX_POCKET_ROWS:
+        out.write(f"  ... and {len(pockets) - MAX_POCKET_ROWS} smaller pockets (see --json)\n")
+
+
+def _save_study(study: Study, path: str) -> None:
+    """Write a new project file holding the study's equation, domain, tolerance and data files."""
+    project = replace(new_project(study.equation, study.domain),
+                      view=ViewSettings(parabolic_tolerance=study.tolerance))
+    try:
+        for item in study.data_files:
+            project = project.with_data_source(data_source_ref(item.location, path, names=item.names,
+                                                               format=item.format, note=item.note))
+    except DataError as error:
+        raise UsageError(f"--save-project: {error}") from None
+    try:
+        save_project(project, path)
+    except ProjectError as error:
+        raise UsageError(f"--save-project: {error.problems[0]}") from None
+    except OSError as error:
+        raise UsageError(f"--save-project {path}: {error.strerror or error}") from None
+
+
+COMMAND = Command("classify", "type map: area fractions, type-change lines and hyperbolic pockets",
+                  _add_arguments, _run)

@@ -1,0 +1,102 @@
+"""``mixtype probe``: everything known at one point, or at every pin of a project FILE."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+from typing import TextIO
+
+from core.analysis.classify import TypeCode
+from core.analysis.probe import probe_point, probe_to_dict
+from core.cli.command import EXIT_OK, Command, compiled_study, data_document, json_number, read_study
+from core.cli.study import Study, UsageError, add_equation_options, finite
+from core.equations.trade import READOUT_UNITS, readout_at
+
+__all__ = ["COMMAND"]
+
+
+def _add_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
+
+
+def _trade_values(study: Study, compiled, x: float, y: float) -> dict[str, float] | None:
+    """The equation's trade readouts at (x, y), or None when it names none."""
+    if not study.equation.trade:
+        return None
+    try:
+        return readout_at(study.equation.trade, compiled, x, y, parameters=study.parameters, data=study.data)
+    except KeyError as error:
+        raise UsageError(f"trade readout: {error.args[0]}") from None
+
+
+def _trade_document(values: dict[str, float] | None) -> dict:
+    if values is None:
+        return {}
+    return {"trade": {name: json_number(value) for name, value in values.items()},
+            "trade_units": {name: READOUT_UNITS.get(name, "") for name in values}}
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    study = read_study(args, err)
+    compiled = compiled_study(study)
+    if args.at is None:
+        if study.project is None:
+            raise UsageError("missing --at X Y (or give a project FILE to probe its pins)")
+        if not study.project.pins:
+            raise UsageError(f"{args.file}: the project has no pins; give --at X Y")
+        located = [(pin.x, pin.y, pin.label) for pin in study.project.pins]
+    else:
+        located = [(args.at[0], args.at[1], None)]
+    results = [(probe_point(compiled, x, y, parameters=study.parameters, data=study.data,
+                            tolerance=study.tolerance, domain=study.domain), label,
+                _trade_values(study, compiled, x, y)) for x, y, label in located]
+    if args.json:
+        if args.at is not None:
+            document = {**probe_to_dict(results[0][0]), **_trade_document(results[0][2])}
+        else:
+            document = {"pins": [{"label": label, **probe_to_dict(result), **_trade_document(trade)}
+                                 for result, label, trade in results]}
+        if study.data is not None:
+            document["data"] = data_document(study)
+        if study.source:
+            document["source"] = study.source
+        json.dump(document, out)
+        out.write("\n")
+        return EXIT_OK
+    for index, (result, label, trade) in enumerate(results):
+        if label is not None:
+            out.write(("\n" if index else "") + f"pin {index + 1}" + (f": {label}" if label else "") + "\n")
+        _write_probe(result, trade, out)
+    return EXIT_OK
+
+
+def _write_probe(result, trade: dict[str, float] | None, out: TextIO) -> None:
+    rows = [("point", f"({result.point[0]:.9g}, {result.point[1]:.9g})"),
+            ("type", TypeCode(result.type).label),
+            ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
+            ("D = b^2 - 4ac", f"{result.discriminant:.9g}"),
+            ("D / (b^2 + 4|ac|)", f"{result.normalized:.6g}")]
+    if result.directions_deg:
+        rows.append(("characteristic directions", ", ".join(f"{d:.6f} deg" for d in result.directions_deg)))
+        rows.append(("slopes dy/dx", ", ".join("vertical" if s is None else f"{s:.9g}" for s in result.slopes)))
+    if result.angle_between_deg is not None:
+        rows.append(("angle between", f"{result.angle_between_deg:.6f} deg"))
+    if result.principal_axes_deg is not None:
+        rows.append(("principal axes", ", ".join(f"{d:.6f} deg" for d in result.principal_axes_deg)))
+    if result.anisotropy is not None:
+        rows.append(("anisotropy ratio", f"{result.anisotropy:.6g} (dimensionless)"))
+    for name, value in result.definitions.items():
+        rows.append((name, f"{value:.9g}"))
+    for name, value in (trade or {}).items():
+        shown = f"{value:.9g}" if math.isfinite(value) else "does not exist here"
+        rows.append((name.replace("_", " ").removesuffix(" deg"), f"{shown} ({READOUT_UNITS.get(name, '')})"))
+    if result.message:
+        rows.append(("note", result.message))
+    width = max(len(r[0]) for r in rows)
+    for label, value in rows:
+        out.write(f"{label:<{width}}  {value}\n")
+
+
+COMMAND = Command("probe", "everything known at one point (or at every pin of FILE)", _add_arguments, _run)

@@ -1,0 +1,38 @@
+"""``mixtype templates``: the equation templates that ``--template NAME`` accepts."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from typing import TextIO
+
+from core.cli.command import EXIT_OK, Command
+from core.cli.study import UsageError
+from core.equations.templates import TemplateError, list_templates, load_template
+
+__all__ = ["COMMAND"]
+
+
+def _add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    try:
+        templates = [load_template(name) for name in list_templates()]
+    except TemplateError as error:
+        raise UsageError(str(error)) from None
+    if args.json:
+        json.dump({"templates": [{"name": t.name, "title": t.title, "variables": list(t.equation.variables),
+                                  "data_quantities": list(t.quantities), "trade": list(t.trade),
+                                  "peak_quantity": t.peak_quantity} for t in templates]}, out)
+        out.write("\n")
+        return EXIT_OK
+    width = max((len(t.name) for t in templates), default=0)
+    for t in templates:
+        data = f" (data: {', '.join(t.quantities)})" if t.quantities else ""
+        out.write(f"{t.name:<{width}}  {t.title}{data}\n")
+    return EXIT_OK
+
+
+COMMAND = Command("templates", "list the equation templates --template accepts", _add_arguments, _run)

@@ -1,0 +1,83 @@
+"""``mixtype trace``: the two characteristics through a point, or from every seed of a project FILE."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from typing import TextIO
+
+from core.analysis.characteristics import trace_characteristics
+from core.cli.command import EXIT_OK, Command, compiled_study, points, read_study
+from core.cli.study import Study, UsageError, add_equation_options, finite
+
+__all__ = ["COMMAND"]
+
+
+def _add_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
+                        help="the seed point (default: FILE's seeds)")
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    study = read_study(args, err)
+    compiled = compiled_study(study)
+    if args.seed is None:
+        if study.project is None:
+            raise UsageError("missing --from X Y (or give a project FILE to trace from its seeds)")
+        return _trace_project_seeds(study, compiled, args, out)
+    if not study.domain.contains(*args.seed):
+        raise UsageError(f"--from ({args.seed[0]:g}, {args.seed[1]:g}) lies outside the domain")
+    curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters,
+                                   data=study.data)
+    document = {"seed": list(args.seed), "curves": [_curve_document(curve) for curve in curves]}
+    if study.source:
+        document["source"] = study.source
+    if args.json:
+        json.dump(document, out)
+        out.write("\n")
+        return EXIT_OK
+    _write_curves(curves, out)
+    return EXIT_OK
+
+
+def _curve_document(curve) -> dict:
+    return {"family": int(curve.family), "points": points(curve.points), "ends": list(curve.end_reasons)}
+
+
+def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: TextIO) -> int:
+    """Trace the chosen families from every point of every seed of the project."""
+    if not study.project.seeds:
+        raise UsageError(f"{args.file}: the project has no seeds; give --from X Y")
+    traced = []
+    for seed in study.project.seeds:
+        seed_points = seed.points()
+        curves = trace_characteristics(compiled, study.domain, seed_points, families=seed.families,
+                                       parameters=study.parameters, data=study.data)
+        traced.append((seed, seed_points, curves))
+    if args.json:
+        document = {"seeds": [{"label": seed.label, "points": points(seed_points), "families": list(seed.families),
+                               "curves": [_curve_document(curve) for curve in curves]}
+                              for seed, seed_points, curves in traced],
+                    "source": study.source}
+        json.dump(document, out)
+        out.write("\n")
+        return EXIT_OK
+    for index, (seed, seed_points, curves) in enumerate(traced, 1):
+        kind = f"{len(seed_points)} points along a segment" if seed.is_segment else "one point"
+        out.write(f"seed {index}" + (f" ({seed.label})" if seed.label else "") + f": {kind}, families "
+                  f"{', '.join(map(str, seed.families))}\n")
+        _write_curves(curves, out)
+    return EXIT_OK
+
+
+def _write_curves(curves, out: TextIO) -> None:
+    for curve in curves:
+        first, last = curve.points[0], curve.points[-1]
+        out.write(f"family {int(curve.family)}: {len(curve.points)} points from ({first[0]:.6g}, {first[1]:.6g})"
+                  f" [{curve.end_reasons[0]}] to ({last[0]:.6g}, {last[1]:.6g}) [{curve.end_reasons[1]}]\n")
+    if all(len(c.points) <= 1 for c in curves):
+        out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
+
+
+COMMAND = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_arguments, _run)

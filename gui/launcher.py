@@ -1,0 +1,72 @@
+"""The ``mixtype`` script: core's headless commands, plus ``render`` and the window from this side.
+
+Dependencies run one way: this module uses core.cli; core never imports gui. Qt is imported only when a
+command needs it (the window, ``render``), so ``mixtype --help``, ``--version`` and the headless commands start
+without loading Qt and work where its system libraries are missing.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from collections.abc import Sequence
+from typing import TextIO
+
+from core.cli.command import EXIT_BAD_INPUT, EXIT_OK, Command
+from core.cli.main import HEADLESS_COMMANDS, main as run_command
+from core.cli.study import UsageError
+
+__all__ = ["RENDER", "main"]
+
+
+def _add_render_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
+    parser.add_argument("--out", required=True, metavar="PNG", help="the picture to write")
+    parser.add_argument("--window", action="store_true", help="draw the whole main window, not only the map")
+    parser.add_argument("--size", nargs=2, type=int, default=None, metavar=("W", "H"), help="size in pixels")
+
+
+def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    if args.size is not None and not all(100 <= v <= 8000 for v in args.size):
+        raise UsageError(f"--size must be between 100 and 8000 pixels, got {args.size[0]} {args.size[1]}")
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # headless: no display needed
+    try:
+        from gui.render import render_project  # Qt is loaded only for this command (see the module docstring)
+    except ImportError as error:
+        raise UsageError(f"rendering needs the window's libraries ({error})") from None
+    render_project(args.file, args.out, whole_window=args.window,
+                   size=tuple(args.size) if args.size else None)
+    out.write(f"wrote {args.out}\n")
+    return EXIT_OK
+
+
+RENDER = Command("render", "draw the map (or the whole window) of a project to a PNG", _add_render_arguments,
+                 _run_render)
+
+
+def _opens_window(argv: Sequence[str]) -> bool:
+    """No command, or a FILE where a command would stand: the window."""
+    names = {command.name for command in (*HEADLESS_COMMANDS, RENDER)}
+    return not argv or (argv[0] not in names and not argv[0].startswith("-"))
+
+
+def _open_window(argv: Sequence[str]) -> int:
+    try:
+        from gui.app import main as window_main  # Qt is loaded only here (see the module docstring)
+    except ImportError as error:  # the window is optional for headless installs
+        print(f"mixtype: the window is unavailable ({error}); see 'mixtype --help'", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    return window_main(list(argv))
+
+
+def main(argv: Sequence[str] | None = None, *, out: TextIO | None = None, err: TextIO | None = None) -> int:
+    """Entry point of the ``mixtype`` script; returns the exit status."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    if _opens_window(argv):
+        return _open_window(argv)
+    return run_command(argv, out=out, err=err, extra_commands=(RENDER,))
+
+
+if __name__ == "__main__":
+    sys.exit(main())
