@@ -2,7 +2,7 @@
 
 Traces 1000 characteristics (500 seeds, both families, each both ways) of the Tricomi equation
 y u_xx + u_yy = 0 in its hyperbolic half y < 0, many seeds close to the sonic line y = 0, with
-``core.analysis.characteristics.trace_characteristics``; then the same curves one at a time with
+``core.analysis.tracing.trace_characteristics``; then the same curves one at a time with
 ``scipy.integrate.solve_ivp`` (RK45, terminal events on D = 0 and on the domain edge). The accuracy measure is
 the closed-form invariant x -+ (2/3)(-y)^(3/2), constant along each curve (Bers 1958, Mathematical Aspects of
 Subsonic and Transonic Gas Dynamics). scipy's rtol is tightened step by step until its invariant error is no
@@ -22,7 +22,8 @@ import time
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from core.analysis.characteristics import Family, characteristic_directions, trace_characteristics
+from core.analysis.directions import Family, characteristic_directions
+from core.analysis.tracing import trace_characteristics
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, compile_equation
 

@@ -17,7 +17,8 @@ import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
 from core.analysis.type_change_lines import find_type_boundaries
-from core.analysis.characteristics import trace_characteristics
+from core.analysis.tracing import trace_characteristics
+from core.analysis.discriminant import discriminant
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.analysis.pockets import label_pockets, pocket_statistics
 from core.analysis.probe import probe_point
@@ -277,7 +278,7 @@ class StudyAnalysis(QObject):
             with np.errstate(all="ignore"):
                 codes, _ = classify_points(compiled, px, py, parameters=parameters, data=data,
                                            tolerance=tolerance)
-                d = compiled.discriminant(px, py, parameters=parameters, data=data)
+                d = discriminant(*compiled.coefficients(px, py, parameters=parameters, data=data))
             trade = trade_at(equation, compiled, x, y, parameters=parameters, data=data)
             return HoverReading(x=x, y=y, type=TypeCode(int(codes[0])), discriminant=float(d[0]),
                                 inside=bool(domain.contains(x, y)), trade=trade if isinstance(trade, dict) else {})

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
 from core.analysis.domain import Domain
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -29,7 +30,6 @@ __all__ = [
     "TypeMap",
     "classify_grid",
     "classify_points",
-    "normalized_discriminant",
 ]
 
 DEFAULT_TOLERANCE = 1e-10
@@ -69,51 +69,6 @@ class TypeCode(enum.IntEnum):
         return self.name.lower()
 
 
-def normalized_discriminant(a, b, c) -> np.ndarray:
-    """D / (b^2 + 4|ac|) in [-1, 1]; 0 where that scale is 0 (D = 0 exactly); NaN where a coefficient is not finite.
-
-    a, b, c broadcast together; the result has their broadcast shape (float64).
-    """
-    shape = np.broadcast_shapes(np.shape(a), np.shape(b), np.shape(c))
-    scratch = _Scratch(int(np.prod(shape)))
-    result = np.empty(shape)
-    _normalized_into(a, b, c, result, scratch)
-    return result
-
-
-class _Scratch:
-    """Work buffers for one block of points, reused from block to block by one thread."""
-
-    def __init__(self, size: int) -> None:
-        self.buffers = (np.empty(size), np.empty(size))
-
-    def views(self, shape: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
-        size = int(np.prod(shape))
-        return tuple(b[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
-
-
-def _normalized_into(a, b, c, out: np.ndarray, scratch: _Scratch) -> None:
-    """D/S into ``out`` (float64, or float32 for grid storage) with numpy passes over cache-sized buffers.
-
-    Computed as (b^2/4 - ac) / (b^2/4 + |ac|). b^2/4 and ac are formed in the coefficients' own broadcast
-    shapes (a row, a column or a constant costs almost nothing), so only three passes span the whole block.
-    (numexpr evaluates this several times slower than numpy: its abs and division are not vectorised.)
-    NaN where a coefficient is not finite; 0 where the scale is exactly 0, where D = 0 exactly.
-    """
-    scale, numerator = scratch.views(out.shape)
-    with np.errstate(all="ignore"):
-        half_b = np.multiply(b, 0.5)
-        quarter_b2 = np.multiply(half_b, half_b)        # b^2/4
-        product = np.multiply(a, c)                     # ac
-        np.subtract(quarter_b2, product, out=numerator)  # D/4
-        np.add(quarter_b2, np.abs(product), out=scale)  # S/4
-        np.divide(numerator, scale, out=out, casting="same_kind")  # D/S, stored as out's dtype
-    # 0/0: the computed scale b^2/4 + |ac| is exactly 0, so the computed D/4 = b^2/4 - ac is 0 too (this also
-    # covers b^2 and ac underflowing). Non-finite coefficients make the scale NaN or inf, and stay NaN.
-    if not scale.all():
-        out[scale == 0] = 0.0
-
-
 def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.ndarray) -> np.ndarray:
     """Type codes (int8, into ``out``) from D/S; returns the count of each TypeCode, indexed by code.
 
@@ -147,7 +102,7 @@ def classify_points(compiled: CompiledEquation, x, y, *, parameters: Mapping[str
     shape = np.broadcast_shapes(np.shape(x), np.shape(y))
     a, b, c = compiled.coefficients_raw(x, y, parameters=parameters, data=data)
     normalized = np.empty(shape, dtype=np.float64)
-    _normalized_into(a, b, c, normalized, _Scratch(normalized.size))
+    normalized_discriminant_into(a, b, c, normalized, DiscriminantScratch(normalized.size))
     codes = np.empty(shape, dtype=np.int8)
     _codes_from_normalized(normalized, tolerance, codes)
     return codes, normalized
@@ -218,11 +173,11 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
             raise Cancelled("classification cancelled")
         stop = min(ny, start + rows)
         if not hasattr(local, "scratch"):
-            local.scratch = _Scratch(rows * nx)
+            local.scratch = DiscriminantScratch(rows * nx)
         block = normalized[start:stop]
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared)
-        _normalized_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
+        normalized_discriminant_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:
             with lock:

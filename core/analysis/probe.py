@@ -13,8 +13,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.analysis.characteristics import characteristic_directions, parabolic_direction
+from core.analysis.directions import characteristic_directions, parabolic_direction
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
+from core.analysis.discriminant import discriminant
 from core.analysis.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 
@@ -102,10 +103,7 @@ def probe_point(compiled: CompiledEquation, x: float, y: float, *,
     angle_between: float | None = None
     axes: tuple[float, float] | None = None
     anisotropy: float | None = None
-    with np.errstate(all="ignore"):
-        discriminant = b * b - 4.0 * a * c if all(map(math.isfinite, (a, b, c))) else math.nan
-    if not math.isfinite(discriminant):
-        discriminant = math.nan
+    d = float(discriminant(a, b, c))
 
     if type_code is TypeCode.UNDEFINED:
         bad = [(name, value) for name, value in zip(COEFFICIENT_NAMES, (a, b, c)) if not math.isfinite(value)]
@@ -147,7 +145,7 @@ def probe_point(compiled: CompiledEquation, x: float, y: float, *,
         notes.append(f"outside domain {domain.name!r} (x in [{domain.xmin:g}, {domain.xmax:g}], "
                      f"y in [{domain.ymin:g}, {domain.ymax:g}]); values are computed all the same")
     return ProbeResult(
-        point=(x, y), type=type_code, a=a, b=b, c=c, discriminant=discriminant,
+        point=(x, y), type=type_code, a=a, b=b, c=c, discriminant=d,
         normalized=float(normalized), directions_deg=angles, slopes=slopes, angle_between_deg=angle_between,
         principal_axes_deg=axes, anisotropy=anisotropy, definitions=definitions, inside=inside,
         message="; ".join(notes),

@@ -10,7 +10,7 @@ Zones where D vanishes on an area (grid cells whose four corners are parabolic) 
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass
 from itertools import pairwise
 
@@ -20,6 +20,7 @@ import numpy as np
 from core.analysis.classify import TypeCode, TypeMap
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
+from core.analysis.zero_refinement import PointFunction, discriminant_function, roots_on_segments
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
@@ -28,18 +29,12 @@ __all__ = [
     "TypeBoundaries",
     "TypeChangeCurve",
     "find_type_boundaries",
-    "refine_onto_zero_set",
 ]
 
 DEFAULT_RELATIVE_XTOL = 1e-13       # root position tolerance, as a fraction of the domain (segment box) size
 _ON_LINE_TOLERANCE = 1e-9           # a vertex this close to a grid line (in grid spacings) lies on it
-_MAX_ITERATIONS = 200
-_FLOAT32_SMALLEST = 1e-30           # tolerances above this survive float32 storage with their sign
 _KIND_OFF, _KIND_NODE, _KIND_X_EDGE, _KIND_Y_EDGE = 0, 1, 2, 3   # X_EDGE: along x, at a node row
 _NEIGHBOURS = ((0, 1), (0, -1), (1, 0), (-1, 0))                   # (dj, di)
-
-DiscriminantFunction = Callable[[np.ndarray, np.ndarray], np.ndarray]
-
 
 def _read_only(array: np.ndarray) -> np.ndarray:
     array.flags.writeable = False
@@ -123,8 +118,8 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
     points, refined_ok = raw.copy(), np.zeros(len(raw), dtype=bool)
     if refine and pieces:
         used = np.unique(np.concatenate([indices for indices, _, _ in pieces]))
-        discriminant = _discriminant_function(compiled, parameters, data)
-        points[used], refined_ok[used] = _refine_vertices(discriminant, raw[used], x, y,
+        function = discriminant_function(compiled, parameters, data)
+        points[used], refined_ok[used] = _refine_vertices(function, raw[used], x, y,
                                                           located[:, used], xtol, cancel)
     _report(progress, 0.9)
 
@@ -144,34 +139,6 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
                           xtol=float(xtol))
 
 
-def refine_onto_zero_set(compiled: CompiledEquation, start, end, *,
-                         parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
-                         xtol: float | None = None, cancel: CancelCheck | None = None) -> np.ndarray:
-    """The zero of D on each segment start -> end, all segments at once; shape (m, 2) like the inputs.
-
-    A bracketed search (regula falsi, Anderson-Bjorck variant, with a bisection safeguard) finds a point
-    within ``xtol`` (domain units; default DEFAULT_RELATIVE_XTOL times the diagonal of the box holding all
-    segments) of a sign change of D. Rows whose segment does not bracket one (D of equal signs or undefined
-    at its ends, or undefined during the search) are NaN: ``np.isnan(result[:, 0])`` marks them.
-    """
-    start = np.asarray(start, dtype=np.float64)
-    end = np.asarray(end, dtype=np.float64)
-    if start.ndim != 2 or start.shape[1] != 2 or start.shape != end.shape:
-        raise ValueError(f"start and end must both have shape (m, 2), got {start.shape} and {end.shape}")
-    if not (np.isfinite(start).all() and np.isfinite(end).all()):
-        raise ValueError("segment ends must be finite numbers")
-    if xtol is None:
-        both = np.concatenate([start, end])
-        extent = np.ptp(both, axis=0) if len(both) else np.zeros(2)
-        xtol = DEFAULT_RELATIVE_XTOL * max(float(np.hypot(*extent)), np.finfo(float).tiny)
-    if not (np.isfinite(xtol) and xtol > 0):
-        raise ValueError(f"xtol must be a positive number, got {xtol}")
-    discriminant = _discriminant_function(compiled, parameters, data)
-    roots, found = _find_roots(discriminant, start, end, xtol=float(xtol), cancel=cancel)
-    roots[~found] = np.nan
-    return roots
-
-
 # -- the field and the contour vertices ---------------------------------------------------------------------
 def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     x = np.asarray(type_map.x, dtype=np.float64)
@@ -189,18 +156,15 @@ def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]
 def _contour_field(type_map: TypeMap) -> np.ndarray:
     """F (ny, nx) float64: D/S, exactly 0 where parabolic, NaN (masked by contourpy) where undefined.
 
-    Hyperbolic nodes must stay strictly above 0 and elliptic ones strictly below: with a tolerance below the
-    float32 range, storage may have rounded D/S to 0, so such maps are clamped (a pass skipped otherwise).
+    Hyperbolic nodes are strictly above 0 and elliptic ones strictly below, even in float32 storage: a
+    nonzero computed D/S is at least about 2^-53 in size (a difference of two rounded terms over their sum),
+    far above the float32 range's bottom.
     """
     codes = type_map.codes
     field = np.asarray(type_map.normalized, dtype=np.float64).copy()
     field[codes == TypeCode.PARABOLIC] = 0.0
     if type_map.fractions.get(TypeCode.UNDEFINED.label, 1.0) > 0:
         field[codes == TypeCode.UNDEFINED] = np.nan
-    if type_map.tolerance < _FLOAT32_SMALLEST:
-        tiny = np.finfo(np.float64).tiny
-        np.maximum(field, tiny, out=field, where=codes == TypeCode.HYPERBOLIC)
-        np.minimum(field, -tiny, out=field, where=codes == TypeCode.ELLIPTIC)
     return field
 
 
@@ -324,24 +288,8 @@ def _left_turn_sum(points: np.ndarray, toward: np.ndarray, indices: np.ndarray, 
     return float(np.sum(np.sign(tangent[:, 0] * h[:, 1] - tangent[:, 1] * h[:, 0])))
 
 
-# -- refinement -------------------------------------------------------------------------------------------
-def _discriminant_function(compiled: CompiledEquation, parameters: Mapping[str, float] | None,
-                           data: QuantitySource | None) -> DiscriminantFunction:
-    """D/4 = (b/2)^2 - ac at points, the same formula classification uses; NaN where it is not finite."""
-    prepared = compiled.prepare(parameters)
-
-    def discriminant(x: np.ndarray, y: np.ndarray) -> np.ndarray:
-        raw = compiled.evaluate_raw(x, y, data=data, prepared=prepared)
-        with np.errstate(all="ignore"):
-            half_b = np.multiply(raw["b"], 0.5)
-            value = np.broadcast_to(half_b * half_b - raw["a"] * raw["c"], np.shape(x)).astype(np.float64)
-        value[~np.isfinite(value)] = np.nan
-        return value
-
-    return discriminant
-
-
-def _refine_vertices(discriminant: DiscriminantFunction, raw: np.ndarray, x: np.ndarray, y: np.ndarray,
+# -- refinement: each vertex moved along its grid edge onto D = 0 ---------------------------------------------
+def _refine_vertices(discriminant: PointFunction, raw: np.ndarray, x: np.ndarray, y: np.ndarray,
                      located: np.ndarray, xtol: float, cancel: CancelCheck | None
                      ) -> tuple[np.ndarray, np.ndarray]:
     """Vertices (n, 2) moved onto D = 0 along their grid edge, and which of them were (bool (n,)).
@@ -378,8 +326,8 @@ def _refine_vertices(discriminant: DiscriminantFunction, raw: np.ndarray, x: np.
     start_id, end_id, owner, f_start, f_end = (v[search] for v in (start_id, end_id, owner, f_start, f_end))
     start = np.column_stack([x[start_id % x.size], y[start_id // x.size]])
     end = np.column_stack([x[end_id % x.size], y[end_id // x.size]])
-    roots, found = _find_roots(discriminant, start, end, xtol=xtol, cancel=cancel, f_start=f_start,
-                               f_end=f_end)
+    roots, found = roots_on_segments(discriminant, start, end, xtol=xtol, cancel=cancel, f_start=f_start,
+                                     f_end=f_end)
     if found.any():
         distance = np.hypot(*(roots - start).T)
         candidates = np.flatnonzero(found)
@@ -387,78 +335,6 @@ def _refine_vertices(discriminant: DiscriminantFunction, raw: np.ndarray, x: np.
         owners_sorted, first = np.unique(owner[order], return_index=True)
         points[owners_sorted], ok[owners_sorted] = roots[order[first]], True
     return points, ok
-
-
-def _find_roots(discriminant: DiscriminantFunction, start: np.ndarray, end: np.ndarray, *, xtol: float,
-                cancel: CancelCheck | None = None, f_start: np.ndarray | None = None,
-                f_end: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Bracketed roots of D on segments (m, 2) -> (m, 2): points and a bool (m,) mask of brackets found.
-
-    Regula falsi (Anderson-Bjorck variant) in the segment parameter t in [0, 1]; after three steps that
-    together do not halve the bracket the next one bisects, so the bracket shrinks at least geometrically.
-    A step shorter than the tolerance is stretched to it (as in Brent's method). Stops when the bracket is
-    shorter than xtol (or a few units of rounding of the coordinates); returns its middle. ``f_start`` and
-    ``f_end`` are D at the ends when the caller already has them.
-    """
-    m = len(start)
-    delta = end - start
-    length = np.hypot(delta[:, 0], delta[:, 1])
-    if f_start is None:
-        f_start = discriminant(start[:, 0], start[:, 1]) if m else np.empty(0)
-    if f_end is None:
-        f_end = discriminant(end[:, 0], end[:, 1]) if m else np.empty(0)
-    finite = np.isfinite(f_start) & np.isfinite(f_end)
-    found = finite & ((f_start == 0) | (f_end == 0) | (np.signbit(f_start) != np.signbit(f_end)))
-    t_root = np.where(f_start == 0, 0.0, 1.0)
-    resolution = 8 * np.finfo(float).eps * np.maximum(np.abs(start), np.abs(end)).max(axis=1, initial=0.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        width_limit = np.maximum(xtol, resolution) / length
-    active = np.flatnonzero(found & (f_start != 0) & (f_end != 0))
-    a, b = np.zeros(active.size), np.ones(active.size)
-    fa, fb = f_start[active], f_end[active]
-    reference, stalled = np.ones(active.size), np.zeros(active.size, dtype=np.int64)
-    for _ in range(_MAX_ITERATIONS):
-        width = np.abs(b - a)
-        limit = width_limit[active]
-        done = width <= limit
-        if done.any():
-            t_root[active[done]] = 0.5 * (a[done] + b[done])
-            keep = ~done
-            active, a, b, fa, fb, reference, stalled, width, limit = (
-                v[keep] for v in (active, a, b, fa, fb, reference, stalled, width, limit))
-        if active.size == 0:
-            break
-        _poll(cancel)
-        with np.errstate(all="ignore"):
-            secant = b - fb * (b - a) / (fb - fa)
-        inside = (secant > np.minimum(a, b)) & (secant < np.maximum(a, b))
-        bisect = ~inside | (stalled >= 3)
-        t = np.where(bisect, 0.5 * (a + b), secant)
-        # A step shorter than the tolerance is stretched to it, so the next sign change closes the bracket.
-        short = np.abs(t - b) < 0.5 * limit
-        t = np.where(short, b + np.copysign(0.5 * limit, a - b), t)
-        ft = discriminant(start[active, 0] + t * delta[active, 0], start[active, 1] + t * delta[active, 1])
-        lost, hit = np.isnan(ft), ft == 0
-        found[active[lost]] = False
-        t_root[active[hit]] = t[hit]
-        switch = np.signbit(ft) != np.signbit(fb)            # the root lies between t and b
-        # Anderson-Bjorck: scale the value at an end kept twice by 1 - f(t)/f(b) (by 1/2 if that is not > 0).
-        with np.errstate(all="ignore"):
-            scale = 1.0 - ft / fb
-        scale = np.where(scale > 0, scale, 0.5)
-        fa = np.where(switch, fb, np.where(bisect, fa, scale * fa))
-        a = np.where(switch, b, a)
-        b, fb = t, ft
-        halved = np.abs(b - a) <= 0.5 * reference
-        reference = np.where(halved | bisect, np.abs(b - a), reference)
-        stalled = np.where(halved | bisect, 0, stalled + 1)
-        keep = ~(lost | hit)
-        active, a, b, fa, fb, reference, stalled = (
-            v[keep] for v in (active, a, b, fa, fb, reference, stalled))
-    found[active] = False                                    # not converged: cannot happen with bisection
-    roots = start + t_root[:, np.newaxis] * delta
-    roots[t_root == 1.0] = end[t_root == 1.0]
-    return roots, found
 
 
 def _poll(cancel: CancelCheck | None) -> None:

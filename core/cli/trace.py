@@ -6,7 +6,7 @@ import argparse
 import json
 from typing import TextIO
 
-from core.analysis.characteristics import trace_characteristics
+from core.analysis.tracing import trace_characteristics
 from core.cli.command import EXIT_OK, Command, compiled_study, points, read_study
 from core.cli.study import Study, UsageError, add_equation_options, finite
 

@@ -23,7 +23,6 @@ _DIRECT = {
     sympy.sin: "sin", sympy.cos: "cos", sympy.tan: "tan",
     sympy.asin: "arcsin", sympy.acos: "arccos", sympy.atan: "arctan", sympy.atan2: "arctan2",
     sympy.sinh: "sinh", sympy.cosh: "cosh", sympy.tanh: "tanh",
-    sympy.asinh: "arcsinh", sympy.acosh: "arccosh", sympy.atanh: "arctanh",
     sympy.exp: "exp", sympy.log: "log", sympy.Abs: "abs",
 }
 
@@ -83,17 +82,14 @@ class _Printer:
             return f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))"
         if isinstance(e, sympy.Heaviside):
             v = self.emit(e.args[0])
-            at_zero = _number(float(e.args[1])) if len(e.args) > 1 else "0.5"
+            at_zero = _number(float(e.args[1]))   # the parser always gives H(0) = 1/2
             return f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))"
         if isinstance(e, sympy.Rel):
-            op = {"<": "<", "<=": "<=", ">": ">", ">=": ">=", "==": "==", "!=": "!="}[e.rel_op]
-            return f"({self.emit(e.lhs)} {op} {self.emit(e.rhs)})"
+            return f"({self.emit(e.lhs)} {e.rel_op} {self.emit(e.rhs)})"   # <, <=, > or >= (the parser's only)
         if isinstance(e, sympy.And):
             return "(" + " & ".join(self.emit(t) for t in e.args) + ")"
         if isinstance(e, sympy.Or):
             return "(" + " | ".join(self.emit(t) for t in e.args) + ")"
-        if isinstance(e, sympy.Not):
-            return f"(~{self.emit(e.args[0])})"
         function = _DIRECT.get(type(e))
         if function is not None:
             return f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
@@ -107,8 +103,6 @@ class _Printer:
             return f"(1.0 / sqrt({self.emit(base)}))"
         if exponent == -1:
             return f"(1.0 / {self.emit(base)})"
-        if base is sympy.E:
-            return f"exp({self.emit(exponent)})"
         return f"({self.emit(base)} ** {self.emit(exponent)})"
 
     def _extremum(self, e: sympy.Basic) -> str:

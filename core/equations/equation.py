@@ -193,14 +193,6 @@ class CompiledEquation:
         values = self.evaluate_raw(x, y, parameters=parameters, data=data)
         return values["a"], values["b"], values["c"]
 
-    def discriminant(self, x, y, *, parameters: Mapping[str, float] | None = None,
-                     data: QuantitySource | None = None) -> np.ndarray:
-        """D = b^2 - 4ac at the points (NaN where a coefficient is undefined)."""
-        a, b, c = self.coefficients(x, y, parameters=parameters, data=data)
-        with np.errstate(all="ignore"):
-            d = b * b - 4.0 * a * c
-        return np.where(np.isfinite(d), d, np.nan)
-
     def parameter_vector(self, parameters: Mapping[str, float] | None) -> dict[str, float]:
         """Defaults overridden by ``parameters``; unknown names or non-finite values are rejected."""
         values = dict(self.parameter_defaults)

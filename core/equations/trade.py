@@ -23,7 +23,7 @@ __all__ = [
     "READOUT_UNITS",
     "TRADE_INPUTS",
     "IsentropicRatios",
-    "characteristic_directions",
+    "directions_about_flow",
     "check_trade_spec",
     "flow_angle",
     "froude_number",
@@ -98,7 +98,7 @@ def wave_angle(froude) -> np.ndarray:
     return mach_angle(froude)
 
 
-def characteristic_directions(theta, mu) -> tuple[np.ndarray, np.ndarray]:
+def directions_about_flow(theta, mu) -> tuple[np.ndarray, np.ndarray]:
     """(theta + mu, theta - mu): the directions of the two characteristic families (radians)."""
     theta, mu = _f64(theta, mu)
     return theta + mu, theta - mu
@@ -255,7 +255,7 @@ def _mach_readout(given: dict[str, float]) -> dict[str, float]:
     u, v = given["u"], given["v"]
     mach = float(local_mach_number(u, v, given["c2"]))
     theta, mu = flow_angle(u, v), mach_angle(mach)
-    plus, minus = characteristic_directions(theta, mu)
+    plus, minus = directions_about_flow(theta, mu)
     result = {"speed": math.hypot(u, v), "mach": mach, "flow_angle_deg": _degrees(theta),
               "mach_angle_deg": _degrees(mu), "characteristic_plus_deg": _degrees(plus),
               "characteristic_minus_deg": _degrees(minus)}
@@ -275,7 +275,7 @@ def _froude_readout(given: dict[str, float]) -> dict[str, float]:
     u, v, h, g = given["u"], given["v"], given["h"], given["g"]
     froude = float(froude_number(u, v, h, g))
     theta, beta = flow_angle(u, v), wave_angle(froude)
-    plus, minus = characteristic_directions(theta, beta)
+    plus, minus = directions_about_flow(theta, beta)
     celerity = math.sqrt(g * h) if g * h > 0 else math.nan
     return {"speed": math.hypot(u, v), "celerity": celerity, "froude": froude,
             "flow_angle_deg": _degrees(theta), "wave_angle_deg": _degrees(beta),

@@ -21,6 +21,7 @@ import core
 from core.analysis.classify import DEFAULT_TOLERANCE
 from core.data.readers import FORMATS
 from core.analysis.domain import Domain
+from core.analysis.tracing import seeds_along_segment
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from core.equations.parser import ExpressionError, check_name
 
@@ -109,11 +110,7 @@ class Seed:
         """The seed points, shape (curves, 2): the segment's end points included (its midpoint if curves=1)."""
         if self.end is None:
             return np.array([self.start], dtype=np.float64)
-        start, end = np.array(self.start), np.array(self.end)
-        if self.curves == 1:
-            return ((start + end) / 2.0)[None, :]
-        t = np.linspace(0.0, 1.0, self.curves)[:, None]
-        return start + t * (end - start)
+        return seeds_along_segment(self.start, self.end, self.curves)
 
 
 @dataclass(frozen=True)
@@ -121,7 +118,7 @@ class ViewSettings:
     """What the map shows, kept with the project so a study reopens as it was left.
 
     The two characteristic families are switched separately (family 1 and family 2 as numbered by
-    core.analysis.characteristics). ``show_seed_segments`` draws the segments characteristics start from; it is
+    core.analysis.directions). ``show_seed_segments`` draws the segments characteristics start from; it is
     optional in the file (absent means shown), so it comes last.
     """
 

@@ -14,8 +14,9 @@ from core.analysis.type_change_lines import (
     TypeBoundaries,
     TypeChangeCurve,
     find_type_boundaries,
-    refine_onto_zero_set,
 )
+from core.analysis.zero_refinement import discriminant_function, roots_on_segments
+from core.analysis.discriminant import discriminant
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
@@ -135,7 +136,7 @@ def test_parabolic_everywhere_gives_one_region_and_no_noise_lines():
     compiled, _, result = boundaries("x**2", "2*x*y", "y**2", domain)
     assert compiled.symbolic_discriminant == 0
     xx, yy = np.meshgrid(domain.x_nodes, domain.y_nodes)
-    rounding = compiled.discriminant(xx, yy)
+    rounding = discriminant(*compiled.coefficients(xx, yy))
     assert (rounding > 0).any() and (rounding < 0).any()  # D is zero only to rounding, of both signs
     assert result.curves == ()
     assert len(result.parabolic_regions) == 1
@@ -163,7 +164,7 @@ def test_parabolic_band_between_hyperbolic_and_elliptic():
     curve = result.curves[0]
     assert curve.left_type == TypeCode.HYPERBOLIC and curve.right_type == TypeCode.PARABOLIC
     assert np.abs(curve.points[:, 1] + 0.3).max() <= h
-    assert (compiled.discriminant(*curve.points.T) == 0).all()     # on the zero set of D
+    assert (discriminant(*compiled.coefficients(*curve.points.T)) == 0).all()     # on the zero set of D
 
 
 def test_parabolic_region_with_a_hole_around_a_hyperbolic_disc():
@@ -217,22 +218,24 @@ def test_refined_roots_match_mpmath():
     assert worst_raw > 1e-6 * domain.size
 
 
-def test_refine_onto_zero_set_on_rays_across_the_unit_circle():
+def test_roots_of_the_discriminant_on_rays_across_the_unit_circle():
     # D = 4(x^2 + y^2 - 1) (as above): on the ray from the origin at angle theta the root is (cos, sin).
     compiled = compile_equation(Equation(a="1", b="-2*x", c="1 - y**2"))
+    function = discriminant_function(compiled, None, None)
     theta = np.linspace(0.1, 6.0, 25)
     start = np.zeros((theta.size, 2))
     end = 2 * np.column_stack([np.cos(theta), np.sin(theta)])
-    roots = refine_onto_zero_set(compiled, start, end, xtol=1e-14)
+    roots, found = roots_on_segments(function, start, end, xtol=1e-14)
+    assert found.all()
     np.testing.assert_allclose(roots, end / 2, rtol=0, atol=1e-13)
-    # No sign change on a segment outside the circle -> NaN; a zero at an end -> that end exactly.
-    roots = refine_onto_zero_set(compiled, [[1.5, 0.0], [1.0, 0.0]], [[1.9, 0.5], [3.0, 0.0]])
-    assert np.isnan(roots[0]).all()
+    # No sign change on a segment outside the circle -> not found; a zero at an end -> that end exactly.
+    roots, found = roots_on_segments(function, [[1.5, 0.0], [1.0, 0.0]], [[1.9, 0.5], [3.0, 0.0]], xtol=1e-13)
+    assert found.tolist() == [False, True]
     np.testing.assert_array_equal(roots[1], [1.0, 0.0])
     with pytest.raises(ValueError, match=r"\(3,\)"):
-        refine_onto_zero_set(compiled, [0.0, 0.0, 1.0], [1.0, 1.0, 1.0])
+        roots_on_segments(function, [0.0, 0.0, 1.0], [1.0, 1.0, 1.0], xtol=1e-13)
     with pytest.raises(ValueError, match="xtol"):
-        refine_onto_zero_set(compiled, start, end, xtol=-1.0)
+        roots_on_segments(function, start, end, xtol=-1.0)
 
 
 # -- undefined zones, background data, cancellation ----------------------------------------------------------

@@ -7,19 +7,10 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from core.analysis.characteristics import (
-    END_REASONS,
-    CharacteristicNet,
-    Family,
-    characteristic_directions,
-    direction_field,
-    parabolic_direction,
-    seeds_along_segment,
-    trace_characteristics,
-    trace_family_along_segment,
-    trace_net,
-)
+from core.analysis.directions import Family, characteristic_directions, parabolic_direction
+from core.analysis.tracing import END_REASONS, seeds_along_segment, trace_characteristics
 from core.analysis.domain import Domain
+from core.project.model import Seed
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 
@@ -124,14 +115,14 @@ def test_mixed_derivative_only_has_the_coordinate_axes_as_characteristics():
     assert vertical.end_reasons == horizontal.end_reasons == ("edge", "edge")
 
 
-def test_direction_field_on_a_grid():
+def test_directions_on_a_grid():
     # Tricomi: slopes -+1/sqrt(-y) below the sonic line, none above (Bers 1958).
     x, y = np.meshgrid([-1.0, 0.0, 1.0], [-0.25, 0.5])
-    field = direction_field(compiled("y", "0", "1"), x, y)
-    assert field.first.shape == (2, 3, 2)
-    np.testing.assert_array_equal(field.real, [[True] * 3, [False] * 3])
-    np.testing.assert_allclose(field.first[0, :, 1] / field.first[0, :, 0], -2.0, rtol=1e-14)
-    np.testing.assert_allclose(field.second[0, :, 1] / field.second[0, :, 0], 2.0, rtol=1e-14)
+    first, second = characteristic_directions(*compiled("y", "0", "1").coefficients(x, y))
+    assert first.shape == (2, 3, 2)
+    np.testing.assert_array_equal(np.isfinite(first[..., 0]), [[True] * 3, [False] * 3])
+    np.testing.assert_allclose(first[0, :, 1] / first[0, :, 0], -2.0, rtol=1e-14)
+    np.testing.assert_allclose(second[0, :, 1] / second[0, :, 0], 2.0, rtol=1e-14)
 
 
 # -- tracing against closed forms ---------------------------------------------------------------------------
@@ -302,17 +293,21 @@ def test_seeds_along_a_segment_and_nets():
     np.testing.assert_allclose(seeds_along_segment((0, 0), (1, 2), 3), [[0, 0], [0.5, 1], [1, 2]])
     np.testing.assert_allclose(seeds_along_segment((0, 0), (1, 2), 1), [[0.5, 1]])
     equation = compiled("1", "0", "-1")
-    family = trace_family_along_segment(equation, BOX, (-1.0, 0.0), (1.0, 0.0), 4, families=(2,))
+    family = trace_characteristics(equation, BOX, seeds_along_segment((-1.0, 0.0), (1.0, 0.0), 4), families=(2,))
     assert [c.family for c in family] == [Family.SECOND] * 4
     for curve in family:   # x + y = const through each seed
         np.testing.assert_allclose(curve.points.sum(axis=1), curve.seed.sum(), atol=1e-13)
-    net = trace_net(equation, BOX, (-1.0, 0.0), (1.0, 0.0), 3)
-    assert isinstance(net, CharacteristicNet) and len(net.curves) == 6
-    assert all(c.family == Family.FIRST for c in net.first)
-    assert all(c.family == Family.SECOND for c in net.second)
-    for k, seed in enumerate(net.seeds):
-        np.testing.assert_array_equal(net.first[k].seed, seed)
-        np.testing.assert_array_equal(net.second[k].seed, seed)
+    # A net: both families through the same seeds, seed by seed (as a segment seed of a project traces).
+    seeds = Seed(start=(-1.0, 0.0), end=(1.0, 0.0), curves=3).points()
+    np.testing.assert_array_equal(seeds, seeds_along_segment((-1.0, 0.0), (1.0, 0.0), 3))
+    net = trace_characteristics(equation, BOX, seeds)
+    first, second = net[0::2], net[1::2]
+    assert len(net) == 6
+    assert all(c.family == Family.FIRST for c in first)
+    assert all(c.family == Family.SECOND for c in second)
+    for k, seed in enumerate(seeds):
+        np.testing.assert_array_equal(first[k].seed, seed)
+        np.testing.assert_array_equal(second[k].seed, seed)
 
 
 @pytest.mark.parametrize(("kwargs", "message"), [
@@ -320,7 +315,7 @@ def test_seeds_along_a_segment_and_nets():
     ({"seeds": [[0.0, np.nan]]}, "finite"),
     ({"families": (3,)}, "1 and/or 2"),
     ({"families": ()}, "at least one"),
-    ({"tolerance": 0.0}, r"\(0, 0.01\], got 0.0"),
+    ({"local_error": 0.0}, r"\(0, 0.01\], got 0.0"),
     ({"max_length": -1.0}, "got -1.0"),
     ({"max_steps": 0}, "got 0"),
 ])

@@ -9,7 +9,7 @@ from core.data.sources import DataSources, load_data
 from core.equations.equation import Equation, compile_equation
 from core.equations.trade import (
     READOUT_UNITS,
-    characteristic_directions,
+    directions_about_flow,
     check_trade_spec,
     flow_angle,
     froude_number,
@@ -76,7 +76,7 @@ def test_characteristics_at_flow_angle_plus_minus_mach_angle_solve_the_full_pote
         u, v = speed * math.cos(theta), speed * math.sin(theta)
         a, b, c = c2 - u * u, -2 * u * v, c2 - v * v
         roots = sorted(math.atan((b + s * math.sqrt(b * b - 4 * a * c)) / (2 * a)) for s in (1, -1))
-        plus, minus = characteristic_directions(flow_angle(u, v), mach_angle(local_mach_number(u, v, c2)))
+        plus, minus = directions_about_flow(flow_angle(u, v), mach_angle(local_mach_number(u, v, c2)))
         wrapped = sorted(math.atan(math.tan(float(angle))) for angle in (plus, minus))
         assert wrapped == pytest.approx(roots, abs=1e-12)
 

@@ -1,13 +1,4 @@
-"""Characteristic directions of a u_xx + b u_xy + c u_yy = ... and the curves that follow them.
-
-Where D = b^2 - 4ac > 0 a characteristic direction (dx, dy) solves a dy^2 - b dx dy + c dx^2 = 0. The two roots
-are labelled so that each family is continuous wherever D > 0, including where a or c vanish:
-
-    family 1  ~ (2a, b + sqrt(D))  ~ (b - sqrt(D), 2c)
-    family 2  ~ (2a, b - sqrt(D))  ~ (b + sqrt(D), 2c)
-
-of each pair the representation with the larger norm is used, so nothing is ever divided by a or c. The labels
-are invariant when a, b, c are multiplied by a positive function; multiplying the equation by -1 swaps them.
+"""Characteristic curves: many seeds at once, both ways, by an embedded Runge-Kutta method with step control.
 
 Curves are traced by arc length with an embedded Dormand-Prince 5(4) Runge-Kutta pair, one numpy step for every
 curve still running, each with its own step size and error control; orientation is kept by turning each
@@ -15,48 +6,25 @@ direction to make a positive dot product with the previous one. A curve stops on
 type-change line D = 0 or on an undefined point, or at a maximum length or number of steps. Near D = 0 the
 direction field has a square-root singularity that the error estimate does not see, so a step with a stage
 beyond the line is retried shorter until the curve is very close, and the last step is then cut by bisection
-so that the curve lands on the line (or the edge) without overshooting it.
+so that the curve lands on the line (or the edge) without overshooting it. The directions and the family
+labels are those of core.analysis.directions.
 """
 
 from __future__ import annotations
 
-import enum
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
+from core.analysis.directions import Family, characteristic_directions, unit_direction
+from core.analysis.discriminant import discriminant
 from core.analysis.domain import Domain
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
-__all__ = [
-    "END_REASONS",
-    "CharacteristicCurve",
-    "CharacteristicNet",
-    "DirectionField",
-    "Family",
-    "characteristic_directions",
-    "direction_field",
-    "parabolic_direction",
-    "seeds_along_segment",
-    "trace_characteristics",
-    "trace_family_along_segment",
-    "trace_net",
-]
-
-
-class Family(enum.IntEnum):
-    """Which root of a dy^2 - b dx dy + c dx^2 = 0 a direction or curve follows (see the module docstring)."""
-
-    FIRST = 1
-    SECOND = 2
-
-    @property
-    def sign(self) -> float:
-        """The sign in front of sqrt(D) in (2a, b +- sqrt(D))."""
-        return 1.0 if self is Family.FIRST else -1.0
+__all__ = ["END_REASONS", "CharacteristicCurve", "seeds_along_segment", "trace_characteristics"]
 
 
 # Why each end of a curve stopped.
@@ -73,91 +41,6 @@ END_REASONS = {
 }
 _REASON_NAMES = ("edge", "type_change", "undefined", "length", "steps", "stalled")
 _EDGE, _TYPE_CHANGE, _UNDEFINED, _LENGTH, _STEPS, _STALLED = range(6)
-
-
-def characteristic_directions(a, b, c, *, tolerance: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
-    """Unit characteristic directions of family 1 and family 2, each of shape broadcast(a, b, c) + (2,).
-
-    Each vector points into the upper half-plane (angle in [0, 180) degrees from the first axis); its sign
-    carries no meaning, a characteristic being a line. NaN where D/(b^2 + 4|ac|) < -tolerance (elliptic),
-    where a coefficient is not finite, or where a = b = c = 0. Where D is 0, or slightly negative within
-    ``tolerance``, both families give the single parabolic direction.
-    """
-    with np.errstate(all="ignore"):
-        a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
-        d = b * b - 4.0 * a * c
-        scale = b * b + 4.0 * np.abs(a * c)
-        real = np.isfinite(d) & (d >= -tolerance * scale)
-        result = []
-        for family in Family:
-            dx, dy = _unit_direction(a, b, c, family.sign, d)
-            dx, dy = np.where(real, dx, np.nan), np.where(real, dy, np.nan)
-            down = (dy < 0) | ((dy == 0) & (dx < 0))
-            result.append(np.stack([np.where(down, -dx, dx), np.where(down, -dy, dy)], axis=-1))
-    return result[0], result[1]
-
-
-def parabolic_direction(a, b, c) -> np.ndarray:
-    """The double root direction (2a, b) ~ (b, 2c) with D taken as 0, unit, upper half-plane; shape (..., 2).
-
-    This is the one characteristic direction at a parabolic point. NaN where a = b = c = 0 or undefined.
-    """
-    with np.errstate(all="ignore"):
-        a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
-        dx, dy = _unit_direction(a, b, c, 1.0, np.zeros_like(a))
-        finite = np.isfinite(a) & np.isfinite(b) & np.isfinite(c)
-        dx, dy = np.where(finite, dx, np.nan), np.where(finite, dy, np.nan)
-        down = (dy < 0) | ((dy == 0) & (dx < 0))
-        return np.stack([np.where(down, -dx, dx), np.where(down, -dy, dy)], axis=-1)
-
-
-def _unit_direction(a, b, c, sign, d):
-    """The family's unit direction from the larger-norm representation, with sqrt(max(D, 0)).
-
-    Of b + sign sqrt(D) and b - sign sqrt(D), the one that would lose digits to cancellation is computed as
-    4ac divided by the other (their product), so that even a nearly horizontal or vertical direction keeps
-    full relative precision and a definite side. Arrays broadcast together; returns (dx, dy). NaN where
-    undefined or a = b = c = 0. Callers hold errstate.
-    """
-    root = np.sqrt(np.maximum(d, 0.0))
-    product = np.where(d >= 0.0, 4.0 * a * c, b * b)     # (b + root)(b - root)
-    plus, minus = b + sign * root, b - sign * root
-    same = b * sign >= 0.0                               # b + sign root has no cancellation
-    large = np.where(same, plus, minus)
-    small = np.where(large != 0.0, product / large, 0.0)
-    vx, vy = 2.0 * a, np.where(same, large, small)
-    wx, wy = np.where(same, small, large), 2.0 * c
-    v_norm2 = vx * vx + vy * vy
-    w_norm2 = wx * wx + wy * wy
-    use_w = w_norm2 > v_norm2
-    norm = np.sqrt(np.where(use_w, w_norm2, v_norm2))
-    dx = np.where(use_w, wx, vx) / norm
-    dy = np.where(use_w, wy, vy) / norm
-    return dx, dy
-
-
-@dataclass(frozen=True, eq=False)
-class DirectionField:
-    """Characteristic directions on a set of points: ``first`` and ``second`` have the points' shape + (2,)."""
-
-    x: np.ndarray
-    y: np.ndarray
-    first: np.ndarray
-    second: np.ndarray
-
-    @property
-    def real(self) -> np.ndarray:
-        """True where real characteristics exist (hyperbolic or parabolic points)."""
-        return np.isfinite(self.first[..., 0])
-
-
-def direction_field(compiled: CompiledEquation, x, y, *, parameters: Mapping[str, float] | None = None,
-                    data: QuantitySource | None = None, tolerance: float = 0.0) -> DirectionField:
-    """Both families' unit directions at the broadcast points (x, y), e.g. a coarse grid of arrow glyphs."""
-    x, y = np.broadcast_arrays(np.asarray(x, dtype=np.float64), np.asarray(y, dtype=np.float64))
-    a, b, c = compiled.coefficients(x, y, parameters=parameters, data=data)
-    first, second = characteristic_directions(a, b, c, tolerance=tolerance)
-    return DirectionField(x=x, y=y, first=first, second=second)
 
 
 @dataclass(frozen=True, eq=False)
@@ -227,8 +110,8 @@ class _Field:
         """Directions at (x, y) turned to make a positive dot product with (ref_x, ref_y); also D there."""
         raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared)
         a, b, c = raw["a"], raw["b"], raw["c"]
-        d = b * b - 4.0 * a * c
-        dx, dy = _unit_direction(a, b, c, sign, d)
+        d = discriminant(a, b, c)
+        dx, dy = unit_direction(a, b, c, sign, d)
         flip = np.where(dx * ref_x + dy * ref_y < 0.0, -1.0, 1.0)
         return dx * flip, dy * flip, np.broadcast_to(d, np.shape(x))
 
@@ -275,13 +158,13 @@ def _check_families(families) -> tuple[Family, ...]:
 
 def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
                           families: Sequence[int] = (1, 2), parameters: Mapping[str, float] | None = None,
-                          data: QuantitySource | None = None, tolerance: float = 1e-9,
+                          data: QuantitySource | None = None, local_error: float = 1e-9,
                           max_length: float | None = None, max_steps: int = 20000,
                           cancel: CancelCheck | None = None, progress: ProgressReport | None = None
                           ) -> tuple[CharacteristicCurve, ...]:
     """Characteristics of the chosen families through every seed (m, 2), traced both ways.
 
-    Returns one curve per seed and family, in the order seed by seed, families as given. ``tolerance`` is the
+    Returns one curve per seed and family, in the order seed by seed, families as given. ``local_error`` is the
     local error allowed per step as a fraction of the domain diagonal; ``max_length`` (default ten diagonals)
     bounds each half of a curve, as does ``max_steps`` (accepted steps). A seed where the equation is
     elliptic, undefined or outside the domain gives a one-point curve with that reason at both ends. A seed
@@ -291,8 +174,8 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
     """
     seeds = _check_seeds(seeds)
     chosen = _check_families(families)
-    if not 0.0 < float(tolerance) <= 1e-2:
-        raise ValueError(f"tolerance must be in (0, 0.01], got {tolerance}")
+    if not 0.0 < float(local_error) <= 1e-2:
+        raise ValueError(f"local_error must be in (0, 0.01], got {local_error}")
     scale = domain.size
     max_length = 10.0 * scale if max_length is None else float(max_length)
     if not (math.isfinite(max_length) and max_length > 0.0):
@@ -305,7 +188,7 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
     with np.errstate(all="ignore"):
         raw = compiled.evaluate_raw(seeds[:, 0], seeds[:, 1], data=data, prepared=field.prepared)
         a, b, c = np.broadcast_arrays(raw["a"], raw["b"], raw["c"], np.empty(len(seeds)))[:3]
-        d = b * b - 4.0 * a * c
+        d = discriminant(a, b, c)
         directions = dict(zip(Family, characteristic_directions(a, b, c)))
     inside = ((seeds[:, 0] >= domain.xmin) & (seeds[:, 0] <= domain.xmax)
               & (seeds[:, 1] >= domain.ymin) & (seeds[:, 1] <= domain.ymax))
@@ -324,7 +207,7 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
             forward = directions[family][i]
             start.extend([-forward, forward])
     halves = _trace_halves(field, domain, seeds, owner, np.array(start).reshape(-1, 2),
-                           tolerance * scale, max_length, max_steps, cancel, progress)
+                           local_error * scale, max_length, max_steps, cancel, progress)
 
     curves = []
     k = 0
@@ -350,7 +233,7 @@ def _curve(family, seed, points, seed_index, reasons) -> CharacteristicCurve:
                                end_reasons=tuple(reasons))
 
 
-def _trace_halves(field: _Field, domain: Domain, seeds, owner, start, tolerance, max_length, max_steps,
+def _trace_halves(field: _Field, domain: Domain, seeds, owner, start, local_error, max_length, max_steps,
                   cancel, progress) -> list[tuple[np.ndarray, str]]:
     """Integrate every half-curve together; returns [(points after the seed (k, 2), end reason), ...]."""
     count = len(start)
@@ -391,7 +274,7 @@ def _trace_halves(field: _Field, domain: Domain, seeds, owner, start, tolerance,
             why = np.where(outside, _EDGE, np.where(finite & (nd <= 0.0), _TYPE_CHANGE, _UNDEFINED))
             # A stage beyond D = 0 (clamped to the parabolic direction) or on an undefined point.
             touched = ~(smallest > 0.0)
-            ratio = tolerance / error
+            ratio = local_error / error
         done = np.zeros(idx.size, dtype=bool)
 
         # Curves landing on an edge or on D = 0: halve the bracket [low, high] of the last step.
@@ -422,7 +305,7 @@ def _trace_halves(field: _Field, domain: Domain, seeds, owner, start, tolerance,
             with np.errstate(all="ignore"):
                 factor = np.clip(0.9 * ratio[sub] ** 0.2, 0.2, 5.0)
             factor = np.where(np.isfinite(factor), factor, 5.0)
-            rejected = error[sub] > tolerance
+            rejected = error[sub] > local_error
             jr = j[rejected]
             h[jr] = step[sub[rejected]] * factor[rejected]
             stalled = h[jr] < _MIN_STEP * scale
@@ -485,6 +368,7 @@ def _landing_points(low_x, low_y, high_x, high_y, why, bounds):
     return end_x, end_y
 
 
+
 def seeds_along_segment(start, end, count: int) -> np.ndarray:
     """``count`` evenly spaced seeds from ``start`` to ``end`` (both included), shape (count, 2).
 
@@ -502,31 +386,3 @@ def seeds_along_segment(start, end, count: int) -> np.ndarray:
         return (0.5 * (start + end))[np.newaxis, :]
     t = np.linspace(0.0, 1.0, int(count))[:, np.newaxis]
     return start + t * (end - start)
-
-
-def trace_family_along_segment(compiled: CompiledEquation, domain: Domain, start, end, count: int, *,
-                               families: Sequence[int] = (1, 2), **options) -> tuple[CharacteristicCurve, ...]:
-    """Characteristics through ``count`` seeds spread along the segment start-end (see trace_characteristics)."""
-    seeds = seeds_along_segment(start, end, count)
-    return trace_characteristics(compiled, domain, seeds, families=families, **options)
-
-
-@dataclass(frozen=True, eq=False)
-class CharacteristicNet:
-    """Both families through the same seeds: ``first[i]`` and ``second[i]`` cross at ``seeds[i]``."""
-
-    seeds: np.ndarray
-    first: tuple[CharacteristicCurve, ...]
-    second: tuple[CharacteristicCurve, ...]
-
-    @property
-    def curves(self) -> tuple[CharacteristicCurve, ...]:
-        return self.first + self.second
-
-
-def trace_net(compiled: CompiledEquation, domain: Domain, start, end, count: int, **options
-              ) -> CharacteristicNet:
-    """A net of characteristics of both families through ``count`` seeds along the segment start-end."""
-    seeds = seeds_along_segment(start, end, count)
-    curves = trace_characteristics(compiled, domain, seeds, families=(1, 2), **options)
-    return CharacteristicNet(seeds=seeds, first=curves[0::2], second=curves[1::2])
