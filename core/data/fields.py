@@ -22,7 +22,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from core.data.readers import DataError
+from core.data.raw import DataError
 
 __all__ = ["GridField", "MeshField", "ProfileField", "triangulate_points"]
 
@@ -167,6 +167,8 @@ class ProfileField:
 
 def triangulate_points(x: np.ndarray, y: np.ndarray, *, where: str) -> np.ndarray:
     """Delaunay triangles (m, 3) of scattered points; DataError if they are collinear or too few."""
+    # Here, not at the top: scipy.spatial takes about 1 s to import (python -X importtime) and only scattered
+    # points need it.
     from scipy.spatial import Delaunay, QhullError
 
     try:

@@ -1,12 +1,10 @@
-"""Readers that turn a data file into raw arrays: coordinates, quantities and a layout.
+"""Readers that turn a data file into raw arrays: CSV, NumPy .npz and VTK/VTU meshes here, NetCDF in
+core.data.netcdf; ``read_raw`` picks the reader for a format.
 
 Each reader checks what it can about the file itself (coordinates present, finite and monotonic; arrays of
-the right shape; rows complete) and raises ``DataError`` naming the file and the problem. What the arrays
-mean for interpolation is decided in core.data.fields; name selection and renaming in core.data.sources.
-
-NetCDF is read in core.data.netcdf. Layouts: ``grid`` (1-D coordinates x (nx,), y (ny,) and arrays (ny, nx)), ``profile`` (one coordinate (n,)
-and arrays (n,), extended over the other variable), ``points`` (scattered x, y (n,) and arrays (n,)) and
-``mesh`` (points plus the file's own triangles (m, 3)).
+the right shape; rows complete) and raises ``DataError`` naming the file and the problem (layouts and the
+shared checks: core.data.raw). What the arrays mean for interpolation is decided in core.data.fields; name
+selection and renaming in core.data.sources.
 """
 
 from __future__ import annotations
@@ -15,59 +13,19 @@ import csv
 import io
 import math
 import zipfile
-from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["FORMATS", "DataError", "RawData", "checked_axis", "float_array", "format_for_path", "read_raw"]
+from core.data.netcdf import read_netcdf
+from core.data.raw import DataError, RawData, checked_axis, float_array
 
-# file extension -> format name
-FORMATS = {
-    ".csv": "csv",
-    ".npz": "npz",
-    ".nc": "netcdf",
-    ".nc4": "netcdf",
-    ".cdf": "netcdf",
-    ".netcdf": "netcdf",
-    ".vtu": "vtu",
-    ".vtk": "vtk",
-}
+__all__ = ["read_raw"]
+
 _MISSING_TEXT = {"", "nan", "na", "n/a", "null", "none", "-"}
-
-
-class DataError(ValueError):
-    """A data file cannot be used; the message names the file and says what is wrong with it."""
-
-
-@dataclass
-class RawData:
-    """What a reader found in a file, before names are chosen and fields are built (mutable scratch)."""
-
-    format: str
-    layout: str                                    # "grid" | "profile" | "points" | "mesh"
-    coordinates: tuple[np.ndarray, ...]            # grid: (x, y); profile: (s,); points/mesh: (x, y)
-    arrays: dict[str, np.ndarray]                  # name in the file -> float64 values
-    profile_axis: int | None = None                # profile: index of the variable it follows
-    triangles: np.ndarray | None = None            # mesh: (m, 3) vertex indices
-    units: dict[str, str] = field(default_factory=dict)
-    rejected: dict[str, str] = field(default_factory=dict)   # name in the file -> why it is unusable
-    notes: list[str] = field(default_factory=list)
-
-
-def format_for_path(path: str) -> str:
-    """The format name for ``path``'s extension; DataError for an unknown one."""
-    lowered = path.lower()
-    for extension, name in FORMATS.items():
-        if lowered.endswith(extension):
-            return name
-    known = ", ".join(sorted(FORMATS))
-    raise DataError(f"{path}: unknown file extension; Mixtype reads {known}")
 
 
 def read_raw(path: str, fmt: str, variables: tuple[str, str]) -> RawData:
     """Read ``path`` as format ``fmt`` for the two equation ``variables``."""
-    from core.data.netcdf import read_netcdf
-
     readers = {"csv": _read_csv, "npz": _read_npz, "netcdf": read_netcdf,
                "vtu": lambda p, v: _read_mesh(p, v, "vtu"), "vtk": lambda p, v: _read_mesh(p, v, "vtk")}
     if fmt not in readers:
@@ -76,44 +34,6 @@ def read_raw(path: str, fmt: str, variables: tuple[str, str]) -> RawData:
     raw.format = fmt
     return raw
 
-
-# -- coordinates -----------------------------------------------------------------------------------------
-def checked_axis(values: np.ndarray, name: str, path: str) -> tuple[np.ndarray, bool]:
-    """A 1-D coordinate as float64, increasing; returns (coordinate, reversed) or raises DataError.
-
-    Decreasing coordinates are accepted and reversed (the caller flips its arrays); repeated, unordered or
-    non-finite values are refused, because interpolation along them would be ambiguous.
-    """
-    values = np.asarray(values, dtype=np.float64)
-    if values.ndim != 1:
-        raise DataError(f"{path}: coordinate {name!r} must be 1-D, got shape {values.shape}")
-    if values.size < 2:
-        raise DataError(f"{path}: coordinate {name!r} needs at least 2 values, got {values.size}")
-    bad = np.flatnonzero(~np.isfinite(values))
-    if bad.size:
-        raise DataError(f"{path}: coordinate {name!r} has {bad.size} missing or non-finite value(s) "
-                        f"(first at index {bad[0]}: {values[bad[0]]}); coordinates must not have holes")
-    steps = np.diff(values)
-    if np.all(steps > 0):
-        return values, False
-    if np.all(steps < 0):
-        return values[::-1].copy(), True
-    kind = "repeats a value" if np.any(steps == 0) else "is not monotonic"
-    direction = np.sign(steps[0])
-    where = 1 if direction == 0 else int(np.flatnonzero(np.sign(steps) != direction)[0]) + 1
-    raise DataError(f"{path}: coordinate {name!r} {kind} ({name}[{where - 1}] = {values[where - 1]:g}, "
-                    f"{name}[{where}] = {values[where]:g}); coordinates must be strictly increasing or "
-                    f"strictly decreasing")
-
-
-def float_array(value, name: str, path: str) -> np.ndarray:
-    """``value`` (masked values become NaN) as float64; DataError if it does not hold numbers."""
-    array = np.asarray(value)
-    if np.ma.isMaskedArray(value):
-        array = np.ma.filled(np.ma.asarray(value).astype(np.float64), np.nan)
-    if array.dtype.kind not in "biuf":
-        raise DataError(f"{path}: array {name!r} holds {array.dtype} values, not numbers")
-    return np.asarray(array, dtype=np.float64)
 
 
 # -- CSV -------------------------------------------------------------------------------------------------
@@ -273,6 +193,8 @@ _IGNORED_CELLS = {"vertex", "line", "line3", "polyline"}
 def _read_mesh(path: str, variables: tuple[str, str], fmt: str = "vtu") -> RawData:
     """Point data on 2-D triangles or quads (quads split in two); the third coordinate is ignored."""
     # The format's own reader: meshio.read() prints and calls sys.exit() when a file cannot be read.
+    # Imported here, not at the top: meshio's VTU reader takes about 0.5 s to import (measured with
+    # python -X importtime) and only mesh files need it.
     from meshio import vtk, vtu
 
     try:

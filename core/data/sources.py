@@ -20,7 +20,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from core.data.fields import GridField, MeshField, ProfileField, triangulate_points
-from core.data.readers import FORMATS, DataError, RawData, format_for_path, read_raw
+from core.data.raw import FORMATS, DataError, RawData, format_for_path
+from core.data.readers import read_raw
 from core.equations.parser import ExpressionError, check_name, data_derivative_key
 
 __all__ = [

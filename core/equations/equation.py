@@ -20,6 +20,7 @@ import numpy as np
 import sympy
 
 from core.equations.parser import ExpressionError, check_name, data_derivative_key, parse_expression
+from core.equations.trade import check_trade_spec
 from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 
 __all__ = [
@@ -321,8 +322,6 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
 
 def _check_readouts(equation: Equation, known: set[str]) -> None:
     """The trade spec and the peak quantity must name values the equation has."""
-    from core.equations.trade import check_trade_spec  # trade depends on nothing here; imported late to keep this light
-
     if equation.trade:
         try:
             check_trade_spec(equation.trade)

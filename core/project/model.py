@@ -19,7 +19,7 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.data.readers import FORMATS
+from core.data.raw import FORMATS
 from core.analysis.domain import Domain
 from core.analysis.tracing import seeds_along_segment
 from core.equations.equation import COEFFICIENT_NAMES, Equation

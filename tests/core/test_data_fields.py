@@ -193,7 +193,7 @@ def test_concurrent_sampling_gives_the_serial_results():
 
 
 def test_delaunay_of_scattered_points_and_degenerate_input():
-    from core.data.readers import DataError
+    from core.data.raw import DataError
 
     rng = np.random.default_rng(2)
     x, y = rng.uniform(0, 1, 200), rng.uniform(0, 1, 200)
