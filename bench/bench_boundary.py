@@ -39,6 +39,9 @@ def _radius_error(curves, attribute: str) -> float:
     return float(np.max(np.abs(np.hypot(points[:, 0], points[:, 1]) - 1.0)))
 
 
+SMOKE = {"nodes": 48}     # python bench/run.py --smoke: every line runs, figures meaningless
+
+
 def run(nodes: int = NODES) -> dict:
     """Measure on a nodes x nodes grid over [-2, 2]^2; returns the figures as a dict."""
     domain = Domain(-2.0, 2.0, -2.0, 2.0, nodes, nodes)

@@ -55,6 +55,9 @@ def _baseline(equation: Equation, domain: Domain):
     return run
 
 
+SMOKE = {"sizes": (48,), "repeats": 1}     # python bench/run.py --smoke: every line runs, figures meaningless
+
+
 def run(sizes=(2048, 4096), repeats: int = 3) -> dict:
     results: dict = {}
     for n in sizes:

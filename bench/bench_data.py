@@ -26,6 +26,9 @@ from core.equations.templates import load_template
 DATA = pathlib.Path(__file__).resolve().parents[1] / "resources" / "demo" / "data"
 
 
+SMOKE = {"n": 48}     # python bench/run.py --smoke: every line runs, figures meaningless
+
+
 def run(n: int = 1024) -> dict:
     domain = Domain(-3.0, 3.0, 0.0, 3.0, n, n // 2)
     xx, yy = np.meshgrid(domain.x_nodes, domain.y_nodes)

@@ -106,6 +106,9 @@ def _scipy_curves(compiled, curves, rtol: float):
     return max(errors), count
 
 
+SMOKE = {"n_seeds": 4, "baseline_curves": 4}     # python bench/run.py --smoke: every line runs
+
+
 def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 20240611) -> dict:
     """Time both tracers on 2 * n_seeds curves; returns the figures as a dict (see module docstring)."""
     compiled = compile_equation(Equation(a="y", b="0", c="1", name="Tricomi"))
