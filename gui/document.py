@@ -1,9 +1,9 @@
 """The open study as a QObject: applies edits as undoable commands and says precisely what changed.
 
 The document owns a ``core.project.model.Project`` (its data file paths absolute, see gui.project_bridge). Every
-edit builds a new Project and pushes a command holding the states before and after. Commands that share
-a merge key (one slider drag, one burst of typing in one field) merge into one undo step. After each change the
-document compares old and new and emits only the signals that apply, once each.
+edit builds a new Project and pushes a command holding the states before and after (gui.project_edits).
+Commands that share a merge key (one slider drag, one burst of typing in one field) merge into one undo step.
+After each change the document emits only the signals that apply, once each.
 """
 
 from __future__ import annotations
@@ -13,18 +13,19 @@ from dataclasses import replace
 from pathlib import Path
 
 from PySide6.QtCore import QObject, Signal, Slot
-from PySide6.QtGui import QUndoCommand, QUndoStack
+from PySide6.QtGui import QUndoStack
 
 from core.analysis.domain import Domain
 from core.equations.equation import CompiledEquation, Equation, Parameter
 from core.equations.parser import ExpressionError
-from core.project.model import Pin, Project, Seed
 from core.project.data_files import compile_with_data
+from core.project.model import Pin, Project, Seed
+from core.project.names import free_name
+from gui.project_edits import ProjectEdit, changed_parts
 
 __all__ = ["LAYER_FIELDS", "LAYER_LABELS", "UNDO_LIMIT", "Document"]
 
 UNDO_LIMIT = 500
-_MERGEABLE_ID = 4711
 
 # The map's layers as the window names them, in the order the layers panel lists them, with the
 # ViewSettings switch each one sets.
@@ -46,51 +47,6 @@ LAYER_FIELDS = {
     "seeds": "show_seed_segments",
     "legend": "show_legend",
 }
-
-
-class _ProjectEdit(QUndoCommand):
-    """One edit: the project before and after. Edits with the same non-empty merge key merge into one."""
-
-    def __init__(self, document: Document, before: Project, after: Project, text: str, merge_key: str) -> None:
-        super().__init__(text)
-        self.document = document
-        self.before = before
-        self.after = after
-        self.merge_key = merge_key
-
-    def id(self) -> int:
-        return _MERGEABLE_ID if self.merge_key else -1
-
-    def mergeWith(self, other: QUndoCommand) -> bool:
-        if not isinstance(other, _ProjectEdit) or other.merge_key != self.merge_key:
-            return False
-        self.after = other.after
-        return True
-
-    def redo(self) -> None:
-        self.document._apply(self.after)
-
-    def undo(self) -> None:
-        self.document._apply(self.before)
-
-
-def _structure(equation: Equation) -> tuple:
-    """Everything about an equation except parameter values: a change here needs a new compilation."""
-    parameters = tuple((n, p.minimum, p.maximum, p.unit, p.description) for n, p in equation.parameters.items())
-    trade = tuple((kind, tuple(inputs.items())) for kind, inputs in equation.trade.items())
-    return (equation.a, equation.b, equation.c, tuple(equation.variables),
-            tuple(equation.definitions.items()), parameters, equation.name, equation.description, trade,
-            equation.peak_quantity)
-
-
-def _free_name(name: str, taken: list[str]) -> str:
-    """``name``, or ``name (2)``, ``name (3)``... whichever is not taken yet."""
-    if name not in taken:
-        return name
-    number = 2
-    while f"{name} ({number})" in taken:
-        number += 1
-    return f"{name} ({number})"
 
 
 class Document(QObject):
@@ -260,7 +216,7 @@ class Document(QObject):
         """Push an undoable change to ``after``; nothing happens (False) when it equals the current project."""
         if after == self._project:
             return False
-        self.undo_stack.push(_ProjectEdit(self, self._project, after, text, merge_key))
+        self.undo_stack.push(ProjectEdit(self, self._project, after, text, merge_key))
         return True
 
     def set_equation(self, equation: Equation, text: str = "Edit equation", *, merge_key: str = "") -> bool:
@@ -307,7 +263,7 @@ class Document(QObject):
         too: a domain of the project with the same bounds when there is one, else ``domain`` itself, added
         (renamed if needed). None keeps the shown domain."""
         project = self._project
-        equation = replace(equation, name=_free_name(equation.name, list(project.equation_names)))
+        equation = replace(equation, name=free_name(equation.name, project.equation_names))
         project = project.with_equation(equation).with_shown(equation=equation.name)
         if domain is not None:
             bounds = (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
@@ -315,13 +271,23 @@ class Document(QObject):
             if same:
                 project = project.with_shown(domain=same[0])
             else:
-                domain = replace(domain, name=_free_name(domain.name, list(project.domain_names)))
+                domain = replace(domain, name=free_name(domain.name, project.domain_names))
                 project = project.with_domain(domain).with_shown(domain=domain.name)
         return self.edit(project, text)
 
     def add_domain(self, domain: Domain) -> bool:
         project = self._project.with_domain(domain).with_shown(domain=domain.name)
         return self.edit(project, f"Add domain {domain.name}")
+
+    def duplicate_equation(self) -> bool:
+        """Add a copy of the shown equation under a free name ("name (2)", ...) and show it."""
+        equation = self.equation
+        return self.add_equation(replace(equation, name=free_name(equation.name, self._project.equation_names)))
+
+    def duplicate_domain(self) -> bool:
+        """Add a copy of the shown domain under a free name ("name (2)", ...) and show it."""
+        domain = self.domain
+        return self.add_domain(replace(domain, name=free_name(domain.name, self._project.domain_names)))
 
     def add_pin(self, x: float, y: float, label: str = "") -> bool:
         label = label or f"P{len(self._project.pins) + 1}"
@@ -391,25 +357,7 @@ class Document(QObject):
 
     # -- change notification --------------------------------------------------------------------------------
     def _apply(self, after: Project) -> None:
+        """Make ``after`` the project (an undo command's do or undo) and emit the signals the change calls for."""
         before, self._project = self._project, after
-        (old_eq, old_domain), (new_eq, new_domain) = before.shown(), after.shown()
-        if before.shown_equation_index != after.shown_equation_index or _structure(old_eq) != _structure(new_eq):
-            self.equation_changed.emit()
-        elif old_eq.parameters != new_eq.parameters:
-            self.parameters_changed.emit()
-        if len(before.equations) != len(after.equations) or len(before.domains) != len(after.domains) \
-                or [e.name for e in before.equations] != [e.name for e in after.equations] \
-                or [d.name for d in before.domains] != [d.name for d in after.domains]:
-            self.equations_listed.emit()
-        if old_domain != new_domain or before.view.parabolic_tolerance != after.view.parabolic_tolerance:
-            self.domain_changed.emit()
-        if before.pins != after.pins:
-            self.pins_changed.emit()
-        if before.seeds != after.seeds:
-            self.seeds_changed.emit()
-        if replace(before.view, parabolic_tolerance=0.0) != replace(after.view, parabolic_tolerance=0.0):
-            self.layers_changed.emit()
-        if before.notes != after.notes:
-            self.notes_changed.emit()
-        if before.data_sources != after.data_sources:
-            self.data_sources_changed.emit()
+        for part in changed_parts(before, after):
+            getattr(self, part).emit()

@@ -3,23 +3,12 @@
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
-from PySide6.QtWidgets import (
-    QComboBox,
-    QFormLayout,
-    QHBoxLayout,
-    QLabel,
-    QLineEdit,
-    QPushButton,
-    QSpinBox,
-    QVBoxLayout,
-    QWidget,
-)
+from PySide6.QtWidgets import QComboBox, QFormLayout, QLabel, QLineEdit, QSpinBox, QVBoxLayout, QWidget
 
 from core.analysis.domain import MAX_GRID, MIN_GRID, Domain
 from gui.document import Document
-from gui.widgets import copy_name
+from gui.widgets import chooser_row, error_label, purpose_label, push_button, show_choices, show_error
 
 __all__ = ["DomainPanel"]
 
@@ -30,21 +19,15 @@ class DomainPanel(QWidget):
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.document = document
-        purpose = QLabel("The rectangle that is classified, in the equation's own length units, and the "
-                         "number of grid nodes across it (more nodes: finer zones, slower maps).")
-        purpose.setWordWrap(True)
-        purpose.setObjectName("panelPurpose")
+        purpose = purpose_label("The rectangle that is classified, in the equation's own length units, and "
+                                "the number of grid nodes across it (more nodes: finer zones, slower maps).")
 
         self.choice = QComboBox()
         self.choice.setToolTip("Which of the study's domains is shown")
         self.choice.activated.connect(self.document.show_domain)
-        add = QPushButton("Duplicate")
-        add.setToolTip("Add a copy of this domain to the study and show it")
-        add.clicked.connect(self._duplicate)
-        row = QHBoxLayout()
-        row.addWidget(QLabel("Domain:"))
-        row.addWidget(self.choice, 1)
-        row.addWidget(add)
+        self.duplicate_button = push_button("Duplicate", "Add a copy of this domain to the study and show it",
+                                            self.document.duplicate_domain)
+        row = chooser_row("Domain:", self.choice, self.duplicate_button)
 
         self.name = QLineEdit()
         self.name.setToolTip("A name for this domain")
@@ -79,10 +62,7 @@ class DomainPanel(QWidget):
                                   "dimensionless number (0 up to, not including, 1)")
         self.tolerance.editingFinished.connect(self._apply_tolerance)
         form.addRow("parabolic tolerance", self.tolerance)
-        self.error = QLabel()
-        self.error.setStyleSheet("color: #B00020;")
-        self.error.setWordWrap(True)
-        self.error.setVisible(False)
+        self.error = error_label()
 
         layout = QVBoxLayout(self)
         layout.addWidget(purpose)
@@ -101,9 +81,7 @@ class DomainPanel(QWidget):
         domain = self.document.domain
         self._updating = True
         try:
-            self.choice.clear()
-            self.choice.addItems(list(project.domain_names))
-            self.choice.setCurrentIndex(project.shown_domain_index)
+            show_choices(self.choice, project.domain_names, project.shown_domain_index)
             self.name.setText(domain.name)
             for key, edit in self.bounds.items():
                 edit.setText(f"{getattr(domain, key):.10g}")
@@ -139,15 +117,9 @@ class DomainPanel(QWidget):
             domain = Domain(values["xmin"], values["xmax"], values["ymin"], values["ymax"],
                             self.nodes["nx"].value(), self.nodes["ny"].value(),
                             self.name.text().strip() or "domain")
+            self.document.set_domain(domain)  # ValueError for a name another domain of the project has
         except ValueError as error:
-            self.error.setText(str(error))
-            self.error.setVisible(True)
-            return
-        try:
-            self.document.set_domain(domain)
-        except ValueError as error:  # a name another domain of the project has
-            self.error.setText(str(error))
-            self.error.setVisible(True)
+            show_error(self.error, str(error))
             return
         self.error.setVisible(False)
 
@@ -157,12 +129,6 @@ class DomainPanel(QWidget):
         try:
             self.document.set_tolerance(float(self.tolerance.text()))
         except ValueError as error:
-            self.error.setText(f"parabolic tolerance: {error}")
-            self.error.setVisible(True)
+            show_error(self.error, f"parabolic tolerance: {error}")
             return
         self.error.setVisible(False)
-
-    def _duplicate(self) -> None:
-        domain = self.document.domain
-        taken = {d.name for d in self.document.project.domains}
-        self.document.add_domain(replace(domain, name=copy_name(domain.name, taken)))

@@ -1,16 +1,21 @@
-"""Small widget helpers shared by the panels: buttons with tooltips, button rows, names for copies."""
+"""Small widget helpers shared by the panels: buttons with tooltips, button rows, purpose and error labels,
+the row that chooses one of the study's equations or domains."""
 
 from __future__ import annotations
 
-from collections.abc import Callable, Collection
+from collections.abc import Callable, Sequence
 
-from PySide6.QtWidgets import QHBoxLayout, QPushButton
+from PySide6.QtCore import SignalInstance
+from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QPushButton
 
-__all__ = ["button_row", "copy_name", "push_button"]
+__all__ = ["ERROR_STYLE", "button_row", "chooser_row", "error_label", "purpose_label", "push_button",
+           "show_choices", "show_error"]
+
+ERROR_STYLE = "color: #B00020;"
 
 
-def push_button(text: str, tooltip: str, slot: Callable[[], object]) -> QPushButton:
-    """A push button with its tooltip, calling ``slot`` when clicked."""
+def push_button(text: str, tooltip: str, slot: Callable[[], object] | SignalInstance) -> QPushButton:
+    """A push button with its tooltip, calling ``slot`` (or emitting that signal) when clicked."""
     button = QPushButton(text)
     button.setToolTip(tooltip)
     button.clicked.connect(slot)
@@ -26,9 +31,43 @@ def button_row(*buttons: QPushButton) -> QHBoxLayout:
     return row
 
 
-def copy_name(name: str, taken: Collection[str]) -> str:
-    """'name (2)', 'name (3)', ...: the first such name not in ``taken`` (names stay unique in a project)."""
-    number = 2
-    while f"{name} ({number})" in taken:
-        number += 1
-    return f"{name} ({number})"
+def chooser_row(label: str, choice: QComboBox, *buttons: QPushButton) -> QHBoxLayout:
+    """``label``, the combo box taking the spare width, then the buttons: picks one item of the study."""
+    row = QHBoxLayout()
+    row.addWidget(QLabel(label))
+    row.addWidget(choice, 1)
+    for button in buttons:
+        row.addWidget(button)
+    return row
+
+
+def show_choices(choice: QComboBox, names: Sequence[str], current: int) -> None:
+    """List ``names`` in ``choice`` with the one at ``current`` selected, without emitting its signals."""
+    choice.blockSignals(True)
+    choice.clear()
+    choice.addItems(list(names))
+    choice.setCurrentIndex(current)
+    choice.blockSignals(False)
+
+
+def purpose_label(text: str) -> QLabel:
+    """The wrapped line at the top of a panel saying what the panel is for."""
+    label = QLabel(text)
+    label.setWordWrap(True)
+    label.setObjectName("panelPurpose")
+    return label
+
+
+def error_label() -> QLabel:
+    """A hidden, wrapped label for what is wrong with a field; ``show_error`` fills and shows it."""
+    label = QLabel()
+    label.setStyleSheet(ERROR_STYLE)
+    label.setWordWrap(True)
+    label.setVisible(False)
+    return label
+
+
+def show_error(label: QLabel, text: str) -> None:
+    """Show ``text`` in ``label``, or hide the label when ``text`` is empty."""
+    label.setText(text)
+    label.setVisible(bool(text))

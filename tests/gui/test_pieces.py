@@ -88,7 +88,7 @@ def test_layer_switches_follow_the_document(make_window):
 def test_a_domain_name_another_domain_has_is_refused_with_a_message(make_window):
     window = make_window(tricomi_project(21))
     panel = window.domain_panel
-    panel._duplicate()
+    panel.duplicate_button.click()
     assert window.document.project.domain_names == ("square", "square (2)")
     panel.name.setText("square")
     panel.apply()

@@ -1,0 +1,110 @@
+"""One slider per ranged parameter of the shown equation: dragging one moves the zones on the map live.
+
+A parameter with a minimum below its maximum gets a slider of ``SLIDER_STEPS`` steps across that range and a
+label with its value and unit. A whole drag is one undo step (one merge key from press to release); the
+drag signals let the map switch to its faster drag mode.
+"""
+
+from __future__ import annotations
+
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import QGridLayout, QLabel, QSlider, QWidget
+
+from core.equations.equation import Equation, Parameter
+from gui.document import Document
+
+__all__ = ["SLIDER_STEPS", "ParameterSliders", "slider_position", "value_text"]
+
+SLIDER_STEPS = 1000
+
+
+def value_text(parameter: Parameter) -> str:
+    """The value beside a slider, with its unit or "dimensionless"."""
+    unit = parameter.unit or "dimensionless"
+    return f"{parameter.value:.4g} ({unit})"
+
+
+def slider_position(parameter: Parameter) -> int:
+    """Where the value sits on its slider, 0 to SLIDER_STEPS (clamped to the range)."""
+    span = parameter.maximum - parameter.minimum
+    fraction = (parameter.value - parameter.minimum) / span if span > 0 else 0.0
+    return round(min(1.0, max(0.0, fraction)) * SLIDER_STEPS)
+
+
+def _has_range(parameter: Parameter) -> bool:
+    return parameter.minimum is not None and parameter.maximum is not None \
+        and parameter.minimum < parameter.maximum
+
+
+class ParameterSliders(QWidget):
+    """The sliders of the shown equation's ranged parameters, by name in ``sliders`` and ``slider_values``."""
+
+    drag_started = Signal()
+    drag_finished = Signal()
+
+    def __init__(self, document: Document, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.document = document
+        self._drag_key = ""
+        self.grid = QGridLayout(self)
+        self.grid.setContentsMargins(0, 0, 0, 0)
+        self.sliders: dict[str, QSlider] = {}
+        self.slider_values: dict[str, QLabel] = {}
+
+    def rebuild(self, equation: Equation) -> None:
+        """One row (name, slider, value) per ranged parameter of ``equation``, replacing the old rows."""
+        while self.grid.count():
+            widget = self.grid.takeAt(0).widget()
+            if widget is not None:
+                widget.deleteLater()
+        self.sliders.clear()
+        self.slider_values.clear()
+        row = 0
+        for name, parameter in equation.parameters.items():
+            if not _has_range(parameter):
+                continue
+            slider = QSlider(Qt.Orientation.Horizontal)
+            slider.setObjectName(f"slider_{name}")
+            slider.setRange(0, SLIDER_STEPS)
+            slider.setValue(slider_position(parameter))
+            slider.setToolTip(f"{name} from {parameter.minimum:g} to {parameter.maximum:g}"
+                              f"{' ' + parameter.unit if parameter.unit else ' (dimensionless)'}"
+                              f"{': ' + parameter.description if parameter.description else ''}")
+            slider.sliderPressed.connect(lambda name=name: self._pressed(name))
+            slider.sliderReleased.connect(self._released)
+            slider.valueChanged.connect(lambda position, name=name: self._moved(name, position))
+            value = QLabel(value_text(parameter))
+            value.setMinimumWidth(120)
+            self.grid.addWidget(QLabel(name), row, 0)
+            self.grid.addWidget(slider, row, 1)
+            self.grid.addWidget(value, row, 2)
+            self.sliders[name] = slider
+            self.slider_values[name] = value
+            row += 1
+
+    def show_values(self, equation: Equation) -> None:
+        """Move the sliders (except one being dragged) and their labels to the values of ``equation``."""
+        for name, parameter in equation.parameters.items():
+            slider = self.sliders.get(name)
+            if slider is not None and not slider.isSliderDown():
+                slider.blockSignals(True)
+                slider.setValue(slider_position(parameter))
+                slider.blockSignals(False)
+            if name in self.slider_values:
+                self.slider_values[name].setText(value_text(parameter))
+
+    def _pressed(self, name: str) -> None:
+        self._drag_key = self.document.new_merge_key(f"slider {name}")
+        self.drag_started.emit()
+
+    def _released(self) -> None:
+        self._drag_key = ""
+        self.drag_finished.emit()
+
+    def _moved(self, name: str, position: int) -> None:
+        parameter = self.document.equation.parameters.get(name)
+        if parameter is None or parameter.minimum is None or parameter.maximum is None:
+            return
+        value = parameter.minimum + (parameter.maximum - parameter.minimum) * position / SLIDER_STEPS
+        key = self._drag_key or self.document.new_merge_key(f"slider {name}")
+        self.document.set_parameter_value(name, value, merge_key=key)
