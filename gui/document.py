@@ -216,7 +216,7 @@ class Document(QObject):
         """Push an undoable change to ``after``; nothing happens (False) when it equals the current project."""
         if after == self._project:
             return False
-        self.undo_stack.push(ProjectEdit(self, self._project, after, text, merge_key))
+        self.undo_stack.push(ProjectEdit(self._apply, self._project, after, text, merge_key))
         return True
 
     def set_equation(self, equation: Equation, text: str = "Edit equation", *, merge_key: str = "") -> bool:

@@ -8,16 +8,13 @@ real change.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import replace
-from typing import TYPE_CHECKING
 
 from PySide6.QtGui import QUndoCommand
 
 from core.equations.equation import Equation
 from core.project.model import Project
-
-if TYPE_CHECKING:
-    from gui.document import Document
 
 __all__ = ["ProjectEdit", "changed_parts", "equation_structure"]
 
@@ -25,11 +22,15 @@ _MERGEABLE_ID = 4711
 
 
 class ProjectEdit(QUndoCommand):
-    """One edit: the project before and after. Edits with the same non-empty merge key merge into one."""
+    """One edit: the project before and after. Edits with the same non-empty merge key merge into one.
 
-    def __init__(self, document: Document, before: Project, after: Project, text: str, merge_key: str) -> None:
+    ``apply`` puts a project in place (the document's); undo applies ``before``, redo ``after``.
+    """
+
+    def __init__(self, apply: Callable[[Project], None], before: Project, after: Project, text: str,
+                 merge_key: str) -> None:
         super().__init__(text)
-        self.document = document
+        self.apply = apply
         self.before = before
         self.after = after
         self.merge_key = merge_key
@@ -44,10 +45,10 @@ class ProjectEdit(QUndoCommand):
         return True
 
     def redo(self) -> None:
-        self.document._apply(self.after)
+        self.apply(self.after)
 
     def undo(self) -> None:
-        self.document._apply(self.before)
+        self.apply(self.before)
 
 
 def equation_structure(equation: Equation) -> tuple:
