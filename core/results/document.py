@@ -193,7 +193,7 @@ def results_document(*, equation, domain, parameters: Mapping[str, float], toler
                      unsaved_changes: bool = False, include_codes: bool = True) -> dict:
     """Everything computed for one equation on one domain: the classify fields, the pins as probe prints
     them, the seeds as trace prints them, the study (version, equation, parameters, tolerance, data files)
-    and the project file with its checksum.
+    and the project file (``source``, as the CLI prints it for a FILE) with its checksum.
 
     ``probes`` and ``trades`` run parallel to ``pins`` (shorter or None where not computed); ``traced`` holds
     (seed, curves) pairs. ``unsaved_changes`` says the study differs from the file the checksum is of.
@@ -209,6 +209,7 @@ def results_document(*, equation, domain, parameters: Mapping[str, float], toler
     document["seeds"] = [seed_document(seed, seed.points(), curves) for seed, curves in traced]
     document["data"] = data_files_document(data)
     document["source"] = {"file": None if project_file is None else os.fspath(project_file),
-                          "equation": equation.name, "domain": domain.name,
-                          "checksum": project_file_checksum(project_file), "unsaved_changes": bool(unsaved_changes)}
+                          "equation": equation.name, "domain": domain.name}
+    document["project_checksum"] = project_file_checksum(project_file)
+    document["unsaved_changes"] = bool(unsaved_changes)
     return document
