@@ -23,6 +23,7 @@ from core.project.model import Pin, Seed, new_project
 from core.results.document import map_fields, results_document, type_labels
 from core.results.readouts import peak_quantity, read_trade
 from core.results.tables import pin_columns, pin_rows, pocket_columns, pocket_rows, write_csv
+from tests.core.cli_runner import run, run_json
 
 TRICOMI = Equation(a="y", b="0", c="1", name="Tricomi", peak_quantity="a")
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 21, 21, name="square")
@@ -169,3 +170,14 @@ def test_peak_quantity_must_be_something_pockets_can_read():
     stranger = Equation("1", "0", "1", peak_quantity="depth")
     assert peak_quantity(stranger, compiled) is None
     assert peak_quantity(stranger, compiled, ("depth",)) == "depth"
+
+
+def test_cli_probe_says_why_trade_values_are_missing():
+    # Inside the bump of the full-potential template the velocity is undefined (see its description).
+    document = run_json("probe", "--template", "full_potential", "--at", "0", "0.5")
+    assert document["trade"]["mach"] is None and document["type"] == "undefined"
+    assert document["trade_note"] == "undefined here (u, v, c2 are not a finite number at this point)"
+    status, out, _ = run("probe", "--template", "full_potential", "--at", "0", "0.5")
+    assert status == 0 and "trade note            undefined here (u, v, c2" in out
+    crest = run_json("probe", "--template", "full_potential", "--at", "0", "1.0")
+    assert crest["trade"]["mach"] > 1.0 and "trade_note" not in crest
