@@ -5,12 +5,11 @@ a new type map (then its type-change lines and its hyperbolic pockets), characte
 (with the trade quantities of the equation) for the pins, and the hover readout. Every computation uses the
 document's background data. Requests made in one pass of the event loop are coalesced. Every number comes
 from core (classify_grid, find_type_boundaries, pocket_statistics, trace_characteristics, probe_point,
-readout_at); this module only schedules.
+read_trade, peak_quantity); this module only schedules.
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -24,11 +23,11 @@ from core.analysis.pockets import label_pockets, pocket_statistics
 from core.analysis.probe import probe_point
 from core.progress import Cancelled
 from core.project.model import Seed
-from core.equations.trade import point_values, readout_at
+from core.results.readouts import TradeReading, peak_quantity, read_trade
 from gui.document import Document
 from gui.jobs import JobRunner
 
-__all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "trade_at"]
+__all__ = ["HoverReading", "PocketReport", "StudyAnalysis", "TracedSeed", "shown_trade", "trade_at"]
 
 
 @dataclass(frozen=True)
@@ -62,23 +61,15 @@ class PocketReport:
     quantity: str | None
 
 
+def shown_trade(reading: TradeReading) -> dict | str:
+    """How the panels show a core.results.readouts.TradeReading: the readout dict ({} without a trade spec), or
+    the one-line reason (str) when it cannot be read there."""
+    return reading.problem or dict(reading.values)
+
+
 def trade_at(equation, compiled, x: float, y: float, *, parameters, data) -> dict | str:
-    """core.equations.trade.readout_at for the equation's trade spec at one point: {} without a spec, the readout
-    dict, or a one-line reason (str) when it cannot be read there (an input is undefined at the point)."""
-    if not equation.trade:
-        return {}
-    try:
-        with np.errstate(all="ignore"):
-            values = point_values(compiled, x, y, parameters=parameters, data=data,
-                                  extra_data=tuple(sorted(set(getattr(data, "names", ())))))
-            sources = dict.fromkeys(s for inputs in equation.trade.values() for s in inputs.values())
-            undefined = [name for name in sources if name in values and not math.isfinite(values[name])]
-            if undefined:
-                verb = "is" if len(undefined) == 1 else "are"
-                return f"undefined here ({', '.join(undefined)} {verb} not a finite number at this point)"
-            return readout_at(equation.trade, compiled, x, y, parameters=parameters, data=data)
-    except (KeyError, ValueError, TypeError) as error:
-        return f"unavailable: {str(error).strip(chr(39))}"
+    """The equation's trade readout at one point as the panels show it (core.results.readouts.read_trade)."""
+    return shown_trade(read_trade(equation.trade, compiled, x, y, parameters=parameters, data=data))
 
 
 _LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",
@@ -93,7 +84,7 @@ class StudyAnalysis(QObject):
     lines_ready = Signal(object)            # core.analysis.type_change_lines.TypeBoundaries, or None when unavailable
     characteristics_ready = Signal(object)  # tuple[TracedSeed, ...]
     probes_ready = Signal(object)           # tuple[ProbeResult, ...], one per pin
-    trade_ready = Signal(object)            # tuple[dict | str, ...], one trade readout per pin (see trade_at)
+    trade_ready = Signal(object)            # tuple[dict | str, ...], one trade readout per pin (see shown_trade)
     pockets_ready = Signal(object)          # PocketReport, or None while none is known
     hover_ready = Signal(object)            # HoverReading
     message = Signal(str)                   # something the user should read (errors, missing parts)
@@ -108,6 +99,7 @@ class StudyAnalysis(QObject):
         self.traced: tuple[TracedSeed, ...] = ()
         self.probes: tuple = ()
         self.trade_readouts: tuple = ()
+        self.trade_readings: tuple[TradeReading, ...] = ()
         self.pockets: PocketReport | None = None
         self._wanted: set[str] = set()
         self._timer = QTimer(self)
@@ -198,9 +190,7 @@ class StudyAnalysis(QObject):
             # Like the lines: during a slider drag the table would flicker; end_drag measures the final map.
             self.runner.cancel("pockets")
             return
-        wanted = self.document.equation.peak_quantity
-        known = (*compiled.definition_order, "a", "b", "c", *self.document.data_names)
-        quantity = wanted if wanted in known else None
+        quantity = peak_quantity(self.document.equation, compiled, self.document.data_names)
         parameters = dict(type_map.parameters)
         data = self.document.data
 
@@ -244,6 +234,7 @@ class StudyAnalysis(QObject):
         if not pins:
             self.probes = ()
             self.trade_readouts = ()
+            self.trade_readings = ()
             self.runner.cancel("probes")
             self.probes_ready.emit(())
             self.trade_ready.emit(())
@@ -259,7 +250,7 @@ class StudyAnalysis(QObject):
                     raise Cancelled("probes cancelled")
                 results.append(probe_point(compiled, pin.x, pin.y, parameters=parameters, data=data,
                                                   tolerance=tolerance, domain=domain))
-                trades.append(trade_at(equation, compiled, pin.x, pin.y, parameters=parameters, data=data))
+                trades.append(read_trade(equation.trade, compiled, pin.x, pin.y, parameters=parameters, data=data))
             return tuple(results), tuple(trades)
 
         self.runner.request("probes", work, label=_LABELS["probes"])
@@ -299,7 +290,8 @@ class StudyAnalysis(QObject):
             self.traced = result
             self.characteristics_ready.emit(result)
         elif channel == "probes":
-            self.probes, self.trade_readouts = result
+            self.probes, self.trade_readings = result
+            self.trade_readouts = tuple(shown_trade(reading) for reading in self.trade_readings)
             self.trade_ready.emit(self.trade_readouts)
             self.probes_ready.emit(self.probes)
         elif channel == "pockets":

@@ -1,8 +1,9 @@
 """Mixtype's main window: the map in the middle, the equation and domain on the left, pins and layers right.
 
-Wires the document (edits, undo), the analysis (background results) and the widgets together, and owns the
-file commands: new, open, recent files, save, autosave with crash recovery, exports. Dialogs go through small
-``ask_*`` / ``choose_*`` methods so tests can answer them.
+Lays out the widgets and wires the document (edits, undo), the analysis (background results) and the widgets
+together. Its commands live beside it: gui.file_commands (new, open, recent, save, autosave, recovery),
+gui.export_commands (pictures, CSV tables, the results document) and gui.window_menus (menus, shortcuts).
+Dialogs go through small ``ask_*`` / ``choose_*`` methods so tests can answer them.
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ from dataclasses import replace
 from pathlib import Path
 
 from PySide6.QtCore import Qt, QTimer
-from PySide6.QtGui import QAction, QCloseEvent, QKeySequence
+from PySide6.QtGui import QCloseEvent
 from PySide6.QtWidgets import (
     QApplication,
     QDockWidget,
@@ -25,26 +26,16 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.analysis.probe import probe_to_dict
-from core.project.model import Project, Seed
-from core.results.tables import (
-    BOUNDARY_COLUMNS,
-    CHARACTERISTIC_COLUMNS,
-    boundary_rows,
-    characteristic_rows,
-    pin_rows,
-    results_dict,
-    write_csv,
-    write_json,
-)
 from core.equations.templates import TemplateError, load_template
+from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.data_panel import DataPanel
 from gui.document import Document
 from gui.domain_panel import DomainPanel
 from gui.equation_panel import EquationPanel
-from gui.export import PICTURE_FILTER, export_picture
+from gui.export_commands import ExportCommands
+from gui.file_commands import FileCommands
 from gui.jobs import JobRunner
 from gui.layers_panel import LayersPanel
 from gui.map_view import MAX_STRETCH, MapView
@@ -52,14 +43,9 @@ from gui.notes_panel import NotesPanel
 from gui.pins_panel import PinsPanel, main_trade_text
 from gui.pockets_panel import PocketsPanel
 from gui.preferences import Preferences
-from gui.project_bridge import (
-    PROJECT_FILTER,
-    ProjectFileError,
-    open_project_file,
-    save_project_file,
-    scratch_project,
-)
+from gui.project_bridge import scratch_project
 from gui.template_dialog import TemplateChoice, TemplateDialog
+from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
 
@@ -73,7 +59,7 @@ ABOUT_TEXT = ("<h3>Mixtype</h3><p>Maps where a second-order equation a u<sub>xx<
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add")
 
 
-class MainWindow(QMainWindow):
+class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
     """The whole study window. ``synchronous`` computes on the calling thread (tests, headless render)."""
 
     def __init__(self, project: Project | None = None, *, path: str | Path | None = None,
@@ -171,82 +157,6 @@ class MainWindow(QMainWindow):
                          | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
         self.addDockWidget(area, dock)
         return dock
-
-    def _action(self, text: str, slot, *, shortcut=None, tip: str = "") -> QAction:
-        action = QAction(text, self)
-        if shortcut is not None:
-            action.setShortcut(QKeySequence(shortcut))
-        if tip:
-            action.setToolTip(tip)
-            action.setStatusTip(tip)
-        action.triggered.connect(lambda checked=False: slot())
-        return action
-
-    def _build_actions(self) -> None:
-        keys = QKeySequence.StandardKey
-        menu = self.menuBar().addMenu("&File")
-        self.new_action = self._action("&New study", self.new_study, shortcut=keys.New,
-                                       tip="Start a new study from the built-in example")
-        self.open_action = self._action("&Open…", self.open_dialog, shortcut=keys.Open, tip="Open a study file")
-        self.save_action = self._action("&Save", self.save, shortcut=keys.Save, tip="Save the study")
-        self.save_as_action = self._action("Save &as…", self.save_as, shortcut=keys.SaveAs,
-                                           tip="Save the study under a new name")
-        self.template_action = self._action("New &equation from template…", self.template_dialog,
-                                            shortcut="Ctrl+Shift+N",
-                                            tip="Add a ready-made equation of the trades to the study")
-        self.add_data_action = self._action("Add &data file…", self.add_data_dialog,
-                                            tip="Add a data file whose quantities equations can use")
-        menu.addActions([self.new_action, self.template_action, self.open_action])
-        self.recent_menu = menu.addMenu("Open &recent")
-        menu.addActions([self.save_action, self.save_as_action])
-        menu.addSeparator()
-        menu.addAction(self.add_data_action)
-        menu.addSeparator()
-        export = menu.addMenu("&Export")
-        self.export_picture_action = self._action("Map as picture (PNG, SVG, PDF)…", self.export_picture_dialog,
-                                                  shortcut="Ctrl+E", tip="Save the map with its legend")
-        export.addAction(self.export_picture_action)
-        export.addAction(self._action("Type-change lines as CSV…", lambda: self._export_table_dialog("lines")))
-        export.addAction(self._action("Characteristics as CSV…",
-                                      lambda: self._export_table_dialog("characteristics")))
-        export.addAction(self._action("Pins as CSV…", lambda: self._export_table_dialog("pins")))
-        export.addAction(self._action("Everything as JSON…", self._export_json_dialog))
-        menu.addSeparator()
-        menu.addAction(self._action("&Quit", self.close, shortcut=keys.Quit, tip="Close Mixtype"))
-
-        edit = self.menuBar().addMenu("&Edit")
-        self.undo_action = self.document.undo_stack.createUndoAction(self, "&Undo")
-        self.undo_action.setShortcut(QKeySequence(keys.Undo))
-        self.redo_action = self.document.undo_stack.createRedoAction(self, "&Redo")
-        self.redo_action.setShortcut(QKeySequence(keys.Redo))
-        edit.addActions([self.undo_action, self.redo_action])
-        edit.addSeparator()
-        edit.addAction(self._action("&Copy pin readouts", self.pins_panel.copy_text, shortcut=keys.Copy,
-                                    tip="Copy every pin's readout as text"))
-        edit.addAction(self._action("&Delete selected pin", self.pins_panel.delete_selected,
-                                    shortcut=keys.Delete))
-        edit.addAction(self._action("&Trace through selected pin", self.pins_panel.trace_selected,
-                                    shortcut="Ctrl+T", tip="Draw both characteristics through the pin"))
-        edit.addAction(self._action("Remove all characteristics", self.document.clear_seeds))
-
-        view = self.menuBar().addMenu("&View")
-        view.addAction(self._action("Zoom &in", lambda: self.map_view.view_box.scaleBy((0.8, 0.8)),
-                                    shortcut=keys.ZoomIn))
-        view.addAction(self._action("Zoom &out", lambda: self.map_view.view_box.scaleBy((1.25, 1.25)),
-                                    shortcut=keys.ZoomOut))
-        view.addAction(self._action("&Fit domain", self.map_view.fit_domain, shortcut="Ctrl+0"))
-        view.addSeparator()
-        view.addAction(self._action("&Recompute", self.analysis.refresh_all, shortcut=keys.Refresh))
-        self.cancel_action = self._action("&Cancel computation", self.cancel_work, shortcut=keys.Cancel)
-        view.addAction(self.cancel_action)
-        self.addAction(self.cancel_action)
-        view.addSeparator()
-        for dock in self.findChildren(QDockWidget):
-            view.addAction(dock.toggleViewAction())
-
-        help_menu = self.menuBar().addMenu("&Help")
-        help_menu.addAction(self._action("&About Mixtype", self.show_about, shortcut=keys.HelpContents))
-        self._refresh_recent_menu()
 
     def _connect(self) -> None:
         d, a, m = self.document, self.analysis, self.map_view
@@ -446,165 +356,7 @@ class MainWindow(QMainWindow):
             self.runner.cancel()
             self.statusBar().showMessage("Computation cancelled; the map shows the last finished result.", 6000)
 
-    # -- files ----------------------------------------------------------------------------------------------
-    def _update_title(self) -> None:
-        path = self.document.path
-        name = path.name if path else "untitled study"
-        self.setWindowTitle(f"{name}[*] — Mixtype")
-        self.setWindowModified(self.document.is_dirty)
-
-    def ask_unsaved(self) -> str:
-        """'save', 'discard' or 'cancel' for a study with unsaved changes."""
-        answer = QMessageBox.question(
-            self, "Unsaved changes", "The study has changes that are not saved. Save them first?",
-            QMessageBox.StandardButton.Save | QMessageBox.StandardButton.Discard
-            | QMessageBox.StandardButton.Cancel, QMessageBox.StandardButton.Save)
-        return {QMessageBox.StandardButton.Save: "save",
-                QMessageBox.StandardButton.Discard: "discard"}.get(answer, "cancel")
-
-    def ask_restore(self, path: Path) -> bool:
-        answer = QMessageBox.question(
-            self, "Recover unsaved work?",
-            "Mixtype did not close normally last time. Restore the study as it was at the last autosave?")
-        return answer == QMessageBox.StandardButton.Yes
-
-    def choose_open_path(self) -> str:
-        path, _ = QFileDialog.getOpenFileName(self, "Open study", self.preferences.last_folder(), PROJECT_FILTER)
-        return path
-
-    def choose_save_path(self, caption: str = "Save study", filter_text: str = PROJECT_FILTER,
-                         suggestion: str = "study.mixtype.json") -> str:
-        start = str(Path(self.preferences.last_folder()) / suggestion)
-        path, _ = QFileDialog.getSaveFileName(self, caption, start, filter_text)
-        return path
-
-    def report_error(self, title: str, text: str) -> None:
-        self.show_notice(f"{title}: {text}")
-        if QApplication.platformName() != "offscreen":
-            QMessageBox.warning(self, title, text)
-
-    def may_discard(self) -> bool:
-        """True when the current study may be replaced (saved, discarded on request, or unchanged)."""
-        if not self.document.is_dirty:
-            return True
-        answer = self.ask_unsaved()
-        if answer == "save":
-            return self.save()
-        return answer == "discard"
-
-    def new_study(self) -> bool:
-        if not self.may_discard():
-            return False
-        self.document.replace_project(scratch_project())
-        self._after_replace()
-        return True
-
-    def open_dialog(self) -> bool:
-        if not self.may_discard():
-            return False
-        path = self.choose_open_path()
-        return self.open_path(path, ask=False) if path else False
-
-    def open_path(self, path: str | Path, *, ask: bool = True) -> bool:
-        """Open a study file; on failure the current study stays and the problems are shown."""
-        if ask and not self.may_discard():
-            return False
-        try:
-            project = open_project_file(path)
-        except ProjectFileError as error:
-            self.report_error("Could not open the study", str(error))
-            return False
-        self.document.replace_project(project, path)
-        self.preferences.add_recent_file(path)
-        self.preferences.set_last_folder(str(Path(path).resolve().parent))
-        self._refresh_recent_menu()
-        self._after_replace()
-        return True
-
-    def _after_replace(self) -> None:
-        self.map_view.show_domain(self.document.domain)
-        self._layers_shown()
-        self.show_notice("")
-
-    def save(self) -> bool:
-        if self.document.path is None:
-            return self.save_as()
-        return self.save_to(self.document.path)
-
-    def save_as(self) -> bool:
-        path = self.choose_save_path()
-        if not path:
-            return False
-        if not path.endswith(".json"):
-            path += ".mixtype.json"
-        return self.save_to(path)
-
-    def save_to(self, path: str | Path) -> bool:
-        try:
-            written = save_project_file(self.document.project, path)
-        except ProjectFileError as error:
-            self.report_error("Could not save the study", str(error))
-            return False
-        self.document.mark_saved(path, written)
-        self.preferences.add_recent_file(path)
-        self.preferences.set_last_folder(str(Path(path).resolve().parent))
-        self._refresh_recent_menu()
-        self.remove_recovery()
-        self.statusBar().showMessage(f"Saved {path}", 5000)
-        return True
-
-    def _refresh_recent_menu(self) -> None:
-        self.recent_menu.clear()
-        files = self.preferences.recent_files()
-        for path in files:
-            action = QAction(Path(path).name, self)
-            action.setToolTip(path)
-            action.setStatusTip(path)
-            action.triggered.connect(lambda checked=False, path=path: self.open_path(path))
-            self.recent_menu.addAction(action)
-        if files:
-            self.recent_menu.addSeparator()
-            self.recent_menu.addAction(self._action("Clear list", self._clear_recent))
-        self.recent_menu.setEnabled(bool(files))
-
-    def _clear_recent(self) -> None:
-        self.preferences.clear_recent_files()
-        self._refresh_recent_menu()
-
-    # -- autosave and recovery ------------------------------------------------------------------------------
-    def autosave(self) -> bool:
-        """Write unsaved edits to the recovery file (never to the study's own file)."""
-        if not self.document.is_dirty:
-            return False
-        try:
-            save_project_file(self.document.project, self.preferences.recovery_path)
-        except ProjectFileError as error:
-            self.statusBar().showMessage(f"Autosave failed: {error}", 8000)
-            return False
-        return True
-
-    def remove_recovery(self) -> None:
-        for path in (self.preferences.recovery_path,
-                     self.preferences.recovery_path.with_name(self.preferences.recovery_path.name + ".backup")):
-            path.unlink(missing_ok=True)
-
-    def offer_recovery(self) -> bool:
-        """After a crash: offer the autosaved study; returns True when it was restored."""
-        path = self.preferences.recovery_path
-        if not path.exists():
-            return False
-        try:
-            project = open_project_file(path)
-        except ProjectFileError:
-            self.remove_recovery()
-            return False
-        if not self.ask_restore(path):
-            self.remove_recovery()
-            return False
-        self.document.replace_project(project, None, dirty=True)
-        self._after_replace()
-        return True
-
+    # -- lifecycle ------------------------------------------------------------------------------------------
     def closeEvent(self, event: QCloseEvent) -> None:
         if not self.may_discard():
             event.ignore()
@@ -614,65 +366,10 @@ class MainWindow(QMainWindow):
         self.preferences.set_window_state(self.saveGeometry(), self.saveState())
         event.accept()
 
-    # -- exports --------------------------------------------------------------------------------------------
-    def export_picture_dialog(self) -> None:
-        path = self.choose_save_path("Export the map", PICTURE_FILTER, "type_map.png")
-        if path:
-            self.export_picture(path)
-
-    def export_picture(self, path: str | Path) -> Path | None:
-        if Path(path).suffix.lower() not in (".png", ".svg", ".pdf"):
-            path = str(path) + ".png"
-        try:
-            written = export_picture(self.map_view, path, title=self.map_view.title.text())
-        except (OSError, ValueError) as error:
-            self.report_error("Could not export the map", str(error))
-            return None
-        self.statusBar().showMessage(f"Map written to {written}", 5000)
-        return written
-
-    def pin_readouts(self) -> list:
-        return [probe_to_dict(result) if result is not None else None for result in self.analysis.probes]
-
-    def _characteristic_curves(self) -> list:
-        return [curve for traced in self.analysis.traced for curve in traced.curves]
-
-    def export_table(self, what: str, path: str | Path) -> int:
-        """Write one CSV table ('lines', 'characteristics' or 'pins'); returns the number of rows."""
-        if what == "lines":
-            return write_csv(boundary_rows(self.analysis.boundaries), path, BOUNDARY_COLUMNS)
-        if what == "characteristics":
-            return write_csv(characteristic_rows(self._characteristic_curves()), path, CHARACTERISTIC_COLUMNS)
-        if what == "pins":
-            return write_csv(pin_rows(self.document.project.pins, self.pin_readouts()), path)
-        raise ValueError(f"unknown table {what!r}; expected lines, characteristics or pins")
-
-    def _export_table_dialog(self, what: str) -> None:
-        path = self.choose_save_path(f"Export {what} as CSV", "CSV table (*.csv)", f"{what}.csv")
-        if not path:
-            return
-        try:
-            rows = self.export_table(what, path)
-        except OSError as error:
-            self.report_error("Could not export", str(error))
-            return
-        self.statusBar().showMessage(f"{rows} rows written to {path}", 5000)
-
-    def export_json(self, path: str | Path) -> None:
-        equation = self.document.equation
-        data = results_dict(equation=equation, domain=self.document.domain,
-                            parameters=equation.parameter_values(), type_map=self.analysis.type_map,
-                            boundaries=self.analysis.boundaries, characteristics=self._characteristic_curves(),
-                            pins=self.document.project.pins, readouts=self.pin_readouts())
-        write_json(data, path)
-
-    def _export_json_dialog(self) -> None:
-        path = self.choose_save_path("Export everything as JSON", "JSON (*.json)", "results.json")
-        if path:
-            try:
-                self.export_json(path)
-            except (OSError, ValueError) as error:
-                self.report_error("Could not export", str(error))
+    def report_error(self, title: str, text: str) -> None:
+        self.show_notice(f"{title}: {text}")
+        if QApplication.platformName() != "offscreen":
+            QMessageBox.warning(self, title, text)
 
     def show_about(self) -> None:
         QMessageBox.about(self, "About Mixtype", ABOUT_TEXT)

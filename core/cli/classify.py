@@ -10,12 +10,14 @@ from typing import TextIO
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
-from core.cli.command import EXIT_OK, Command, compiled_study, data_document, json_number, points, read_study
+from core.cli.command import EXIT_OK, Command, compiled_study, data_document, read_study, source_fields
 from core.cli.study import Study, UsageError, add_equation_options
 from core.data.sources import DataError
 from core.project.data_files import data_source_ref
 from core.project.io import ProjectError, save_project
 from core.project.model import ViewSettings, new_project
+from core.results.document import map_fields, study_fields
+from core.results.readouts import peak_quantity
 
 __all__ = ["COMMAND", "MAX_POCKET_ROWS"]
 
@@ -29,21 +31,6 @@ def _add_arguments(parser: argparse.ArgumentParser) -> None:
                         "equation, domain and data files used (data paths recorded relative to FILE)")
 
 
-def _peak_quantity(study: Study, compiled) -> str | None:
-    """The equation's peak quantity when pockets can report it (a definition, coefficient or data quantity)."""
-    name = study.equation.peak_quantity
-    usable = {*compiled.definition_order, "a", "b", "c", *(study.data.names if study.data else ())}
-    return name if name in usable else None
-
-
-def _pocket_document(pocket) -> dict:
-    peak = None
-    if pocket.peak is not None:
-        peak = {"quantity": pocket.quantity, "value": json_number(pocket.peak), "at": list(pocket.peak_at)}
-    return {"area": float(pocket.area), "centroid": list(pocket.centroid), "bounding_box": list(pocket.bounding_box),
-            "nodes": int(pocket.node_count), "touches_boundary": bool(pocket.touches_boundary), "peak": peak}
-
-
 def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     study = read_study(args, err)
     compiled = compiled_study(study)
@@ -51,33 +38,17 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                              tolerance=study.tolerance)
     boundaries = find_type_boundaries(compiled, type_map, parameters=study.parameters, data=study.data,
                                       refine=not args.raw)
-    pockets = pocket_statistics(compiled, type_map, quantity=_peak_quantity(study, compiled),
-                                parameters=study.parameters, data=study.data)
+    quantity = peak_quantity(study.equation, compiled, study.data.names if study.data else ())
+    pockets = pocket_statistics(compiled, type_map, quantity=quantity, parameters=study.parameters,
+                                data=study.data)
     if args.save_project:
         _save_study(study, args.save_project)
-    document = {
-        "variables": list(compiled.variables),
-        "domain": [study.domain.xmin, study.domain.xmax, study.domain.ymin, study.domain.ymax],
-        "grid": [study.domain.nx, study.domain.ny],
-        "tolerance": study.tolerance,
-        "fractions": {code.label: float(type_map.fractions[code.label]) for code in
-                      (TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED)},
-        "boundaries": [
-            {"points": points(curve.points), "closed": bool(curve.closed),
-             "left": TypeCode(curve.left_type).label, "right": TypeCode(curve.right_type).label}
-            for curve in boundaries.curves
-        ],
-        "parabolic_regions": [
-            {"outline": points(region.outline), "area": float(region.area)}
-            for region in boundaries.parabolic_regions
-        ],
-        "refined": bool(boundaries.refined),
-        "pockets": [_pocket_document(pocket) for pocket in pockets],
-    }
+    document = {**map_fields(compiled.variables, study.domain, study.tolerance, type_map=type_map,
+                             boundaries=boundaries, pockets=pockets),
+                **study_fields(study.equation, study.parameters)}
     if study.data is not None:
         document["data"] = data_document(study)
-    if study.source:
-        document["source"] = study.source
+    document.update(source_fields(study))
     if args.json:
         json.dump(document, out)
         out.write("\n")
@@ -86,13 +57,11 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if study.source:
         out.write(f"equation {study.source['equation']!r} on domain {study.source['domain']!r} "
                   f"of {study.source['file']}\n")
-    for dataset in (study.data.datasets if study.data else ()):
-        out.write(f"data {dataset.path}: {', '.join(dataset.quantities)}\n")
+    out.writelines(f"data {dataset.path}: {', '.join(dataset.quantities)}\n" for dataset in (study.data.datasets if study.data else ()))
     out.write(f"grid {study.domain.nx} x {study.domain.ny} over {x} in [{study.domain.xmin:g}, "
               f"{study.domain.xmax:g}], {y} in [{study.domain.ymin:g}, {study.domain.ymax:g}]\n")
     out.write("type         share of grid nodes\n")
-    for label, share in document["fractions"].items():
-        out.write(f"{label:<12} {100 * share:8.3f} %\n")
+    out.writelines(f"{label:<12} {100 * share:8.3f} %\n" for label, share in document["fractions"].items())
     out.write(f"type-change lines: {len(boundaries.curves)}"
               f" ({'refined onto D = 0' if boundaries.refined else 'raw contour'})\n")
     for index, curve in enumerate(boundaries.curves, 1):

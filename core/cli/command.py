@@ -8,7 +8,6 @@ its own (``render``) through core.cli.main.main(extra_commands=...), so core nev
 from __future__ import annotations
 
 import argparse
-import math
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TextIO
@@ -17,9 +16,10 @@ from core.cli.study import Study, UsageError, build_study
 from core.equations.equation import CompiledEquation
 from core.equations.parser import ExpressionError
 from core.project.data_files import compile_with_data
+from core.results.document import data_files_document, json_number, point_list, project_file_checksum
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_OK", "Command", "compiled_study", "data_document", "json_number", "points",
-           "read_study"]
+           "read_study", "source_fields"]
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
@@ -39,8 +39,7 @@ class Command:
 def read_study(args: argparse.Namespace, err: TextIO) -> Study:
     """The study the options (and FILE) describe; its warnings go to ``err``."""
     study = build_study(args)
-    for line in study.warnings:
-        err.write(f"mixtype: warning: {line}\n")
+    err.writelines(f"mixtype: warning: {line}\n" for line in study.warnings)
     return study
 
 
@@ -58,19 +57,17 @@ def compiled_study(study: Study) -> CompiledEquation:
                          + hint) from None
 
 
-def json_number(value: float | None) -> float | None:
-    """A float for JSON, or None (null) where it is missing or not finite."""
-    return None if value is None or not math.isfinite(value) else float(value)
-
-
-def points(array) -> list[list[float]]:
-    """An (n, 2) array of points as JSON pairs."""
-    return [[float(x), float(y)] for x, y in array]
+points = point_list   # an (n, 2) array of points as JSON pairs (core.results.document)
 
 
 def data_document(study: Study) -> list[dict]:
     """Which data files a result was computed from: path, checksum, quantities."""
-    if study.data is None:
-        return []
-    return [{"path": dataset.path, "checksum": dataset.checksum, "quantities": list(dataset.quantities)}
-            for dataset in study.data.datasets]
+    return data_files_document(study.data)
+
+
+def source_fields(study: Study) -> dict:
+    """Where a study comes from: ``source`` (FILE, its equation and domain) and ``project_checksum`` (the
+    SHA-256 of FILE's bytes); no fields without FILE."""
+    if not study.source:
+        return {}
+    return {"source": study.source, "project_checksum": project_file_checksum(study.source["file"])}

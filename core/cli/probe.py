@@ -8,10 +8,12 @@ import math
 from typing import TextIO
 
 from core.analysis.classify import TypeCode
-from core.analysis.probe import probe_point, probe_to_dict
-from core.cli.command import EXIT_OK, Command, compiled_study, data_document, json_number, read_study
+from core.analysis.probe import probe_point
+from core.cli.command import EXIT_OK, Command, compiled_study, data_document, read_study, source_fields
 from core.cli.study import Study, UsageError, add_equation_options, finite
-from core.equations.trade import READOUT_UNITS, readout_at
+from core.equations.trade import READOUT_UNITS
+from core.results.document import pin_document, probe_document, study_fields
+from core.results.readouts import TradeReading, read_trade
 
 __all__ = ["COMMAND"]
 
@@ -21,21 +23,12 @@ def _add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
 
 
-def _trade_values(study: Study, compiled, x: float, y: float) -> dict[str, float] | None:
-    """The equation's trade readouts at (x, y), or None when it names none."""
-    if not study.equation.trade:
-        return None
-    try:
-        return readout_at(study.equation.trade, compiled, x, y, parameters=study.parameters, data=study.data)
-    except KeyError as error:
-        raise UsageError(f"trade readout: {error.args[0]}") from None
-
-
-def _trade_document(values: dict[str, float] | None) -> dict:
-    if values is None:
-        return {}
-    return {"trade": {name: json_number(value) for name, value in values.items()},
-            "trade_units": {name: READOUT_UNITS.get(name, "") for name in values}}
+def _trade_reading(study: Study, compiled, x: float, y: float) -> TradeReading:
+    """The equation's trade readout at (x, y) (empty when it names none); a UsageError when it cannot be read."""
+    reading = read_trade(study.equation.trade, compiled, x, y, parameters=study.parameters, data=study.data)
+    if reading.error:
+        raise UsageError(f"trade readout: {reading.error}")
+    return reading
 
 
 def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -51,17 +44,17 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         located = [(args.at[0], args.at[1], None)]
     results = [(probe_point(compiled, x, y, parameters=study.parameters, data=study.data,
                             tolerance=study.tolerance, domain=study.domain), label,
-                _trade_values(study, compiled, x, y)) for x, y, label in located]
+                _trade_reading(study, compiled, x, y)) for x, y, label in located]
     if args.json:
         if args.at is not None:
-            document = {**probe_to_dict(results[0][0]), **_trade_document(results[0][2])}
+            document = probe_document(results[0][0], results[0][2])
         else:
-            document = {"pins": [{"label": label, **probe_to_dict(result), **_trade_document(trade)}
-                                 for result, label, trade in results]}
+            located_pins = zip(study.project.pins, results, strict=True)
+            document = {"pins": [pin_document(pin, result, trade) for pin, (result, _, trade) in located_pins]}
+        document.update(study_fields(study.equation, study.parameters, tolerance=study.tolerance))
         if study.data is not None:
             document["data"] = data_document(study)
-        if study.source:
-            document["source"] = study.source
+        document.update(source_fields(study))
         json.dump(document, out)
         out.write("\n")
         return EXIT_OK
@@ -72,7 +65,7 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return EXIT_OK
 
 
-def _write_probe(result, trade: dict[str, float] | None, out: TextIO) -> None:
+def _write_probe(result, trade: TradeReading, out: TextIO) -> None:
     rows = [("point", f"({result.point[0]:.9g}, {result.point[1]:.9g})"),
             ("type", TypeCode(result.type).label),
             ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
@@ -89,9 +82,11 @@ def _write_probe(result, trade: dict[str, float] | None, out: TextIO) -> None:
         rows.append(("anisotropy ratio", f"{result.anisotropy:.6g} (dimensionless)"))
     for name, value in result.definitions.items():
         rows.append((name, f"{value:.9g}"))
-    for name, value in (trade or {}).items():
+    for name, value in trade.values.items():
         shown = f"{value:.9g}" if math.isfinite(value) else "does not exist here"
         rows.append((name.replace("_", " ").removesuffix(" deg"), f"{shown} ({READOUT_UNITS.get(name, '')})"))
+    if trade.problem:
+        rows.append(("trade note", trade.problem))
     if result.message:
         rows.append(("note", result.message))
     width = max(len(r[0]) for r in rows)

@@ -7,8 +7,9 @@ import json
 from typing import TextIO
 
 from core.analysis.tracing import trace_characteristics
-from core.cli.command import EXIT_OK, Command, compiled_study, points, read_study
+from core.cli.command import EXIT_OK, Command, compiled_study, read_study, source_fields
 from core.cli.study import Study, UsageError, add_equation_options, finite
+from core.results.document import curve_document, seed_document, study_fields
 
 __all__ = ["COMMAND"]
 
@@ -30,19 +31,15 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(f"--from ({args.seed[0]:g}, {args.seed[1]:g}) lies outside the domain")
     curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters,
                                    data=study.data)
-    document = {"seed": list(args.seed), "curves": [_curve_document(curve) for curve in curves]}
-    if study.source:
-        document["source"] = study.source
+    document = {"seed": list(args.seed), "curves": [curve_document(curve) for curve in curves],
+                **study_fields(study.equation, study.parameters)}
+    document.update(source_fields(study))
     if args.json:
         json.dump(document, out)
         out.write("\n")
         return EXIT_OK
     _write_curves(curves, out)
     return EXIT_OK
-
-
-def _curve_document(curve) -> dict:
-    return {"family": int(curve.family), "points": points(curve.points), "ends": list(curve.end_reasons)}
 
 
 def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: TextIO) -> int:
@@ -56,10 +53,9 @@ def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: 
                                        parameters=study.parameters, data=study.data)
         traced.append((seed, seed_points, curves))
     if args.json:
-        document = {"seeds": [{"label": seed.label, "points": points(seed_points), "families": list(seed.families),
-                               "curves": [_curve_document(curve) for curve in curves]}
-                              for seed, seed_points, curves in traced],
-                    "source": study.source}
+        document = {"seeds": [seed_document(seed, seed_points, curves) for seed, seed_points, curves in traced],
+                    **study_fields(study.equation, study.parameters), "source": study.source,
+                    **source_fields(study)}
         json.dump(document, out)
         out.write("\n")
         return EXIT_OK

@@ -1,7 +1,10 @@
-"""Results of a study as tables and JSON: type-change lines, characteristics and pin readouts.
+"""Results as CSV tables: type-change lines, characteristics, pins and pockets, one column per value.
 
-Plain rows (dicts) and writers shared by the window's export commands and any headless caller. Undefined
-numbers (NaN) become empty CSV cells and JSON nulls, so every file stays standard.
+Rows are plain dicts built from the results document (core.results.document), so a table says what the JSON
+says. Coordinate columns are named after the study's variables (``x``, ``z``, ``seed_x``, ``centroid_z``...).
+Units are in the header: ``_deg`` ends the name of every angle in degrees, a trade quantity carries its unit
+in brackets (``mach [dimensionless]``), a pocket's area ``[x*y]``; coefficients, D and definitions are in the
+study's own units. Missing or non-finite numbers become empty cells, so every file stays standard CSV.
 """
 
 from __future__ import annotations
@@ -15,85 +18,164 @@ from pathlib import Path
 
 import numpy as np
 
+from core.results.document import boundary_document
+
 __all__ = [
     "BOUNDARY_COLUMNS",
     "CHARACTERISTIC_COLUMNS",
+    "boundary_columns",
     "boundary_rows",
+    "characteristic_columns",
     "characteristic_rows",
+    "pin_columns",
     "pin_rows",
-    "results_dict",
+    "pocket_columns",
+    "pocket_rows",
+    "trade_column",
     "write_csv",
     "write_json",
 ]
 
-BOUNDARY_COLUMNS = ("curve", "point", "x", "y", "closed", "left_type", "right_type")
-CHARACTERISTIC_COLUMNS = ("curve", "family", "seed_x", "seed_y", "point", "x", "y")
+Variables = Sequence[str]
 
 
-def _label(value) -> str:
-    return getattr(value, "label", None) or str(value)
+def boundary_columns(variables: Variables = ("x", "y")) -> tuple[str, ...]:
+    """Columns of the type-change lines table."""
+    x, y = variables
+    return ("curve", "point", x, y, "closed", "left_type", "right_type")
 
 
+def characteristic_columns(variables: Variables = ("x", "y")) -> tuple[str, ...]:
+    """Columns of the characteristics table."""
+    x, y = variables
+    return ("curve", "family", f"seed_{x}", f"seed_{y}", "point", x, y, "end_backward", "end_forward")
+
+
+BOUNDARY_COLUMNS = boundary_columns()
+CHARACTERISTIC_COLUMNS = characteristic_columns()
+
+
+def boundary_rows(boundaries, variables: Variables = ("x", "y")) -> list[dict]:
+    """One row per point of every type-change curve (``boundaries.curves[k].points`` (n, 2))."""
+    x, y = variables
+    rows = []
+    for number, curve in enumerate(getattr(boundaries, "curves", ()) or ()):
+        line = boundary_document(curve)
+        for index, (px, py) in enumerate(line["points"]):
+            rows.append({"curve": number, "point": index, x: px, y: py, "closed": line["closed"],
+                         "left_type": line["left"], "right_type": line["right"]})
+    return rows
+
+
+def characteristic_rows(curves: Iterable, variables: Variables = ("x", "y")) -> list[dict]:
+    """One row per point of every characteristic curve (``.family``, ``.seed`` (2,), ``.points`` (n, 2),
+    ``.end_reasons`` when known); the end reasons repeat on every row of a curve."""
+    x, y = variables
+    rows = []
+    for number, curve in enumerate(curves):
+        seed = np.asarray(curve.seed, dtype=np.float64).reshape(2)
+        ends = list(getattr(curve, "end_reasons", (None, None)))
+        for index, (px, py) in enumerate(np.asarray(curve.points, dtype=np.float64).reshape(-1, 2)):
+            rows.append({"curve": number, "family": int(curve.family), f"seed_{x}": float(seed[0]),
+                         f"seed_{y}": float(seed[1]), "point": index, x: float(px), y: float(py),
+                         "end_backward": ends[0], "end_forward": ends[1]})
+    return rows
+
+
+# -- pins -----------------------------------------------------------------------------------------------
+def trade_column(name: str, unit: str) -> str:
+    """The header of a trade quantity: its key, and its unit in brackets unless the key already ends in _deg
+    and the unit is plain degrees."""
+    if not unit or (name.endswith("_deg") and unit == "deg"):
+        return name
+    return f"{name} [{unit}]"
+
+
+def _pin_leading_columns(variables: Variables) -> list[str]:
+    x, y = variables
+    return ["label", x, y, "inside", "type", "a", "b", "c", "discriminant", "normalized_discriminant",
+            "direction_1_deg", "direction_2_deg", "slope_1", "slope_2", "angle_between_deg",
+            "principal_axis_1_deg", "principal_axis_2_deg", "anisotropy"]
+
+
+def _nth(values, index: int):
+    return values[index] if values is not None and index < len(values) else None
+
+
+def pin_rows(pins: Sequence[Mapping], variables: Variables = ("x", "y")) -> list[dict]:
+    """One row per pin from its document (core.results.document.pin_document): every value its own column,
+    None where a value is missing or not finite."""
+    x, y = variables
+    rows = []
+    for pin in pins:
+        point = pin.get("point") or [None, None]
+        coefficients = pin.get("coefficients") or {}
+        directions, slopes, axes = pin.get("directions_deg"), pin.get("slopes"), pin.get("principal_axes_deg")
+        row = {"label": pin.get("label"), x: point[0], y: point[1], "inside": pin.get("inside"),
+               "type": pin.get("type"), "a": coefficients.get("a"), "b": coefficients.get("b"),
+               "c": coefficients.get("c"), "discriminant": pin.get("discriminant"),
+               "normalized_discriminant": pin.get("normalized_discriminant"),
+               "direction_1_deg": _nth(directions, 0), "direction_2_deg": _nth(directions, 1),
+               "slope_1": _nth(slopes, 0), "slope_2": _nth(slopes, 1),
+               "angle_between_deg": pin.get("angle_between_deg"),
+               "principal_axis_1_deg": _nth(axes, 0), "principal_axis_2_deg": _nth(axes, 1),
+               "anisotropy": pin.get("anisotropy")}
+        for name, value in (pin.get("definitions") or {}).items():
+            row[f"definitions.{name}"] = value
+        units = pin.get("trade_units") or {}
+        for name, value in (pin.get("trade") or {}).items():
+            row[trade_column(name, units.get(name, ""))] = value
+        if "trade_note" in pin:
+            row["trade_note"] = pin["trade_note"]
+        row["message"] = pin.get("message")
+        rows.append(_plain(row))
+    return rows
+
+
+def pin_columns(rows: Sequence[Mapping], variables: Variables = ("x", "y")) -> list[str]:
+    """The fixed pin columns, then every definition and trade column the rows hold, then notes."""
+    columns = _pin_leading_columns(variables)
+    for row in rows:
+        columns.extend(key for key in row if key not in columns and key not in ("trade_note", "message"))
+    return columns + ["trade_note", "message"]
+
+
+# -- pockets --------------------------------------------------------------------------------------------
+def pocket_columns(variables: Variables = ("x", "y")) -> tuple[str, ...]:
+    """Columns of the pockets table (the area in the product of the variables' units)."""
+    x, y = variables
+    return ("pocket", f"area [{x}*{y}]", "nodes", f"centroid_{x}", f"centroid_{y}", f"{x}_min", f"{x}_max",
+            f"{y}_min", f"{y}_max", "touches_boundary", "peak_quantity", "peak", f"peak_{x}", f"peak_{y}")
+
+
+def pocket_rows(pockets: Sequence[Mapping], variables: Variables = ("x", "y")) -> list[dict]:
+    """One row per pocket from its document (core.results.document.pocket_document), numbered from 1 in the
+    document's order (largest area first)."""
+    columns = pocket_columns(variables)
+    rows = []
+    for number, pocket in enumerate(pockets, 1):
+        peak = pocket.get("peak") or {}
+        at = peak.get("at") or [None, None]
+        values = (number, pocket["area"], pocket["nodes"], *pocket["centroid"], *pocket["bounding_box"],
+                  pocket["touches_boundary"], peak.get("quantity"), peak.get("value"), *at)
+        rows.append(dict(zip(columns, values, strict=True)))
+    return rows
+
+
+# -- writers --------------------------------------------------------------------------------------------
 def _plain(value):
-    """JSON-safe copy: arrays to lists, NaN/inf to None, enums to their labels."""
+    """JSON-safe copy: arrays to lists, NaN/inf to None, numpy scalars to Python numbers."""
     if isinstance(value, Mapping):
         return {str(k): _plain(v) for k, v in value.items()}
     if isinstance(value, np.ndarray):
         return _plain(value.tolist())
     if isinstance(value, list | tuple):
         return [_plain(v) for v in value]
-    if hasattr(value, "label") and hasattr(value, "value") and isinstance(value.value, int):
-        return value.label
     if isinstance(value, np.generic):
         value = value.item()
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
-
-
-def boundary_rows(boundaries) -> list[dict]:
-    """One row per point of every type-change curve (``boundaries.curves[k].points`` (n, 2))."""
-    rows = []
-    for number, curve in enumerate(getattr(boundaries, "curves", ()) or ()):
-        for index, (x, y) in enumerate(np.asarray(curve.points, dtype=np.float64).reshape(-1, 2)):
-            rows.append({"curve": number, "point": index, "x": float(x), "y": float(y),
-                         "closed": bool(curve.closed), "left_type": _label(curve.left_type),
-                         "right_type": _label(curve.right_type)})
-    return rows
-
-
-def characteristic_rows(curves: Iterable) -> list[dict]:
-    """One row per point of every characteristic curve (``.family``, ``.seed`` (2,), ``.points`` (n, 2))."""
-    rows = []
-    for number, curve in enumerate(curves):
-        seed = np.asarray(curve.seed, dtype=np.float64).reshape(2)
-        for index, (x, y) in enumerate(np.asarray(curve.points, dtype=np.float64).reshape(-1, 2)):
-            rows.append({"curve": number, "family": int(curve.family), "seed_x": float(seed[0]),
-                         "seed_y": float(seed[1]), "point": index, "x": float(x), "y": float(y)})
-    return rows
-
-
-def pin_rows(pins: Sequence, readouts: Sequence[Mapping]) -> list[dict]:
-    """One row per pin: its label and the flattened readout (lists become numbered columns).
-
-    ``readouts`` are plain dicts (e.g. core.analysis.probe.probe_to_dict), one per pin, or None for a pin not read.
-    """
-    rows = []
-    for pin, readout in zip(pins, list(readouts) + [None] * (len(pins) - len(readouts)), strict=False):
-        row: dict = {"label": pin.label, "x": float(pin.x), "y": float(pin.y)}
-        for key, value in (readout or {}).items():
-            if key in ("point", "x", "y"):
-                continue
-            if isinstance(value, Mapping):
-                for name, inner in value.items():
-                    row[f"{key}.{name}"] = inner
-            elif isinstance(value, list | tuple | np.ndarray):
-                for index, inner in enumerate(np.asarray(value, dtype=object).ravel(), start=1):
-                    row[f"{key}_{index}"] = inner
-            else:
-                row[key] = value
-        rows.append(_plain(row))
-    return rows
 
 
 def write_csv(rows: Sequence[Mapping], path: str | os.PathLike, columns: Sequence[str] | None = None) -> int:
@@ -108,8 +190,8 @@ def write_csv(rows: Sequence[Mapping], path: str | os.PathLike, columns: Sequenc
         for row in rows:
             clean = {}
             for key in columns:
-                value = row.get(key)
-                if value is None or (isinstance(value, float) and not math.isfinite(value)):
+                value = _plain(row.get(key))
+                if value is None:
                     value = ""
                 elif isinstance(value, float):
                     value = repr(value)
@@ -118,37 +200,7 @@ def write_csv(rows: Sequence[Mapping], path: str | os.PathLike, columns: Sequenc
     return len(rows)
 
 
-def results_dict(*, equation, domain, parameters: Mapping[str, float], type_map=None, boundaries=None,
-                 characteristics: Iterable = (), pins: Sequence = (), readouts: Sequence[Mapping] = (),
-                 include_codes: bool = True) -> dict:
-    """Everything computed for one equation on one domain, as JSON-ready data."""
-    result: dict = {
-        "kind": "mixtype results",
-        "equation": {"name": equation.name, "a": equation.a, "b": equation.b, "c": equation.c,
-                     "variables": list(equation.variables), "definitions": dict(equation.definitions)},
-        "parameters": dict(parameters),
-        "domain": {"name": domain.name, "xmin": domain.xmin, "xmax": domain.xmax, "ymin": domain.ymin,
-                   "ymax": domain.ymax, "nx": domain.nx, "ny": domain.ny},
-    }
-    if type_map is not None:
-        result["type_map"] = {"tolerance": type_map.tolerance, "fractions": dict(type_map.fractions),
-                              "codes_meaning": {"0": "undefined", "1": "elliptic", "2": "parabolic",
-                                                "3": "hyperbolic"}}
-        if include_codes:
-            result["type_map"]["codes"] = np.asarray(type_map.codes).tolist()
-    if boundaries is not None:
-        result["type_change_lines"] = [
-            {"points": curve.points, "closed": bool(curve.closed), "left_type": _label(curve.left_type),
-             "right_type": _label(curve.right_type)} for curve in boundaries.curves]
-    result["characteristics"] = [
-        {"family": int(c.family), "seed": c.seed, "points": c.points,
-         "end_reasons": list(getattr(c, "end_reasons", ()))} for c in characteristics]
-    result["pins"] = [{"label": p.label, "x": p.x, "y": p.y, "readout": r}
-                      for p, r in zip(pins, list(readouts) + [None] * (len(pins) - len(readouts)), strict=False)]
-    return _plain(result)
-
-
 def write_json(data: Mapping, path: str | os.PathLike) -> None:
-    """Write JSON (NaN already turned into null by results_dict) with a trailing newline."""
+    """Write standard JSON (NaN and infinities as null) with a trailing newline."""
     text = json.dumps(_plain(data), indent=1, allow_nan=False)
     Path(path).write_text(text + "\n", encoding="utf-8")

@@ -1,4 +1,4 @@
-"""Result tables: rows from curves and readouts, NaN as empty CSV cells and JSON nulls."""
+"""Result tables: rows from curves, pins and pockets, one column per value, NaN as empty CSV cells and JSON nulls."""
 
 from __future__ import annotations
 
@@ -10,12 +10,14 @@ from types import SimpleNamespace
 import numpy as np
 
 from core.analysis.domain import Domain
-from core.equations.equation import Equation
+from core.analysis.probe import probe_point
+from core.equations.equation import Equation, compile_equation
+from core.results.document import results_document
 from core.results.tables import (
     CHARACTERISTIC_COLUMNS,
     characteristic_rows,
+    pin_columns,
     pin_rows,
-    results_dict,
     write_csv,
     write_json,
 )
@@ -32,21 +34,25 @@ def test_characteristic_rows_and_csv(tmp_path):
 
 
 def test_pin_rows_flatten_lists_and_blank_nan(tmp_path):
-    pin = SimpleNamespace(label="P1", x=0.5, y=1.0)
-    rows = pin_rows([pin], [{"type": "elliptic", "discriminant": -4.0, "directions_deg": [],
-                             "anisotropy": math.nan, "definitions": {"M": 0.8}}])
+    pin = {"label": "P1", "point": [0.5, 1.0], "type": "elliptic", "discriminant": -4.0, "directions_deg": [],
+           "anisotropy": math.nan, "definitions": {"M": 0.8}}
+    rows = pin_rows([pin])
     assert rows[0]["definitions.M"] == 0.8 and rows[0]["anisotropy"] is None
-    write_csv(rows, tmp_path / "p.csv")
+    assert rows[0]["direction_1_deg"] is None and (rows[0]["x"], rows[0]["y"]) == (0.5, 1.0)
+    write_csv(rows, tmp_path / "p.csv", pin_columns(rows))
     with open(tmp_path / "p.csv", newline="", encoding="utf-8") as handle:
         read = list(csv.DictReader(handle))
     assert read[0]["anisotropy"] == "" and float(read[0]["discriminant"]) == -4.0
 
 
 def test_results_json_is_standard_json(tmp_path):
-    data = results_dict(equation=Equation("y", "0", "1"), domain=Domain(-1, 1, -1, 1, 3, 3),
-                        parameters={}, pins=[SimpleNamespace(label="A", x=0.0, y=0.0)],
-                        readouts=[{"normalized": math.nan}])
+    # a = 1/x is infinite at x = 0: the normalized discriminant is undefined there (NaN), written as null.
+    equation, domain = Equation("1/x", "0", "1"), Domain(-1, 1, -1, 1, 3, 3)
+    probe = probe_point(compile_equation(equation), 0.0, 0.0)
+    assert math.isnan(probe.normalized)
+    data = results_document(equation=equation, domain=domain, parameters={}, tolerance=1e-9,
+                            pins=[SimpleNamespace(label="A", x=0.0, y=0.0)], probes=[probe])
     write_json(data, tmp_path / "r.json")
     loaded = json.loads((tmp_path / "r.json").read_text(encoding="utf-8"))
-    assert loaded["pins"][0]["readout"]["normalized"] is None
-    assert loaded["domain"]["nx"] == 3 and loaded["equation"]["a"] == "y"
+    assert loaded["pins"][0]["normalized_discriminant"] is None and loaded["pins"][0]["label"] == "A"
+    assert loaded["grid"] == [3, 3] and loaded["equation"]["a"] == "1/x"

@@ -120,10 +120,10 @@ def test_exports_hold_the_expected_data(make_window, tmp_path):
     window.export_json(tmp_path / "all.json")
     data = json.loads((tmp_path / "all.json").read_text(encoding="utf-8"))
     assert data["equation"]["a"] == "y"
-    assert data["type_map"]["fractions"] == pytest.approx(dict(window.analysis.type_map.fractions))
+    assert data["fractions"] == pytest.approx(dict(window.analysis.type_map.fractions))
     codes = np.array(data["type_map"]["codes"])
     assert codes.shape == (81, 81) and codes[0, 0] == TypeCode.HYPERBOLIC
-    assert len(data["characteristics"]) == 2 and len(data["pins"]) == 2
+    assert sum(len(seed["curves"]) for seed in data["seeds"]) == 2 and len(data["pins"]) == 2
 
 
 def test_headless_render_of_a_project_file(make_window, tmp_path):

@@ -1,0 +1,106 @@
+"""The window's export commands: the map as a picture, the results as CSV tables and as one JSON document.
+
+A mixin of gui.main_window.MainWindow. Every number written comes from core.results (the same document the
+command line prints): this module only gathers what the window's analysis holds and picks file names.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from core.results.document import results_document
+from core.results.tables import (
+    boundary_columns,
+    boundary_rows,
+    characteristic_columns,
+    characteristic_rows,
+    pin_columns,
+    pin_rows,
+    pocket_columns,
+    pocket_rows,
+    write_csv,
+    write_json,
+)
+from gui.export import PICTURE_FILTER, export_picture
+
+__all__ = ["TABLES", "ExportCommands"]
+
+# table name -> menu text
+TABLES = {"lines": "Type-change lines as CSV…", "characteristics": "Characteristics as CSV…",
+          "pins": "Pins with readouts as CSV…", "pockets": "Hyperbolic pockets as CSV…"}
+
+
+class ExportCommands:
+    """Pictures, tables and the results document of the study window (mixed into MainWindow)."""
+
+    def export_picture_dialog(self) -> None:
+        path = self.choose_save_path("Export the map", PICTURE_FILTER, "type_map.png")
+        if path:
+            self.export_picture(path)
+
+    def export_picture(self, path: str | Path) -> Path | None:
+        if Path(path).suffix.lower() not in (".png", ".svg", ".pdf"):
+            path = str(path) + ".png"
+        try:
+            written = export_picture(self.map_view, path, title=self.map_view.title.text())
+        except (OSError, ValueError) as error:
+            self.report_error("Could not export the map", str(error))
+            return None
+        self.statusBar().showMessage(f"Map written to {written}", 5000)
+        return written
+
+    def results_document(self, *, include_codes: bool = True) -> dict:
+        """core.results.document.results_document of what the window holds now (results not yet computed
+        are null)."""
+        document, analysis = self.document, self.analysis
+        equation = document.equation
+        pockets = None if analysis.pockets is None else analysis.pockets.pockets
+        data = document.data
+        return results_document(
+            equation=equation, domain=document.domain, parameters=equation.parameter_values(),
+            tolerance=document.tolerance, type_map=analysis.type_map, boundaries=analysis.boundaries,
+            pockets=pockets, pins=document.project.pins, probes=analysis.probes, trades=analysis.trade_readings,
+            traced=[(traced.seed, traced.curves) for traced in analysis.traced],
+            data=getattr(data, "sources", data), project_file=document.path, unsaved_changes=document.is_dirty,
+            include_codes=include_codes)
+
+    def export_table(self, what: str, path: str | Path) -> int:
+        """Write one CSV table (a key of TABLES); returns the number of rows."""
+        variables = self.document.equation.variables
+        if what == "lines":
+            return write_csv(boundary_rows(self.analysis.boundaries, variables), path, boundary_columns(variables))
+        if what == "characteristics":
+            curves = [curve for traced in self.analysis.traced for curve in traced.curves]
+            return write_csv(characteristic_rows(curves, variables), path, characteristic_columns(variables))
+        if what in ("pins", "pockets"):
+            document = self.results_document(include_codes=False)
+            if what == "pins":
+                rows = pin_rows(document["pins"], variables)
+                return write_csv(rows, path, pin_columns(rows, variables))
+            return write_csv(pocket_rows(document["pockets"] or [], variables), path, pocket_columns(variables))
+        raise ValueError(f"unknown table {what!r}; expected {', '.join(TABLES)}")
+
+    def export_table_dialog(self, what: str) -> None:
+        path = self.choose_save_path(f"Export {what} as CSV", "CSV table (*.csv)", f"{what}.csv")
+        if not path:
+            return
+        try:
+            rows = self.export_table(what, path)
+        except OSError as error:
+            self.report_error("Could not export", str(error))
+            return
+        self.statusBar().showMessage(f"{rows} rows written to {path}", 5000)
+
+    def export_json(self, path: str | Path) -> None:
+        """Write the results document (with the type code of every grid node) as JSON."""
+        write_json(self.results_document(), path)
+
+    def export_json_dialog(self) -> None:
+        path = self.choose_save_path("Export everything as JSON", "JSON (*.json)", "results.json")
+        if path:
+            try:
+                self.export_json(path)
+            except (OSError, ValueError) as error:
+                self.report_error("Could not export", str(error))
+                return
+            self.statusBar().showMessage(f"Results written to {path}", 5000)
