@@ -18,8 +18,9 @@ from pathlib import Path, PurePosixPath, PureWindowsPath
 
 from core.data.sources import DataError, DataSet, DataSources, file_checksum, load_data
 from core.equations.equation import CompiledEquation, Equation, compile_equation
+from core.project.checks import equation_data_names
+from core.project.form_checks import json_path
 from core.project.model import DataSourceRef, Project
-from core.project.checks import equation_data_names, json_path
 
 __all__ = [
     "DataSourceStatus",
