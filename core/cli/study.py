@@ -272,8 +272,7 @@ def _first_of(problems, path: str) -> str:
 
 def _study_from_file(args: argparse.Namespace) -> Study:
     """The equation and domain of project FILE, with the inline options given beside it put in their place."""
-    from core.project.checks import equation_data_names
-    from core.project.data_files import MISSING, UNREADABLE, open_project_data
+    from core.project.data_files import open_project_data, unprovided_names_problem
 
     project = load_project_or_fail(args.file)
     try:
@@ -292,20 +291,17 @@ def _study_from_file(args: argparse.Namespace) -> Study:
         raise UsageError(f"--domain/--grid: {error}") from None
     variables = tuple(equation.variables)
     opened = open_project_data(project, args.file, variables=variables)
-    blocking = [s.message for s in opened.statuses if s.state in (MISSING, UNREADABLE)]
+    blocking = [s.message for s in opened.statuses if not s.usable]
     if blocking:
         raise UsageError(_first_of(blocking, args.file))
     files = [DataFile(str(s.location), dict(s.source.names) or None, s.source.format, s.source.note)
              for s in opened.statuses]
     inline = [DataFile(path, names) for path, names in args.data]
-    datasets = [s.dataset for s in opened.statuses if s.dataset is not None]
+    datasets = [s.dataset for s in opened.statuses if s.usable]
     data = _combined(datasets + _read_data(inline, variables))
-    provided = set(data.names) if data else set()
-    absent = [n for n in equation_data_names(equation) if n not in provided]
-    if absent and (project.data_sources or args.data):
-        offered = ", ".join(sorted(provided)) or "none"
-        raise UsageError(f"{args.file}: equation {equation.name!r} uses {', '.join(map(repr, absent))}, which no "
-                         f"data source provides (the data provide {offered})")
+    problem = unprovided_names_problem(equation, sorted(data.names) if data else ())
+    if problem and (project.data_sources or args.data):
+        raise UsageError(f"{args.file}: {problem}")
     tolerance = project.view.parabolic_tolerance if args.tolerance is None else args.tolerance
     return Study(equation, domain, equation.parameter_values(), tolerance, project=project,
                  source={"file": args.file, "equation": equation.name, "domain": domain.name},
