@@ -29,13 +29,15 @@ from PySide6.QtWidgets import (
 )
 
 from core.equations.parser import ExpressionError, check_name
+from core.project.data_files import CHANGED, MISSING, OPENED, UNREADABLE, ProjectData, accept_changed_data
 from gui.document import Document
 
 __all__ = ["STATUS_TEXT", "DataPanel", "extent_text", "quantities_text"]
 
-STATUS_TEXT = {"ok": "ok", "changed": "changed since saved", "missing": "missing", "error": "cannot be used",
+# by core.project.data_files state, and "loading" before the first load ends
+STATUS_TEXT = {OPENED: "ok", CHANGED: "changed since saved", MISSING: "missing", UNREADABLE: "cannot be used",
                "loading": "loading…"}
-_STATUS_COLOUR = {"ok": "#007A5A", "changed": "#8A5A00", "missing": "#B00020", "error": "#B00020",
+_STATUS_COLOUR = {OPENED: "#007A5A", CHANGED: "#8A5A00", MISSING: "#B00020", UNREADABLE: "#B00020",
                   "loading": "#555555"}
 _FORMAT_NAMES = {"csv": "CSV", "npz": "NumPy .npz", "netcdf": "NetCDF", "vtu": "VTK .vtu", "vtk": "VTK .vtk"}
 
@@ -77,7 +79,8 @@ class DataPanel(QWidget):
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.document = document
-        self.statuses: tuple = ()
+        self.loaded: ProjectData | None = None
+        self.statuses: tuple = ()       # core.project.data_files.DataSourceStatus, one per file
         purpose = QLabel("Data files whose quantities equations use by name (a velocity field, a depth, a "
                          "buoyancy profile), with first derivatives as diff(NAME, VARIABLE). Outside a file's "
                          "region its quantities are undefined (grey on the map).")
@@ -131,13 +134,14 @@ class DataPanel(QWidget):
         self.refresh()
 
     # -- display --------------------------------------------------------------------------------------------
-    def set_loaded(self, loaded) -> None:
-        """Statuses from gui.data_loading (a LoadedData)."""
+    def set_loaded(self, loaded: ProjectData | None) -> None:
+        """The study's data as core opened them (gui.data_loading)."""
+        self.loaded = loaded
         self.statuses = tuple(loaded.statuses) if loaded is not None else ()
         self.refresh()
 
     def _status_for(self, ref):
-        return next((s for s in self.statuses if s.ref == ref), None)
+        return next((s for s in self.statuses if s.source == ref), None)
 
     def refresh(self) -> None:
         refs = self.document.project.data_sources
@@ -156,7 +160,7 @@ class DataPanel(QWidget):
                          extent_text(dataset, variables), STATUS_TEXT[state])
                 for column, text in enumerate(cells):
                     item = QTableWidgetItem(text)
-                    item.setToolTip(ref.path if column == 0 else (status.message if status and column == 4
+                    item.setToolTip(ref.path if column == 0 else (status.reason if status and column == 4
                                                                    else text))
                     if column == 4:
                         item.setForeground(QColor(_STATUS_COLOUR[state]))
@@ -180,7 +184,7 @@ class DataPanel(QWidget):
         status = self._status_for(refs[index]) if has else None
         self.remove_button.setEnabled(has)
         self.rename_button.setEnabled(status is not None and status.dataset is not None)
-        self.accept_button.setEnabled(status is not None and status.state == "changed")
+        self.accept_button.setEnabled(status is not None and status.state == CHANGED)
         self.reload_button.setEnabled(bool(refs))
         if not refs:
             self.details.setText("No data files: equations use formulas only.")
@@ -189,8 +193,8 @@ class DataPanel(QWidget):
             self.details.setText("")
             return
         lines = [f"File: {refs[index].path}"]
-        if status is not None and status.message:
-            lines.append(status.message)
+        if status is not None and status.reason:
+            lines.append(status.reason)
         if status is not None and status.dataset is not None:
             dataset = status.dataset
             size = " × ".join(str(n) for n in dataset.size)
@@ -212,10 +216,10 @@ class DataPanel(QWidget):
         if not 0 <= index < len(refs):
             return False
         status = self._status_for(refs[index])
-        if status is None or status.dataset is None or status.state != "changed":
+        if self.loaded is None or status is None or status.state != CHANGED:
             return False
-        return self.document.set_data_source(index, replace(refs[index], checksum=status.dataset.checksum),
-                                             f"Accept the changed data file {os.path.basename(refs[index].path)}")
+        accepted = accept_changed_data(self.document.project, self.loaded, indices=(status.index,))
+        return self.document.edit(accepted, f"Accept the changed data file {os.path.basename(refs[index].path)}")
 
     def ask_quantity_rename(self, quantities: tuple[str, ...]) -> tuple[str, str] | None:
         """Which quantity to rename and its new name (tests replace this method)."""

@@ -16,9 +16,13 @@ import re
 from dataclasses import dataclass, replace
 
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.data.sources import DataError, DataSet, DataSources, load_data
 from core.analysis.domain import Domain
+from core.data.sources import DataError, DataSet, DataSources, load_data
 from core.equations.equation import Equation, Parameter
+from core.equations.templates import Template, TemplateError, load_template
+from core.project.data_files import open_project_data, unprovided_names_problem
+from core.project.io import ProjectError, load_project
+from core.project.model import Project
 
 __all__ = ["DataFile", "Study", "UsageError", "add_equation_options", "build_study", "load_project_or_fail",
            "parse_data_option"]
@@ -49,7 +53,7 @@ class Study:
     domain: Domain
     parameters: dict[str, float]
     tolerance: float
-    project: object | None = None    # the core.project.model.Project read from FILE, if one was given
+    project: Project | None = None   # the project read from FILE, if one was given
     source: dict | None = None       # {"file", "equation", "domain"} when the study comes from a FILE
     data: DataSources | None = None  # every data set read (FILE's and --data), None when there are none
     data_files: tuple[DataFile, ...] = ()
@@ -120,7 +124,7 @@ def add_equation_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--tolerance", type=finite, default=None,
                        help=f"parabolic tolerance on |D|/(b^2+4|ac|) (default: FILE's, else {DEFAULT_TOLERANCE:g})")
     data = parser.add_argument_group("background data")
-    data.add_argument("--data", action="append", type=_data_argument, default=[], metavar="PATH[:NAMES]",
+    data.add_argument("--data", action="append", type=parse_data_option, default=[], metavar="PATH[:NAMES]",
                       help="a data file (CSV, NumPy .npz, NetCDF, VTK .vtu/.vtk) whose quantities the equation "
                            "uses by name, read for the equation's two variables (repeatable; added to FILE's). "
                            "Without NAMES every usable quantity is taken under its own name; NAMES is a comma-"
@@ -128,10 +132,6 @@ def add_equation_options(parser: argparse.ArgumentParser) -> None:
                            "--data flow.vtu:velocity_x=u,velocity_y=v. With --template, quantities the template "
                            "knows replace its formulas (e.g. u and v for full_potential).")
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
-
-
-def _data_argument(text: str) -> tuple[str, dict[str, str] | None]:
-    return parse_data_option(text)
 
 
 def _parameter_value(name: str, text: str) -> float:
@@ -221,8 +221,6 @@ def build_study(args: argparse.Namespace) -> Study:
     files = [DataFile(path, names) for path, names in args.data]
     data = _combined(_read_data(files, variables))
     if template is not None:
-        from core.equations.templates import TemplateError
-
         try:
             base = template.equation_with_data(data.names if data else ())
         except TemplateError as error:
@@ -245,19 +243,15 @@ def build_study(args: argparse.Namespace) -> Study:
     return Study(equation, domain, equation.parameter_values(), tolerance, data=data, data_files=tuple(files))
 
 
-def _template(name: str):
-    from core.equations.templates import TemplateError, load_template
-
+def _template(name: str) -> Template:
     try:
         return load_template(name)
     except TemplateError as error:
         raise UsageError(f"--template: {error}") from None
 
 
-def load_project_or_fail(path: str):
+def load_project_or_fail(path: str) -> Project:
     """The project at ``path``; a UsageError quoting its first problem otherwise."""
-    from core.project.io import ProjectError, load_project
-
     try:
         return load_project(path)
     except ProjectError as error:
@@ -272,9 +266,6 @@ def _first_of(problems, path: str) -> str:
 
 def _study_from_file(args: argparse.Namespace) -> Study:
     """The equation and domain of project FILE, with the inline options given beside it put in their place."""
-    from core.project.checks import equation_data_names
-    from core.project.data_files import MISSING, UNREADABLE, open_project_data
-
     project = load_project_or_fail(args.file)
     try:
         equation = project.shown()[0] if args.equation is None else project.equation(args.equation)
@@ -292,20 +283,17 @@ def _study_from_file(args: argparse.Namespace) -> Study:
         raise UsageError(f"--domain/--grid: {error}") from None
     variables = tuple(equation.variables)
     opened = open_project_data(project, args.file, variables=variables)
-    blocking = [s.message for s in opened.statuses if s.state in (MISSING, UNREADABLE)]
+    blocking = [s.message for s in opened.statuses if not s.usable]
     if blocking:
         raise UsageError(_first_of(blocking, args.file))
     files = [DataFile(str(s.location), dict(s.source.names) or None, s.source.format, s.source.note)
              for s in opened.statuses]
     inline = [DataFile(path, names) for path, names in args.data]
-    datasets = [s.dataset for s in opened.statuses if s.dataset is not None]
+    datasets = [s.dataset for s in opened.statuses if s.usable]
     data = _combined(datasets + _read_data(inline, variables))
-    provided = set(data.names) if data else set()
-    absent = [n for n in equation_data_names(equation) if n not in provided]
-    if absent and (project.data_sources or args.data):
-        offered = ", ".join(sorted(provided)) or "none"
-        raise UsageError(f"{args.file}: equation {equation.name!r} uses {', '.join(map(repr, absent))}, which no "
-                         f"data source provides (the data provide {offered})")
+    problem = unprovided_names_problem(equation, sorted(data.names) if data else ())
+    if problem and (project.data_sources or args.data):
+        raise UsageError(f"{args.file}: {problem}")
     tolerance = project.view.parabolic_tolerance if args.tolerance is None else args.tolerance
     return Study(equation, domain, equation.parameter_values(), tolerance, project=project,
                  source={"file": args.file, "equation": equation.name, "domain": domain.name},

@@ -25,6 +25,7 @@ __all__ = [
     "ParsedExpression",
     "check_name",
     "data_derivative_key",
+    "find_data_names",
     "parse_expression",
 ]
 
@@ -128,24 +129,38 @@ def check_name(name: str, *, what: str = "name") -> None:
 
 @dataclass(frozen=True)
 class ParsedExpression:
-    """A parsed expression and the names it uses (variables, parameters, definitions, data)."""
+    """A parsed expression and the names it uses (variables, parameters, definitions, data); ``data_names``
+    are the names ``find_data_names`` took as background-data quantities (empty for parse_expression)."""
 
     text: str
     value: sympy.Basic
     names: frozenset[str]
+    data_names: frozenset[str] = frozenset()
 
 
 class _Builder:
     """Walks a checked AST and builds sympy objects, folding constants to floats."""
 
     def __init__(self, source: str, symbols: Mapping[str, sympy.Symbol], data_names: Collection[str],
-                 variables: Collection[str]) -> None:
+                 variables: Collection[str], reserved: Collection[str] | None = None) -> None:
         self.source = source
         self.symbols = symbols
         self.data_names = set(data_names)
         self.variables = set(variables)
+        self.reserved = None if reserved is None else frozenset(reserved)  # None: unknown names are errors
+        self.found: dict[str, sympy.Symbol] = {}   # names taken as data quantities, and their diff() keys
         self.used: set[str] = set()
         self.nodes = 0
+
+    def _data_symbol(self, name: str) -> sympy.Symbol | None:
+        """The symbol of an unknown name taken as a data quantity (find_data_names), else None."""
+        if self.reserved is None or name in self.reserved or name in self.symbols:
+            return None
+        try:
+            check_name(name)
+        except ExpressionError:
+            return None
+        return self.found.setdefault(name, sympy.Symbol(name, real=True))
 
     # Constants are carried as Python floats until they meet a symbol.
     def build(self, node: ast.AST, depth: int = 0):
@@ -177,6 +192,10 @@ class _Builder:
         if name in self.symbols:
             self.used.add(name)
             return self.symbols[name]
+        found = self._data_symbol(name)
+        if found is not None:
+            self.used.add(name)
+            return found
         if name in _FUNCTIONS or name in ("piecewise", "diff"):
             raise ExpressionError(f"{name!r} is a function: call it like {name}(...)", column=_column(node))
         raise ExpressionError(f"unknown name {name!r}", column=_column(node))
@@ -307,7 +326,7 @@ class _Builder:
             raise ExpressionError("diff() takes a data quantity and a variable, e.g. diff(u, x)",
                                   column=_column(node))
         quantity, variable = args[0].id, args[1].id
-        if quantity not in self.data_names:
+        if quantity not in self.data_names and self._data_symbol(quantity) is None:
             raise ExpressionError(f"diff() applies to data quantities; {quantity!r} is not one",
                                   column=_column(args[0]))
         if variable not in self.variables:
@@ -315,7 +334,9 @@ class _Builder:
                                   column=_column(args[1]))
         key = data_derivative_key(quantity, variable)
         self.used.add(key)
-        return self.symbols[key]
+        if key in self.symbols:
+            return self.symbols[key]
+        return self.found.setdefault(key, sympy.Symbol(key, real=True))
 
 
 _OPERATOR_TEXT = {ast.Mod: "%", ast.FloorDiv: "//", ast.MatMult: "@", ast.BitAnd: "&", ast.BitOr: "|",
@@ -388,6 +409,25 @@ def parse_expression(text: str, symbols: Mapping[str, sympy.Symbol], *, data_nam
     ``symbols`` maps every name the expression may use (variables, parameters, definitions, data quantities,
     and ``diff(NAME,VAR)`` keys) to its sympy Symbol. Raises ExpressionError with a 1-based column.
     """
+    return _parse(text, _Builder(_checked_source(text), symbols, data_names, variables))
+
+
+def find_data_names(text: str, symbols: Mapping[str, sympy.Symbol], *, variables: Collection[str] = (),
+                    reserved: Collection[str] = ()) -> ParsedExpression:
+    """Parse ``text`` taking every name it uses that ``symbols`` lacks as a background-data quantity.
+
+    A name becomes a data quantity when it is a valid name (check_name) and not in ``reserved``; also the
+    NAME of ``diff(NAME, VAR)``. The result's ``data_names`` lists them. Other problems raise ExpressionError
+    as parse_expression does.
+    """
+    builder = _Builder(_checked_source(text), symbols, (), variables, reserved)
+    parsed = _parse(text, builder)
+    data = frozenset(name for name in builder.found if not name.startswith("diff("))
+    return ParsedExpression(text=parsed.text, value=parsed.value, names=parsed.names, data_names=data)
+
+
+def _checked_source(text: str) -> str:
+    """The stripped text of one expression; ExpressionError when it is no text, too long or not one line."""
     if not isinstance(text, str):
         raise ExpressionError(f"expected text, got {type(text).__name__}")
     if len(text) > MAX_TEXT_LENGTH:
@@ -399,7 +439,11 @@ def parse_expression(text: str, symbols: Mapping[str, sympy.Symbol], *, data_nam
         raise ExpressionError(f"character {text[bad]!r} is not allowed (ASCII only)", column=bad + 1)
     if "\n" in text.strip() or "\r" in text:
         raise ExpressionError("an expression is a single line")
-    source = text.strip()
+    return text.strip()
+
+
+def _parse(text: str, builder: _Builder) -> ParsedExpression:
+    source = builder.source
     try:
         tree = ast.parse(source, mode="eval")
     except SyntaxError as error:
@@ -412,7 +456,6 @@ def parse_expression(text: str, symbols: Mapping[str, sympy.Symbol], *, data_nam
         raise ExpressionError(f"syntax error: {error.msg}", column=column) from None
     except (RecursionError, MemoryError, ValueError):
         raise ExpressionError("expression is nested too deeply or is malformed") from None
-    builder = _Builder(source, symbols, data_names, variables)
     try:
         value = builder.build(tree.body)
     except RecursionError:

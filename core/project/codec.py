@@ -1,9 +1,9 @@
 """Project <-> plain JSON data: the fixed layout files use, and the gate every file passes to become a Project.
 
-``project_from_dict`` runs the checks of core.project.checks in order (plain-JSON sanity, then the format
-version, migrating older versions, then the schema, then the meaning) and builds the dataclasses only from
-data that passed them all. Every problem is one line ``SOURCE: JSON-PATH: what is wrong``; they are raised
-together as a ProjectError.
+``project_from_dict`` runs the checks of core.project.form_checks and core.project.checks in order (plain-JSON
+sanity, then the format version, migrating older versions, then the schema, then the meaning) and builds the
+dataclasses only from data that passed them all. Every problem is one line ``SOURCE: JSON-PATH: what is
+wrong``; they are raised together as a ProjectError.
 """
 
 from __future__ import annotations
@@ -12,9 +12,10 @@ from collections.abc import Iterable, Mapping
 
 from core.analysis.domain import Domain
 from core.equations.equation import Parameter
-from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
-from core.project.checks import equation_from_dict, meaning_problems, sanity_problems, schema_problems
+from core.project.checks import equation_from_dict, meaning_problems
+from core.project.form_checks import sanity_problems, schema_problems
 from core.project.migrate import MigrationError, migrate
+from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
 from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
 
 __all__ = ["ProjectError", "project_from_dict", "project_to_dict"]

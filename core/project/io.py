@@ -17,13 +17,13 @@ from dataclasses import replace
 from datetime import datetime
 from pathlib import Path
 
-from core.project.model import PROJECT_SUFFIX, Project
-from core.project.checks import NonFiniteNumber, RepeatedKeys
 from core.project.codec import ProjectError, project_from_dict, project_to_dict
+from core.project.form_checks import NonFiniteNumber, RepeatedKeys
 from core.project.migrate import MigrationError
 from core.project.migrate import migrate as _migrate
-from core.project.schema import CURRENT_FORMAT_VERSION
+from core.project.model import PROJECT_SUFFIX, Project
 from core.project.safe_write import BACKUP_SUFFIX, write_file_atomically
+from core.project.schema import CURRENT_FORMAT_VERSION
 
 __all__ = [
     "BACKUP_SUFFIX",

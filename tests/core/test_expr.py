@@ -7,7 +7,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.equations.parser import ExpressionError, check_name, parse_expression
+from core.equations.parser import ExpressionError, check_name, find_data_names, parse_expression
 
 X, Y, K = sympy.symbols("x y k", real=True)
 SYMBOLS = {"x": X, "y": Y, "k": K}
@@ -108,6 +108,24 @@ def test_diff_is_only_for_data_quantities():
     assert "diff(h,x)" in parsed.names
     with pytest.raises(ExpressionError, match="data quantities"):
         parse_expression("diff(k, x)", symbols, data_names=("h",), variables=("x", "y"))
+
+
+def test_unknown_names_are_found_as_data_quantities_by_the_same_parse():
+    parsed = find_data_names("k*u - diff(w, y) + sin(x)*pi + h2", SYMBOLS, variables=("x", "y"),
+                             reserved=("a", "b", "c"))
+    assert parsed.data_names == {"u", "w", "h2"}
+    assert parsed.names == {"k", "u", "diff(w,y)", "x", "h2"}
+    # the value is the one parse_expression builds once those names are symbols (sympy is the reference)
+    u, h2 = sympy.symbols("u h2", real=True)
+    expected = K * u - sympy.Symbol("diff(w,y)", real=True) + sympy.sin(X) * math.pi + h2
+    assert sympy.simplify(parsed.value - expected) == 0
+    assert find_data_names("k + x", SYMBOLS, variables=("x", "y")).data_names == frozenset()
+    # coefficient names, functions and invalid names are never data; diff() of a known name stays refused
+    for text, fragment in [("a + 1", "unknown name 'a'"), ("sin + 1", "is a function"),
+                           ("diff(k, x)", "data quantities"), ("diff(u, z)", "independent variable"),
+                           ("q" * 41 + " + 1", "unknown name 'qqq"), ("u % 2", "operator '%'")]:
+        with pytest.raises(ExpressionError, match=fragment):
+            find_data_names(text, SYMBOLS, variables=("x", "y"), reserved=("a", "b", "c"))
 
 
 # Property: any text either parses into a sympy expression or raises ExpressionError, never anything else.

@@ -12,11 +12,10 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import classify_grid
-from core.data.sources import DataError
 from core.analysis.domain import Domain
+from core.data.sources import DataError
 from core.equations.equation import Equation
 from core.equations.parser import ExpressionError
-from core.project.model import DataSourceRef, new_project
 from core.project.checks import equation_data_names
 from core.project.data_files import (
     accept_changed_data,
@@ -27,6 +26,7 @@ from core.project.data_files import (
     resolve_data_path,
 )
 from core.project.io import ProjectError, dumps_project, load_project, loads_project, save_project
+from core.project.model import DataSourceRef, new_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 21, 21, "square")
@@ -213,8 +213,13 @@ def test_two_files_may_not_provide_the_same_quantity(tmp_path):
     shutil.copy(data, tmp_path / "shared" / "copy.npz")
     project = load_project(project_path).with_data_source(
         data_source_ref(tmp_path / "shared" / "copy.npz", project_path, names=["k"]))
-    (line,) = open_project_data(project, project_path).problems
-    assert line.startswith(f"{project_path}: $.data_sources: quantity 'k' is in both ")
+    opened = open_project_data(project, project_path)
+    (line,) = opened.problems
+    # the second file is the one that cannot be used; the first stays in use
+    assert line.startswith(f"{project_path}: $.data_sources[1]: quantity 'k' is in both ")
+    assert [s.state for s in opened.statuses] == ["opened", "unreadable"]
+    assert opened.names == ("k",) and opened.statuses[1].quantities == ("k",)
+    assert opened.sources.sample("k", 0.0, 0.0) == 0.5
 
 
 def test_compiling_leaves_out_data_names_an_equation_defines_itself():

@@ -228,7 +228,7 @@ def test_background_loading_can_be_cancelled(make_window, bump_npz, monkeypatch,
 
 def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_window, bump_npz, tmp_path,
                                                                         monkeypatch, qtbot):
-    import gui.data_loading as loading
+    import core.project.data_files as loading  # the study's files are opened by core
 
     window = _data_study_window(make_window, bump_npz)
     path = tmp_path / "study.mixtype.json"
@@ -283,9 +283,9 @@ def test_equation_defining_a_data_name_itself_keeps_its_formula(make_window, bum
 @pytest.mark.parametrize("name", ["bump_flow_grid_data", "bump_flow_mesh_data", "thermocline_csv_profile",
                                   "thermocline_netcdf_profile"])
 def test_shipped_data_demos_open_and_classify_like_core(make_window, name):
-    from core.project.model import demo_project_path
     from core.project.data_files import compile_with_data, open_project_data
     from core.project.io import load_project
+    from core.project.model import demo_project_path
 
     path = demo_project_path(name)
     window = make_window(hump_project(nx=41, ny=31))
