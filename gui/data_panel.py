@@ -28,7 +28,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.equations.parser import ExpressionError, check_name
+from core.equations.language import ExpressionError, check_name
 from core.project.data_files import CHANGED, MISSING, OPENED, UNREADABLE, ProjectData, accept_changed_data
 from gui.document import Document
 

@@ -17,7 +17,7 @@ from PySide6.QtGui import QUndoStack
 
 from core.analysis.domain import Domain
 from core.equations.equation import CompiledEquation, Equation, Parameter
-from core.equations.parser import ExpressionError
+from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
 from core.project.model import Pin, Project, Seed
 from core.project.names import free_name

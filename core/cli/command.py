@@ -14,7 +14,7 @@ from typing import TextIO
 
 from core.cli.study import Study, UsageError, build_study
 from core.equations.equation import CompiledEquation
-from core.equations.parser import ExpressionError
+from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
 from core.results.document import data_files_document, json_number, point_list, project_file_checksum
 

@@ -18,7 +18,7 @@ import core
 from core.cli import check, classify, probe, templates, trace
 from core.cli.command import EXIT_BAD_INPUT, Command
 from core.cli.study import UsageError
-from core.equations.parser import ExpressionError
+from core.equations.language import ExpressionError
 
 __all__ = ["HEADLESS_COMMANDS", "UsageError", "main"]
 

@@ -22,7 +22,7 @@ import numpy as np
 from core.data.fields import GridField, MeshField, ProfileField, triangulate_points
 from core.data.raw import FORMATS, DataError, RawData, format_for_path
 from core.data.readers import read_raw
-from core.equations.parser import ExpressionError, check_name, data_derivative_key
+from core.equations.language import ExpressionError, check_name, data_derivative_key
 
 __all__ = [
     "FORMATS",

@@ -1,4 +1,4 @@
-"""Safe parsing of user-typed expressions into sympy objects.
+"""Safe parsing of user-typed expressions into sympy objects (the language itself: core.equations.language).
 
 Text is parsed with Python's ``ast`` module and every node is checked against a whitelist before a sympy
 object is built from it directly. Nothing is ever passed to eval, exec, sympify or parse_expr. Constant
@@ -9,123 +9,29 @@ depth and exponents of an expression are bounded.
 from __future__ import annotations
 
 import ast
-import keyword
 import math
 import re
-from collections.abc import Callable, Collection, Mapping
+from collections.abc import Collection, Mapping
 from dataclasses import dataclass
 
 import sympy
 
-__all__ = [
-    "CONSTANT_NAMES",
-    "FUNCTION_NAMES",
-    "MAX_TEXT_LENGTH",
-    "ExpressionError",
-    "ParsedExpression",
-    "check_name",
-    "data_derivative_key",
-    "find_data_names",
-    "parse_expression",
-]
+from core.equations.language import (
+    CONSTANTS,
+    FLOAT_COMPARISONS,
+    FUNCTIONS,
+    MAX_ABS_EXPONENT,
+    MAX_DEPTH,
+    MAX_NODES,
+    MAX_TEXT_LENGTH,
+    SYMBOLIC_COMPARISONS,
+    ExpressionError,
+    check_name,
+    data_derivative_key,
+    fold_constant,
+)
 
-MAX_TEXT_LENGTH = 2000
-MAX_NODES = 600
-MAX_DEPTH = 200
-MAX_ABS_EXPONENT = 64
-MAX_NAME_LENGTH = 40
-
-
-class ExpressionError(ValueError):
-    """A user expression or name is not acceptable; the message says what and where (1-based column)."""
-
-    def __init__(self, message: str, *, column: int | None = None, field: str = "") -> None:
-        self.message = message
-        self.column = column
-        self.field = field
-        where = []
-        if field:
-            where.append(field)
-        if column is not None:
-            where.append(f"column {column}")
-        prefix = f"{', '.join(where)}: " if where else ""
-        super().__init__(prefix + message)
-
-    def in_field(self, field: str) -> ExpressionError:
-        """The same error, attributed to ``field`` (e.g. ``definitions.u``)."""
-        return ExpressionError(self.message, column=self.column, field=field)
-
-
-def _heaviside(value: float) -> float:
-    if value > 0:
-        return 1.0
-    if value < 0:
-        return 0.0
-    return 0.5 if value == 0 else math.nan
-
-
-def _sign(value: float) -> float:
-    return float((value > 0) - (value < 0)) if not math.isnan(value) else math.nan
-
-
-# name -> (number of arguments, sympy builder, float evaluator for constant folding)
-_FUNCTIONS: dict[str, tuple[int, Callable, Callable]] = {
-    "sin": (1, sympy.sin, math.sin),
-    "cos": (1, sympy.cos, math.cos),
-    "tan": (1, sympy.tan, math.tan),
-    "asin": (1, sympy.asin, math.asin),
-    "acos": (1, sympy.acos, math.acos),
-    "atan": (1, sympy.atan, math.atan),
-    "atan2": (2, sympy.atan2, math.atan2),
-    "sinh": (1, sympy.sinh, math.sinh),
-    "cosh": (1, sympy.cosh, math.cosh),
-    "tanh": (1, sympy.tanh, math.tanh),
-    "exp": (1, sympy.exp, math.exp),
-    "log": (1, sympy.log, math.log),
-    "sqrt": (1, sympy.sqrt, math.sqrt),
-    "abs": (1, sympy.Abs, abs),
-    "sign": (1, sympy.sign, _sign),
-    "heaviside": (1, lambda v: sympy.Heaviside(v, sympy.Rational(1, 2)), _heaviside),
-    "min": (-2, sympy.Min, min),
-    "max": (-2, sympy.Max, max),
-}
-FUNCTION_NAMES = frozenset(_FUNCTIONS) | {"piecewise", "diff"}
-CONSTANT_NAMES = frozenset({"pi", "e"})
-_CONSTANTS = {"pi": math.pi, "e": math.e}
-_IDENTIFIER = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
-
-_COMPARISONS = {
-    ast.Lt: sympy.StrictLessThan,
-    ast.LtE: sympy.LessThan,
-    ast.Gt: sympy.StrictGreaterThan,
-    ast.GtE: sympy.GreaterThan,
-}
-_FLOAT_COMPARISONS = {
-    ast.Lt: lambda p, q: p < q,
-    ast.LtE: lambda p, q: p <= q,
-    ast.Gt: lambda p, q: p > q,
-    ast.GtE: lambda p, q: p >= q,
-}
-
-
-def data_derivative_key(name: str, variable: str) -> str:
-    """The symbol name standing for the first derivative of data quantity ``name`` along ``variable``."""
-    return f"diff({name},{variable})"
-
-
-def check_name(name: str, *, what: str = "name") -> None:
-    """Reject names that are not plain ASCII identifiers or that shadow a function, constant or keyword."""
-    if not isinstance(name, str) or not _IDENTIFIER.match(name):
-        raise ExpressionError(
-            f"{what} {name!r} must start with a letter and hold only ASCII letters, digits and '_'"
-        )
-    if len(name) > MAX_NAME_LENGTH:
-        raise ExpressionError(f"{what} {name!r} is longer than {MAX_NAME_LENGTH} characters")
-    if name in FUNCTION_NAMES or name in CONSTANT_NAMES:
-        raise ExpressionError(f"{what} {name!r} is the name of a built-in function or constant")
-    if keyword.iskeyword(name) or keyword.issoftkeyword(name) or name in {"True", "False", "None"}:
-        raise ExpressionError(f"{what} {name!r} is a reserved word")
-
+__all__ = ["ParsedExpression", "find_data_names", "parse_expression"]
 
 @dataclass(frozen=True)
 class ParsedExpression:
@@ -187,8 +93,8 @@ class _Builder:
 
     def _build_Name(self, node: ast.Name, depth: int):
         name = node.id
-        if name in _CONSTANTS:
-            return _CONSTANTS[name]
+        if name in CONSTANTS:
+            return CONSTANTS[name]
         if name in self.symbols:
             self.used.add(name)
             return self.symbols[name]
@@ -196,7 +102,7 @@ class _Builder:
         if found is not None:
             self.used.add(name)
             return found
-        if name in _FUNCTIONS or name in ("piecewise", "diff"):
+        if name in FUNCTIONS or name in ("piecewise", "diff"):
             raise ExpressionError(f"{name!r} is a function: call it like {name}(...)", column=_column(node))
         raise ExpressionError(f"unknown name {name!r}", column=_column(node))
 
@@ -227,14 +133,14 @@ class _Builder:
                 raise ExpressionError(f"exponent {right:g} is larger than {MAX_ABS_EXPONENT}",
                                       column=_column(node))
             if constant:
-                return _fold(lambda p, q: math.pow(p, q), (left, right), node, "**")
+                return fold_constant(lambda p, q: math.pow(p, q), (left, right), node, "**")
             return sympy.Pow(_to_sympy(left), _to_sympy(right))
         if constant:
             if isinstance(op, ast.Div):
-                return _fold(lambda p, q: p / q, (left, right), node, "/")
+                return fold_constant(lambda p, q: p / q, (left, right), node, "/")
             function = {ast.Add: lambda p, q: p + q, ast.Sub: lambda p, q: p - q,
                         ast.Mult: lambda p, q: p * q}[type(op)]
-            return _fold(function, (left, right), node, "arithmetic")
+            return fold_constant(function, (left, right), node, "arithmetic")
         left, right = _to_sympy(left), _to_sympy(right)
         if isinstance(op, ast.Add):
             return left + right
@@ -248,13 +154,13 @@ class _Builder:
         terms = [self.build(node.left, depth)] + [self.build(c, depth) for c in node.comparators]
         conditions = []
         for op, left, right in zip(node.ops, terms, terms[1:], strict=False):
-            if type(op) not in _COMPARISONS:
+            if type(op) not in SYMBOLIC_COMPARISONS:
                 raise ExpressionError("only <, <=, >, >= comparisons are allowed (no == or !=)",
                                       column=_column(node))
             if _is_number(left) and _is_number(right):
-                conditions.append(sympy.true if _FLOAT_COMPARISONS[type(op)](left, right) else sympy.false)
+                conditions.append(sympy.true if FLOAT_COMPARISONS[type(op)](left, right) else sympy.false)
             else:
-                conditions.append(_COMPARISONS[type(op)](_to_sympy(left), _to_sympy(right)))
+                conditions.append(SYMBOLIC_COMPARISONS[type(op)](_to_sympy(left), _to_sympy(right)))
         return sympy.And(*conditions) if len(conditions) > 1 else conditions[0]
 
     def _build_BoolOp(self, node: ast.BoolOp, depth: int):
@@ -277,10 +183,10 @@ class _Builder:
             return self._piecewise(node, depth)
         if name == "diff":
             return self._data_derivative(node)
-        if name not in _FUNCTIONS:
-            hint = " (names are case-sensitive)" if name.lower() in _FUNCTIONS else ""
+        if name not in FUNCTIONS:
+            hint = " (names are case-sensitive)" if name.lower() in FUNCTIONS else ""
             raise ExpressionError(f"unknown function {name!r}{hint}", column=_column(node))
-        arity, builder, evaluator = _FUNCTIONS[name]
+        arity, builder, evaluator = FUNCTIONS[name]
         args = [self.build(a, depth) for a in node.args]
         if arity > 0 and len(args) != arity:
             raise ExpressionError(f"{name}() takes {arity} argument{'s' * (arity > 1)}, got {len(args)}",
@@ -291,7 +197,7 @@ class _Builder:
             if _is_condition(arg):
                 raise ExpressionError(f"{name}() takes numbers, not a comparison", column=_column(sub))
         if all(_is_number(a) for a in args):
-            return _fold(evaluator, args, node, f"{name}()")
+            return fold_constant(evaluator, args, node, f"{name}()")
         return builder(*[_to_sympy(a) for a in args])
 
     def _piecewise(self, node: ast.Call, depth: int):
@@ -381,22 +287,6 @@ def _to_sympy(value):
     if isinstance(value, float):
         return sympy.Float(value)
     return value
-
-
-def _fold(function: Callable, args, node: ast.AST, what: str) -> float:
-    """Evaluate a constant sub-expression in double precision; reject results that are not finite reals."""
-    try:
-        result = function(*[float(a) for a in args])
-    except ZeroDivisionError:
-        raise ExpressionError(f"division by zero in a constant ({what})", column=_column(node)) from None
-    except OverflowError:
-        raise ExpressionError(f"constant {what} overflows double precision", column=_column(node)) from None
-    except ValueError:
-        raise ExpressionError(f"constant {what} has no real value (e.g. sqrt or log of a negative number)",
-                              column=_column(node)) from None
-    if isinstance(result, complex) or not math.isfinite(result):
-        raise ExpressionError(f"constant {what} is not a finite real number", column=_column(node))
-    return float(result)
 
 
 _IMPLICIT_PRODUCT = re.compile(r"(?<![A-Za-z_0-9.])(\d+(?:\.\d*)?)([A-Za-z_(])")

@@ -15,7 +15,8 @@ from datetime import datetime
 import sympy
 
 from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
-from core.equations.parser import ExpressionError, check_name, find_data_names, parse_expression
+from core.equations.language import ExpressionError, check_name
+from core.equations.parser import find_data_names, parse_expression
 from core.project.form_checks import clip, json_path
 
 __all__ = ["equation_data_names", "equation_from_dict", "meaning_problems"]

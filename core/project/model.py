@@ -23,7 +23,7 @@ from core.data.raw import FORMATS
 from core.analysis.domain import Domain
 from core.analysis.tracing import seeds_along_segment
 from core.equations.equation import COEFFICIENT_NAMES, Equation
-from core.equations.parser import ExpressionError, check_name
+from core.equations.language import ExpressionError, check_name
 
 __all__ = [
     "DATA_FORMATS",

@@ -15,7 +15,7 @@ from pathlib import Path
 import core
 from core.analysis.domain import MAX_GRID, MIN_GRID
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
-from core.equations.parser import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
+from core.equations.language import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
 from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
 from core.equations.trade import TRADE_INPUTS
 

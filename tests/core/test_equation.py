@@ -5,7 +5,7 @@ import pytest
 import sympy
 
 from core.equations.equation import Equation, Parameter, compile_equation
-from core.equations.parser import ExpressionError
+from core.equations.language import ExpressionError
 
 FLOW = Equation(
     a="c2 - u**2",

@@ -7,7 +7,9 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from core.equations.parser import ExpressionError, check_name, find_data_names, parse_expression
+from core.equations.language import ExpressionError, check_name
+
+from core.equations.parser import find_data_names, parse_expression
 
 X, Y, K = sympy.symbols("x y k", real=True)
 SYMBOLS = {"x": X, "y": Y, "k": K}

@@ -15,7 +15,7 @@ from core.analysis.classify import classify_grid
 from core.analysis.domain import Domain
 from core.data.sources import DataError
 from core.equations.equation import Equation
-from core.equations.parser import ExpressionError
+from core.equations.language import ExpressionError
 from core.project.checks import equation_data_names
 from core.project.data_files import (
     accept_changed_data,

@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 import core
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter
-from core.equations.parser import ExpressionError, check_name
+from core.equations.language import ExpressionError, check_name
 from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
 from core.project.io import (
     CURRENT_FORMAT_VERSION,
