@@ -19,8 +19,9 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.data.readers import FORMATS
 from core.analysis.domain import Domain
+from core.bundled import bundled_path
+from core.data.readers import FORMATS
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from core.equations.parser import ExpressionError, check_name
 
@@ -359,7 +360,7 @@ def new_project(equation: Equation, domain: Domain, *, now: datetime | None = No
 
 
 def _demo_folder() -> Path:
-    return Path(core.__file__).resolve().parent.parent / "resources" / "demo"
+    return bundled_path("demo")
 
 
 def demo_project_names() -> tuple[str, ...]:
