@@ -1,8 +1,10 @@
 """The ``mixtype`` script: core's headless commands, plus ``render`` and the window from this side.
 
 Dependencies run one way: this module uses core.cli; core never imports gui. Qt is imported only when a
-command needs it (the window, ``render``), so ``mixtype --help``, ``--version`` and the headless commands start
-without loading Qt and work where its system libraries are missing.
+command needs it (the window, ``render``), so ``mixtype --help``, ``--version`` and the headless commands
+start without loading Qt and work where its system libraries are missing. Before Qt is imported,
+gui.platform_check asks whether it can start at all: when not, one line says what is missing and the exit
+status is 2, instead of Qt aborting the process.
 """
 
 from __future__ import annotations
@@ -14,8 +16,10 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from core.cli.command import EXIT_BAD_INPUT, EXIT_OK, Command
-from core.cli.main import HEADLESS_COMMANDS, main as run_command
+from core.cli.main import HEADLESS_COMMANDS
+from core.cli.main import main as run_command
 from core.cli.study import UsageError
+from gui.platform_check import offscreen_problem, window_problem
 
 __all__ = ["RENDER", "main"]
 
@@ -30,13 +34,20 @@ def _add_render_arguments(parser: argparse.ArgumentParser) -> None:
 def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.size is not None and not all(100 <= v <= 8000 for v in args.size):
         raise UsageError(f"--size must be between 100 and 8000 pixels, got {args.size[0]} {args.size[1]}")
-    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")  # headless: no display needed
+    os.environ["QT_QPA_PLATFORM"] = "offscreen"  # headless: no display needed, whatever the desktop uses
+    problem = offscreen_problem()
+    if problem is not None:
+        raise UsageError(f"render cannot start Qt: {problem}")
     try:
+        from gui.project_bridge import ProjectFileError
         from gui.render import render_project  # Qt is loaded only for this command (see the module docstring)
     except ImportError as error:
         raise UsageError(f"rendering needs the window's libraries ({error})") from None
-    render_project(args.file, args.out, whole_window=args.window,
-                   size=tuple(args.size) if args.size else None)
+    try:
+        render_project(args.file, args.out, whole_window=args.window,
+                       size=tuple(args.size) if args.size else None)
+    except ProjectFileError as error:
+        raise UsageError(str(error)) from None
     out.write(f"wrote {args.out}\n")
     return EXIT_OK
 
@@ -52,6 +63,11 @@ def _opens_window(argv: Sequence[str]) -> bool:
 
 
 def _open_window(argv: Sequence[str]) -> int:
+    problem = window_problem()
+    if problem is not None:
+        print(f"mixtype: the window cannot start: {problem}; headless commands work: mixtype --help",
+              file=sys.stderr)
+        return EXIT_BAD_INPUT
     try:
         from gui.app import main as window_main  # Qt is loaded only here (see the module docstring)
     except ImportError as error:  # the window is optional for headless installs

@@ -26,6 +26,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+import core
 from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
@@ -52,7 +53,8 @@ __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
 CAUTION = ("Mixtype is an aid for analysing model equations; it validates no design. For engineering "
            "decisions, rely on validated solvers, the applicable codes and standards, and licensed "
            "professional judgement.")
-ABOUT_TEXT = ("<h3>Mixtype</h3><p>Maps where a second-order equation a u<sub>xx</sub> + b u<sub>xy</sub> + "
+ABOUT_TEXT = (f"<h3>Mixtype</h3><p>Version {core.__version__}</p>"
+              "<p>Maps where a second-order equation a u<sub>xx</sub> + b u<sub>xy</sub> + "
               "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
               "changes, reads single points and traces characteristic curves.</p>"
               f"<p><b>Caution.</b> {CAUTION}</p>")

@@ -26,6 +26,7 @@ from collections.abc import Collection, Mapping
 from dataclasses import dataclass
 
 from core.analysis.domain import Domain
+from core.bundled import bundled_path
 from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.trade import check_trade_spec
 
@@ -40,7 +41,7 @@ __all__ = [
 ]
 
 TEMPLATE_FORMAT_VERSION = 1
-TEMPLATE_DIRECTORY = pathlib.Path(__file__).resolve().parents[2] / "resources" / "templates"
+TEMPLATE_DIRECTORY = bundled_path("templates")  # the repository's resources/templates, or the installed copy
 _TOP_KEYS = {"mixtype_template", "name", "title", "description", "variables", "coefficients", "definitions",
              "parameters", "data_quantities", "trade", "domain", "peak_quantity"}
 _PARAMETER_KEYS = {"value", "minimum", "maximum", "unit", "description"}
@@ -106,8 +107,14 @@ class Template:
 
 
 def list_templates(directory: str | os.PathLike | None = None) -> tuple[str, ...]:
-    """Names of the templates in ``directory`` (default: resources/templates), sorted."""
+    """Names of the templates in ``directory`` (default: resources/templates), sorted.
+
+    A missing default folder is a broken installation and raises TemplateError rather than listing none.
+    """
     folder = pathlib.Path(directory) if directory is not None else TEMPLATE_DIRECTORY
+    if directory is None and not folder.is_dir():
+        raise TemplateError(f"Mixtype's bundled templates are missing (no folder {folder}); "
+                            "reinstall Mixtype")
     return tuple(sorted(p.stem for p in folder.glob("*.json")))
 
 

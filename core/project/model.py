@@ -19,9 +19,10 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.data.raw import FORMATS
 from core.analysis.domain import Domain
 from core.analysis.tracing import seeds_along_segment
+from core.bundled import bundled_path
+from core.data.raw import FORMATS
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from core.equations.language import ExpressionError, check_name
 
@@ -356,7 +357,7 @@ def new_project(equation: Equation, domain: Domain, *, now: datetime | None = No
 
 
 def _demo_folder() -> Path:
-    return Path(core.__file__).resolve().parent.parent / "resources" / "demo"
+    return bundled_path("demo")
 
 
 def demo_project_names() -> tuple[str, ...]:

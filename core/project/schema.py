@@ -12,8 +12,8 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-import core
 from core.analysis.domain import MAX_GRID, MIN_GRID
+from core.bundled import bundled_path
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
 from core.equations.language import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
 from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
@@ -242,8 +242,7 @@ def schema_text() -> str:
 
 def schema_path(version: int = CURRENT_FORMAT_VERSION) -> Path:
     """Where the schema of format ``version`` is stored (older versions are kept as they were)."""
-    return (Path(core.__file__).resolve().parent.parent / "resources" / "schema"
-            / f"mixtype-project-v{version}.schema.json")
+    return bundled_path("schema", f"mixtype-project-v{version}.schema.json")
 
 
 if __name__ == "__main__":
