@@ -7,6 +7,7 @@ import pytest
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.project.model import Project, new_project
+from tests.ceilings import HANG_CEILING_S
 
 
 @pytest.fixture(autouse=True)
@@ -47,7 +48,7 @@ def make_window(qtbot, settings_folder):
         window.show()
         qtbot.waitExposed(window)
         window.analysis.flush()
-        window.runner.wait_idle()
+        assert window.runner.wait_idle(HANG_CEILING_S)
         return window
 
     return build
