@@ -9,6 +9,8 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.domain import Domain
 from core.analysis.type_change_lines import (
     ParabolicRegion,
     TypeBoundaries,
@@ -16,8 +18,6 @@ from core.analysis.type_change_lines import (
     find_type_boundaries,
     refine_onto_zero_set,
 )
-from core.analysis.classify import TypeCode, classify_grid, classify_points
-from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 

@@ -12,11 +12,10 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import classify_grid
-from core.data.sources import DataError
 from core.analysis.domain import Domain
+from core.data.sources import DataError
 from core.equations.equation import Equation
 from core.equations.parser import ExpressionError
-from core.project.model import DataSourceRef, new_project
 from core.project.checks import equation_data_names
 from core.project.data_files import (
     accept_changed_data,
@@ -27,6 +26,7 @@ from core.project.data_files import (
     resolve_data_path,
 )
 from core.project.io import ProjectError, dumps_project, load_project, loads_project, save_project
+from core.project.model import DataSourceRef, new_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 21, 21, "square")
