@@ -13,9 +13,9 @@ import time
 
 import numpy as np
 
-from core.analysis.type_change_lines import find_type_boundaries
 from core.analysis.classify import classify_grid
 from core.analysis.domain import Domain
+from core.analysis.type_change_lines import find_type_boundaries
 from core.equations.equation import Equation, compile_equation
 
 NODES = 1024

@@ -27,10 +27,10 @@ def run(nodes: int = NODES, steps: int = STEPS) -> dict:
 
     from core.analysis.classify import classify_grid
     from core.analysis.domain import Domain
-    from gui.qt_setup import ensure_application
     from gui.main_window import MainWindow
     from gui.preferences import Preferences
     from gui.project_bridge import scratch_project
+    from gui.qt_setup import ensure_application
 
     ensure_application()
     base = scratch_project()

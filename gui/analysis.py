@@ -15,12 +15,12 @@ from dataclasses import dataclass, field
 import numpy as np
 from PySide6.QtCore import QObject, QTimer, Signal
 
-from core.analysis.type_change_lines import find_type_boundaries
-from core.analysis.tracing import trace_characteristics
-from core.analysis.discriminant import discriminant
 from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.discriminant import discriminant
 from core.analysis.pockets import label_pockets, pocket_statistics
 from core.analysis.probe import probe_point
+from core.analysis.tracing import trace_characteristics
+from core.analysis.type_change_lines import find_type_boundaries
 from core.progress import Cancelled
 from core.project.model import Seed
 from core.results.readouts import TradeReading, peak_quantity, read_trade

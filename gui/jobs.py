@@ -13,6 +13,10 @@ same channel replaces the older one:
 Results, failures and progress reach the GUI thread by signal only. An exception in a worker becomes a
 ``failed`` signal with a readable message. ``synchronous=True`` runs every job at once on the caller's thread
 with the same signals: tests and headless rendering use it.
+
+``wait_for(number)`` and ``wait_idle()`` wait for the jobs themselves, not for a clock: the GUI thread sleeps
+until a worker has posted its result, delivers it (whose slots may request more jobs) and sleeps again. Their
+``timeout`` is only a ceiling against a job that never ends; by default there is none.
 """
 
 from __future__ import annotations
@@ -71,6 +75,9 @@ class JobRunner(QObject):
         self._pending: dict[str, _Job] = {}
         self._latest: dict[str, int] = {}
         self._labels: dict[str, str] = {}
+        self._requested = 0                        # the newest job number handed out
+        self._unreported: set[int] = set()         # requested jobs whose ending has not been signalled yet
+        self._posted = threading.Event()           # set by a worker once its result is posted to this thread
         self._relay_done.connect(self._on_done)
         self._relay_progress.connect(self._on_progress)
 
@@ -80,9 +87,12 @@ class JobRunner(QObject):
         if policy not in ("replace", "queue"):
             raise ValueError(f"policy must be 'replace' or 'queue', got {policy!r}")
         job = _Job(channel=channel, number=next(self._numbers), work=work, label=label or channel)
+        self._requested = job.number
+        self._unreported.add(job.number)
         self._latest[channel] = job.number
         replaced = self._pending.pop(channel, None)
         if replaced is not None:
+            self._unreported.discard(replaced.number)
             self.cancelled.emit(channel, replaced.number)
         if self.synchronous:
             self._run_now(job)
@@ -103,6 +113,7 @@ class JobRunner(QObject):
             self._latest[name] = -1
             waiting = self._pending.pop(name, None)
             if waiting is not None:
+                self._unreported.discard(waiting.number)
                 self.cancelled.emit(name, waiting.number)
             running = self._running.get(name)
             if running is not None:
@@ -116,16 +127,44 @@ class JobRunner(QObject):
     def latest(self, channel: str) -> int:
         return self._latest.get(channel, 0)
 
-    def wait_idle(self, timeout: float = 30.0) -> bool:
-        """Process events until no job is running (for headless use and tests); False on timeout."""
-        deadline = time.monotonic() + timeout
-        while self.is_busy():
-            if time.monotonic() > deadline:
+    def is_reported(self, number: int) -> bool:
+        """Whether job ``number`` has ended: its finished, failed or cancelled signal was emitted (a stale
+        failure is dropped without a signal but has ended all the same)."""
+        return 0 < number <= self._requested and number not in self._unreported
+
+    def wait_for(self, number: int, timeout: float | None = None) -> bool:
+        """Deliver results on this (the GUI) thread until job ``number`` is reported; for headless use and tests.
+
+        Sleeps until a worker posts its result rather than polling. Results of other jobs arriving meanwhile are
+        delivered too, and jobs their slots request run as usual. False only when ``timeout`` seconds (a ceiling
+        against a job that never ends; None: no ceiling) pass first.
+        """
+        if not 0 < number <= self._requested:
+            raise ValueError(f"no job numbered {number} was requested from this runner "
+                             f"(numbers so far: 1 to {self._requested})")
+        return self._wait_until(lambda: self.is_reported(number), timeout)
+
+    def wait_idle(self, timeout: float | None = None) -> bool:
+        """Deliver results on this (the GUI) thread until no job is running or waiting; see ``wait_for``.
+
+        Work scheduled on a timer (coalesced requests) counts only once it is requested: flush it first.
+        """
+        return self._wait_until(lambda: not self.is_busy(), timeout)
+
+    def _wait_until(self, condition: Callable[[], bool], timeout: float | None) -> bool:
+        deadline = None if timeout is None else time.monotonic() + timeout
+        while True:
+            # Clear before delivering: a result posted from now on sets the event again, so none is slept over.
+            self._posted.clear()
+            QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents)
+            if condition():
+                return True
+            if not self._active:
+                return condition()      # nothing runs, so nothing can arrive (a waiting job needs a running one)
+            remaining = None if deadline is None else deadline - time.monotonic()
+            if remaining is not None and remaining <= 0:
                 return False
-            QCoreApplication.processEvents(QEventLoop.ProcessEventsFlag.AllEvents, 20)
-            time.sleep(0.002)
-        QCoreApplication.processEvents()
-        return True
+            self._posted.wait(remaining)
 
     # -- execution ------------------------------------------------------------------------------------------
     def _start(self, job: _Job) -> None:
@@ -144,6 +183,7 @@ class JobRunner(QObject):
             self._relay_done.emit(job.channel, job.number, status, payload)
         except RuntimeError:  # the runner was deleted (window closed) while the job ran: nobody to tell
             pass
+        self._posted.set()
 
     def _threaded_progress(self, job: _Job) -> Callable[[float], None]:
         def report(fraction: float) -> None:
@@ -197,6 +237,7 @@ class JobRunner(QObject):
             self.busy_changed.emit(False)
 
     def _deliver(self, channel: str, number: int, status: str, payload: object, *, stale: bool) -> None:
+        self._unreported.discard(number)
         if status == "cancelled" or (stale and status == "done"):
             self.cancelled.emit(channel, number)
         elif status == "failed":

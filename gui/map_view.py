@@ -16,7 +16,6 @@ from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from core.analysis.classify import TypeCode
 from core.project.model import Pin, Seed, ViewSettings
-from gui.qt_setup import configure_plotting
 from gui.palette import (
     FAMILY_COLOURS,
     HIGHLIGHT_COLOUR,
@@ -26,6 +25,7 @@ from gui.palette import (
     TYPE_LINE_COLOUR,
     type_lookup_table,
 )
+from gui.qt_setup import configure_plotting
 
 __all__ = ["MapView", "MapViewBox", "pocket_outline", "polyline_with_breaks"]
 

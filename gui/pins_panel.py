@@ -25,8 +25,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.project.model import Seed
 from core.equations.trade import READOUT_UNITS
+from core.project.model import Seed
 from gui.document import Document
 from gui.widgets import button_row, push_button
 

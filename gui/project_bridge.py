@@ -12,9 +12,9 @@ from pathlib import Path, PurePosixPath
 
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter
-from core.project.model import Project, demo_project_path, new_project
 from core.project.data_files import relative_data_path, resolve_data_path
 from core.project.io import ProjectError, load_project, save_project
+from core.project.model import Project, demo_project_path, new_project
 
 __all__ = [
     "PROJECT_FILTER",

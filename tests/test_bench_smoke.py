@@ -10,13 +10,15 @@ import pathlib
 import subprocess
 import sys
 
+from tests.ceilings import HANG_CEILING_S
+
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 
 
 def test_every_benchmark_runs_at_smoke_size():
     environment = {**os.environ, "QT_QPA_PLATFORM": "offscreen"}
     result = subprocess.run([sys.executable, "bench/run.py", "--json", "--smoke"], cwd=ROOT, env=environment,
-                            capture_output=True, text=True, check=False)
+                            capture_output=True, text=True, check=False, timeout=HANG_CEILING_S)
     assert result.returncode == 0, result.stderr
     figures = json.loads(result.stdout)
     expected = {path.stem.removeprefix("bench_") for path in (ROOT / "bench").glob("bench_*.py")}

@@ -13,8 +13,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.analysis.directions import characteristic_directions, parabolic_direction
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
+from core.analysis.directions import characteristic_directions, parabolic_direction
 from core.analysis.discriminant import discriminant
 from core.analysis.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource

@@ -18,9 +18,9 @@ import contourpy
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
-from core.equations.equation import CompiledEquation, QuantitySource
 from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
 from core.analysis.zero_refinement import PointFunction, discriminant_function, roots_on_segments
+from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [

@@ -57,10 +57,8 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
               f"{_count(len(project.domains), 'domain')}, {_count(len(project.pins), 'pin')}, "
               f"{_count(len(project.seeds), 'seed')}{files}; shows {project.shown_equation!r} on "
               f"{project.shown_domain!r}\n")
-    for line in opened.changed:
-        err.write(f"mixtype: warning: {line}\n")
-    for line in opened.problems:
-        err.write(f"mixtype: {line}\n")
+    err.writelines(f"mixtype: warning: {line}\n" for line in opened.changed)
+    err.writelines(f"mixtype: {line}\n" for line in opened.problems)
     return status
 
 

@@ -19,11 +19,10 @@ import numexpr
 import numpy as np
 import sympy
 
+from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 from core.equations.language import ExpressionError, check_name, data_derivative_key
-
 from core.equations.parser import parse_expression
 from core.equations.trade import check_trade_spec
-from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 
 __all__ = [
     "COEFFICIENT_NAMES",

@@ -16,8 +16,8 @@ from core.analysis.domain import MAX_GRID, MIN_GRID
 from core.bundled import bundled_path
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
 from core.equations.language import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
-from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
 from core.equations.trade import TRADE_INPUTS
+from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
 
 __all__ = [
     "CHECKSUM_PATTERN",

@@ -9,6 +9,9 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from core.analysis.classify import TypeCode, classify_grid, classify_points
+from core.analysis.discriminant import discriminant
+from core.analysis.domain import Domain
 from core.analysis.type_change_lines import (
     ParabolicRegion,
     TypeBoundaries,
@@ -16,9 +19,6 @@ from core.analysis.type_change_lines import (
     find_type_boundaries,
 )
 from core.analysis.zero_refinement import discriminant_function, roots_on_segments
-from core.analysis.discriminant import discriminant
-from core.analysis.classify import TypeCode, classify_grid, classify_points
-from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 

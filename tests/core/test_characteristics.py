@@ -8,11 +8,11 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from core.analysis.directions import Family, characteristic_directions, parabolic_direction
-from core.analysis.tracing import END_REASONS, seeds_along_segment, trace_characteristics
 from core.analysis.domain import Domain
-from core.project.model import Seed
+from core.analysis.tracing import END_REASONS, seeds_along_segment, trace_characteristics
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
+from core.project.model import Seed
 
 BOX = Domain(-2.0, 2.0, -2.0, 1.0, name="box")
 

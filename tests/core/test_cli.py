@@ -7,6 +7,7 @@ import sys
 
 import pytest
 
+from tests.ceilings import HANG_CEILING_S
 from tests.core.cli_runner import run
 
 TRICOMI = ["--a", "y", "--b", "0", "--c", "1", "--domain", "-1", "1", "-1", "1"]
@@ -100,6 +101,6 @@ def test_bad_input_exits_2_with_one_line(argv, fragment):
 
 def test_console_script_runs_without_traceback():
     result = subprocess.run([sys.executable, "-m", "core.cli.main", "probe", *TRICOMI, "--at", "0", "2"],
-                            check=False, capture_output=True, text=True, timeout=120)
+                            check=False, capture_output=True, text=True, timeout=HANG_CEILING_S)
     assert result.returncode == 0
     assert "outside" in result.stdout.lower()

@@ -12,9 +12,9 @@ import numpy as np
 import pytest
 
 from core.cli.study import parse_data_option
-from core.project.model import demo_project_names, demo_project_path
-from core.project.io import load_project
 from core.equations.templates import list_templates, load_template
+from core.project.io import load_project
+from core.project.model import demo_project_names, demo_project_path
 from tests.core.cli_runner import run, run_json
 
 DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"

@@ -8,7 +8,6 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from core.equations.language import ExpressionError, check_name
-
 from core.equations.parser import find_data_names, parse_expression
 
 X, Y, K = sympy.symbols("x y k", real=True)

@@ -9,6 +9,8 @@ import pathlib
 import subprocess
 import sys
 
+from tests.ceilings import HANG_CEILING_S
+
 ROOT = pathlib.Path(__file__).resolve().parents[2]
 QT_PACKAGES = {"PySide6", "pyqtgraph", "PyQt5", "PyQt6", "shiboken6"}
 
@@ -112,6 +114,6 @@ def test_every_core_module_imports_without_qt():
         "print(len([m for m in sys.modules if m == 'core' or m.startswith('core.')]))\n"
     )
     result = subprocess.run([sys.executable, "-c", script], check=False, capture_output=True, text=True,
-                            cwd=ROOT)
+                            cwd=ROOT, timeout=HANG_CEILING_S)
     assert result.returncode == 0, result.stderr
     assert int(result.stdout.strip()) >= len(modules)

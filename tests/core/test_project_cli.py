@@ -13,8 +13,9 @@ import pytest
 from core.analysis.classify import classify_grid
 from core.analysis.domain import Domain
 from core.equations.equation import compile_equation
-from core.project.model import demo_project_path
 from core.project.io import ProjectError, load_project
+from core.project.model import demo_project_path
+from tests.ceilings import HANG_CEILING_S
 from tests.core.cli_runner import run, run_json
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -182,6 +183,6 @@ def test_names_that_do_not_exist_and_names_without_a_file():
 
 def test_the_installed_entry_point_checks_a_file():
     completed = subprocess.run([sys.executable, "-m", "core.cli.main", "check", TRICOMI], cwd=ROOT,
-                               capture_output=True, text=True, timeout=120, check=False)
+                               capture_output=True, text=True, timeout=HANG_CEILING_S, check=False)
     assert completed.returncode == 0 and completed.stderr == ""
     assert completed.stdout.startswith(f"{TRICOMI}: valid, format version 2; 2 equations")

@@ -10,8 +10,8 @@ from pathlib import Path
 
 import pytest
 
-from core.project.model import Project
 from core.project.io import MAX_FILE_BYTES, ProjectError, load_project, loads_project
+from core.project.model import Project
 
 DATA = Path(__file__).resolve().parent.parent / "data"
 SAMPLE = DATA / "project-v1-all-fields.mixtype.json"

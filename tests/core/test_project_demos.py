@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
-from core.project.model import demo_project_names, demo_project_path
 from core.project.data_files import compile_with_data, open_project_data
 from core.project.io import dumps_project, load_project
+from core.project.model import demo_project_names, demo_project_path
 
 RADIUS = 1.0  # the bump of the flow demos (resources/demo/make_data.py)
 

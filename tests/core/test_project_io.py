@@ -18,7 +18,7 @@ import core
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.equations.language import ExpressionError, check_name
-from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
+from core.equations.trade import TRADE_INPUTS
 from core.project.io import (
     CURRENT_FORMAT_VERSION,
     ProjectError,
@@ -32,8 +32,8 @@ from core.project.io import (
 )
 from core.project.migrate import MIGRATIONS, MigrationError
 from core.project.migrate import migrate as migrate_data
+from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings, new_project
 from core.project.schema import project_schema, schema_path, schema_text
-from core.equations.trade import TRADE_INPUTS
 
 DATA = Path(__file__).resolve().parent.parent / "data"
 SAMPLES = sorted(DATA.glob("project-v*.mixtype.json"))

@@ -9,8 +9,8 @@ from core.data.sources import DataSources, load_data
 from core.equations.equation import Equation, compile_equation
 from core.equations.trade import (
     READOUT_UNITS,
-    directions_about_flow,
     check_trade_spec,
+    directions_about_flow,
     flow_angle,
     froude_number,
     in_frequency_window,

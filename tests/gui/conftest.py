@@ -7,6 +7,7 @@ import pytest
 from core.analysis.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.project.model import Project, new_project
+from tests.ceilings import HANG_CEILING_MS, HANG_CEILING_S
 
 
 @pytest.fixture(autouse=True)
@@ -44,10 +45,10 @@ def make_window(qtbot, settings_folder):
         window.ask_unsaved = lambda: "discard"
         qtbot.addWidget(window)
         window.resize(1300, 850)
-        window.show()
-        qtbot.waitExposed(window)
+        with qtbot.waitExposed(window, timeout=HANG_CEILING_MS):   # a bare call would not wait at all
+            window.show()
         window.analysis.flush()
-        window.runner.wait_idle()
+        assert window.runner.wait_idle(HANG_CEILING_S)
         return window
 
     return build

@@ -14,6 +14,7 @@ from core.analysis.classify import TypeCode, classify_grid
 from core.data.sources import DataSources, file_checksum, load_data
 from core.equations.equation import compile_equation
 from core.equations.templates import load_template
+from tests.ceilings import HANG_CEILING_MS, HANG_CEILING_S
 from tests.gui.conftest import hump_project
 
 DEMO_DATA = Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"
@@ -31,10 +32,10 @@ def _data_study_window(make_window, path: Path, **options):
     """A window on the full-potential template with u and v taken from the data file at ``path``."""
     window = make_window(hump_project(nx=41, ny=31), **options)
     window.add_data_file(path)
-    window.runner.wait_idle()
+    assert window.runner.wait_idle(HANG_CEILING_S)
     assert window.add_template("full_potential")
     window.analysis.flush()
-    window.runner.wait_idle()
+    assert window.runner.wait_idle(HANG_CEILING_S)
     return window
 
 
@@ -164,7 +165,7 @@ def test_unusable_file_shows_the_one_line_data_error(make_window, tmp_path):
     bad.write_text("x,y,speed\n0,0,1\n1,oops,2\n", encoding="utf-8")
     before = window.document.project
     window.add_data_file(bad)
-    window.runner.wait_idle()
+    assert window.runner.wait_idle(HANG_CEILING_S)
     assert window.document.project is before
     text = window.notice.text()
     assert text.startswith(str(bad)) and "\n" not in text
@@ -204,24 +205,24 @@ def test_background_loading_can_be_cancelled(make_window, bump_npz, monkeypatch,
     real_load = loading.load_data
 
     def slow_load(*args, **kwargs):
-        release.wait(5.0)
+        assert release.wait(HANG_CEILING_S)
         return real_load(*args, **kwargs)
 
     window = make_window(hump_project(nx=41, ny=31), synchronous=False)
     window.add_data_file(bump_npz)                  # reads once (not slowed), then adds and loads from cache
-    assert window.runner.wait_idle(10.0)
+    assert window.runner.wait_idle(HANG_CEILING_S)
     window.analysis.flush()
-    assert window.runner.wait_idle(10.0)
+    assert window.runner.wait_idle(HANG_CEILING_S)
     assert window.document.data_names == ("u", "v")
 
     monkeypatch.setattr(loading, "load_data", slow_load)
     copy = Path(shutil.copy(bump_npz, bump_npz.with_name("second.npz")))
     window.add_data_file(copy)
-    qtbot.waitUntil(lambda: "Reading second.npz" in window.progress.format(), timeout=5000)
+    qtbot.waitUntil(lambda: "Reading second.npz" in window.progress.format(), timeout=HANG_CEILING_MS)
     assert window.cancel_button.isVisible() and window.progress.isVisible()
     window.cancel_work()
     release.set()
-    assert window.runner.wait_idle(10.0)
+    assert window.runner.wait_idle(HANG_CEILING_S)
     assert len(window.document.project.data_sources) == 1          # the cancelled file was not added
     assert window.document.data_names == ("u", "v") and not window.document.data_pending
 
@@ -237,19 +238,19 @@ def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_win
     real_load = loading.load_data
 
     def slow_load(*args, **kwargs):
-        release.wait(5.0)
+        assert release.wait(HANG_CEILING_S)
         return real_load(*args, **kwargs)
 
     monkeypatch.setattr(loading, "load_data", slow_load)
     other = make_window(hump_project(nx=41, ny=31), synchronous=False)
     assert other.open_path(path)
-    qtbot.waitUntil(lambda: other.runner.is_busy("data"), timeout=5000)
+    qtbot.waitUntil(lambda: other.runner.is_busy("data"), timeout=HANG_CEILING_MS)
     assert other.document.data_pending
     other.cancel_work()
     release.set()
-    assert other.runner.wait_idle(10.0)
+    assert other.runner.wait_idle(HANG_CEILING_S)
     other.analysis.flush()
-    assert other.runner.wait_idle(10.0)
+    assert other.runner.wait_idle(HANG_CEILING_S)
     assert not other.document.data_pending
     assert "cancelled" in other.notice.text()
     assert other.data_panel.table.item(0, 4).text() == "cannot be used"
@@ -258,9 +259,9 @@ def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_win
 
     monkeypatch.setattr(loading, "load_data", real_load)
     other.data_panel.reload_button.click()
-    assert other.runner.wait_idle(10.0)
+    assert other.runner.wait_idle(HANG_CEILING_S)
     other.analysis.flush()
-    assert other.runner.wait_idle(10.0)
+    assert other.runner.wait_idle(HANG_CEILING_S)
     assert other.data_panel.table.item(0, 4).text() == "ok" and not other.data_notice.isVisible()
     assert other.analysis.type_map.fractions == window.analysis.type_map.fractions
 

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode
-from core.equations.equation import compile_equation
 from core.analysis.probe import probe_point
+from core.equations.equation import compile_equation
 from core.project.model import Seed
 from tests.gui.conftest import hump_project, tricomi_project
 

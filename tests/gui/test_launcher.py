@@ -12,6 +12,7 @@ import pytest
 
 import core
 from gui.main_window import ABOUT_TEXT
+from tests.ceilings import HANG_CEILING_S
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -19,7 +20,7 @@ ROOT = Path(__file__).resolve().parents[2]
 def launch(*argv: str, environ: dict[str, str] | None = None) -> subprocess.CompletedProcess:
     """``python -m gui.launcher ARGV`` from the repository root (so this checkout's code runs)."""
     return subprocess.run([sys.executable, "-m", "gui.launcher", *argv], cwd=ROOT, capture_output=True,
-                          text=True, env=environ, timeout=300, check=False)
+                          text=True, env=environ, timeout=HANG_CEILING_S, check=False)
 
 
 def without_display() -> dict[str, str]:
@@ -50,7 +51,7 @@ qt = sorted(name for name in sys.modules if name.split(".")[0] in {"PySide6", "s
 print(json.dumps({"runs": runs, "qt": qt}))
 """
     completed = subprocess.run([sys.executable, "-c", script], cwd=ROOT, capture_output=True, text=True,
-                               timeout=300, check=True)
+                               timeout=HANG_CEILING_S, check=True)
     report = json.loads(completed.stdout)
     assert report["qt"] == []
     assert {name: status for name, (status, _) in report["runs"].items()} == {

@@ -8,6 +8,7 @@ from PySide6.QtWidgets import QApplication
 
 from gui.main_window import MainWindow
 from gui.project_bridge import save_project_file
+from tests.ceilings import HANG_CEILING_S
 from tests.gui.conftest import hump_project, tricomi_project
 
 
@@ -64,7 +65,7 @@ def test_main_offers_to_restore_the_recovery_file(monkeypatch, settings_folder, 
         seen["equation"] = window.document.equation
         seen["dirty"] = window.document.is_dirty
         window.runner.cancel()
-        window.runner.wait_idle()
+        assert window.runner.wait_idle(HANG_CEILING_S)
         window.close()
         window.deleteLater()
         return 0
@@ -92,7 +93,7 @@ def test_main_without_restoring_removes_the_recovery_file(monkeypatch, settings_
         window = next(w for w in QApplication.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible())
         seen["equation"] = window.document.equation.name
         window.runner.cancel()
-        window.runner.wait_idle()
+        assert window.runner.wait_idle(HANG_CEILING_S)
         window.close()
         window.deleteLater()
         return 0

@@ -13,6 +13,7 @@ from core.equations.equation import Equation, compile_equation
 from gui.main_window import ABOUT_TEXT, CAUTION
 from gui.math_render import equation_html, expression_html
 from gui.palette import type_lookup_table
+from tests.ceilings import HANG_CEILING_S
 from tests.gui.conftest import tricomi_project
 
 
@@ -41,7 +42,7 @@ def test_rendered_equation_reads_like_paper():
 def test_dragging_a_pin_moves_it_in_one_undo_step(make_window):
     window = make_window(tricomi_project())
     window.document.add_pin(0.5, -1.0, "drag me")
-    window.runner.wait_idle()
+    assert window.runner.wait_idle(HANG_CEILING_S)
     QApplication.processEvents()
     viewport = window.map_view.plot_widget.viewport()
 

@@ -19,6 +19,7 @@ from gui.platform_check import (
     run_ldd,
     window_problem,
 )
+from tests.ceilings import HANG_CEILING_S
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -152,7 +153,7 @@ def test_the_real_plugin_folder_is_found_without_importing_qt():
               "print(json.dumps({'folders': [str(f) for f in folders], "
               "'qt': sorted(m for m in sys.modules if m.startswith(('PySide6', 'shiboken6')))}))")
     completed = subprocess.run([sys.executable, "-c", script], cwd=ROOT, capture_output=True, text=True,
-                               check=True, timeout=120)
+                               check=True, timeout=HANG_CEILING_S)
     found = json.loads(completed.stdout)
     assert found["qt"] == []
     assert any(Path(folder, "libqoffscreen.so").is_file() for folder in found["folders"])

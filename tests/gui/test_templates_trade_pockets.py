@@ -7,8 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from core.equations.equation import compile_equation
 from core.analysis.pockets import pocket_statistics
+from core.equations.equation import compile_equation
 from core.equations.templates import load_template
 from core.equations.trade import readout_at
 from gui.pins_panel import trade_rows

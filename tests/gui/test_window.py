@@ -9,9 +9,10 @@ import pytest
 from PySide6.QtCore import QPoint, Qt
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.equations.equation import compile_equation
 from core.analysis.probe import probe_point
+from core.equations.equation import compile_equation
 from gui.palette import TYPE_COLOURS
+from tests.ceilings import HANG_CEILING_MS
 from tests.gui.conftest import hump_project, tricomi_project
 
 
@@ -200,7 +201,7 @@ def test_hover_reports_type_and_discriminant(make_window, qtbot):
     window = make_window(tricomi_project())
     where = _view_point(window, 0.25, 0.5)
     qtbot.mouseMove(window.map_view.plot_widget.viewport(), where)
-    qtbot.waitUntil(lambda: "elliptic" in window.hover_label.text(), timeout=3000)
+    qtbot.waitUntil(lambda: "elliptic" in window.hover_label.text(), timeout=HANG_CEILING_MS)
     text = window.hover_label.text()
     y = float(text.split("y = ")[1].split()[0])
     d = float(text.split("D = ")[1].split()[0])
