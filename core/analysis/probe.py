@@ -19,7 +19,7 @@ from core.analysis.discriminant import discriminant
 from core.analysis.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 
-__all__ = ["VERTICAL_TOLERANCE", "ProbeResult", "probe_point", "probe_to_dict"]
+__all__ = ["VERTICAL_TOLERANCE", "ProbeResult", "probe_point"]
 
 # A direction whose first component is below this (unit vector) is vertical: its slope is reported as None.
 VERTICAL_TOLERANCE = 1e-12
@@ -150,27 +150,3 @@ def probe_point(compiled: CompiledEquation, x: float, y: float, *,
         principal_axes_deg=axes, anisotropy=anisotropy, definitions=definitions, inside=inside,
         message="; ".join(notes),
     )
-
-
-def _json_number(value: float | None) -> float | None:
-    return None if value is None or not math.isfinite(value) else float(value)
-
-
-def probe_to_dict(result: ProbeResult) -> dict:
-    """A JSON-ready dict of ``result``: plain floats, lists, type by name; None for absent or non-finite."""
-    return {
-        "point": [result.point[0], result.point[1]],
-        "type": result.type.label,
-        "coefficients": {"a": _json_number(result.a), "b": _json_number(result.b),
-                         "c": _json_number(result.c)},
-        "discriminant": _json_number(result.discriminant),
-        "normalized_discriminant": _json_number(result.normalized),
-        "directions_deg": list(result.directions_deg),
-        "slopes": [_json_number(s) for s in result.slopes],
-        "angle_between_deg": _json_number(result.angle_between_deg),
-        "principal_axes_deg": None if result.principal_axes_deg is None else list(result.principal_axes_deg),
-        "anisotropy": _json_number(result.anisotropy),
-        "definitions": {name: _json_number(value) for name, value in result.definitions.items()},
-        "inside": result.inside,
-        "message": result.message,
-    }

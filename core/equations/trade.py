@@ -33,9 +33,7 @@ __all__ = [
     "local_mach_number",
     "mach_angle",
     "point_values",
-    "readout_at",
     "small_disturbance_mach",
-    "sonic_speed",
     "trade_readout",
     "wave_angle",
 ]
@@ -126,13 +124,6 @@ def isentropic_ratios(mach, gamma=1.4) -> IsentropicRatios:
         pressure = temperature ** (g / (g - 1.0))
         density = temperature ** (1.0 / (g - 1.0))
     return IsentropicRatios(pressure=pressure, temperature=temperature, density=density)
-
-
-def sonic_speed(c0, gamma=1.4) -> np.ndarray:
-    """c* = c0 sqrt(2/(gamma+1)): the speed (and sound speed) where isentropic flow is sonic."""
-    c0, gamma = _f64(c0, gamma)
-    with np.errstate(all="ignore"):
-        return np.where((c0 > 0) & (gamma > 1), c0 * np.sqrt(2.0 / (gamma + 1.0)), np.nan)
 
 
 def small_disturbance_mach(free_stream_mach, gamma, phix) -> np.ndarray:
@@ -226,18 +217,6 @@ def point_values(compiled, x: float, y: float, *, parameters: Mapping[str, float
     evaluated = compiled.evaluate(np.float64(x), np.float64(y), parameters=parameters, data=data)
     values.update({name: float(value) for name, value in evaluated.items()})
     return values
-
-
-def readout_at(template_or_spec, compiled, x: float, y: float, *,
-               parameters: Mapping[str, float] | None = None, data=None) -> dict[str, float]:
-    """``trade_readout`` at the point (x, y): the values come from ``compiled`` and ``data``."""
-    spec = getattr(template_or_spec, "trade", template_or_spec)
-    check_trade_spec(spec)
-    names = {source for inputs in spec.values() for source in inputs.values()}
-    data_names = set(getattr(data, "names", ()))
-    values = point_values(compiled, x, y, parameters=parameters, data=data,
-                          extra_data=tuple(sorted(names & data_names)))
-    return trade_readout(spec, values)
 
 
 def _degrees(radians) -> float:

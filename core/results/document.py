@@ -20,7 +20,7 @@ import numpy as np
 
 import core
 from core.analysis.classify import TypeCode
-from core.analysis.probe import probe_to_dict
+from core.analysis.probe import ProbeResult
 from core.data.sources import DataError, file_checksum
 from core.results.readouts import TradeReading
 
@@ -38,6 +38,7 @@ __all__ = [
     "pocket_document",
     "point_list",
     "probe_document",
+    "probe_to_dict",
     "project_file_checksum",
     "results_document",
     "seed_document",
@@ -155,8 +156,28 @@ def map_fields(variables: Sequence[str], domain, tolerance: float, *, type_map=N
 
 
 # -- points and curves ----------------------------------------------------------------------------------
+def probe_to_dict(result: ProbeResult) -> dict:
+    """A JSON-ready dict of ``result``: plain floats, lists, type by name; None for absent or non-finite."""
+    return {
+        "point": [result.point[0], result.point[1]],
+        "type": result.type.label,
+        "coefficients": {"a": json_number(result.a), "b": json_number(result.b),
+                         "c": json_number(result.c)},
+        "discriminant": json_number(result.discriminant),
+        "normalized_discriminant": json_number(result.normalized),
+        "directions_deg": list(result.directions_deg),
+        "slopes": [json_number(s) for s in result.slopes],
+        "angle_between_deg": json_number(result.angle_between_deg),
+        "principal_axes_deg": None if result.principal_axes_deg is None else list(result.principal_axes_deg),
+        "anisotropy": json_number(result.anisotropy),
+        "definitions": {name: json_number(value) for name, value in result.definitions.items()},
+        "inside": result.inside,
+        "message": result.message,
+    }
+
+
 def probe_document(result, trade: TradeReading | None = None) -> dict:
-    """Everything known at one point (core.analysis.probe.probe_to_dict), with the trade readout, its
+    """Everything known at one point (``probe_to_dict``), with the trade readout, its
     units and, where values are missing, a note saying why."""
     document = probe_to_dict(result)
     if trade is not None and (trade.values or trade.error):

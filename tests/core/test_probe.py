@@ -8,8 +8,9 @@ import pytest
 
 from core.analysis.classify import TypeCode, classify_points
 from core.analysis.domain import Domain
-from core.analysis.probe import probe_point, probe_to_dict
+from core.analysis.probe import probe_point
 from core.equations.equation import Equation, Parameter, compile_equation
+from core.results.document import probe_to_dict
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, name="square")
 

@@ -19,12 +19,11 @@ from core.equations.trade import (
     local_mach_number,
     mach_angle,
     point_values,
-    readout_at,
     small_disturbance_mach,
-    sonic_speed,
     trade_readout,
     wave_angle,
 )
+from core.results.readouts import read_trade
 
 # NACA Report 1135 (1953), Table I, gamma = 1.4: M, mu (deg), p/p0, T/T0, rho/rho0, to the printed
 # 4 significant figures. Written from memory of the table (the M = 2 row as quoted in the task brief).
@@ -57,16 +56,6 @@ def test_vectorised_shapes_and_undefined_values():
     assert math.isnan(float(isentropic_ratios(1.0, 1.0).pressure))       # gamma = 1 is not isentropic here
     assert math.isnan(float(local_mach_number(1.0, 0.0, -1.0)))
     assert math.isnan(float(flow_angle(0.0, 0.0)))
-
-
-def test_sonic_speed_is_where_the_isentropic_flow_is_sonic():
-    # c* = c0 sqrt(2/(gamma+1)) (common practice, no source): at that speed the local sound speed equals it
-    for gamma in (1.1, 1.4, 5 / 3):
-        c_star = float(sonic_speed(340.0, gamma))
-        assert c_star == pytest.approx(340.0 * math.sqrt(2 / (gamma + 1)))
-        c2 = 340.0**2 - (gamma - 1) / 2 * c_star**2
-        assert float(local_mach_number(c_star, 0.0, c2)) == pytest.approx(1.0, abs=1e-12)
-    assert float(sonic_speed(1.0, 1.4)) == pytest.approx(0.912871, abs=1e-6)   # sqrt(2/2.4), from memory
 
 
 def test_characteristics_at_flow_angle_plus_minus_mach_angle_solve_the_full_potential_equation():
@@ -138,20 +127,22 @@ def test_spec_errors():
         check_trade_spec(["mach"])
 
 
-def test_readout_at_a_point_with_profile_data(tmp_path):
+def test_trade_readout_at_a_point_with_profile_data(tmp_path):
     z = np.linspace(-100, 0, 11)
     np.savez(tmp_path / "cast.npz", z=z, N=np.full(11, 4e-3))
     data = DataSources([load_data(tmp_path / "cast.npz", variables=("x", "z"))])
     equation = Equation("N**2 - w**2", "0", "f**2 - w**2", variables=("x", "z"),
                         parameters={"w": _parameter(2e-3), "f": _parameter(1e-4)})
     compiled = compile_equation(equation, data_names=data.names)
-    readout = readout_at({"internal_wave": {"N": "N", "f": "f", "w": "w"}}, compiled, 10.0, -50.0, data=data)
+    readout = read_trade({"internal_wave": {"N": "N", "f": "f", "w": "w"}}, compiled, 10.0, -50.0,
+                         data=data).values
     expected = math.sqrt((4e-6 - 1e-8) / (16e-6 - 4e-6))
     assert readout["ray_slope"] == pytest.approx(expected)
     assert readout["in_window"] == 1.0
     values = point_values(compiled, 10.0, -50.0, data=data)
     assert values["N"] == pytest.approx(4e-3) and values["a"] == pytest.approx(12e-6)
-    outside = readout_at({"internal_wave": {"N": "N", "f": "f", "w": "w"}}, compiled, 10.0, 50.0, data=data)
+    outside = read_trade({"internal_wave": {"N": "N", "f": "f", "w": "w"}}, compiled, 10.0, 50.0,
+                         data=data).values
     assert math.isnan(outside["ray_slope"]) and outside["in_window"] == 0.0
 
 

@@ -12,11 +12,11 @@ import pytest
 
 import core
 from core.analysis.pockets import pocket_statistics
-from core.analysis.probe import probe_point, probe_to_dict
+from core.analysis.probe import probe_point
 from core.equations.equation import compile_equation
-from core.equations.trade import readout_at
 from core.project.model import Seed
-from core.results.document import pocket_document
+from core.results.document import pocket_document, probe_to_dict
+from core.results.readouts import read_trade
 from tests.gui.conftest import hump_project
 
 PINS = ((0.0, 1.05, "crest"), (-2.5, 2.5, "upstream"), (0.0, 0.5, "inside the bump"))
@@ -62,7 +62,7 @@ def test_json_export_agrees_with_core(study, tmp_path):
         assert pin["label"] == label
         assert {key: pin[key] for key in expected} == expected
     crest, upstream, inside = document["pins"]
-    reference = readout_at(equation.trade, compiled, 0.0, 1.05, parameters=parameters)
+    reference = read_trade(equation.trade, compiled, 0.0, 1.05, parameters=parameters).values
     assert crest["trade"] == reference and crest["trade"]["mach"] > 1.0
     # Mach angle mu = asin(1/M) (NACA Report 1135, 1953).
     assert crest["trade"]["mach_angle_deg"] == pytest.approx(math.degrees(math.asin(1 / reference["mach"])))
@@ -91,7 +91,7 @@ def test_pins_and_pockets_tables_agree_with_core(study, tmp_path):
     parameters = equation.parameter_values()
     assert window.export_table("pins", tmp_path / "pins.csv") == 3
     crest, upstream, inside = _rows(tmp_path / "pins.csv")
-    reference = readout_at(equation.trade, compiled, 0.0, 1.05, parameters=parameters)
+    reference = read_trade(equation.trade, compiled, 0.0, 1.05, parameters=parameters).values
     probe = probe_point(compiled, 0.0, 1.05, parameters=parameters)
     assert crest["label"] == "crest" and (float(crest["x"]), float(crest["y"])) == (0.0, 1.05)
     assert float(crest["mach [dimensionless]"]) == reference["mach"]

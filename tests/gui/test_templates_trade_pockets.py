@@ -10,7 +10,7 @@ import pytest
 from core.analysis.pockets import pocket_statistics
 from core.equations.equation import compile_equation
 from core.equations.templates import load_template
-from core.equations.trade import readout_at
+from core.results.readouts import read_trade
 from gui.pins_panel import trade_rows
 from gui.pockets_panel import pocket_row
 from gui.template_dialog import TemplateChoice, TemplateDialog
@@ -87,8 +87,7 @@ def test_pin_shows_mach_angle_at_a_supersonic_point(make_window):
     # Mach angle mu = asin(1/M) (NACA Report 1135, 1953).
     assert readout["mach_angle_deg"] == pytest.approx(math.degrees(math.asin(1 / expected_mach)), rel=1e-12)
     equation = window.document.equation
-    core_readout = readout_at(equation.trade, compile_equation(equation), 0.0, 1.05,
-                              parameters=equation.parameter_values())
+    core_readout = read_trade(equation.trade, compile_equation(equation), 0.0, 1.05, parameters=equation.parameter_values()).values
     assert readout == core_readout
     text = window.pins_panel.details.toPlainText()
     assert f"Mach angle μ = asin(1/M)\n{math.degrees(math.asin(1 / expected_mach)):.5g}°\n" in text
