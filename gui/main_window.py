@@ -31,21 +31,21 @@ from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
-from gui.data_panel import DataPanel
 from gui.document import Document
-from gui.domain_panel import DomainPanel
-from gui.equation_panel import EquationPanel
 from gui.export_commands import ExportCommands
 from gui.file_commands import FileCommands
 from gui.jobs import JobRunner
-from gui.layers_panel import LayersPanel
 from gui.map_view import MAX_STRETCH, MapView
-from gui.notes_panel import NotesPanel
-from gui.pins_panel import PinsPanel, main_trade_text
-from gui.pockets_panel import PocketsPanel
+from gui.panels.data import DataPanel
+from gui.panels.domain import DomainPanel
+from gui.panels.equation import EquationPanel
+from gui.panels.layers import LayersPanel
+from gui.panels.notes import NotesPanel
+from gui.panels.pins import PinsPanel, main_trade_text
+from gui.panels.pockets import PocketsPanel
+from gui.panels.template_dialog import TemplateChoice, TemplateDialog
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
-from gui.template_dialog import TemplateChoice, TemplateDialog
 from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]

@@ -112,3 +112,12 @@ def test_missing_templates_are_an_error_not_an_empty_list(tmp_path, monkeypatch)
     assert (status, out) == (2, "")
     assert err.count("\n") == 1 and err.startswith("mixtype: Mixtype's bundled templates are missing")
     assert list_templates(tmp_path) == ()  # an explicit empty folder simply holds none
+
+
+def test_the_wheel_configuration_ships_every_code_package():
+    """Every folder of core/ and gui/ holding Python modules is a package the wheel lists."""
+    packages = set(_pyproject()["tool"]["setuptools"]["packages"])
+    code = {".".join(p.parent.relative_to(ROOT).parts) for folder in ("core", "gui")
+            for p in (ROOT / folder).rglob("*.py") if "__pycache__" not in p.parts}
+    assert {"core.analysis", "gui.panels"} <= code
+    assert code - packages == set()

@@ -267,7 +267,7 @@ def test_cancelled_loading_of_an_opened_study_leaves_its_data_undefined(make_win
 
 
 def test_equation_defining_a_data_name_itself_keeps_its_formula(make_window, bump_npz):
-    from gui.template_dialog import TemplateChoice
+    from gui.panels.template_dialog import TemplateChoice
 
     window = make_window(hump_project(nx=41, ny=31))
     window.add_data_file(bump_npz)

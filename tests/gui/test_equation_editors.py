@@ -7,9 +7,9 @@ from PySide6.QtWidgets import QPushButton, QTableWidgetItem
 
 from core.equations.equation import Parameter
 from gui.document import Document
-from gui.equation_panel import EquationPanel
-from gui.equation_tables import format_number, parse_optional_number
-from gui.parameter_sliders import SLIDER_STEPS, slider_position, value_text
+from gui.panels.equation import EquationPanel
+from gui.panels.equation_tables import format_number, parse_optional_number
+from gui.panels.parameter_sliders import SLIDER_STEPS, slider_position, value_text
 from tests.gui.conftest import hump_project
 
 

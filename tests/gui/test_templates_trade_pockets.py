@@ -11,9 +11,9 @@ from core.analysis.pockets import pocket_statistics
 from core.equations.equation import compile_equation
 from core.equations.templates import load_template
 from core.results.readouts import read_trade
-from gui.pins_panel import trade_rows
-from gui.pockets_panel import pocket_row
-from gui.template_dialog import TemplateChoice, TemplateDialog
+from gui.panels.pins import trade_rows
+from gui.panels.pockets import pocket_row
+from gui.panels.template_dialog import TemplateChoice, TemplateDialog
 from tests.gui.conftest import hump_project
 
 

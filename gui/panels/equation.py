@@ -1,8 +1,8 @@
 """The equation editor: which equation of the study is shown, its mathematical form, and its parts to edit.
 
 The panel stacks the chooser, the rendered form (equation, definitions and discriminant as typeset text) and
-three editors: the coefficients a, b, c (gui.coefficient_fields), the definitions and the parameters with
-their sliders (gui.equation_tables, gui.parameter_sliders). Each editor checks what is typed through core
+three editors: the coefficients a, b, c (gui.panels.coefficient_fields), the definitions and the parameters with
+their sliders (gui.panels.equation_tables, gui.panels.parameter_sliders). Each editor checks what is typed through core
 and edits the document only with an equation that compiles.
 """
 
@@ -12,11 +12,11 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QComboBox, QFrame, QLabel, QVBoxLayout, QWidget
 
 from core.equations.equation import Equation
-from gui.coefficient_fields import CoefficientFields
 from gui.document import Document
-from gui.equation_tables import DefinitionTable, ParameterTable
 from gui.math_render import equation_html
-from gui.parameter_sliders import SLIDER_STEPS
+from gui.panels.coefficient_fields import CoefficientFields
+from gui.panels.equation_tables import DefinitionTable, ParameterTable
+from gui.panels.parameter_sliders import SLIDER_STEPS
 from gui.widgets import ERROR_STYLE, chooser_row, purpose_label, push_button, show_choices
 
 __all__ = ["SLIDER_STEPS", "EquationPanel"]

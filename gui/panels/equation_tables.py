@@ -3,7 +3,7 @@
 Each table lists named rows of the equation. An edit that leaves an equation that compiles becomes an edit of
 the document (all edits of one table merge into one undo step until another edit comes between); one that
 does not leaves the document as it was and says why under the table. Removing a row that others still use is
-refused the same way. The parameters' box also holds their sliders (gui.parameter_sliders).
+refused the same way. The parameters' box also holds their sliders (gui.panels.parameter_sliders).
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (
 from core.equations.equation import Equation, Parameter
 from core.project.names import numbered_name
 from gui.document import Document
-from gui.parameter_sliders import ParameterSliders
+from gui.panels.parameter_sliders import ParameterSliders
 from gui.widgets import button_row, error_label, push_button, show_error
 
 __all__ = ["DefinitionTable", "ParameterTable", "format_number", "parse_optional_number"]
