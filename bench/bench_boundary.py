@@ -14,8 +14,8 @@ import time
 import numpy as np
 
 from core.analysis.classify import classify_grid
-from core.analysis.domain import Domain
 from core.analysis.type_change_lines import find_type_boundaries
+from core.domain import Domain
 from core.equations.equation import Equation, compile_equation
 
 NODES = 1024

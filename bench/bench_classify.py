@@ -15,7 +15,7 @@ import sympy
 from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 
 CASES = {

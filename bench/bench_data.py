@@ -18,8 +18,8 @@ from scipy import interpolate
 from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.domain import Domain
 from core.data.sources import DataSources, load_data
+from core.domain import Domain
 from core.equations.equation import compile_equation
 from core.equations.templates import load_template
 

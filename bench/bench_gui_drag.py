@@ -26,7 +26,7 @@ def run(nodes: int = NODES, steps: int = STEPS) -> dict:
     from PySide6.QtCore import QCoreApplication
 
     from core.analysis.classify import classify_grid
-    from core.analysis.domain import Domain
+    from core.domain import Domain
     from gui.main_window import MainWindow
     from gui.preferences import Preferences
     from gui.project_bridge import scratch_project

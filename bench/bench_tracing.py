@@ -23,8 +23,8 @@ import numpy as np
 from scipy.integrate import solve_ivp
 
 from core.analysis.directions import Family, characteristic_directions
-from core.analysis.domain import Domain
 from core.analysis.tracing import trace_characteristics
+from core.domain import Domain
 from core.equations.equation import Equation, compile_equation
 
 __all__ = ["main", "run"]

@@ -15,7 +15,7 @@ from pathlib import Path
 from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoStack
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import CompiledEquation, Equation, Parameter
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data

@@ -10,7 +10,7 @@ import os
 from dataclasses import replace
 from pathlib import Path, PurePosixPath
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.project.data_files import relative_data_path, resolve_data_path
 from core.project.io import ProjectError, load_project, save_project

@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 

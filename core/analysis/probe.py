@@ -16,7 +16,7 @@ import numpy as np
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
 from core.analysis.directions import characteristic_directions, parabolic_direction
 from core.analysis.discriminant import discriminant
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 
 __all__ = ["VERTICAL_TOLERANCE", "ProbeResult", "probe_point"]

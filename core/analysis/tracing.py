@@ -20,7 +20,7 @@ import numpy as np
 
 from core.analysis.directions import Family, characteristic_directions, unit_direction
 from core.analysis.discriminant import discriminant
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 

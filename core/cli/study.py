@@ -16,8 +16,8 @@ import re
 from dataclasses import dataclass, replace
 
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.analysis.domain import Domain
 from core.data.sources import DataError, DataSet, DataSources, load_data
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.equations.templates import Template, TemplateError, load_template
 from core.project.data_files import open_project_data, unprovided_names_problem

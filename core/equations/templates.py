@@ -25,8 +25,8 @@ import types
 from collections.abc import Collection, Mapping
 from dataclasses import dataclass
 
-from core.analysis.domain import Domain
 from core.bundled import bundled_path
+from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.trade import check_trade_spec
 

@@ -19,10 +19,10 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.analysis.domain import Domain
 from core.analysis.tracing import seeds_along_segment
 from core.bundled import bundled_path
 from core.data.raw import FORMATS
+from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from core.equations.language import ExpressionError, check_name
 

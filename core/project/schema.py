@@ -12,8 +12,8 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from core.analysis.domain import MAX_GRID, MIN_GRID
 from core.bundled import bundled_path
+from core.domain import MAX_GRID, MIN_GRID
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
 from core.equations.language import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
 from core.equations.trade import TRADE_INPUTS

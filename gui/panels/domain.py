@@ -6,7 +6,7 @@ import math
 
 from PySide6.QtWidgets import QComboBox, QFormLayout, QLabel, QLineEdit, QSpinBox, QVBoxLayout, QWidget
 
-from core.analysis.domain import MAX_GRID, MIN_GRID, Domain
+from core.domain import MAX_GRID, MIN_GRID, Domain
 from gui.document import Document
 from gui.widgets import chooser_row, error_label, purpose_label, push_button, show_choices, show_error
 

@@ -11,7 +11,6 @@ from hypothesis import strategies as st
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.analysis.discriminant import discriminant
-from core.analysis.domain import Domain
 from core.analysis.type_change_lines import (
     ParabolicRegion,
     TypeBoundaries,
@@ -19,6 +18,7 @@ from core.analysis.type_change_lines import (
     find_type_boundaries,
 )
 from core.analysis.zero_refinement import discriminant_function, roots_on_segments
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 

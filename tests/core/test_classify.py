@@ -6,7 +6,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation, compile_equation
 from core.progress import Cancelled
 

@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation
 from core.progress import Cancelled
 from core.project import data_files

@@ -9,8 +9,8 @@ import pytest
 from scipy import ndimage
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.domain import Domain
 from core.data.sources import DataError, DataSources, load_data, parse_quantity_key
+from core.domain import Domain
 from core.equations.equation import Equation, compile_equation
 from core.equations.templates import load_template
 

@@ -117,3 +117,32 @@ def test_every_core_module_imports_without_qt():
                             cwd=ROOT, timeout=HANG_CEILING_S)
     assert result.returncode == 0, result.stderr
     assert int(result.stdout.strip()) >= len(modules)
+
+
+# Inside core, each layer uses only the layers below it (DEVELOPERS.md, "Architecture").
+CORE_LAYERS = (
+    ("core", "core.domain", "core.progress", "core.bundled"),
+    ("core.equations",),
+    ("core.data",),
+    ("core.analysis",),
+    ("core.project",),
+    ("core.results",),
+    ("core.cli",),
+)
+
+
+def layer_of(module: str) -> int:
+    matches = [index for index, prefixes in enumerate(CORE_LAYERS)
+               for prefix in prefixes if module == prefix or module.startswith(prefix + ".")]
+    return max(matches)
+
+
+def test_core_layers_depend_only_downwards():
+    upward = sorted((name, target) for name, targets in import_graph().items() if name.startswith("core")
+                    for target in targets if target.startswith("core") and layer_of(target) > layer_of(name))
+    assert upward == []
+
+
+def test_the_layer_rule_sees_an_upward_import():
+    assert layer_of("core.equations.parser") < layer_of("core.analysis.classify") < layer_of("core.cli.main")
+    assert layer_of("core.domain") == 0 and layer_of("core") == 0

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.domain import Domain
 from core.analysis.pockets import label_pockets, node_areas, pocket_statistics
 from core.data.sources import DataSources, load_data
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.equations.templates import load_template
 from core.progress import Cancelled

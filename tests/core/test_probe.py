@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_points
-from core.analysis.domain import Domain
 from core.analysis.probe import probe_point
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.results.document import probe_to_dict
 

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import classify_grid
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import compile_equation
 from core.project.io import ProjectError, load_project
 from core.project.model import demo_project_path

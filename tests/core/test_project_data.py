@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import classify_grid
-from core.analysis.domain import Domain
 from core.data.sources import DataError
+from core.domain import Domain
 from core.equations.equation import Equation
 from core.equations.language import ExpressionError
 from core.project.checks import equation_data_names

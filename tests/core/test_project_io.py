@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import core
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.equations.language import ExpressionError, check_name
 from core.equations.trade import TRADE_INPUTS

@@ -8,7 +8,7 @@ from datetime import UTC, datetime, timedelta, timezone
 import numpy as np
 import pytest
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation
 from core.project.model import Metadata, Pin, Project, Seed, ViewSettings, new_project, utc_timestamp
 

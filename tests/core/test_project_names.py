@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation
 from core.project.model import new_project
 from core.project.names import free_name, numbered_name

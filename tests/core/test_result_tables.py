@@ -9,8 +9,8 @@ from types import SimpleNamespace
 
 import numpy as np
 
-from core.analysis.domain import Domain
 from core.analysis.probe import probe_point
+from core.domain import Domain
 from core.equations.equation import Equation, compile_equation
 from core.results.document import results_document
 from core.results.tables import (

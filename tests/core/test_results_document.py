@@ -12,11 +12,11 @@ import pytest
 
 import core
 from core.analysis.classify import classify_grid
-from core.analysis.domain import Domain
 from core.analysis.pockets import pocket_statistics
 from core.analysis.probe import probe_point
 from core.analysis.tracing import trace_characteristics
 from core.analysis.type_change_lines import find_type_boundaries
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
 from core.project.io import save_project
 from core.project.model import Pin, Seed, new_project

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from core.equations.equation import Equation, Parameter
 from core.project.model import Project, new_project
 from tests.ceilings import HANG_CEILING_MS, HANG_CEILING_S

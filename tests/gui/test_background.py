@@ -9,7 +9,7 @@ from __future__ import annotations
 import pytest
 from PySide6.QtWidgets import QApplication
 
-from core.analysis.domain import Domain
+from core.domain import Domain
 from tests.ceilings import HANG_CEILING_S
 from tests.gui.conftest import hump_project
 
