@@ -15,6 +15,7 @@ from PySide6.QtCore import QPointF, QRectF, Qt, Signal
 from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
 from core.analysis.classify import TypeCode
+from core.analysis.pockets import pocket_outline
 from core.project.model import Pin, Seed, ViewSettings
 from gui.palette import (
     FAMILY_COLOURS,
@@ -27,7 +28,7 @@ from gui.palette import (
 )
 from gui.qt_setup import configure_plotting
 
-__all__ = ["MapView", "MapViewBox", "pocket_outline", "polyline_with_breaks"]
+__all__ = ["MapView", "MapViewBox", "polyline_with_breaks"]
 
 PIN_GRAB_PIXELS = 9.0
 MAX_STRETCH = 4.0
@@ -45,23 +46,6 @@ def polyline_with_breaks(polylines) -> tuple[np.ndarray, np.ndarray]:
     if not xs:
         return np.empty(0), np.empty(0)
     return np.concatenate(xs), np.concatenate(ys)
-
-
-def pocket_outline(mask: np.ndarray, x: np.ndarray, y: np.ndarray) -> list[np.ndarray]:
-    """Closed (n, 2) polylines around the True nodes of a (ny, nx) mask, half-way to their neighbours.
-
-    The mask is padded with False one node beyond the grid, so pockets on the domain's edge close too.
-    """
-    import contourpy
-
-    def padded(nodes: np.ndarray) -> np.ndarray:
-        step = nodes[1] - nodes[0] if nodes.size > 1 else 1.0
-        end = nodes[-1] - nodes[-2] if nodes.size > 1 else 1.0
-        return np.concatenate(([nodes[0] - step], nodes, [nodes[-1] + end]))
-
-    field = np.pad(mask.astype(np.float64), 1)
-    generator = contourpy.contour_generator(padded(np.asarray(x, float)), padded(np.asarray(y, float)), field)
-    return list(generator.lines(0.5))
 
 
 class MapViewBox(pg.ViewBox):
@@ -235,7 +219,7 @@ class MapView(QWidget):
             self.pocket_peak.setData([], [])
             return
         self.pocket_outline.setData(*polyline_with_breaks(pocket_outline(labels == pocket.label, type_map.x,
-                                                                         type_map.y)), connect="finite")
+                                                                        type_map.y)), connect="finite")
         if pocket.peak_at is not None:
             self.pocket_peak.setData([pocket.peak_at[0]], [pocket.peak_at[1]])
         else:

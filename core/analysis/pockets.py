@@ -12,6 +12,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 
+import contourpy
 import numpy as np
 from scipy import ndimage
 
@@ -19,7 +20,7 @@ from core.analysis.classify import TypeCode, TypeMap
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
-__all__ = ["Pocket", "label_pockets", "node_areas", "pocket_statistics"]
+__all__ = ["Pocket", "label_pockets", "node_areas", "pocket_outline", "pocket_statistics"]
 
 _CHUNK = 1 << 17
 
@@ -164,3 +165,18 @@ def _quantity_values(compiled: CompiledEquation, quantity: str, px: np.ndarray, 
         if progress is not None:
             progress(stop / px.size)
     return values
+
+
+def pocket_outline(mask: np.ndarray, x: np.ndarray, y: np.ndarray) -> list[np.ndarray]:
+    """Closed (n, 2) polylines around the True nodes of a (ny, nx) mask, half-way to their neighbours.
+
+    The mask is padded with False one node beyond the grid, so pockets on the domain's edge close too.
+    """
+    def padded(nodes: np.ndarray) -> np.ndarray:
+        step = nodes[1] - nodes[0] if nodes.size > 1 else 1.0
+        end = nodes[-1] - nodes[-2] if nodes.size > 1 else 1.0
+        return np.concatenate(([nodes[0] - step], nodes, [nodes[-1] + end]))
+
+    field = np.pad(mask.astype(np.float64), 1)
+    generator = contourpy.contour_generator(padded(np.asarray(x, float)), padded(np.asarray(y, float)), field)
+    return list(generator.lines(0.5))

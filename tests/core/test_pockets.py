@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.pockets import label_pockets, node_areas, pocket_statistics
+from core.analysis.pockets import label_pockets, node_areas, pocket_outline, pocket_statistics
 from core.data.sources import DataSources, load_data
 from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
@@ -134,3 +134,21 @@ def test_no_pocket_and_undefined_peaks():
     type_map = classify_grid(compiled, Domain(0, 1, 0, 1, nx=5, ny=5))
     (pocket,) = pocket_statistics(compiled, type_map, quantity="hole")
     assert pocket.peak is None and pocket.peak_at is None and pocket.area == pytest.approx(1.0)
+
+
+def test_pocket_outline_runs_half_way_to_the_neighbouring_nodes():
+    # A 2 x 3 block of True nodes on a unit grid: its outline is the rectangle half a spacing outside it
+    # (contourpy's level 0.5 between 1 and 0 lies midway; common practice, no source).
+    x = np.arange(6.0)
+    y = np.arange(5.0)
+    mask = np.zeros((5, 6), dtype=bool)
+    mask[1:3, 2:5] = True
+    (outline,) = pocket_outline(mask, x, y)
+    np.testing.assert_allclose(outline[0], outline[-1])                 # closed
+    assert outline[:, 0].min() == 1.5 and outline[:, 0].max() == 4.5
+    assert outline[:, 1].min() == 0.5 and outline[:, 1].max() == 2.5
+    # A pocket on the domain's edge closes beyond the last node.
+    edge = np.zeros((5, 6), dtype=bool)
+    edge[0, 0] = True
+    (corner,) = pocket_outline(edge, x, y)
+    assert corner[:, 0].min() == -0.5 and corner[:, 1].min() == -0.5
