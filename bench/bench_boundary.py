@@ -12,6 +12,7 @@ import json
 import time
 
 import numpy as np
+from records import figure
 
 from core.analysis.classify import classify_grid
 from core.analysis.type_change_lines import find_type_boundaries
@@ -62,6 +63,12 @@ def run(nodes: int = NODES) -> dict:
         "contouring_and_refinement_seconds": refined_time,
         "extra_time_ratio": refined_time / raw_time - 1.0,
         "targets": {"refined_max_radius_error_relative": 1e-12, "extra_time_ratio": 0.20},
+        "records": [
+            figure(f"type-change lines {nodes}^2: refined radius error / domain size",
+                   _radius_error(refined.curves, "points") / domain.size, 1e-12),
+            figure(f"type-change lines {nodes}^2: refinement time / contouring time - 1",
+                   refined_time / raw_time - 1.0, 0.20),
+        ],
     }
 
 

@@ -20,6 +20,7 @@ import math
 import time
 
 import numpy as np
+from records import figure
 from scipy.integrate import solve_ivp
 
 from core.analysis.directions import Family, characteristic_directions
@@ -145,6 +146,11 @@ def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 2024
         "scipy_rtol": rtol,
         "speed_ratio": scipy_seconds / vectorised_seconds,
         "speed_ratio_target": 40.0,
+        "records": [
+            figure(f"tracing {len(curves)} characteristics: scipy solve_ivp time / vectorised time",
+                   scipy_seconds / vectorised_seconds, 40.0, at_most=False),
+            figure("tracing: largest error of the Tricomi invariant", ours, 1e-7),
+        ],
         "max_invariant_error_vectorised": ours,
         "max_invariant_error_scipy": theirs,
         "max_invariant_error_target": 1e-7,

@@ -20,9 +20,14 @@ def test_every_benchmark_runs_at_smoke_size():
     result = subprocess.run([sys.executable, "bench/run.py", "--json", "--smoke"], cwd=ROOT, env=environment,
                             capture_output=True, text=True, check=False, timeout=HANG_CEILING_S)
     assert result.returncode == 0, result.stderr
-    figures = json.loads(result.stdout)
+    lines = [json.loads(line) for line in result.stdout.splitlines()]
+    figures = {line["benchmark"]: line["figures"] for line in lines[:-1]}
     expected = {path.stem.removeprefix("bench_") for path in (ROOT / "bench").glob("bench_*.py")}
     assert set(figures) == expected
+    summary = lines[-1]
+    assert len(summary["records"]) >= 4
+    assert {"figure", "measured", "target", "met", "benchmark"} <= set(summary["records"][0])
+    assert summary["met"] + summary["missed"] <= len(summary["records"])
     boundary = figures["boundary"]
     assert boundary["unrefined_vertices"] == 0
     assert boundary["refined_max_radius_error_relative"] <= boundary["targets"]["refined_max_radius_error_relative"]
