@@ -17,7 +17,7 @@ import enum
 
 import numpy as np
 
-from core.analysis.discriminant import discriminant, normalized_discriminant
+from core.analysis.discriminant import discriminant, normalized_discriminant, scaled_by_power_of_two
 
 __all__ = ["Family", "characteristic_directions", "parabolic_direction", "unit_direction"]
 
@@ -45,7 +45,7 @@ def characteristic_directions(a, b, c, *, tolerance: float = 0.0) -> tuple[np.nd
     ``tolerance``, both families give the single parabolic direction.
     """
     with np.errstate(all="ignore"):
-        a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
+        a, b, c = scaled_by_power_of_two(a, b, c)          # exact: directions do not depend on the scale
         d = discriminant(a, b, c)
         real = normalized_discriminant(a, b, c) >= -tolerance     # False where NaN (undefined)
         result = []
@@ -63,7 +63,7 @@ def parabolic_direction(a, b, c) -> np.ndarray:
     This is the one characteristic direction at a parabolic point. NaN where a = b = c = 0 or undefined.
     """
     with np.errstate(all="ignore"):
-        a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
+        a, b, c = scaled_by_power_of_two(a, b, c)          # exact: directions do not depend on the scale
         dx, dy = unit_direction(a, b, c, 1.0, np.zeros_like(a))
         finite = np.isfinite(a) & np.isfinite(b) & np.isfinite(c)
         dx, dy = np.where(finite, dx, np.nan), np.where(finite, dy, np.nan)

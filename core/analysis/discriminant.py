@@ -5,13 +5,37 @@ D is formed as 4((b/2)^2 - ac): scaling by powers of two is exact, so this equal
 while sharing its rounding with the normalised form. With S = b^2 + 4|ac|, the rounding error of D is about
 machine epsilon times S, so D/S in [-1, 1] is what can be trusted; where S = 0 (b = 0 and ac = 0, as in the
 heat equation) D is exactly 0 and D/S is taken as 0. Non-finite coefficients give NaN, never a silent type.
+
+The type does not depend on the size of the coefficients: where b^2 and ac would overflow or underflow
+(Laplace's equation times 1e160 or 1e-170), D/S is computed from a, b, c divided by the power of two nearest
+their largest magnitude (``scaled_by_power_of_two``). Dividing by a power of two is exact, so wherever the
+plain formula is safe both give the same bits, and the slower path runs only on the few points that need it.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["DiscriminantScratch", "discriminant", "normalized_discriminant", "normalized_discriminant_into"]
+__all__ = ["DiscriminantScratch", "discriminant", "normalized_discriminant", "normalized_discriminant_into",
+           "scaled_by_power_of_two"]
+
+# Below this, S/4 = b^2/4 + |ac| may hold subnormal terms (fewer than 53 bits); above it the terms are exact
+# enough that D/S is accurate to rounding. 2^-1022 * 2^54, with margin.
+_SAFE_SCALE = 1e-290
+
+
+def scaled_by_power_of_two(a, b, c) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """a, b, c (broadcast together, float64) divided by 2^e, where 2^(e-1) <= max(|a|, |b|, |c|) < 2^e.
+
+    The division is exact (only the exponents change, unless a much smaller coefficient underflows, where it is
+    negligible), so signs, zeros and ratios are kept while b^2 and ac can no longer overflow or underflow.
+    Points where all three are 0, or one is not finite, are returned unchanged.
+    """
+    a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
+    with np.errstate(all="ignore"):
+        largest = np.maximum(np.maximum(np.abs(a), np.abs(b)), np.abs(c))
+        _, exponent = np.frexp(np.where(np.isfinite(largest), largest, 0.0))
+        return np.ldexp(a, -exponent), np.ldexp(b, -exponent), np.ldexp(c, -exponent)
 
 
 def discriminant(a, b, c) -> np.ndarray:
@@ -60,7 +84,16 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
         np.subtract(quarter_b2, product, out=numerator)  # D/4
         np.add(quarter_b2, np.abs(product), out=scale)  # S/4
         np.divide(numerator, scale, out=out, casting="same_kind")  # D/S, stored as out's dtype
-    # 0/0: the computed scale b^2/4 + |ac| is exactly 0, so the computed D/4 = b^2/4 - ac is 0 too (this also
-    # covers b^2 and ac underflowing). Non-finite coefficients make the scale NaN or inf, and stay NaN.
-    if not scale.all():
-        out[scale == 0] = 0.0
+    # Where the scale under- or overflowed (or a coefficient is not finite: NaN or inf scale), compute again from
+    # coefficients scaled by a power of two. 0/0 stays 0 only where a = b = c = 0 (D = 0 exactly); genuinely
+    # non-finite coefficients stay NaN.
+    suspect = ~((scale > _SAFE_SCALE) & (scale < np.inf))
+    if suspect.any():
+        a_s, b_s, c_s = scaled_by_power_of_two(*(np.broadcast_to(v, out.shape)[suspect] for v in (a, b, c)))
+        with np.errstate(all="ignore"):
+            quarter_b2 = (0.5 * b_s) ** 2
+            product = a_s * c_s
+            scale_s = quarter_b2 + np.abs(product)
+            value = (quarter_b2 - product) / scale_s
+        value[scale_s == 0] = 0.0
+        out[suspect] = value

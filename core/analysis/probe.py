@@ -104,6 +104,12 @@ def probe_point(compiled: CompiledEquation, x: float, y: float, *,
     axes: tuple[float, float] | None = None
     anisotropy: float | None = None
     d = float(discriminant(a, b, c))
+    if type_code is not TypeCode.UNDEFINED and (not math.isfinite(d) or (d == 0.0 and normalized != 0.0)):
+        # b^2 or ac over- or underflowed: D itself is out of double range, its sign (the type) is not.
+        size = "above 1.8e308" if not math.isfinite(d) else "below 1e-308"
+        notes.append(f"D = b^2 - 4ac is {size} in size, beyond double precision; the type and directions come "
+                     f"from a, b, c scaled by a power of two")
+        d = math.nan
 
     if type_code is TypeCode.UNDEFINED:
         bad = [(name, value) for name, value in zip(COEFFICIENT_NAMES, (a, b, c)) if not math.isfinite(value)]

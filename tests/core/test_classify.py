@@ -1,5 +1,8 @@
 """Local type from the discriminant, on grids and on arbitrary points."""
 
+import math
+from fractions import Fraction
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -7,7 +10,7 @@ from hypothesis import strategies as st
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.equation import Equation, Parameter, compile_equation
 from core.progress import Cancelled
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 81, 61)
@@ -67,10 +70,19 @@ def test_tolerance_is_scale_free():
     assert (type_map("1e8*(1+x**2)", "0", "-1e-9").codes == TypeCode.HYPERBOLIC).all()
 
 
-def test_underflowing_coefficients_are_parabolic_not_undefined():
-    # b^2 and ac both underflow to 0: D = 0 exactly as computed, so parabolic (found by a property test).
-    result = type_map("1e-200*x", "1e-170*y", "1e-200")
-    assert (result.codes == TypeCode.PARABOLIC).all()
+def test_underflowing_coefficients_keep_their_type():
+    # b^2 and ac both underflow in doubles (found by a property test): the type must still be that of the
+    # exact D. Reference: D in exact rational arithmetic (Python's fractions) of the same double coefficients.
+    domain = Domain(-1, 1, -1, 1, 21, 21)
+    result = type_map("1e-200*x", "1e-170*y", "1e-200", domain)
+    for j, y in enumerate(domain.y_nodes):
+        for i, x in enumerate(domain.x_nodes):
+            a, b, c = (Fraction(1e-200 * float(x)), Fraction(1e-170 * float(y)), Fraction(1e-200))
+            exact = b * b - 4 * a * c
+            expected = (TypeCode.HYPERBOLIC if exact > 0 else TypeCode.ELLIPTIC if exact < 0
+                        else TypeCode.PARABOLIC)
+            assert result.codes[j, i] == expected, (x, y)
+    assert (result.codes[domain.y_nodes != 0] == TypeCode.HYPERBOLIC).all()
 
 
 def test_degenerate_parabolic_everywhere_despite_rounding():
@@ -146,3 +158,36 @@ def test_type_is_invariant_under_positive_scaling(p, q, r, k):
     np.testing.assert_allclose(normalized, scaled_normalized, rtol=1e-9, atol=1e-12)
     clear = np.abs(normalized) > 1e-8
     np.testing.assert_array_equal(codes[clear], scaled_codes[clear])
+
+
+@pytest.mark.parametrize("scale", ["1e-300", "1e-170", "1e-100", "1e100", "1e160", "1e300"])
+def test_the_type_does_not_depend_on_the_size_of_the_coefficients(scale):
+    # Multiplying the equation by a positive constant changes no type (common practice, no source): Laplace
+    # stays elliptic, the wave equation hyperbolic, and Tricomi's y u_xx + u_yy keeps its map node for node.
+    assert (type_map(f"{scale}", "0", f"{scale}").codes == TypeCode.ELLIPTIC).all()
+    assert (type_map(f"{scale}", "0", f"-{scale}").codes == TypeCode.HYPERBOLIC).all()
+    np.testing.assert_array_equal(type_map(f"{scale}*y", "0", f"{scale}").codes, type_map("y", "0", "1").codes)
+
+
+def test_genuinely_infinite_or_undefined_coefficients_stay_undefined():
+    compiled = compile_equation(Equation(a="1/x", b="0", c="1"))
+    codes, normalized = classify_points(compiled, np.array([0.0, 1e-320, 2.0]), np.zeros(3))
+    # 1/0 is infinite and 1/1e-320 overflows to infinity: both undefined; 1/2 is elliptic.
+    assert codes.tolist() == [TypeCode.UNDEFINED, TypeCode.UNDEFINED, TypeCode.ELLIPTIC]
+    assert np.isnan(normalized[:2]).all()
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.floats(-1e3, 1e3), st.floats(-1e3, 1e3), st.floats(-1e3, 1e3), st.integers(-900, 900))
+def test_scaling_by_any_representable_power_of_two_keeps_the_type(a, b, c, exponent):
+    # D(2^k a, 2^k b, 2^k c) = 4^k D(a, b, c): the same sign for every k whose products stay representable
+    # (exact arithmetic, common practice, no source).
+    compiled = compile_equation(Equation(a="p*A", b="p*B", c="p*C", parameters={
+        "A": Parameter(a), "B": Parameter(b), "C": Parameter(c), "p": Parameter(1.0)}))
+    scaled = math.ldexp(1.0, exponent)
+    if any(v != 0 and not (1e-300 < abs(v) * scaled < 1e300) for v in (a, b, c)):
+        return
+    point = (np.zeros(1), np.zeros(1))
+    plain, _ = classify_points(compiled, *point)
+    big, _ = classify_points(compiled, *point, parameters={"p": scaled})
+    assert big.tolist() == plain.tolist()

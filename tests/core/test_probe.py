@@ -151,3 +151,16 @@ def test_no_second_order_part_and_bad_points():
     assert "a = b = c = 0" in result.message
     with pytest.raises(ValueError, match=r"\(nan, 0.0\)"):
         probe_point(compiled("1", "0", "1"), math.nan, 0.0)
+
+
+@pytest.mark.parametrize("scale", [1e-170, 1e160])
+def test_a_discriminant_beyond_double_range_keeps_type_and_directions(scale):
+    # 2 u_xx + 3 u_xy - 2 u_yy scaled: D = 25 scale^2, hyperbolic; directions solve 2 dy^2 - 3 dx dy - 2 dx^2 = 0,
+    # dy/dx = 2 or -1/2 (algebra), whatever the scale.
+    plain = probe_point(compiled("2", "3", "-2"), 0.0, 0.0)
+    scaled = probe_point(compiled(f"2*{scale!r}", f"3*{scale!r}", f"-2*{scale!r}"), 0.0, 0.0)
+    assert plain.type == scaled.type == TypeCode.HYPERBOLIC
+    assert sorted(scaled.slopes) == pytest.approx([-0.5, 2.0], rel=1e-15)
+    assert scaled.directions_deg == pytest.approx(plain.directions_deg, abs=1e-12)
+    assert plain.discriminant == pytest.approx(25.0) and math.isnan(scaled.discriminant)
+    assert "beyond double precision" in scaled.message and "beyond" not in plain.message
