@@ -87,6 +87,8 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
     # Where the scale under- or overflowed (or a coefficient is not finite: NaN or inf scale), compute again from
     # coefficients scaled by a power of two. 0/0 stays 0 only where a = b = c = 0 (D = 0 exactly); genuinely
     # non-finite coefficients stay NaN.
+    if scale.size and scale.min() > _SAFE_SCALE and scale.max() < np.inf:   # two reductions: no NaN, all safe
+        return
     suspect = ~((scale > _SAFE_SCALE) & (scale < np.inf))
     if suspect.any():
         a_s, b_s, c_s = scaled_by_power_of_two(*(np.broadcast_to(v, out.shape)[suspect] for v in (a, b, c)))
