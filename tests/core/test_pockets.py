@@ -198,8 +198,8 @@ def _reference_pockets(compiled, type_map, quantity, code, connectivity):
     # a constant quantity: every node ties, the peak is the pocket's last node in scan order
     (Equation("1", "0", "-x*y"), Domain(-1, 1, -1, 1, nx=20, ny=31), "a", "hyperbolic", 4),
     # an undefined band, and a pocket whose quantity is NaN everywhere beside one with a finite peak
-    (Equation("1", "0", "-x*y + 0*sqrt(y + 0.9)", definitions={"q": "sqrt(x)*cos(9*y)"}),
-     Domain(-1, 1, -1, 1, nx=64, ny=64), "q", "hyperbolic", 4),
+    (Equation("sqrt(y + 0.9)", "0", "-x*y", definitions={"q": "sqrt(x)*cos(9*y)"}),
+     Domain(-1, 1.2, -1, 1, nx=64, ny=64), "q", "hyperbolic", 4),
 ])
 def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quantity, code, connectivity):
     # blocks of a few rows, so that sums and peaks are carried across blocks
