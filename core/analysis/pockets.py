@@ -5,6 +5,8 @@ scipy.ndimage.label; each region gets its area (trapezoid weights of its nodes: 
 sum to the domain's area exactly, so areas are in the variables' units squared and accurate to O(h) at the
 region's edge), its bounding box and centroid, whether it reaches the domain's edge, and the peak of a
 chosen quantity over its nodes (e.g. the peak Mach number of a supersonic pocket).
+Big grids stay in bounded memory: beside the label array, the sums run over the runs of one label along
+the rows, a block of rows at a time, and the quantity is evaluated on one block's pocket nodes at a time.
 """
 
 from __future__ import annotations
@@ -63,8 +65,9 @@ def label_pockets(type_map: TypeMap, *, code: TypeCode | int | str = TypeCode.HY
     order = _largest_first(_region_sums(labels, type_map.x, type_map.y, count)[0])
     relabel = np.zeros(count + 1, dtype=np.int32)
     relabel[order + 1] = np.arange(1, count + 1, dtype=np.int32)
-    for start in range(0, labels.shape[0], _rows_per_chunk(labels.shape[1])):     # in place, a block at a time
-        block = labels[start:start + _rows_per_chunk(labels.shape[1])]
+    step = _rows_per_chunk(labels.shape[1])
+    for start in range(0, labels.shape[0], step):          # renumbered in place, a block of rows at a time
+        block = labels[start:start + step]
         block[...] = relabel[block]
     return labels, count
 
@@ -88,25 +91,22 @@ def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity
         _check_quantity(compiled, quantity, data)
     x, y = type_map.x, type_map.y
     ny, nx = labels.shape
-    area, weighted_x, weighted_y, nodes = _region_sums(labels, x, y, count)
+    area, weighted_x, weighted_y, nodes, box = _region_sums(labels, x, y, count)
     safe = np.where(area > 0, area, 1.0)
     cx, cy = weighted_x / safe, weighted_y / safe
-    boxes = _boxes(labels)
     peaks = {} if quantity is None else _peaks(compiled, quantity, labels, count, type_map, parameters, data,
                                                cancel, progress)
     del labels
     code = TypeCode.coerce(code)
     pockets = []
     for new_label, old in enumerate(_largest_first(area), start=1):
-        rows, columns = boxes[old]
+        row0, row1, column0, column1 = box[:, old]
         peak = peaks.get(old + 1)
         pockets.append(Pocket(
             label=new_label, type=code, node_count=int(nodes[old]), area=float(area[old]),
-            bounding_box=(float(x[columns.start]), float(x[columns.stop - 1]), float(y[rows.start]),
-                          float(y[rows.stop - 1])),
+            bounding_box=(float(x[column0]), float(x[column1]), float(y[row0]), float(y[row1])),
             centroid=(float(cx[old]), float(cy[old])),
-            touches_boundary=bool(rows.start == 0 or columns.start == 0 or rows.stop == ny
-                                  or columns.stop == nx),
+            touches_boundary=bool(row0 == 0 or column0 == 0 or row1 == ny - 1 or column1 == nx - 1),
             quantity=quantity, peak=None if peak is None else peak[0],
             peak_at=None if peak is None else (peak[1], peak[2])))
     return tuple(pockets)
@@ -127,20 +127,14 @@ def _scan_labels(type_map: TypeMap, code: TypeCode | int | str, connectivity: in
     return labels, int(count)
 
 
-def _boxes(labels: np.ndarray) -> list[tuple[slice, slice]]:
-    """Bounding boxes (row slice, column slice) of labels 1..count, index 0 for label 1."""
-    from scipy import ndimage  # loaded by _scan_labels already; see there why not at the top
-
-    return ndimage.find_objects(labels)
-
-
 def _rows_per_chunk(nx: int) -> int:
     return max(1, _CHUNK // max(nx, 1))
 
 
 def _region_sums(labels: np.ndarray, x: np.ndarray, y: np.ndarray, count: int
-                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted sums of x and of y, nodes.
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted sums of x and of y, nodes,
+    and the bounding box of its nodes (4, count) as first and last row, first and last column.
 
     A node's trapezoid weight is wy[row] * wx[column] (node_areas). The rows are cut into maximal runs of
     one label, a block of rows at a time; each run's sums of wx and wx * x are taken in order along the
@@ -154,6 +148,8 @@ def _region_sums(labels: np.ndarray, x: np.ndarray, y: np.ndarray, count: int
     tiled_w = np.tile(wx, min(step, ny))
     tiled_wx = np.tile(wx * x, min(step, ny))
     sums = np.zeros((4, count))
+    box = np.empty((4, count), dtype=np.int64)              # first row, last row, first column, last column
+    box[0::2], box[1::2] = np.iinfo(np.int64).max, -1
     for start in range(0, ny, step):
         block = labels[start:start + step]
         rows = block.shape[0]
@@ -171,7 +167,12 @@ def _region_sums(labels: np.ndarray, x: np.ndarray, y: np.ndarray, count: int
         sums[1] += np.bincount(index, weights=weight * moment[keep], minlength=count)
         sums[2] += np.bincount(index, weights=weight * y[row] * width[keep], minlength=count)
         sums[3] += np.bincount(index, weights=lengths[keep], minlength=count)
-    return sums[0], sums[1], sums[2], sums[3].astype(np.int64)
+        first = starts[keep] % nx
+        np.minimum.at(box[0], index, row)
+        np.maximum.at(box[1], index, row)
+        np.minimum.at(box[2], index, first)
+        np.maximum.at(box[3], index, first + lengths[keep] - 1)
+    return sums[0], sums[1], sums[2], sums[3].astype(np.int64), box
 
 
 def _largest_first(area: np.ndarray) -> np.ndarray:
