@@ -1,8 +1,11 @@
 """Type-change lines of a classified grid, refined onto the exact zero set of the discriminant.
 
 The lines bound the hyperbolic set. They are the level 0 of the field F = D/S with parabolic nodes set to
-exactly 0 and undefined nodes masked, contoured with contourpy, which counts a node as above the level only
-when F > 0: a field that is zero to rounding gives no contour at all. Every marching-squares vertex lies on a
+exactly 0 and undefined nodes masked, contoured with contourpy (in strips of rows, core.analysis.
+strip_contours), which counts a node as above the level only when F > 0: a field that is zero to rounding
+gives no contour at all. Hyperbolic nodes are strictly above 0 and elliptic ones strictly below, even in
+the map's float32 storage: a nonzero computed D/S is at least about 2^-53 in size (a difference of two
+rounded terms over their sum), far above the float32 range's bottom. Every marching-squares vertex lies on a
 grid edge; it is then moved along that edge onto the zero of D by a bracketed root search run on all vertices
 at once, which turns the O(h^2) error of linear interpolation into one of a few units of rounding.
 Zones where D vanishes on an area (grid cells whose four corners are parabolic) are regions, not lines.
@@ -14,11 +17,11 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from itertools import pairwise
 
-import contourpy
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
 from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
+from core.analysis.strip_contours import zero_lines
 from core.analysis.zero_refinement import PointFunction, discriminant_function, roots_on_segments
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -99,16 +102,10 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
         raise ValueError(f"xtol must be a positive number, got {xtol}")
     _poll(cancel)
     region_cells = parabolic_cells(codes)
-    field = _contour_field(type_map)
-    generator = contourpy.contour_generator(x, y, field, name="serial", line_type="SeparateCode",
-                                            corner_mask=False, quad_as_tri=False, chunk_size=0)
-    lines, line_codes = generator.lines(0.0)
-    del field, generator
+    lines, loops = zero_lines(codes, type_map.normalized, x, y)
     _report(progress, 0.4)
     _poll(cancel)
 
-    loops = [bool(len(c) > 2 and c[-1] == 79) for c in line_codes]   # 79: CLOSEPOLY, last point = first
-    lines = [line[:-1] if closed else line for line, closed in zip(lines, loops)]
     raw = np.concatenate(lines) if lines else np.empty((0, 2))
     located = _locate(raw, x, y)
     side, toward_hyperbolic = _sides(codes, x, y, located, region_cells)
@@ -151,21 +148,6 @@ def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]
         raise ValueError(f"type map nodes must increase, with at least 2 in each direction; got {x.size} x "
                          f"{y.size}")
     return codes, x, y
-
-
-def _contour_field(type_map: TypeMap) -> np.ndarray:
-    """F (ny, nx) float64: D/S, exactly 0 where parabolic, NaN (masked by contourpy) where undefined.
-
-    Hyperbolic nodes are strictly above 0 and elliptic ones strictly below, even in float32 storage: a
-    nonzero computed D/S is at least about 2^-53 in size (a difference of two rounded terms over their sum),
-    far above the float32 range's bottom.
-    """
-    codes = type_map.codes
-    field = np.asarray(type_map.normalized, dtype=np.float64).copy()
-    field[codes == TypeCode.PARABOLIC] = 0.0
-    if type_map.fractions.get(TypeCode.UNDEFINED.label, 1.0) > 0:
-        field[codes == TypeCode.UNDEFINED] = np.nan
-    return field
 
 
 def _grid_line(values: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
