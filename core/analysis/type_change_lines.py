@@ -190,14 +190,13 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     hyperbolic_first = codes[j0, i0] == TypeCode.HYPERBOLIC
     pj, pi = np.where(hyperbolic_first, j1, j0), np.where(hyperbolic_first, i1, i0)
     side = codes[pj, pi].astype(np.int64)
-    padded = np.pad(codes, 1, constant_values=TypeCode.PARABOLIC)
-    neighbour = np.stack([padded[pj + 1 + dj, pi + 1 + di] for dj, di in _NEIGHBOURS])
+    neighbour = np.stack([_value_at(codes, pj + dj, pi + di, TypeCode.PARABOLIC) for dj, di in _NEIGHBOURS])
     parabolic = side == TypeCode.PARABOLIC
     beyond = np.where((neighbour == TypeCode.ELLIPTIC).any(axis=0), TypeCode.ELLIPTIC,
                       np.where((neighbour == TypeCode.UNDEFINED).any(axis=0), TypeCode.UNDEFINED,
                                TypeCode.HYPERBOLIC))
-    cells = np.pad(region_cells, 1)
-    in_region = cells[pj, pi] | cells[pj + 1, pi] | cells[pj, pi + 1] | cells[pj + 1, pi + 1]
+    in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
+                 | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
     side[parabolic] = np.where(in_region, TypeCode.PARABOLIC, beyond)[parabolic]
     side[kind == _KIND_OFF] = -1
 
@@ -212,6 +211,13 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     toward[edge, 0] = (sign * (x[i1] - x[i0]))[edge]
     toward[edge, 1] = (sign * (y[j1] - y[j0]))[edge]
     return side, toward
+
+
+def _value_at(array: np.ndarray, j: np.ndarray, i: np.ndarray, outside) -> np.ndarray:
+    """array[j, i], or ``outside`` where (j, i) is off the array (no padded copy of a whole grid)."""
+    inside = (j >= 0) & (j < array.shape[0]) & (i >= 0) & (i < array.shape[1])
+    values = array[np.clip(j, 0, array.shape[0] - 1), np.clip(i, 0, array.shape[1] - 1)]
+    return np.where(inside, values, outside).astype(array.dtype)
 
 
 def _split(offsets: np.ndarray, closed: list[bool], side: np.ndarray
