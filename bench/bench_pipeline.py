@@ -30,15 +30,15 @@ if __name__ == "__main__":                 # run as a case: the checkout's code 
     sys.path.insert(0, str(HERE.parent))
     sys.path.insert(0, str(HERE))
 
-from bench_classify import CASES  # noqa: E402  (bench/ is on sys.path: script dir or bench/run.py)
-from records import figure  # noqa: E402
+from bench_classify import CASES
+from records import figure
 
-from core.analysis.classify import classify_grid  # noqa: E402
-from core.analysis.pockets import pocket_statistics  # noqa: E402
-from core.analysis.type_change_lines import find_type_boundaries  # noqa: E402
-from core.domain import Domain  # noqa: E402
-from core.equations.equation import compile_equation  # noqa: E402
-from core.results.readouts import peak_quantity  # noqa: E402
+from core.analysis.classify import classify_grid
+from core.analysis.pockets import pocket_statistics
+from core.analysis.type_change_lines import find_type_boundaries
+from core.domain import Domain
+from core.equations.equation import compile_equation
+from core.results.readouts import peak_quantity
 
 PEAK_QUANTITIES = {"formula_flow": "u"}     # what each case's pockets report the peak of
 MEMORY_TARGET_GIB = 1.2
