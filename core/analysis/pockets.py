@@ -5,6 +5,8 @@ scipy.ndimage.label; each region gets its area (trapezoid weights of its nodes: 
 sum to the domain's area exactly, so areas are in the variables' units squared and accurate to O(h) at the
 region's edge), its bounding box and centroid, whether it reaches the domain's edge, and the peak of a
 chosen quantity over its nodes (e.g. the peak Mach number of a supersonic pocket).
+Big grids stay in bounded memory: beside the label array, the sums run over the runs of one label along
+the rows, a block of rows at a time, and the quantity is evaluated on one block's pocket nodes at a time.
 """
 
 from __future__ import annotations
@@ -14,7 +16,6 @@ from dataclasses import dataclass
 
 import contourpy
 import numpy as np
-from scipy import ndimage
 
 from core.analysis.classify import TypeCode, TypeMap
 from core.equations.equation import CompiledEquation, QuantitySource
@@ -49,17 +50,7 @@ class Pocket:
 def node_areas(x: np.ndarray, y: np.ndarray) -> np.ndarray:
     """Trapezoid-rule area of each grid node, shape (ny, nx): interior dx*dy, halves on edges, quarters at
     corners (non-uniform spacing allowed); the weights sum to the rectangle's area."""
-    x = np.asarray(x, dtype=np.float64)
-    y = np.asarray(y, dtype=np.float64)
-
-    def weights(nodes: np.ndarray) -> np.ndarray:
-        steps = np.diff(nodes)
-        w = np.zeros(nodes.size)
-        w[:-1] += steps / 2
-        w[1:] += steps / 2
-        return w
-
-    return np.outer(weights(y), weights(x))
+    return np.outer(_trapezoid_weights(y), _trapezoid_weights(x))
 
 
 def label_pockets(type_map: TypeMap, *, code: TypeCode | int | str = TypeCode.HYPERBOLIC,
@@ -68,19 +59,17 @@ def label_pockets(type_map: TypeMap, *, code: TypeCode | int | str = TypeCode.HY
 
     ``connectivity`` 8 joins nodes that touch diagonally, 4 only along the grid lines.
     """
-    if connectivity not in (4, 8):
-        raise ValueError(f"connectivity must be 4 or 8, got {connectivity!r}")
-    mask = type_map.codes == TypeCode.coerce(code)
-    structure = np.ones((3, 3), dtype=bool) if connectivity == 8 else None
-    labels, count = ndimage.label(mask, structure=structure)
+    labels, count = _scan_labels(type_map, code, connectivity)
     if count == 0:
-        return labels.astype(np.int32), 0
-    areas = np.bincount(labels.ravel(), weights=node_areas(type_map.x, type_map.y).ravel(),
-                        minlength=count + 1)[1:]
-    order = np.lexsort((np.arange(count), -areas))             # largest first; ties in scan order
+        return labels, 0
+    order = _largest_first(_region_sums(labels, type_map.x, type_map.y, count)[0])
     relabel = np.zeros(count + 1, dtype=np.int32)
     relabel[order + 1] = np.arange(1, count + 1, dtype=np.int32)
-    return relabel[labels], int(count)
+    step = _rows_per_chunk(labels.shape[1])
+    for start in range(0, labels.shape[0], step):          # renumbered in place, a block of rows at a time
+        block = labels[start:start + step]
+        block[...] = relabel[block]
+    return labels, count
 
 
 def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity: str | None = None,
@@ -92,79 +81,174 @@ def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity
 
     ``quantity`` names a definition, a coefficient (a, b, c) or a data key, evaluated on the regions' nodes
     with ``parameters`` (default: those the map was computed with) to give each region's peak.
+    Extra memory is the label array (4 bytes a node) and a mask (1 byte a node); everything else works on
+    the runs of equal labels along the rows and on blocks of rows.
     """
-    labels, count = label_pockets(type_map, code=code, connectivity=connectivity)
+    labels, count = _scan_labels(type_map, code, connectivity)
     if count == 0:
         return ()
+    if quantity is not None:
+        _check_quantity(compiled, quantity, data)
     x, y = type_map.x, type_map.y
     ny, nx = labels.shape
-    flat = labels.ravel()
-    inside = np.flatnonzero(flat)
-    region = flat[inside]
-    rows, columns = np.divmod(inside, nx)
-    weight = node_areas(x, y).ravel()[inside]
-    px, py = x[columns], y[rows]
-    bins = count + 1
-    area = np.bincount(region, weights=weight, minlength=bins)
-    nodes = np.bincount(region, minlength=bins)
-    cx = np.bincount(region, weights=weight * px, minlength=bins) / np.where(area > 0, area, 1)
-    cy = np.bincount(region, weights=weight * py, minlength=bins) / np.where(area > 0, area, 1)
-    box = np.full((bins, 4), np.nan)
-    every = np.arange(1, bins)
-    box[1:, 0] = ndimage.minimum(px, region, every)
-    box[1:, 1] = ndimage.maximum(px, region, every)
-    box[1:, 2] = ndimage.minimum(py, region, every)
-    box[1:, 3] = ndimage.maximum(py, region, every)
-    edge = np.zeros(bins, dtype=bool)
-    on_edge = (rows == 0) | (rows == ny - 1) | (columns == 0) | (columns == nx - 1)
-    edge[np.unique(region[on_edge])] = True
-    peaks: dict[int, tuple[float, float, float]] = {}
-    if quantity is not None:
-        values = _quantity_values(compiled, quantity, px, py, type_map, parameters, data, cancel, progress)
-        finite = np.flatnonzero(np.isfinite(values))
-        if finite.size:
-            # sort by region, then value: the last entry of each region's run is its peak
-            order = finite[np.lexsort((values[finite], region[finite]))]
-            last = np.r_[np.flatnonzero(np.diff(region[order])), order.size - 1]
-            for index in order[last]:
-                peaks[int(region[index])] = (float(values[index]), float(px[index]), float(py[index]))
+    area, weighted_x, weighted_y, nodes, box = _region_sums(labels, x, y, count)
+    safe = np.where(area > 0, area, 1.0)
+    cx, cy = weighted_x / safe, weighted_y / safe
+    peaks = {} if quantity is None else _peaks(compiled, quantity, labels, count, type_map, parameters, data,
+                                               cancel, progress)
+    del labels
     code = TypeCode.coerce(code)
     pockets = []
-    for label in range(1, count + 1):
-        peak = peaks.get(label)
+    for new_label, old in enumerate(_largest_first(area), start=1):
+        row0, row1, column0, column1 = box[:, old]
+        peak = peaks.get(old + 1)
         pockets.append(Pocket(
-            label=label, type=code, node_count=int(nodes[label]), area=float(area[label]),
-            bounding_box=tuple(float(v) for v in box[label]), centroid=(float(cx[label]), float(cy[label])),
-            touches_boundary=bool(edge[label]), quantity=quantity,
-            peak=None if peak is None else peak[0], peak_at=None if peak is None else (peak[1], peak[2])))
+            label=new_label, type=code, node_count=int(nodes[old]), area=float(area[old]),
+            bounding_box=(float(x[column0]), float(x[column1]), float(y[row0]), float(y[row1])),
+            centroid=(float(cx[old]), float(cy[old])),
+            touches_boundary=bool(row0 == 0 or column0 == 0 or row1 == ny - 1 or column1 == nx - 1),
+            quantity=quantity, peak=None if peak is None else peak[0],
+            peak_at=None if peak is None else (peak[1], peak[2])))
     return tuple(pockets)
 
 
-def _quantity_values(compiled: CompiledEquation, quantity: str, px: np.ndarray, py: np.ndarray,
-                     type_map: TypeMap, parameters, data, cancel, progress) -> np.ndarray:
-    """``quantity`` at the points (px, py), evaluated in chunks of bounded memory."""
+def _scan_labels(type_map: TypeMap, code: TypeCode | int | str, connectivity: int) -> tuple[np.ndarray, int]:
+    """scipy.ndimage.label of the nodes of type ``code``: (labels (ny, nx) int32 in scan order, count)."""
+    if connectivity not in (4, 8):
+        raise ValueError(f"connectivity must be 4 or 8, got {connectivity!r}")
+    # Here, not at the top: scipy.ndimage takes 0.25 to 0.3 s to import (python -X importtime: its array-API
+    # layer pulls in numpy.testing and unittest), which every command importing this module would pay.
+    from scipy import ndimage
+
+    mask = type_map.codes == TypeCode.coerce(code)
+    structure = np.ones((3, 3), dtype=bool) if connectivity == 8 else None
+    labels = np.empty(mask.shape, dtype=np.int32)
+    count = ndimage.label(mask, structure=structure, output=labels)
+    return labels, int(count)
+
+
+def _rows_per_chunk(nx: int) -> int:
+    return max(1, _CHUNK // max(nx, 1))
+
+
+def _region_sums(labels: np.ndarray, x: np.ndarray, y: np.ndarray, count: int
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted sums of x and of y, nodes,
+    and the bounding box of its nodes (4, count) as first and last row, first and last column.
+
+    A node's trapezoid weight is wy[row] * wx[column] (node_areas). The rows are cut into maximal runs of
+    one label, a block of rows at a time; each run's sums of wx and wx * x are taken in order along the
+    run (np.add.reduceat), so the runs of a pocket, far fewer than its nodes, carry everything further.
+    """
+    ny, nx = labels.shape
+    x = np.asarray(x, dtype=np.float64)
+    y = np.asarray(y, dtype=np.float64)
+    wx, wy = _trapezoid_weights(x), _trapezoid_weights(y)
+    step = _rows_per_chunk(nx)
+    tiled_w = np.tile(wx, min(step, ny))
+    tiled_wx = np.tile(wx * x, min(step, ny))
+    sums = np.zeros((4, count))
+    box = np.empty((4, count), dtype=np.int64)              # first row, last row, first column, last column
+    box[0::2], box[1::2] = np.iinfo(np.int64).max, -1
+    for start in range(0, ny, step):
+        block = labels[start:start + step]
+        rows = block.shape[0]
+        change = np.ones((rows, nx), dtype=bool)              # True where a run starts
+        np.not_equal(block[:, 1:], block[:, :-1], out=change[:, 1:])
+        starts = np.flatnonzero(change)
+        label = block.ravel()[starts]
+        lengths = np.diff(np.append(starts, rows * nx))
+        width = np.add.reduceat(tiled_w[:rows * nx], starts)
+        moment = np.add.reduceat(tiled_wx[:rows * nx], starts)
+        keep = label > 0
+        index, row = label[keep] - 1, starts[keep] // nx + start
+        weight = wy[row]
+        sums[0] += np.bincount(index, weights=weight * width[keep], minlength=count)
+        sums[1] += np.bincount(index, weights=weight * moment[keep], minlength=count)
+        sums[2] += np.bincount(index, weights=weight * y[row] * width[keep], minlength=count)
+        sums[3] += np.bincount(index, weights=lengths[keep], minlength=count)
+        first = starts[keep] % nx
+        np.minimum.at(box[0], index, row)
+        np.maximum.at(box[1], index, row)
+        np.minimum.at(box[2], index, first)
+        np.maximum.at(box[3], index, first + lengths[keep] - 1)
+    return sums[0], sums[1], sums[2], sums[3].astype(np.int64), box
+
+
+def _largest_first(area: np.ndarray) -> np.ndarray:
+    """Label indices (0 for label 1) by decreasing area; ties in scan order."""
+    return np.lexsort((np.arange(area.size), -area))
+
+
+def _trapezoid_weights(nodes: np.ndarray) -> np.ndarray:
+    """Trapezoid-rule weight of each node along one axis: half the distance between its neighbours."""
+    nodes = np.asarray(nodes, dtype=np.float64)
+    steps = np.diff(nodes)
+    w = np.zeros(nodes.size)
+    w[:-1] += steps / 2
+    w[1:] += steps / 2
+    return w
+
+
+def _peaks(compiled: CompiledEquation, quantity: str, labels: np.ndarray, count: int, type_map: TypeMap,
+           parameters, data, cancel, progress) -> dict[int, tuple[float, float, float]]:
+    """Per scan-order label: (largest finite value of ``quantity``, x, y of its node; the last such node in
+    scan order on ties), evaluated a block of rows at a time on the labelled nodes only."""
+    x, y = type_map.x, type_map.y
+    ny, nx = labels.shape
+    chosen = dict(type_map.parameters) if parameters is None else parameters
+    prepared = compiled.prepare(compiled.parameter_vector(chosen))
+    best = np.full(count + 1, -np.inf)
+    where = np.full(count + 1, -1, dtype=np.int64)            # flat node index of the peak so far
+    total = max(1, int(np.count_nonzero(labels)))
+    done = 0
+    step = _rows_per_chunk(nx)
+    for start in range(0, ny, step):
+        if cancel is not None and cancel():
+            raise Cancelled("pocket statistics cancelled")
+        flat = labels[start:start + step].ravel()
+        inside = np.flatnonzero(flat)
+        if inside.size == 0:
+            continue
+        region = flat[inside]
+        rows, columns = np.divmod(inside, nx)
+        values = _quantity_at(compiled, quantity, x[columns], y[rows + start], prepared, data)
+        finite = np.isfinite(values)
+        region, values, node = region[finite], values[finite], inside[finite] + start * nx
+        block_best = np.full(count + 1, -np.inf)
+        np.maximum.at(block_best, region, values)
+        at_best = values == block_best[region]
+        block_where = np.full(count + 1, -1, dtype=np.int64)
+        np.maximum.at(block_where, region[at_best], node[at_best])
+        better = (block_where >= 0) & (block_best >= best)      # a later block wins ties: the last node
+        best[better], where[better] = block_best[better], block_where[better]
+        done += flat.size - int(np.count_nonzero(flat == 0))
+        if progress is not None:
+            progress(done / total)
+    if progress is not None:
+        progress(1.0)
+    found = np.flatnonzero(where >= 0)
+    return {int(label): (float(best[label]), float(x[where[label] % nx]), float(y[where[label] // nx]))
+            for label in found}
+
+
+def _check_quantity(compiled: CompiledEquation, quantity: str, data) -> None:
     names = (*compiled.definition_order, "a", "b", "c")
     data_names = tuple(getattr(data, "names", ()))
     if quantity not in names and quantity not in data_names and not quantity.startswith("diff("):
         raise ValueError(f"unknown quantity {quantity!r}; expected a definition, a, b, c or a data quantity "
                          f"({', '.join(names + data_names)})")
-    values = np.empty(px.size)
-    chosen = dict(type_map.parameters) if parameters is None else parameters
-    prepared = compiled.prepare(compiled.parameter_vector(chosen))
-    for start in range(0, px.size, _CHUNK):
-        if cancel is not None and cancel():
-            raise Cancelled("pocket statistics cancelled")
-        stop = min(px.size, start + _CHUNK)
-        if quantity in names:
-            raw = compiled.evaluate_raw(px[start:stop], py[start:stop], data=data, prepared=prepared)[quantity]
-            values[start:stop] = np.broadcast_to(raw, (stop - start,))
-        else:
-            if data is None:
-                raise ValueError(f"quantity {quantity!r} needs background data")
-            values[start:stop] = data.sample(quantity, px[start:stop], py[start:stop])
-        if progress is not None:
-            progress(stop / px.size)
-    return values
+    if quantity not in names and data is None:
+        raise ValueError(f"quantity {quantity!r} needs background data")
+
+
+def _quantity_at(compiled: CompiledEquation, quantity: str, px: np.ndarray, py: np.ndarray, prepared,
+                 data) -> np.ndarray:
+    """``quantity`` at the points (px, py)."""
+    if quantity in compiled.definition_order or quantity in ("a", "b", "c"):
+        raw = compiled.evaluate_raw(px, py, data=data, prepared=prepared)[quantity]
+        return np.array(np.broadcast_to(raw, px.shape), dtype=np.float64)
+    return np.asarray(data.sample(quantity, px, py), dtype=np.float64)
 
 
 def pocket_outline(mask: np.ndarray, x: np.ndarray, y: np.ndarray) -> list[np.ndarray]:

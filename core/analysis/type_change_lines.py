@@ -1,8 +1,11 @@
 """Type-change lines of a classified grid, refined onto the exact zero set of the discriminant.
 
 The lines bound the hyperbolic set. They are the level 0 of the field F = D/S with parabolic nodes set to
-exactly 0 and undefined nodes masked, contoured with contourpy, which counts a node as above the level only
-when F > 0: a field that is zero to rounding gives no contour at all. Every marching-squares vertex lies on a
+exactly 0 and undefined nodes masked, contoured with contourpy (in strips of rows, core.analysis.
+strip_contours), which counts a node as above the level only when F > 0: a field that is zero to rounding
+gives no contour at all. Hyperbolic nodes are strictly above 0 and elliptic ones strictly below, even in
+the map's float32 storage: a nonzero computed D/S is at least about 2^-53 in size (a difference of two
+rounded terms over their sum), far above the float32 range's bottom. Every marching-squares vertex lies on a
 grid edge; it is then moved along that edge onto the zero of D by a bracketed root search run on all vertices
 at once, which turns the O(h^2) error of linear interpolation into one of a few units of rounding.
 Zones where D vanishes on an area (grid cells whose four corners are parabolic) are regions, not lines.
@@ -14,11 +17,11 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from itertools import pairwise
 
-import contourpy
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
 from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
+from core.analysis.strip_contours import zero_lines
 from core.analysis.zero_refinement import PointFunction, discriminant_function, roots_on_segments
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -99,16 +102,10 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
         raise ValueError(f"xtol must be a positive number, got {xtol}")
     _poll(cancel)
     region_cells = parabolic_cells(codes)
-    field = _contour_field(type_map)
-    generator = contourpy.contour_generator(x, y, field, name="serial", line_type="SeparateCode",
-                                            corner_mask=False, quad_as_tri=False, chunk_size=0)
-    lines, line_codes = generator.lines(0.0)
-    del field, generator
+    lines, loops = zero_lines(codes, type_map.normalized, x, y)
     _report(progress, 0.4)
     _poll(cancel)
 
-    loops = [bool(len(c) > 2 and c[-1] == 79) for c in line_codes]   # 79: CLOSEPOLY, last point = first
-    lines = [line[:-1] if closed else line for line, closed in zip(lines, loops)]
     raw = np.concatenate(lines) if lines else np.empty((0, 2))
     located = _locate(raw, x, y)
     side, toward_hyperbolic = _sides(codes, x, y, located, region_cells)
@@ -153,21 +150,6 @@ def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]
     return codes, x, y
 
 
-def _contour_field(type_map: TypeMap) -> np.ndarray:
-    """F (ny, nx) float64: D/S, exactly 0 where parabolic, NaN (masked by contourpy) where undefined.
-
-    Hyperbolic nodes are strictly above 0 and elliptic ones strictly below, even in float32 storage: a
-    nonzero computed D/S is at least about 2^-53 in size (a difference of two rounded terms over their sum),
-    far above the float32 range's bottom.
-    """
-    codes = type_map.codes
-    field = np.asarray(type_map.normalized, dtype=np.float64).copy()
-    field[codes == TypeCode.PARABOLIC] = 0.0
-    if type_map.fractions.get(TypeCode.UNDEFINED.label, 1.0) > 0:
-        field[codes == TypeCode.UNDEFINED] = np.nan
-    return field
-
-
 def _grid_line(values: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """For coordinates along one axis: (nearest node, first node of the enclosing interval, on a node?)."""
     upper = np.clip(np.searchsorted(nodes, values), 1, nodes.size - 1)
@@ -208,14 +190,13 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     hyperbolic_first = codes[j0, i0] == TypeCode.HYPERBOLIC
     pj, pi = np.where(hyperbolic_first, j1, j0), np.where(hyperbolic_first, i1, i0)
     side = codes[pj, pi].astype(np.int64)
-    padded = np.pad(codes, 1, constant_values=TypeCode.PARABOLIC)
-    neighbour = np.stack([padded[pj + 1 + dj, pi + 1 + di] for dj, di in _NEIGHBOURS])
+    neighbour = np.stack([_value_at(codes, pj + dj, pi + di, TypeCode.PARABOLIC) for dj, di in _NEIGHBOURS])
     parabolic = side == TypeCode.PARABOLIC
     beyond = np.where((neighbour == TypeCode.ELLIPTIC).any(axis=0), TypeCode.ELLIPTIC,
                       np.where((neighbour == TypeCode.UNDEFINED).any(axis=0), TypeCode.UNDEFINED,
                                TypeCode.HYPERBOLIC))
-    cells = np.pad(region_cells, 1)
-    in_region = cells[pj, pi] | cells[pj + 1, pi] | cells[pj, pi + 1] | cells[pj + 1, pi + 1]
+    in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
+                 | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
     side[parabolic] = np.where(in_region, TypeCode.PARABOLIC, beyond)[parabolic]
     side[kind == _KIND_OFF] = -1
 
@@ -230,6 +211,13 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     toward[edge, 0] = (sign * (x[i1] - x[i0]))[edge]
     toward[edge, 1] = (sign * (y[j1] - y[j0]))[edge]
     return side, toward
+
+
+def _value_at(array: np.ndarray, j: np.ndarray, i: np.ndarray, outside) -> np.ndarray:
+    """array[j, i], or ``outside`` where (j, i) is off the array (no padded copy of a whole grid)."""
+    inside = (j >= 0) & (j < array.shape[0]) & (i >= 0) & (i < array.shape[1])
+    values = array[np.clip(j, 0, array.shape[0] - 1), np.clip(i, 0, array.shape[1] - 1)]
+    return np.where(inside, values, outside).astype(array.dtype)
 
 
 def _split(offsets: np.ndarray, closed: list[bool], side: np.ndarray

@@ -16,8 +16,10 @@ Fields are safe to sample from several threads at once (classification samples b
 
 from __future__ import annotations
 
+import hashlib
 import math
 import threading
+from collections import OrderedDict
 from collections.abc import Mapping
 
 import numpy as np
@@ -27,6 +29,7 @@ from core.data.raw import DataError
 __all__ = ["GridField", "MeshField", "ProfileField", "triangulate_points"]
 
 _BARYCENTRIC_SLACK = 1e-9     # points this far (in barycentric units) outside a triangle still belong to it
+LOCATION_CACHE_BYTES = 256 << 20   # per mesh: point locations kept for sets of points sampled again
 
 
 def _points(x, y) -> tuple[np.ndarray, np.ndarray, tuple[int, ...]]:
@@ -194,7 +197,11 @@ class MeshField:
                        float(used[:, 1].min()), float(used[:, 1].max()))
         self.size = (self.points.shape[0], self.triangles.shape[0])
         self._gradients = _LazyCache()
-        self._recent = threading.local()
+        self._locations = _LocationCache(LOCATION_CACHE_BYTES)
+
+    def clear_location_cache(self) -> None:
+        """Forget every cached point location (benchmarks start from a cold cache)."""
+        self._locations.clear()
 
     def sample(self, name: str, x, y) -> np.ndarray:
         return self._interpolate(self.arrays[name], x, y)
@@ -234,17 +241,65 @@ class MeshField:
         return out.reshape(shape)
 
     def _located(self, x: np.ndarray, y: np.ndarray, shape: tuple[int, ...]):
-        """Point location, reused while the same points are sampled for several quantities (per thread)."""
-        recent = getattr(self._recent, "value", None)
-        if recent is not None:
-            rx, ry, result = recent
-            if rx.shape == x.shape and ry.shape == y.shape and np.array_equal(rx, x, equal_nan=True) \
-                    and np.array_equal(ry, y, equal_nan=True):
-                return result
-        xb, yb = np.broadcast_arrays(x, y)
-        result = self._locator.locate(xb.ravel(), yb.ravel())
-        self._recent.value = (x.copy(), y.copy(), result)
+        """(triangle, barycentric weights) of the points, located once per set of points.
+
+        Point location does not depend on parameters or on the quantity, so a slider drag or several
+        quantities sampled on the same grid (the same row blocks, classification's form) reuse it.
+        """
+        key = _points_key(x, y)
+        result = self._locations.get(key)
+        if result is None:
+            xb, yb = np.broadcast_arrays(x, y)
+            result = self._locator.locate(xb.ravel(), yb.ravel())
+            self._locations.put(key, result)
         return result
+
+
+def _points_key(x: np.ndarray, y: np.ndarray) -> tuple:
+    """Shapes and BLAKE2b digests of the coordinates: equal keys mean equal points (128-bit digests)."""
+    digests = []
+    for values in (x, y):
+        digest = hashlib.blake2b(digest_size=16)
+        digest.update(np.ascontiguousarray(values).view(np.uint8))
+        digests.append(digest.digest())
+    return (x.shape, y.shape, *digests)
+
+
+class _LocationCache:
+    """Least-recently-used point locations, at most ``limit`` bytes of them; safe across threads."""
+
+    def __init__(self, limit: int) -> None:
+        self._limit = limit
+        self._entries: OrderedDict[tuple, tuple[np.ndarray, np.ndarray]] = OrderedDict()
+        self._bytes = 0
+        self._lock = threading.Lock()
+
+    def get(self, key: tuple):
+        with self._lock:
+            entry = self._entries.get(key)
+            if entry is not None:
+                self._entries.move_to_end(key)
+            return entry
+
+    def put(self, key: tuple, entry: tuple[np.ndarray, np.ndarray]) -> None:
+        size = sum(array.nbytes for array in entry)
+        if size > self._limit:
+            return
+        for array in entry:
+            array.flags.writeable = False
+        with self._lock:
+            if key in self._entries:
+                return
+            self._entries[key] = entry
+            self._bytes += size
+            while self._bytes > self._limit:
+                _, dropped = self._entries.popitem(last=False)
+                self._bytes -= sum(array.nbytes for array in dropped)
+
+    def clear(self) -> None:
+        with self._lock:
+            self._entries.clear()
+            self._bytes = 0
 
 
 class _TriangleLocator:

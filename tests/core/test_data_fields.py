@@ -203,3 +203,45 @@ def test_delaunay_of_scattered_points_and_degenerate_input():
     assert field.sample("f", *inside) == pytest.approx(1.2)
     with pytest.raises(DataError, match="scatter.csv"):
         triangulate_points(np.arange(5.0), 2 * np.arange(5.0), where="scatter.csv")
+
+
+def test_mesh_points_sampled_again_are_not_located_again(monkeypatch):
+    x, y, triangles = structured_triangles(21, jitter=0.2)
+    mesh = MeshField(x, y, triangles, {"f": smooth(x, y), "g": x - y})
+    calls = []
+    locate = mesh._locator.locate
+    monkeypatch.setattr(mesh._locator, "locate", lambda qx, qy: calls.append(qx.size) or locate(qx, qy))
+    # classification's form: a row of x and a column of y per block of rows
+    row = np.linspace(0, 2, 50)[np.newaxis, :]
+    blocks = [np.linspace(-1, 0, 10)[:, np.newaxis], np.linspace(0.05, 1, 10)[:, np.newaxis]]
+    first = [mesh.sample("f", row, block) for block in blocks]
+    assert calls == [500, 500]
+    again = [mesh.sample("f", row, block.copy()) for block in blocks]         # equal points, new arrays
+    other_quantity = mesh.sample("g", row, blocks[0])
+    assert calls == [500, 500]
+    for a, b in zip(first, again, strict=True):
+        np.testing.assert_array_equal(a, b)
+    # the mesh is exact for a linear field (linear interpolation on triangles, common practice, no source)
+    np.testing.assert_allclose(other_quantity, row - blocks[0], atol=1e-12)
+    mesh.sample("f", row, blocks[0] + 1e-3)                                    # new points: located
+    assert calls == [500, 500, 500]
+    mesh.clear_location_cache()
+    mesh.sample("f", row, blocks[0])
+    assert calls == [500, 500, 500, 500]
+
+
+def test_mesh_location_cache_stays_within_its_bound(monkeypatch):
+    x, y, triangles = structured_triangles(9)
+    monkeypatch.setattr("core.data.fields.LOCATION_CACHE_BYTES", 3 * 100 * 32)    # three sets of 100 points
+    mesh = MeshField(x, y, triangles, {"f": x})
+    calls = []
+    locate = mesh._locator.locate
+    monkeypatch.setattr(mesh._locator, "locate", lambda qx, qy: calls.append(1) or locate(qx, qy))
+    sets = [np.full(100, 0.1 * k) for k in range(5)]
+    for px in sets:
+        np.testing.assert_allclose(mesh.sample("f", px, 0.0), px)
+    mesh.sample("f", sets[4], 0.0)                   # the most recent set is kept
+    assert len(calls) == 5
+    mesh.sample("f", sets[0], 0.0)                   # the oldest was dropped
+    assert len(calls) == 6
+    assert mesh._locations._bytes <= 3 * 100 * 32

@@ -152,3 +152,70 @@ def test_pocket_outline_runs_half_way_to_the_neighbouring_nodes():
     edge[0, 0] = True
     (corner,) = pocket_outline(edge, x, y)
     assert corner[:, 0].min() == -0.5 and corner[:, 1].min() == -0.5
+
+
+def _reference_pockets(compiled, type_map, quantity, code, connectivity):
+    """The straightforward computation: one boolean mask per scipy.ndimage label, numpy sums over it."""
+    from scipy import ndimage
+
+    structure = np.ones((3, 3), dtype=bool) if connectivity == 8 else None
+    labels, count = ndimage.label(type_map.codes == TypeCode.coerce(code), structure=structure)
+    weights = node_areas(type_map.x, type_map.y)
+    xx, yy = np.meshgrid(type_map.x, type_map.y)
+    values = None
+    if quantity is not None:
+        raw = compiled.evaluate_raw(xx, yy, prepared=compiled.prepare(compiled.parameter_vector(None)))
+        values = np.broadcast_to(raw[quantity], xx.shape)
+    found = []
+    for label in range(1, count + 1):
+        nodes = labels == label
+        rows, columns = np.nonzero(nodes)
+        area = weights[nodes].sum()
+        peak = peak_at = None
+        if values is not None:
+            finite = np.isfinite(values) & nodes
+            if finite.any():
+                peak = values[finite].max()
+                last = np.flatnonzero((values == peak) & finite)[-1]          # ties: the last node in scan order
+                peak_at = (xx.flat[last], yy.flat[last])
+        found.append({"node_count": int(nodes.sum()), "area": area,
+                      "centroid": ((weights * xx)[nodes].sum() / area, (weights * yy)[nodes].sum() / area),
+                      "bounding_box": (type_map.x[columns.min()], type_map.x[columns.max()],
+                                       type_map.y[rows.min()], type_map.y[rows.max()]),
+                      "touches_boundary": bool(rows.min() == 0 or columns.min() == 0
+                                               or rows.max() == labels.shape[0] - 1
+                                               or columns.max() == labels.shape[1] - 1),
+                      "peak": peak, "peak_at": peak_at})
+    return sorted(found, key=lambda pocket: -pocket["area"])            # stable: ties stay in scan order
+
+
+@pytest.mark.parametrize(("equation", "domain", "quantity", "code", "connectivity"), [
+    # many pockets of every size, inside and on the edge, on a grid that is not square
+    (Equation("1", "0", "-w", definitions={"w": "sin(7*x)*sin(5*y) + 0.1*cos(11*x*y) - 0.3"}),
+     Domain(-1, 1.3, -0.7, 1, nx=97, ny=61), "w", "hyperbolic", 8),
+    (Equation("1", "0", "-w", definitions={"w": "sin(7*x)*sin(5*y) + 0.2*cos(11*x*y)"}),
+     Domain(-1, 1.3, -0.7, 1, nx=97, ny=61), "w", "elliptic", 4),
+    # a constant quantity: every node ties, the peak is the pocket's last node in scan order
+    (Equation("1", "0", "-x*y"), Domain(-1, 1, -1, 1, nx=20, ny=31), "a", "hyperbolic", 4),
+    # an undefined band, and a pocket whose quantity is NaN everywhere beside one with a finite peak
+    (Equation("sqrt(y + 0.9)", "0", "-x*y", definitions={"q": "sqrt(x)*cos(9*y)"}),
+     Domain(-1, 1.2, -1, 1, nx=64, ny=64), "q", "hyperbolic", 4),
+])
+def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quantity, code, connectivity):
+    # blocks of a few rows, so that sums and peaks are carried across blocks
+    monkeypatch.setattr("core.analysis.pockets._CHUNK", 3 * domain.nx + 5)
+    compiled = compile_equation(equation)
+    type_map = classify_grid(compiled, domain)
+    pockets = pocket_statistics(compiled, type_map, quantity=quantity, code=code, connectivity=connectivity)
+    expected = _reference_pockets(compiled, type_map, quantity, code, connectivity)
+    assert len(pockets) == len(expected) >= 1
+    labels, count = label_pockets(type_map, code=code, connectivity=connectivity)
+    assert count == len(pockets)
+    for number, (pocket, reference) in enumerate(zip(pockets, expected), start=1):
+        assert pocket.label == number
+        assert pocket.node_count == reference["node_count"] == np.count_nonzero(labels == number)
+        assert pocket.area == pytest.approx(reference["area"], rel=1e-13)
+        assert pocket.centroid == pytest.approx(reference["centroid"], rel=1e-12, abs=1e-14)
+        assert pocket.bounding_box == reference["bounding_box"]
+        assert pocket.touches_boundary == reference["touches_boundary"]
+        assert pocket.peak == reference["peak"] and pocket.peak_at == reference["peak_at"]
