@@ -8,6 +8,13 @@ the closed-form invariant x -+ (2/3)(-y)^(3/2), constant along each curve (Bers 
 Subsonic and Transonic Gas Dynamics). scipy's rtol is tightened step by step until its invariant error is no
 larger than ours, then both are timed. Targets: speed ratio >= 40, both errors <= 1e-7.
 
+Going on past edges (``bounces``): internal waves (N^2 - omega^2) psi_xx + (f^2 - omega^2) psi_zz = 0 with
+constant N between a flat floor z = -H and the surface, rays reflecting as the other family. Successive
+surface reflections are 2H / slope apart, slope = sqrt((omega^2 - f^2)/(N^2 - omega^2)) (Gill 1982,
+Atmosphere-Ocean Dynamics, internal-wave ray geometry). Figures: the largest relative error of that spacing
+(target <= 1e-9) and the time per leg of a continued curve over the time per bounce-free half-curve, both
+traced in the same run (target <= 3: going on costs about as much as tracing anew).
+
 Run: python -m bench.bench_tracing  (prints JSON). The vectorised time is the median of three runs, scipy's a
 single run; ``run(baseline_curves=k)`` times scipy on about k evenly spread curves only and scales its time to
 all of them (the full scipy loop takes some 20 s).
@@ -26,7 +33,7 @@ from scipy.integrate import solve_ivp
 from core.analysis.directions import Family, characteristic_directions
 from core.analysis.tracing import trace_characteristics
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.equation import Equation, Parameter, compile_equation
 
 __all__ = ["main", "run"]
 
@@ -107,11 +114,56 @@ def _scipy_curves(compiled, curves, rtol: float):
     return max(errors), count
 
 
-SMOKE = {"n_seeds": 4, "baseline_curves": 4}     # python bench/run.py --smoke: every line runs
+def _bounce_figures(n_seeds: int, bounces: int) -> dict:
+    """Reflections between floor and surface: spacing error against 2H / slope, and the cost of going on."""
+    depth, n, f, omega = 1000.0, 2e-3, 1e-4, 1e-3
+    slope = math.sqrt((omega**2 - f**2) / (n**2 - omega**2))
+    spacing = 2.0 * depth / slope
+    channel = Domain(0.0, spacing * (bounces + 2), -depth, 0.0)     # long enough: no side wall is reached
+    compiled = compile_equation(Equation(a="N**2 - omega**2", b="0", c="f**2 - omega**2", variables=("x", "z"),
+                                         parameters={"N": Parameter(n), "f": Parameter(f),
+                                                     "omega": Parameter(omega)}))
+    # Seeds at mid-depth across the middle spacing, so each half has room for every reflection.
+    middle = 0.5 * (channel.xmin + channel.xmax)
+    seeds = np.column_stack([np.linspace(middle, middle + spacing, n_seeds), np.full(n_seeds, -0.5 * depth)])
+    trace_characteristics(compiled, channel, seeds, bounces=bounces)      # warm-up
+    plain_times, bounce_times = [], []
+    for _ in range(3):
+        start = time.perf_counter()
+        plain = trace_characteristics(compiled, channel, seeds)
+        plain_times.append(time.perf_counter() - start)
+        start = time.perf_counter()
+        continued = trace_characteristics(compiled, channel, seeds, bounces=bounces)
+        bounce_times.append(time.perf_counter() - start)
+    errors, events = [], 0
+    for curve in continued:
+        events += len(curve.events)
+        ahead = [e.at[0] for e in curve.events if e.index > curve.seed_index and e.at[1] == 0.0]
+        behind = [e.at[0] for e in curve.events if e.index < curve.seed_index and e.at[1] == 0.0]
+        for hits in (ahead, behind):
+            if len(hits) > 1:
+                errors.extend(np.abs(np.abs(np.diff(hits)) / spacing - 1.0))
+    halves = 2 * len(plain)
+    per_half = float(np.median(plain_times)) / halves
+    per_leg = float(np.median(bounce_times)) / (halves + events)
+    spacing_error = float(max(errors)) if errors else None
+    return {"bounce_curves": len(continued), "bounces_per_half": bounces, "events": events,
+            "bounce_free_seconds": float(np.median(plain_times)), "bounce_seconds": float(np.median(bounce_times)),
+            "seconds_per_leg_over_seconds_per_bounce_free_half": per_leg / per_half,
+            "max_reflection_spacing_error_relative": spacing_error,
+            "records": [figure("tracing with bounces: largest relative error of the reflection spacing 2H/slope",
+                               spacing_error, 1e-9),
+                        figure("tracing with bounces: time per leg / time per bounce-free half-curve",
+                               per_leg / per_half, 3.0)]}
 
 
-def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 20240611) -> dict:
-    """Time both tracers on 2 * n_seeds curves; returns the figures as a dict (see module docstring)."""
+SMOKE = {"n_seeds": 4, "baseline_curves": 4, "bounce_seeds": 3, "bounces": 3}   # bench/run.py --smoke: every line
+
+
+def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 20240611, bounce_seeds: int = 200,
+        bounces: int = 20) -> dict:
+    """Time both tracers on 2 * n_seeds curves, and tracing with ``bounces`` on 2 * bounce_seeds curves;
+    returns the figures as a dict (see module docstring)."""
     compiled = compile_equation(Equation(a="y", b="0", c="1", name="Tricomi"))
     seeds = _seeds(n_seeds, np.random.default_rng(seed))
     trace_characteristics(compiled, DOMAIN, seeds)  # warm-up (thread pools, caches)
@@ -136,6 +188,7 @@ def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 2024
     start = time.perf_counter()
     theirs, halves = _scipy_curves(compiled, timed, rtol)
     scipy_seconds = (time.perf_counter() - start) * len(curves) / len(timed)
+    bouncing = _bounce_figures(bounce_seeds, bounces)
     return {
         "curves": len(curves),
         "half_curves_traced_by_scipy": halves,
@@ -150,11 +203,13 @@ def run(n_seeds: int = 500, baseline_curves: int | None = None, seed: int = 2024
             figure(f"tracing {len(curves)} characteristics: scipy solve_ivp time / vectorised time",
                    scipy_seconds / vectorised_seconds, 40.0, at_most=False),
             figure("tracing: largest error of the Tricomi invariant", ours, 1e-7),
+            *bouncing.pop("records"),
         ],
         "max_invariant_error_vectorised": ours,
         "max_invariant_error_scipy": theirs,
         "max_invariant_error_target": 1e-7,
         "max_abs_y_at_sonic_ends": float(np.max(np.abs(type_change_ends))) if type_change_ends else None,
+        **bouncing,
     }
 
 

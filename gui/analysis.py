@@ -212,6 +212,7 @@ class StudyAnalysis(QObject):
             return
         domain, parameters, _ = self._inputs()
         data = self.document.data
+        bounces = self.document.bounces
 
         def work(cancel, progress):
             traced = []
@@ -222,8 +223,8 @@ class StudyAnalysis(QObject):
                     progress((number + fraction) / len(seeds))
 
                 curves = trace_characteristics(compiled, domain, points, families=seed.families,
-                                                      parameters=parameters, data=data, cancel=cancel,
-                                                      progress=part)
+                                               parameters=parameters, data=data, bounces=bounces,
+                                               cancel=cancel, progress=part)
                 traced.append(TracedSeed(seed=seed, curves=tuple(curves)))
             return tuple(traced)
 

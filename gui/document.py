@@ -101,6 +101,11 @@ class Document(QObject):
         """The parabolic tolerance (dimensionless), kept in the project's view settings."""
         return float(self._project.view.parabolic_tolerance)
 
+    @property
+    def bounces(self) -> int:
+        """How many times each half of a characteristic goes on past an edge or the type-change line."""
+        return int(self._project.view.characteristic_bounces)
+
     def layer_visible(self, name: str) -> bool:
         """Whether the map layer ``name`` (a key of LAYER_LABELS) is drawn."""
         return bool(getattr(self._project.view, LAYER_FIELDS[name]))
@@ -335,6 +340,11 @@ class Document(QObject):
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance:g}")
         view = replace(self._project.view, parabolic_tolerance=tolerance)
         return self.edit(replace(self._project, view=view), f"Parabolic tolerance {tolerance:g}")
+
+    def set_bounces(self, bounces: int) -> bool:
+        """Characteristics go on through up to ``bounces`` edges and type-change lines on each side of a seed."""
+        view = replace(self._project.view, characteristic_bounces=int(bounces))
+        return self.edit(replace(self._project, view=view), f"Characteristics go on {int(bounces)} times")
 
     def set_data_source(self, index: int, ref, text: str) -> bool:
         """Replace the project's data file ``index`` by ``ref`` (renamed quantities, accepted checksum)."""

@@ -252,11 +252,12 @@ class MapView(QWidget):
         self.lines.setData(x, y, connect="finite")
 
     def show_characteristics(self, traced) -> None:
-        """Characteristic curves (``.family``, ``.points`` (n, 2)) grouped by family into two items."""
+        """Characteristic curves (``.legs()``: (family, points (n, 2)) per leg) grouped by family into two items."""
         by_family = {1: [], 2: []}
         for seed in traced or ():
             for curve in seed.curves:
-                by_family.setdefault(int(curve.family), []).append(curve.points)
+                for family, points in curve.legs():     # a curve that went on changes family at each event
+                    by_family.setdefault(int(family), []).append(points)
         for family, item in self.family_curves.items():
             x, y = polyline_with_breaks(by_family.get(family, []))
             item.setData(x, y, connect="finite")

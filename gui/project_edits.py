@@ -64,8 +64,8 @@ def changed_parts(before: Project, after: Project) -> tuple[str, ...]:
     """Names of the document signals the change from ``before`` to ``after`` calls for, each at most once.
 
     A new shown equation or a change of its structure is ``equation_changed``; a change of parameter values
-    alone is ``parameters_changed``; the view's parabolic tolerance counts as part of the domain, the other
-    view switches as layers.
+    alone is ``parameters_changed``; the view's parabolic tolerance counts as part of the domain, its
+    characteristic bounces with the seeds (the curves change), the other view switches as layers.
     """
     parts: list[str] = []
     (old_equation, old_domain), (new_equation, new_domain) = before.shown(), after.shown()
@@ -80,9 +80,10 @@ def changed_parts(before: Project, after: Project) -> tuple[str, ...]:
         parts.append("domain_changed")
     if before.pins != after.pins:
         parts.append("pins_changed")
-    if before.seeds != after.seeds:
+    if before.seeds != after.seeds or before.view.characteristic_bounces != after.view.characteristic_bounces:
         parts.append("seeds_changed")
-    if replace(before.view, parabolic_tolerance=0.0) != replace(after.view, parabolic_tolerance=0.0):
+    if replace(before.view, parabolic_tolerance=0.0, characteristic_bounces=0) \
+            != replace(after.view, parabolic_tolerance=0.0, characteristic_bounces=0):
         parts.append("layers_changed")
     if before.notes != after.notes:
         parts.append("notes_changed")

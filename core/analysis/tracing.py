@@ -1,13 +1,10 @@
-"""Characteristic curves: many seeds at once, both ways, by an embedded Runge-Kutta method with step control.
+"""Characteristic curves: many seeds at once, both ways, optionally going on past edges and turning lines.
 
-Curves are traced by arc length with an embedded Dormand-Prince 5(4) Runge-Kutta pair, one numpy step for every
-curve still running, each with its own step size and error control; orientation is kept by turning each
-direction to make a positive dot product with the previous one. A curve stops on the domain edge, on the
-type-change line D = 0 or on an undefined point, or at a maximum length or number of steps. Near D = 0 the
-direction field has a square-root singularity that the error estimate does not see, so a step with a stage
-beyond the line is retried shorter until the curve is very close, and the last step is then cut by bisection
-so that the curve lands on the line (or the edge) without overshooting it. The directions and the family
-labels are those of core.analysis.directions.
+Each seed gives one curve per family, traced backward and forward from it by the vectorised Dormand-Prince
+integrator of core.analysis.stepping until it stops on the domain edge, on the type-change line D = 0, on an
+undefined point, or at a maximum length or number of steps. With ``bounces`` a half-curve that stops on an edge
+or on the type-change line goes on as the other family (core.analysis.continuation), and the curve records
+each such event. The directions and the family labels are those of core.analysis.directions.
 """
 
 from __future__ import annotations
@@ -18,13 +15,24 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.analysis.directions import Family, characteristic_directions, unit_direction
+from core.analysis.continuation import EVENT_KINDS, CurveEvent, continuation_directions
+from core.analysis.directions import Family, characteristic_directions
 from core.analysis.discriminant import discriminant
+from core.analysis.stepping import (
+    BLOCKED,
+    EDGE,
+    MIN_STEP,
+    REASON_NAMES,
+    TYPE_CHANGE,
+    DirectionField,
+    trace_legs,
+)
 from core.domain import Domain
 from core.equations.equation import CompiledEquation, QuantitySource
-from core.progress import CancelCheck, Cancelled, ProgressReport
+from core.progress import CancelCheck, ProgressReport
 
-__all__ = ["END_REASONS", "CharacteristicCurve", "seeds_along_segment", "trace_characteristics"]
+__all__ = ["END_REASONS", "EVENT_KINDS", "MAX_BOUNCES", "CharacteristicCurve", "CurveEvent", "seeds_along_segment",
+           "trace_characteristics"]
 
 
 # Why each end of a curve stopped.
@@ -35,12 +43,13 @@ END_REASONS = {
     "length": "reached the maximum length",
     "steps": "reached the maximum number of steps",
     "stalled": "the step size fell below the smallest allowed step",
+    "blocked": "could not go on past the edge or the type-change line (a corner, or the other family runs "
+               "along it)",
     "elliptic_seed": "the seed lies where the equation is elliptic: no real characteristic",
     "undefined_seed": "a coefficient is undefined at the seed",
     "outside_seed": "the seed lies outside the domain",
 }
-_REASON_NAMES = ("edge", "type_change", "undefined", "length", "steps", "stalled")
-_EDGE, _TYPE_CHANGE, _UNDEFINED, _LENGTH, _STEPS, _STALLED = range(6)
+MAX_BOUNCES = 1000     # the most events a half-curve may go on through
 
 
 @dataclass(frozen=True, eq=False)
@@ -50,6 +59,9 @@ class CharacteristicCurve:
     ``points`` (n, 2) are ordered along the curve and include ``seed`` at ``seed_index``; points before it
     were traced backwards. ``end_reasons`` = (why the backward end stopped, why the forward end stopped),
     keys of END_REASONS. Forward is the direction of ``characteristic_directions`` (upper half-plane).
+    ``family`` is the family through the seed; ``events`` are the points, in path order, where the curve went
+    on as the other family (traced with ``bounces``), so the family changes at each of them (see ``legs``);
+    the first ``backward_events`` of them were met tracing backwards.
     """
 
     family: Family
@@ -57,6 +69,20 @@ class CharacteristicCurve:
     points: np.ndarray
     seed_index: int
     end_reasons: tuple[str, str]
+    events: tuple[CurveEvent, ...] = ()
+    backward_events: int = 0
+
+    def legs(self) -> tuple[tuple[Family, np.ndarray], ...]:
+        """The curve cut at its events, in path order: (family, points (k, 2)) per leg; neighbouring legs
+        share their event point. One leg, the whole curve, without events."""
+        cuts = [event.index for event in self.events]
+        bounds = [0, *cuts, len(self.points) - 1]
+        legs = []
+        for number in range(len(cuts) + 1):
+            flips = abs(number - self.backward_events)
+            family = self.family if flips % 2 == 0 else Family(3 - int(self.family))
+            legs.append((family, self.points[bounds[number]:bounds[number + 1] + 1]))
+        return tuple(legs)
 
     @property
     def length(self) -> float:
@@ -72,67 +98,6 @@ class CharacteristicCurve:
     def forward(self) -> np.ndarray:
         """Points from the seed to the forward end, (k, 2)."""
         return self.points[self.seed_index:]
-
-
-# Dormand-Prince 5(4) tableau (Dormand and Prince 1980, J. Comput. Appl. Math. 6, 19-26).
-_A = (
-    (),
-    (1 / 5,),
-    (3 / 40, 9 / 40),
-    (44 / 45, -56 / 15, 32 / 9),
-    (19372 / 6561, -25360 / 2187, 64448 / 6561, -212 / 729),
-    (9017 / 3168, -355 / 33, 46732 / 5247, 49 / 176, -5103 / 18656),
-    (35 / 384, 0.0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84),
-)
-_A = tuple(np.array(row) for row in _A)
-# Fifth-order weights minus fourth-order weights: the local error estimate.
-_E = np.array([71 / 57600, 0.0, -71 / 16695, 71 / 1920, -17253 / 339200, 22 / 525, -1 / 40])
-
-_MAX_STEP = 0.05       # of the domain diagonal
-_FIRST_STEP = 1e-6     # of the domain diagonal
-_MIN_STEP = 1e-12      # of the domain diagonal: below this a curve has stalled
-_LANDING = 1e-13       # of the domain diagonal: bracket width when landing on an edge or on D = 0
-# Near D = 0 the direction field has a square-root singularity that no Runge-Kutta error estimate sees: a step
-# with a stage beyond the line is retried at a quarter of its length, so the curve closes in with accurate
-# steps, and only a step shorter than this (of the diagonal) is cut by bisection onto the line.
-_APPROACH = 1e-5
-
-
-class _Field:
-    """Oriented unit directions at many points at once, for curves of mixed families."""
-
-    def __init__(self, compiled: CompiledEquation, parameters, data) -> None:
-        self.compiled = compiled
-        self.prepared = compiled.prepare(compiled.parameter_vector(parameters))
-        self.data = data
-
-    def __call__(self, x, y, sign, ref_x, ref_y):
-        """Directions at (x, y) turned to make a positive dot product with (ref_x, ref_y); also D there."""
-        raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared)
-        a, b, c = raw["a"], raw["b"], raw["c"]
-        d = discriminant(a, b, c)
-        dx, dy = unit_direction(a, b, c, sign, d)
-        flip = np.where(dx * ref_x + dy * ref_y < 0.0, -1.0, 1.0)
-        return dx * flip, dy * flip, np.broadcast_to(d, np.shape(x))
-
-
-def _dormand_prince_step(field: _Field, x, y, k1x, k1y, h, sign):
-    """One DP5(4) step of length h for every curve.
-
-    Returns (x, y, k7x, k7y) at the end, D at the end, the smallest D met by any stage (NaN if a stage was
-    undefined) and the norm of the local error estimate.
-    """
-    n = np.shape(x)[0]
-    kx, ky = np.empty((7, n)), np.empty((7, n))
-    kx[0], ky[0] = k1x, k1y
-    smallest = None
-    for i, weights in enumerate(_A[1:], start=1):
-        sx = x + h * (weights @ kx[:i])
-        sy = y + h * (weights @ ky[:i])
-        kx[i], ky[i], d = field(sx, sy, sign, k1x, k1y)
-        smallest = d if smallest is None else np.minimum(smallest, d)
-    error = h * np.hypot(_E @ kx, _E @ ky)
-    return sx, sy, kx[6], ky[6], d, smallest, error
 
 
 def _check_seeds(seeds) -> np.ndarray:
@@ -159,7 +124,7 @@ def _check_families(families) -> tuple[Family, ...]:
 def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
                           families: Sequence[int] = (1, 2), parameters: Mapping[str, float] | None = None,
                           data: QuantitySource | None = None, local_error: float = 1e-9,
-                          max_length: float | None = None, max_steps: int = 20000,
+                          max_length: float | None = None, max_steps: int = 20000, bounces: int = 0,
                           cancel: CancelCheck | None = None, progress: ProgressReport | None = None
                           ) -> tuple[CharacteristicCurve, ...]:
     """Characteristics of the chosen families through every seed (m, 2), traced both ways.
@@ -170,6 +135,12 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
     elliptic, undefined or outside the domain gives a one-point curve with that reason at both ends. A seed
     on a type-change line that characteristics touch tangentially (Keldysh type) also gives one point: the
     line itself solves the direction equation there, and the tracer does not leave it.
+
+    ``bounces`` (0 to MAX_BOUNCES) is how many times EACH HALF of a curve (backward and forward from the seed)
+    goes on as the other family where it would stop at the domain edge (reflected into the domain) or at the
+    type-change line (turned back in a cusp), so a curve holds up to 2 * bounces events; see
+    core.analysis.continuation. ``max_length`` and ``max_steps`` bound a half with all its continuations.
+    Where a half cannot go on (a corner, a tangency) it ends with the reason "blocked".
     ``cancel`` is polled at every step (raises Cancelled); ``progress`` gets the fraction of halves done.
     """
     seeds = _check_seeds(seeds)
@@ -182,7 +153,9 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
         raise ValueError(f"max_length must be a positive finite number, got {max_length}")
     if isinstance(max_steps, bool) or not isinstance(max_steps, int) or max_steps < 1:
         raise ValueError(f"max_steps must be a positive integer, got {max_steps!r}")
-    field = _Field(compiled, parameters, data)
+    if isinstance(bounces, bool) or not isinstance(bounces, int | np.integer) or not 0 <= bounces <= MAX_BOUNCES:
+        raise ValueError(f"bounces must be an integer in [0, {MAX_BOUNCES}], got {bounces!r}")
+    field = DirectionField(compiled, parameters, data)
 
     # The seeds: which ones can be traced, and the starting direction of every half-curve.
     with np.errstate(all="ignore"):
@@ -206,8 +179,10 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
             owner.append((i, family))
             forward = directions[family][i]
             start.extend([-forward, forward])
-    halves = _trace_halves(field, domain, seeds, owner, np.array(start).reshape(-1, 2),
-                           local_error * scale, max_length, max_steps, cancel, progress)
+    seed_index = np.repeat(np.array([i for i, _ in owner], dtype=np.int64), 2)
+    halves = _trace_with_events(field, domain, seeds[seed_index], np.repeat([f.sign for _, f in owner], 2),
+                                np.array(start).reshape(-1, 2), local_error * scale, max_length, max_steps,
+                                int(bounces), cancel, progress)
 
     curves = []
     k = 0
@@ -218,155 +193,105 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
                 reasons = (seed_reason[i], seed_reason[i])
                 curves.append(_curve(family, seed, points, 0, reasons))
                 continue
-            (back, back_reason), (ahead, ahead_reason) = halves[2 * k], halves[2 * k + 1]
+            (back, back_reason, back_events), (ahead, ahead_reason, ahead_events) = halves[2 * k], halves[2 * k + 1]
             points = np.concatenate([back[::-1], seed[np.newaxis, :], ahead])
-            curves.append(_curve(family, seed, points, len(back), (back_reason, ahead_reason)))
+            # An event at position p of a half (-1: the seed) is at len(back) - 1 - p (backward, reversed)
+            # or len(back) + 1 + p (forward) of the curve.
+            events = [CurveEvent(kind, at, len(back) - 1 - p) for kind, p, at in reversed(back_events)]
+            events += [CurveEvent(kind, at, len(back) + 1 + p) for kind, p, at in ahead_events]
+            curves.append(_curve(family, seed, points, len(back), (back_reason, ahead_reason), tuple(events),
+                                 len(back_events)))
             k += 1
     return tuple(curves)
 
 
-def _curve(family, seed, points, seed_index, reasons) -> CharacteristicCurve:
+def _curve(family, seed, points, seed_index, reasons, events=(), backward_events=0) -> CharacteristicCurve:
     seed = seed.copy()
     seed.setflags(write=False)
     points.setflags(write=False)
     return CharacteristicCurve(family=family, seed=seed, points=points, seed_index=int(seed_index),
-                               end_reasons=tuple(reasons))
+                               end_reasons=tuple(reasons), events=events, backward_events=int(backward_events))
 
 
-def _trace_halves(field: _Field, domain: Domain, seeds, owner, start, local_error, max_length, max_steps,
-                  cancel, progress) -> list[tuple[np.ndarray, str]]:
-    """Integrate every half-curve together; returns [(points after the seed (k, 2), end reason), ...]."""
-    count = len(start)
-    if count == 0:
-        return []
-    scale = domain.size
-    seed_index = np.repeat([i for i, _ in owner], 2)
-    x = seeds[seed_index, 0].copy()
-    y = seeds[seed_index, 1].copy()
-    sign = np.repeat([family.sign for _, family in owner], 2)
-    kx, ky = start[:, 0].copy(), start[:, 1].copy()
-    h = np.full(count, _FIRST_STEP * scale)
-    length = np.zeros(count)
-    steps = np.zeros(count, dtype=np.int64)
-    reason = np.full(count, -1)
-    landing = np.zeros(count, dtype=bool)
-    low, high = np.zeros(count), np.zeros(count)
-    low_x, low_y, high_x, high_y = x.copy(), y.copy(), x.copy(), y.copy()
-    high_reason = np.zeros(count, dtype=np.int64)
-    log_index: list[np.ndarray] = []
-    log_x: list[np.ndarray] = []
-    log_y: list[np.ndarray] = []
+def _trace_with_events(field: DirectionField, domain: Domain, starts, sign, directions, local_error, max_length,
+                       max_steps, bounces, cancel, progress) -> list[tuple[np.ndarray, str, list]]:
+    """Every half-curve from ``starts`` (k, 2) in ``directions`` (k, 2), going on through up to ``bounces``
+    events each; returns [(points after the start (n, 2), end reason, [(kind, position, (x, y)), ...]), ...]
+    where position indexes the half's points (-1: the start itself).
+
+    Each pass integrates every half still going in one vectorised run (trace_legs); the halves that
+    stopped on an edge or the type-change line and may go on start the next pass from where they stopped.
+    """
+    count = len(directions)
+    pieces: list[list[np.ndarray]] = [[] for _ in range(count)]
+    sizes = np.zeros(count, dtype=np.int64)
+    events: list[list] = [[] for _ in range(count)]
+    pending: list = [None] * count          # the event a half is going on through, kept once it moves
+    final = np.full(count, -1)
+    x, y = starts[:, 0].copy(), starts[:, 1].copy()      # where each half's current leg starts, then ends
+    sign = np.asarray(sign, dtype=np.float64).copy()
+    directions = directions.copy()
+    length, steps = np.zeros(count), np.zeros(count, dtype=np.int64)
     bounds = (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
-
     active = np.arange(count)
+    finished = 0
+    shown = 0.0
+
+    def report(fraction: float) -> None:       # fraction of this pass's halves done -> of all halves, monotone
+        nonlocal shown
+        shown = max(shown, (finished + fraction * active.size) / count)
+        progress(shown)
+
     while active.size:
-        if cancel is not None and cancel():
-            raise Cancelled("tracing of characteristics cancelled")
-        idx = active
-        is_landing = landing[idx]
-        step = np.where(is_landing, 0.5 * (low[idx] + high[idx]), h[idx])
+        run = trace_legs(field, domain, x[active], y[active], sign[active], directions[active], local_error,
+                            max_length, max_steps, cancel, None if progress is None else report,
+                            length=length[active], steps=steps[active])
+        going_on = []
+        for n, j in enumerate(active):
+            piece, reason = run.pieces[n], int(run.reason[n])
+            if pending[j] is not None:
+                if not len(piece):           # the continuation did not get away from its event
+                    reason = BLOCKED if reason in (EDGE, TYPE_CHANGE) else reason
+                    final[j] = reason
+                    continue
+                events[j].append(pending[j])
+                pending[j] = None
+            if len(piece):
+                pieces[j].append(piece)
+                sizes[j] += len(piece)
+                x[j], y[j] = piece[-1]
+            room = max_length - run.length[n] > MIN_STEP * domain.size
+            if reason in (EDGE, TYPE_CHANGE) and len(events[j]) < bounces and room:
+                going_on.append(n)
+            else:
+                final[j] = reason
+        going_on = np.array(going_on, dtype=np.int64)
+        finished += active.size - going_on.size
+        if not going_on.size:
+            break
+        j = active[going_on]
+        ends = np.stack([x[j], y[j]], axis=-1)
+        at_edge = run.reason[going_on] == EDGE
         with np.errstate(all="ignore"):
-            nx, ny, nkx, nky, nd, smallest, error = _dormand_prince_step(
-                field, x[idx], y[idx], kx[idx], ky[idx], step, sign[idx])
-            finite = np.isfinite(nx) & np.isfinite(ny)
-            outside = finite & ((nx < bounds[0]) | (nx > bounds[1]) | (ny < bounds[2]) | (ny > bounds[3]))
-            bad = ~finite | outside | ~(nd > 0.0)
-            why = np.where(outside, _EDGE, np.where(finite & (nd <= 0.0), _TYPE_CHANGE, _UNDEFINED))
-            # A stage beyond D = 0 (clamped to the parabolic direction) or on an undefined point.
-            touched = ~(smallest > 0.0)
-            ratio = local_error / error
-        done = np.zeros(idx.size, dtype=bool)
+            dx, dy, ok = continuation_directions(field.coefficients, ends[:, 0], ends[:, 1], -sign[j], at_edge,
+                                                 run.kx[going_on], run.ky[going_on], bounds, domain.size)
+        final[j[~ok]] = BLOCKED
+        finished += int((~ok).sum())
+        for n in np.flatnonzero(ok):
+            i = j[n]
+            pending[i] = ("edge" if at_edge[n] else "type_change", int(sizes[i]) - 1,
+                          (float(ends[n, 0]), float(ends[n, 1])))
+        going = j[ok]
+        sign[going] = -sign[going]
+        directions[going, 0], directions[going, 1] = dx[ok], dy[ok]
+        length[j], steps[j] = run.length[going_on], run.steps[going_on]
+        active = going
 
-        # Curves landing on an edge or on D = 0: halve the bracket [low, high] of the last step.
-        sub = np.flatnonzero(is_landing)
-        if sub.size:
-            j = idx[sub]
-            to_high = bad[sub]
-            jh, sh = j[to_high], sub[to_high]
-            high[jh], high_x[jh], high_y[jh], high_reason[jh] = step[sh], nx[sh], ny[sh], why[sh]
-            jl, sl = j[~to_high], sub[~to_high]
-            low[jl], low_x[jl], low_y[jl] = step[sl], nx[sl], ny[sl]
-            closed = high[j] - low[j] <= _LANDING * scale
-            if closed.any():
-                jc = j[closed]
-                end_x, end_y = _landing_points(low_x[jc], low_y[jc], high_x[jc], high_y[jc],
-                                               high_reason[jc], bounds)
-                moved = np.hypot(end_x - x[jc], end_y - y[jc]) > _MIN_STEP * scale
-                log_index.append(jc[moved])
-                log_x.append(end_x[moved])
-                log_y.append(end_y[moved])
-                reason[jc] = high_reason[jc]
-                done[sub[closed]] = True
-
-        # Curves stepping freely: reject inaccurate steps, start landing on bad ones, accept the rest.
-        sub = np.flatnonzero(~is_landing)
-        if sub.size:
-            j = idx[sub]
-            with np.errstate(all="ignore"):
-                factor = np.clip(0.9 * ratio[sub] ** 0.2, 0.2, 5.0)
-            factor = np.where(np.isfinite(factor), factor, 5.0)
-            rejected = error[sub] > local_error
-            jr = j[rejected]
-            h[jr] = step[sub[rejected]] * factor[rejected]
-            stalled = h[jr] < _MIN_STEP * scale
-            reason[jr[stalled]] = _STALLED
-            done[sub[rejected][stalled]] = True
-
-            long_step = step[sub] > _APPROACH * scale
-            crossing = ~rejected & bad[sub]
-            closing_in = ~rejected & long_step & ((crossing & (why[sub] != _EDGE)) | touched[sub])
-            h[j[closing_in]] = 0.25 * step[sub[closing_in]]
-            starts = crossing & ~closing_in
-            js, ss = j[starts], sub[starts]
-            landing[js] = True
-            low[js], low_x[js], low_y[js] = 0.0, x[js], y[js]
-            high[js], high_x[js], high_y[js], high_reason[js] = step[ss], nx[ss], ny[ss], why[ss]
-
-            accepted = ~rejected & ~bad[sub] & ~closing_in
-            ja, sa = j[accepted], sub[accepted]
-            x[ja], y[ja], kx[ja], ky[ja] = nx[sa], ny[sa], nkx[sa], nky[sa]
-            length[ja] += step[sa]
-            steps[ja] += 1
-            log_index.append(ja)
-            log_x.append(nx[sa])
-            log_y.append(ny[sa])
-            remaining = max_length - length[ja]
-            h[ja] = np.minimum(np.minimum(step[sa] * factor[accepted], _MAX_STEP * scale), remaining)
-            at_length = remaining <= _MIN_STEP * scale
-            at_steps = ~at_length & (steps[ja] >= max_steps)
-            reason[ja[at_length]] = _LENGTH
-            reason[ja[at_steps]] = _STEPS
-            done[sa[at_length | at_steps]] = True
-
-        active = idx[~done]
-        if progress is not None:
-            progress(1.0 - active.size / count)
-
-    index = np.concatenate(log_index) if log_index else np.zeros(0, dtype=np.int64)
-    order = np.argsort(index, kind="stable")
-    points = np.stack([np.concatenate(log_x)[order], np.concatenate(log_y)[order]], axis=-1) \
-        if log_index else np.zeros((0, 2))
-    pieces = np.split(points, np.cumsum(np.bincount(index, minlength=count))[:-1])
-    return [(piece, _REASON_NAMES[r]) for piece, r in zip(pieces, reason)]
-
-
-def _landing_points(low_x, low_y, high_x, high_y, why, bounds):
-    """The last point of each landing curve: on the edge it crossed, else the bracket's hyperbolic end."""
-    end_x, end_y = low_x.copy(), low_y.copy()
-    edge = why == _EDGE
-    if edge.any():
-        lx, ly, hx, hy = low_x[edge], low_y[edge], high_x[edge], high_y[edge]
-        fraction = np.ones(lx.size)
-        with np.errstate(all="ignore"):
-            for low_v, high_v, limit in ((lx, hx, bounds[0]), (lx, hx, bounds[1]),
-                                         (ly, hy, bounds[2]), (ly, hy, bounds[3])):
-                crossing = (high_v - limit) * (low_v - limit) < 0
-                t = np.where(crossing, (limit - low_v) / (high_v - low_v), 1.0)
-                fraction = np.minimum(fraction, np.clip(t, 0.0, 1.0))
-        end_x[edge] = np.clip(lx + fraction * (hx - lx), bounds[0], bounds[1])
-        end_y[edge] = np.clip(ly + fraction * (hy - ly), bounds[2], bounds[3])
-    return end_x, end_y
-
+    result = []
+    for i in range(count):
+        points = np.concatenate(pieces[i]) if pieces[i] else np.zeros((0, 2))
+        result.append((points, REASON_NAMES[final[i]], events[i]))
+    return result
 
 
 def seeds_along_segment(start, end, count: int) -> np.ndarray:

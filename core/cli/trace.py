@@ -1,4 +1,8 @@
-"""``mixtype trace``: the two characteristics through a point, or from every seed of a project FILE."""
+"""``mixtype trace``: the two characteristics through a point, or from every seed of a project FILE.
+
+``--bounces N`` lets each half of a curve go on through up to N reflections at the domain edge and turns at
+the type-change line (core.analysis.tracing); from a FILE its own setting is used unless the option is given.
+"""
 
 from __future__ import annotations
 
@@ -6,7 +10,7 @@ import argparse
 import json
 from typing import TextIO
 
-from core.analysis.tracing import trace_characteristics
+from core.analysis.tracing import MAX_BOUNCES, trace_characteristics
 from core.cli.command import EXIT_OK, Command, compiled_study, read_study, source_fields
 from core.cli.study import Study, UsageError, add_equation_options, finite
 from core.results.document import curve_document, seed_document, study_fields
@@ -18,6 +22,27 @@ def _add_arguments(parser: argparse.ArgumentParser) -> None:
     add_equation_options(parser)
     parser.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
                         help="the seed point (default: FILE's seeds)")
+    parser.add_argument("--bounces", type=_bounces, default=None, metavar="N",
+                        help=f"go on as the other family through up to N (0 to {MAX_BOUNCES}) reflections at the "
+                             "domain edge or turns at the type-change line, on each side of the seed "
+                             "(default: FILE's setting, else 0)")
+
+
+def _bounces(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {text!r}") from None
+    if not 0 <= value <= MAX_BOUNCES:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {value}")
+    return value
+
+
+def _bounces_used(study: Study, args: argparse.Namespace) -> int:
+    """--bounces when given, else the project FILE's setting, else 0."""
+    if args.bounces is not None:
+        return args.bounces
+    return study.project.view.characteristic_bounces if study.project is not None else 0
 
 
 def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -30,7 +55,7 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if not study.domain.contains(*args.seed):
         raise UsageError(f"--from ({args.seed[0]:g}, {args.seed[1]:g}) lies outside the domain")
     curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters,
-                                   data=study.data)
+                                   data=study.data, bounces=_bounces_used(study, args))
     document = {"seed": list(args.seed), "curves": [curve_document(curve) for curve in curves],
                 **study_fields(study.equation, study.parameters)}
     document.update(source_fields(study))
@@ -50,7 +75,8 @@ def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: 
     for seed in study.project.seeds:
         seed_points = seed.points()
         curves = trace_characteristics(compiled, study.domain, seed_points, families=seed.families,
-                                       parameters=study.parameters, data=study.data)
+                                       parameters=study.parameters, data=study.data,
+                                       bounces=_bounces_used(study, args))
         traced.append((seed, seed_points, curves))
     if args.json:
         document = {"seeds": [seed_document(seed, seed_points, curves) for seed, seed_points, curves in traced],
@@ -67,11 +93,20 @@ def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: 
     return EXIT_OK
 
 
+_EVENT_WORDS = {"edge": "reflected at the edge", "type_change": "turned back at the type-change line"}
+
+
 def _write_curves(curves, out: TextIO) -> None:
     for curve in curves:
         first, last = curve.points[0], curve.points[-1]
         out.write(f"family {int(curve.family)}: {len(curve.points)} points from ({first[0]:.6g}, {first[1]:.6g})"
                   f" [{curve.end_reasons[0]}] to ({last[0]:.6g}, {last[1]:.6g}) [{curve.end_reasons[1]}]\n")
+        if curve.events:
+            kinds = [event.kind for event in curve.events]
+            out.write(f"  went on as the other family {len(kinds)} times ({kinds.count('edge')} at the edge, "
+                      f"{kinds.count('type_change')} at the type-change line):\n")
+            out.writelines(f"    {_EVENT_WORDS[event.kind]} at ({event.at[0]:.6g}, {event.at[1]:.6g})\n"
+                           for event in curve.events)
     if all(len(c.points) <= 1 for c in curves):
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
 

@@ -111,6 +111,7 @@ def project_to_dict(project: Project) -> dict:
         "view": {
             "layers": _layers_to_dict(view),
             "parabolic_tolerance": float(view.parabolic_tolerance),
+            "characteristic_bounces": view.characteristic_bounces,
         },
         "notes": project.notes,
     }
@@ -140,7 +141,8 @@ def _build(data: Mapping) -> Project:
                           show_characteristics_family_2=layers["characteristics_family_2"],
                           show_pins=layers["pins"], show_legend=layers["legend"],
                           parabolic_tolerance=float(view["parabolic_tolerance"]),
-                          show_seed_segments=layers.get("seed_segments", True)),
+                          show_seed_segments=layers.get("seed_segments", True),
+                          characteristic_bounces=int(view["characteristic_bounces"])),
         notes=data["notes"],
         metadata=Metadata(created=data["metadata"]["created"], modified=data["metadata"]["modified"],
                           written_by=data["metadata"]["written_by"]),

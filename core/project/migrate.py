@@ -48,8 +48,19 @@ def _v1_to_v2(data: dict) -> dict:
     return result
 
 
+def _v2_to_v3(data: dict) -> dict:
+    """Version 3 adds how many times characteristics go on past edges and the type-change line
+    (``view.characteristic_bounces``): 0 for a version-2 file, whose curves stopped there."""
+    result = dict(data)
+    result["format_version"] = 3
+    view = result.get("view")
+    if isinstance(view, dict):
+        result["view"] = {**view, "characteristic_bounces": 0}
+    return result
+
+
 # version n -> function turning version-n data into version n + 1. Version 1 is the first format.
-MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2}
+MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3}
 
 
 class MigrationError(ValueError):

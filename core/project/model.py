@@ -19,7 +19,7 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
-from core.analysis.tracing import seeds_along_segment
+from core.analysis.tracing import MAX_BOUNCES, seeds_along_segment
 from core.bundled import bundled_path
 from core.data.raw import FORMATS
 from core.domain import Domain
@@ -120,7 +120,9 @@ class ViewSettings:
 
     The two characteristic families are switched separately (family 1 and family 2 as numbered by
     core.analysis.directions). ``show_seed_segments`` draws the segments characteristics start from; it is
-    optional in the file (absent means shown), so it comes last.
+    optional in the file (absent means shown). ``characteristic_bounces`` (0 to MAX_BOUNCES) is how many times
+    each half of a characteristic goes on as the other family past the domain edge or the type-change line
+    (core.analysis.tracing); it came with format version 3. New fields come last.
     """
 
     show_type_map: bool = True
@@ -131,10 +133,14 @@ class ViewSettings:
     show_legend: bool = True
     parabolic_tolerance: float = DEFAULT_TOLERANCE
     show_seed_segments: bool = True
+    characteristic_bounces: int = 0
 
     def __post_init__(self) -> None:
         if not 0.0 <= float(self.parabolic_tolerance) < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {self.parabolic_tolerance!r}")
+        bounces = self.characteristic_bounces
+        if isinstance(bounces, bool) or not isinstance(bounces, int) or not 0 <= bounces <= MAX_BOUNCES:
+            raise ValueError(f"characteristic bounces must be a whole number in [0, {MAX_BOUNCES}], got {bounces!r}")
 
     @property
     def show_characteristics(self) -> bool:

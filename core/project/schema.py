@@ -12,6 +12,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from core.analysis.tracing import MAX_BOUNCES
 from core.bundled import bundled_path
 from core.domain import MAX_GRID, MIN_GRID
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
@@ -36,7 +37,7 @@ __all__ = [
     "schema_text",
 ]
 
-CURRENT_FORMAT_VERSION = 2
+CURRENT_FORMAT_VERSION = 3
 FORMAT_NAME = "mixtype-project"
 MAX_EQUATIONS = 100
 MAX_DOMAINS = 100
@@ -229,7 +230,12 @@ def project_schema() -> dict:
                                   description="which layers of the map are visible"),
                 "parabolic_tolerance": _number("points with |D| / (b^2 + 4|ac|) at most this are parabolic",
                                                minimum=0, exclusiveMaximum=1),
-            }, description="what the map shows"),
+                "characteristic_bounces": {
+                    "type": "integer", "minimum": 0, "maximum": MAX_BOUNCES,
+                    "description": "how many times each half of a characteristic goes on as the other family "
+                                   "where it meets the domain edge (reflected) or the type-change line (turned "
+                                   "back); 0 stops it there"},
+            }, description="what the map shows and how characteristics are traced"),
             "notes": _text(MAX_NOTES_LENGTH, "free-text notes"),
         }),
     }

@@ -196,8 +196,12 @@ def pin_document(pin, result=None, trade: TradeReading | None = None) -> dict:
 
 
 def curve_document(curve) -> dict:
-    """A characteristic curve: its family (1 or 2), points, and why each end stopped (backward, forward)."""
-    return {"family": int(curve.family), "points": point_list(curve.points), "ends": list(curve.end_reasons)}
+    """A characteristic curve: its family (1 or 2) at the seed, points, why each end stopped (backward,
+    forward), and the events where it went on as the other family, in path order: kind ("edge" or
+    "type_change"), the point, and its index in ``points`` (empty when traced without bounces)."""
+    return {"family": int(curve.family), "points": point_list(curve.points), "ends": list(curve.end_reasons),
+            "events": [{"kind": event.kind, "at": [float(event.at[0]), float(event.at[1])],
+                        "index": int(event.index)} for event in curve.events]}
 
 
 def seed_document(seed, seed_points, curves: Iterable) -> dict:

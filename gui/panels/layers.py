@@ -1,4 +1,5 @@
-"""What the map shows and what the mouse does: layer switches and the seeding tool for characteristics."""
+"""What the map shows and what the mouse does: layer switches, the seeding tool for characteristics and how far
+characteristics go on past the domain edge and the type-change line (kept in the study)."""
 
 from __future__ import annotations
 
@@ -16,6 +17,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.analysis.tracing import MAX_BOUNCES
 from gui.document import LAYER_LABELS, Document
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
 
@@ -91,6 +93,19 @@ class LayersPanel(QWidget):
         count_row.addWidget(QLabel("seeds per segment:"))
         count_row.addWidget(self.seed_count)
         count_row.addStretch(1)
+        self.bounces = QSpinBox()
+        self.bounces.setObjectName("characteristic_bounces")
+        self.bounces.setRange(0, MAX_BOUNCES)
+        self.bounces.setKeyboardTracking(False)      # typed numbers apply on Enter or leaving the box
+        self.bounces.setToolTip("Every characteristic of the study goes on as the other family where it meets the "
+                                "domain edge (reflected) or the type-change line (turned back), up to this many "
+                                "times on each side of its seed; 0 stops it there (undoable, saved with the study)")
+        self.bounces.valueChanged.connect(self.document.set_bounces)
+        bounces_row = QHBoxLayout()
+        bounces_row.addWidget(QLabel("go on past edges / type-change lines:"))
+        bounces_row.addWidget(self.bounces)
+        bounces_row.addWidget(QLabel("times each way"))
+        bounces_row.addStretch(1)
         self.clear_button = QPushButton("Remove all characteristics")
         self.clear_button.setToolTip("Remove every seed point and segment (undoable)")
         self.clear_button.clicked.connect(self.document.clear_seeds)
@@ -99,6 +114,7 @@ class LayersPanel(QWidget):
         tool_layout.addWidget(self.segment_tool)
         tool_layout.addLayout(count_row)
         tool_layout.addLayout(families_row)
+        tool_layout.addLayout(bounces_row)
         tool_layout.addWidget(self.clear_button)
 
         layout = QVBoxLayout(self)
@@ -106,6 +122,7 @@ class LayersPanel(QWidget):
         layout.addWidget(tool_box)
         layout.addStretch(1)
         document.layers_changed.connect(self.refresh)
+        document.seeds_changed.connect(self.refresh)
         self.refresh()
 
     def families(self) -> tuple[int, ...]:
@@ -117,3 +134,6 @@ class LayersPanel(QWidget):
             box.blockSignals(True)
             box.setChecked(self.document.layer_visible(name))
             box.blockSignals(False)
+        self.bounces.blockSignals(True)
+        self.bounces.setValue(self.document.bounces)
+        self.bounces.blockSignals(False)

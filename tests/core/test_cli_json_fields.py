@@ -111,7 +111,8 @@ TODAY = {
 }
 
 # Added by the results document: the Mixtype version, the equation as text and the parameter values used
-# (every command), the tolerance (probe: it decides the type), FILE's SHA-256 (project_checksum) and parabolic regions' holes.
+# (every command), the tolerance (probe: it decides the type), FILE's SHA-256 (project_checksum), parabolic regions'
+# holes, and the events where a characteristic went on as the other family (empty unless traced with bounces).
 STUDY = {"mixtype_version", "equation", "equation.name", "equation.variables", "equation.a", "equation.b",
          "equation.c", "equation.definitions", "equation.parameters", "parameters"}
 ADDED: dict[str, set[str]] = {
@@ -120,9 +121,9 @@ ADDED: dict[str, set[str]] = {
     "probe_inline": STUDY | {"tolerance"},
     "probe_file_trade": STUDY | {"tolerance", "project_checksum"},
     "probe_pins_data": STUDY | {"tolerance", "project_checksum"},
-    "trace_inline": STUDY,
-    "trace_file": STUDY | {"project_checksum"},
-    "trace_seeds": STUDY | {"project_checksum"},
+    "trace_inline": STUDY | {"curves[].events"},
+    "trace_file": STUDY | {"project_checksum", "curves[].events"},
+    "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
 }
 # Below these fields the keys are the study's own names (definitions, parameters), not field names.
 NAMED_BY_THE_STUDY = ("equation.definitions.", "equation.parameters.", "parameters.")

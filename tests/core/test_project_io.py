@@ -171,7 +171,8 @@ def projects(draw):
         seeds=tuple(draw(seeds()) for _ in range(draw(st.integers(0, 3)))),
         view=ViewSettings(*(draw(st.booleans()) for _ in range(6)),
                           parabolic_tolerance=draw(st.floats(min_value=0.0, max_value=0.999)),
-                          show_seed_segments=draw(st.booleans())),
+                          show_seed_segments=draw(st.booleans()),
+                          characteristic_bounces=draw(st.integers(0, 1000))),
         notes=draw(st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), max_size=200)),
         metadata=Metadata(draw(stamp), draw(stamp), draw(st.sampled_from(["0.1.0", "0.0.9", core.__version__]))),
         data_sources=tuple(sources),
@@ -273,7 +274,8 @@ def test_a_version_1_file_means_the_same_after_migration():
         "type_map": layers["type_map"], "type_change_lines": layers["type_change_lines"],
         "characteristics_family_1": layers["characteristics"], "characteristics_family_2": layers["characteristics"],
         "pins": layers["pins"], "legend": layers["legend"]}
-    assert new.pop("data_sources") == [] and new.pop("format_version") == 2 and old.pop("format_version") == 1
+    assert new.pop("data_sources") == [] and new.pop("format_version") == 3 and old.pop("format_version") == 1
+    assert new["view"].pop("characteristic_bounces") == 0      # version 3: curves stop where they always did
     assert new == old   # equations, domains, pins, seeds, tolerance, notes, metadata: untouched
 
 
@@ -284,6 +286,24 @@ def test_the_migration_splits_the_switch_whatever_its_value_and_keeps_the_input(
         view = project_from_dict(data).view
         assert view.show_characteristics_family_1 is value and view.show_characteristics_family_2 is value
         assert "characteristics" in data["view"]["layers"] and data["format_version"] == 1
+
+
+def test_the_version_3_sample_reads_as_written_and_version_2_files_gain_no_bounces():
+    project = load_project(DATA / "project-v3-all-fields.mixtype.json")
+    assert project.view.characteristic_bounces == 7 and project.view.show_seed_segments is False
+    older = load_project(DATA / "project-v2-all-fields.mixtype.json")
+    assert older.view.characteristic_bounces == 0
+    assert replace(project, view=replace(project.view, characteristic_bounces=0, show_seed_segments=True)) == older
+    data = json.loads((DATA / "project-v3-all-fields.mixtype.json").read_text(encoding="utf-8"))
+    for bad in (-1, 1001, 2.5, True, "3"):
+        data["view"]["characteristic_bounces"] = bad
+        with pytest.raises(ProjectError, match="characteristic_bounces"):
+            project_from_dict(data)
+    del data["view"]["characteristic_bounces"]
+    with pytest.raises(ProjectError, match="characteristic_bounces"):
+        project_from_dict(data)
+    with pytest.raises(ValueError, match=r"characteristic bounces must be a whole number in \[0, 1000\]"):
+        ViewSettings(characteristic_bounces=-2)
 
 
 def test_the_seed_segment_switch_is_optional_and_round_trips():
