@@ -17,7 +17,7 @@ from PySide6.QtCore import QObject, QTimer, Signal
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.analysis.discriminant import discriminant
-from core.analysis.pockets import label_pockets, pocket_statistics
+from core.analysis.pockets import pockets_and_labels
 from core.analysis.probe import probe_point
 from core.analysis.tracing import trace_characteristics
 from core.analysis.type_change_lines import find_type_boundaries
@@ -196,9 +196,8 @@ class StudyAnalysis(QObject):
 
         def work(cancel, progress):
             with np.errstate(all="ignore"):
-                pockets = pocket_statistics(compiled, type_map, quantity=quantity, parameters=parameters,
-                                            data=data, cancel=cancel, progress=progress)
-            labels, _ = label_pockets(type_map)
+                pockets, labels = pockets_and_labels(compiled, type_map, quantity=quantity, parameters=parameters,
+                                                     data=data, cancel=cancel, progress=progress)
             return PocketReport(type_map=type_map, pockets=pockets, labels=labels, quantity=quantity)
 
         self.runner.request("pockets", work, label=_LABELS["pockets"])

@@ -21,14 +21,14 @@ from core.analysis.classify import TypeCode, TypeMap
 from core.equations.equation import CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
-__all__ = ["Pocket", "label_pockets", "node_areas", "pocket_outline", "pocket_statistics"]
+__all__ = ["Pocket", "node_areas", "pocket_outline", "pocket_statistics", "pockets_and_labels"]
 
 _CHUNK = 1 << 17
 
 
 @dataclass(frozen=True)
 class Pocket:
-    """One connected region of a type map; ``label`` is its value in ``label_pockets``' array.
+    """One connected region of a type map; ``label`` is its value in the labels of ``pockets_and_labels``.
 
     ``bounding_box`` is (xmin, xmax, ymin, ymax) of its nodes; ``centroid`` (x, y) their area-weighted mean;
     ``peak`` the largest finite value of ``quantity`` on its nodes and ``peak_at`` that node (both None when
@@ -53,31 +53,13 @@ def node_areas(x: np.ndarray, y: np.ndarray) -> np.ndarray:
     return np.outer(_trapezoid_weights(y), _trapezoid_weights(x))
 
 
-def label_pockets(type_map: TypeMap, *, code: TypeCode | int | str = TypeCode.HYPERBOLIC,
-                  connectivity: int = 8) -> tuple[np.ndarray, int]:
-    """(labels (ny, nx) int32, count): 0 off the type, 1..count per region, largest area first.
-
-    ``connectivity`` 8 joins nodes that touch diagonally, 4 only along the grid lines.
-    """
-    labels, count = _scan_labels(type_map, code, connectivity)
-    if count == 0:
-        return labels, 0
-    order = _largest_first(_region_sums(labels, type_map.x, type_map.y, count)[0])
-    relabel = np.zeros(count + 1, dtype=np.int32)
-    relabel[order + 1] = np.arange(1, count + 1, dtype=np.int32)
-    step = _rows_per_chunk(labels.shape[1])
-    for start in range(0, labels.shape[0], step):          # renumbered in place, a block of rows at a time
-        block = labels[start:start + step]
-        block[...] = relabel[block]
-    return labels, count
-
-
-def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity: str | None = None,
+def pockets_and_labels(compiled: CompiledEquation, type_map: TypeMap, *, quantity: str | None = None,
                       parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
                       code: TypeCode | int | str = TypeCode.HYPERBOLIC, connectivity: int = 8,
                       cancel: CancelCheck | None = None, progress: ProgressReport | None = None
-                      ) -> tuple[Pocket, ...]:
-    """Every connected region of type ``code`` (default hyperbolic) in ``type_map``, largest area first.
+                      ) -> tuple[tuple[Pocket, ...], np.ndarray]:
+    """Every connected region of type ``code`` (default hyperbolic) in ``type_map``, largest area first, and
+    the (ny, nx) int32 labels that locate them (0 off the type, ``Pocket.label`` on each region's nodes).
 
     ``quantity`` names a definition, a coefficient (a, b, c) or a data key, evaluated on the regions' nodes
     with ``parameters`` (default: those the map was computed with) to give each region's peak.
@@ -86,7 +68,7 @@ def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity
     """
     labels, count = _scan_labels(type_map, code, connectivity)
     if count == 0:
-        return ()
+        return (), labels
     if quantity is not None:
         _check_quantity(compiled, quantity, data)
     x, y = type_map.x, type_map.y
@@ -96,10 +78,11 @@ def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity
     cx, cy = weighted_x / safe, weighted_y / safe
     peaks = {} if quantity is None else _peaks(compiled, quantity, labels, count, type_map, parameters, data,
                                                cancel, progress)
-    del labels
     code = TypeCode.coerce(code)
+    order = _largest_first(area)
+    _renumber(labels, order)
     pockets = []
-    for new_label, old in enumerate(_largest_first(area), start=1):
+    for new_label, old in enumerate(order, start=1):
         row0, row1, column0, column1 = box[:, old]
         peak = peaks.get(old + 1)
         pockets.append(Pocket(
@@ -109,7 +92,22 @@ def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, *, quantity
             touches_boundary=bool(row0 == 0 or column0 == 0 or row1 == ny - 1 or column1 == nx - 1),
             quantity=quantity, peak=None if peak is None else peak[0],
             peak_at=None if peak is None else (peak[1], peak[2])))
-    return tuple(pockets)
+    return tuple(pockets), labels
+
+
+def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, **options) -> tuple[Pocket, ...]:
+    """The pockets of ``pockets_and_labels`` (same options), without their labels."""
+    return pockets_and_labels(compiled, type_map, **options)[0]
+
+
+def _renumber(labels: np.ndarray, order: np.ndarray) -> None:
+    """Relabel in place, a block of rows at a time: region ``order[k] + 1`` becomes k + 1."""
+    relabel = np.zeros(len(order) + 1, dtype=np.int32)
+    relabel[order + 1] = np.arange(1, len(order) + 1, dtype=np.int32)
+    step = _rows_per_chunk(labels.shape[1])
+    for start in range(0, labels.shape[0], step):
+        block = labels[start:start + step]
+        block[...] = relabel[block]
 
 
 def _scan_labels(type_map: TypeMap, code: TypeCode | int | str, connectivity: int) -> tuple[np.ndarray, int]:

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from core.analysis.directions import unit_direction
-from core.analysis.discriminant import discriminant
+from core.analysis.discriminant import discriminant, scaled_by_power_of_two
 from core.domain import Domain
 from core.equations.equation import CompiledEquation
 from core.progress import Cancelled
@@ -68,9 +68,10 @@ class DirectionField:
         return tuple(np.broadcast_to(raw[name], np.shape(x)) for name in ("a", "b", "c"))
 
     def __call__(self, x, y, sign, ref_x, ref_y):
-        """Directions at (x, y) turned to make a positive dot product with (ref_x, ref_y); also D there."""
+        """Directions at (x, y) turned to make a positive dot product with (ref_x, ref_y); also the sign of D
+        there, as D of a, b, c scaled by a power of two (exact; only its sign is used, and it cannot overflow)."""
         raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared)
-        a, b, c = raw["a"], raw["b"], raw["c"]
+        a, b, c = scaled_by_power_of_two(raw["a"], raw["b"], raw["c"])
         d = discriminant(a, b, c)
         dx, dy = unit_direction(a, b, c, sign, d)
         flip = np.where(dx * ref_x + dy * ref_y < 0.0, -1.0, 1.0)

@@ -325,3 +325,14 @@ def test_bad_options_are_reported(kwargs, message):
         trace_characteristics(compiled("y", "0", "1"), BOX, options.pop("seeds"), **options)
     with pytest.raises(ValueError, match=r"got 0"):
         seeds_along_segment((0, 0), (1, 1), 0)
+
+
+@pytest.mark.parametrize("scale", ["1e-170", "1e160"])
+def test_tracing_does_not_depend_on_the_size_of_the_coefficients(scale):
+    # The wave equation times a constant: the same straight characteristics x -+ y = const (common practice,
+    # no source), traced point for point as the unscaled equation's (scaling by a power of two is exact).
+    plain = trace_characteristics(compiled("1", "0", "-1"), BOX, [(0.1, 0.2)])
+    scaled = trace_characteristics(compiled(scale, "0", f"-{scale}"), BOX, [(0.1, 0.2)])
+    for one, other in zip(plain, scaled):
+        assert other.end_reasons == one.end_reasons == ("edge", "edge")
+        np.testing.assert_allclose(other.points, one.points, rtol=0, atol=1e-13)

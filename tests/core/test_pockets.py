@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.pockets import label_pockets, node_areas, pocket_outline, pocket_statistics
+from core.analysis.pockets import node_areas, pocket_outline, pocket_statistics, pockets_and_labels
 from core.data.sources import DataSources, load_data
 from core.domain import Domain
 from core.equations.equation import Equation, Parameter, compile_equation
@@ -76,8 +76,8 @@ def test_pockets_are_sorted_by_area_and_match_the_label_array():
     assert pockets[0].peak == pytest.approx(0.1681)
     assert pockets[1].peak == pytest.approx(0.1681 - 0.8**2)       # "big" at the small pocket's node (0.3, 0)
     assert pockets[1].peak_at == pytest.approx((0.3, 0.0))
-    labels, count = label_pockets(type_map)
-    assert count == 2
+    same, labels = pockets_and_labels(compiled, type_map, quantity="big")
+    assert [(p.label, p.area) for p in same] == [(p.label, p.area) for p in pockets] and labels.max() == 2
     for pocket in pockets:
         assert np.count_nonzero(labels == pocket.label) == pocket.node_count
 
@@ -209,8 +209,9 @@ def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quan
     pockets = pocket_statistics(compiled, type_map, quantity=quantity, code=code, connectivity=connectivity)
     expected = _reference_pockets(compiled, type_map, quantity, code, connectivity)
     assert len(pockets) == len(expected) >= 1
-    labels, count = label_pockets(type_map, code=code, connectivity=connectivity)
-    assert count == len(pockets)
+    same, labels = pockets_and_labels(compiled, type_map, quantity=quantity, code=code, connectivity=connectivity)
+    assert [(p.label, p.area) for p in same] == [(p.label, p.area) for p in pockets]
+    assert labels.max() == len(pockets)
     for number, (pocket, reference) in enumerate(zip(pockets, expected), start=1):
         assert pocket.label == number
         assert pocket.node_count == reference["node_count"] == np.count_nonzero(labels == number)
