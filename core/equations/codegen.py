@@ -9,6 +9,7 @@ condition gives NaN. The caller turns non-finite results into the ``undefined`` 
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Mapping
 
@@ -17,6 +18,8 @@ import sympy
 __all__ = ["INF_NAME", "NAN_NAME", "CodegenError", "to_numexpr"]
 
 NAN_NAME = "qnan"
+MAX_BRACKET_DEPTH = 200   # Python's compile(), which numexpr parses with, refuses deeper brackets
+MAX_CODE_LENGTH = 1_000_000
 INF_NAME = "qinf"
 
 _DIRECT = {
@@ -42,7 +45,19 @@ def _number(value: float) -> str:
 
 def to_numexpr(expr: sympy.Basic, names: Mapping[sympy.Symbol, str]) -> str:
     """numexpr text for ``expr``; ``names`` maps each free symbol to its internal variable name."""
-    return _Printer(names).emit(expr)
+    try:
+        text = _Printer(names).emit(expr)
+    except RecursionError:
+        raise CodegenError("expression is nested too deeply to evaluate") from None
+    depth = max(itertools.accumulate((ch == "(") - (ch == ")") for ch in text), default=0)
+    if depth > MAX_BRACKET_DEPTH:
+        raise CodegenError(f"expression is nested too deeply to evaluate ({depth} levels of brackets, "
+                           f"at most {MAX_BRACKET_DEPTH})")
+    return text
+
+
+def _is_negated(term: sympy.Basic) -> bool:
+    return term.is_Mul and len(term.args) == 2 and term.args[0] is sympy.S.NegativeOne
 
 
 class _Printer:
@@ -50,6 +65,12 @@ class _Printer:
         self.names = names
 
     def emit(self, e: sympy.Basic) -> str:
+        text = self._emit(e)
+        if len(text) > MAX_CODE_LENGTH:   # min, max, sign and piecewise repeat their arguments' text
+            raise CodegenError(f"expression is too large to evaluate (more than {MAX_CODE_LENGTH} characters)")
+        return text
+
+    def _emit(self, e: sympy.Basic) -> str:
         if e is sympy.nan or e is sympy.zoo:
             return NAN_NAME
         if e is sympy.oo:
@@ -67,10 +88,12 @@ class _Printer:
                 raise CodegenError(f"no value for symbol {e}") from None
         if e.is_Number or e.is_NumberSymbol:
             return _number(float(e))
-        if e.is_Add:
-            return "(" + " + ".join(self.emit(t) for t in e.args) + ")"
-        if e.is_Mul:
-            return "(" + " * ".join(self.emit(t) for t in e.args) + ")"
+        if e.is_Add:   # the parser's a - b is Add(a, Mul(-1, b)): emitted as a - b, as typed
+            return "(" + "".join(" - " + self.emit(t.args[1]) if i and _is_negated(t)
+                                 else " + " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")"
+        if e.is_Mul:   # the parser's a / b is Mul(a, Pow(b, -1)): emitted as a / b, one rounding as typed
+            return "(" + "".join(" / " + self.emit(t.base) if i and t.is_Pow and t.exp is sympy.S.NegativeOne
+                                 else " * " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")"
         if e.is_Pow:
             return self._power(e)
         if isinstance(e, sympy.Piecewise):
