@@ -4,7 +4,9 @@ The input is a sympy tree made only of whitelisted nodes (never raw user text), 
 to an internal name, so the generated text can neither clash with numexpr's own names nor carry anything a
 user typed. Semantics follow IEEE doubles: a square root or logarithm of a negative number gives NaN, a
 division by zero gives infinity, and NaN in any argument of min, max, sign, heaviside or a piecewise
-condition gives NaN. The caller turns non-finite results into the ``undefined`` type.
+condition gives NaN. A value is defined only when every step of the typed text is a finite number: where an
+operation would take an infinite or NaN input to a finite value (1/inf, atan(inf), exp(-inf), max(-inf, 1),
+pow(nan, 0)) the input poisons the result. The caller turns non-finite results into the ``undefined`` type.
 """
 
 from __future__ import annotations
@@ -28,6 +30,10 @@ _DIRECT = {
     sympy.sinh: "sinh", sympy.cosh: "cosh", sympy.tanh: "tanh",
     sympy.exp: "exp", sympy.log: "log", sympy.Abs: "abs",
 }
+
+
+# Functions that take an infinite argument to a finite value: their arguments poison the result.
+_FINITE_AT_INFINITY = frozenset({sympy.exp, sympy.atan, sympy.atan2, sympy.tanh})
 
 
 class CodegenError(ValueError):
@@ -92,21 +98,25 @@ class _Printer:
             return "(" + "".join(" - " + self.emit(t.args[1]) if i and _is_negated(t)
                                  else " + " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")"
         if e.is_Mul:   # the parser's a / b is Mul(a, Pow(b, -1)): emitted as a / b, one rounding as typed
-            return "(" + "".join(" / " + self.emit(t.base) if i and t.is_Pow and t.exp is sympy.S.NegativeOne
-                                 else " * " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")"
+            divisors = [t.base for t in e.args[1:] if t.is_Pow and t.exp is sympy.S.NegativeOne]
+            return self._poisoned("(" + "".join(
+                " / " + self.emit(t.base) if i and t.is_Pow and t.exp is sympy.S.NegativeOne
+                else " * " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")", divisors)
         if e.is_Pow:
-            return self._power(e)
+            exponent = e.args[1]
+            positive = exponent.is_Number and exponent > 0   # then an infinite or NaN base stays so
+            return self._poisoned(self._power(e), [exponent] if positive else e.args)
         if isinstance(e, sympy.Piecewise):
             return self._piecewise(e)
         if isinstance(e, sympy.Min | sympy.Max):
-            return self._extremum(e)
+            return self._poisoned(self._extremum(e), e.args)
         if isinstance(e, sympy.sign):
             v = self.emit(e.args[0])
-            return f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))"
+            return self._poisoned(f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))", e.args)
         if isinstance(e, sympy.Heaviside):
             v = self.emit(e.args[0])
             at_zero = _number(float(e.args[1]))   # the parser always gives H(0) = 1/2
-            return f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))"
+            return self._poisoned(f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))", e.args[:1])
         if isinstance(e, sympy.Rel):
             return f"({self.emit(e.lhs)} {e.rel_op} {self.emit(e.rhs)})"   # <, <=, > or >= (the parser's only)
         if isinstance(e, sympy.And):
@@ -115,7 +125,8 @@ class _Printer:
             return "(" + " | ".join(self.emit(t) for t in e.args) + ")"
         function = _DIRECT.get(type(e))
         if function is not None:
-            return f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
+            text = f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
+            return self._poisoned(text, e.args) if type(e) in _FINITE_AT_INFINITY else text
         raise CodegenError(f"cannot evaluate {type(e).__name__} numerically")
 
     def _power(self, e: sympy.Pow) -> str:
@@ -147,8 +158,16 @@ class _Printer:
                 continue
             result = f"where({self.emit(condition)}, {value_text}, {result if result is not None else NAN_NAME})"
             guards.extend(a for rel in condition.atoms(sympy.Rel) for a in (rel.lhs, rel.rhs))
-        poison = [self.emit(g) for g in guards if not g.is_Number]
-        if poison:
-            # A NaN in any compared quantity makes the whole piecewise value NaN instead of a silent branch.
-            result = f"({result} + 0.0 * (" + " + ".join(poison) + "))"
-        return result
+        # A NaN in any compared quantity makes the whole piecewise value NaN instead of a silent branch.
+        return self._poisoned(result, guards)
+
+    def _poisoned(self, text: str, inputs) -> str:
+        """``text`` made NaN wherever one of ``inputs`` is NaN or infinite (0 * inf is NaN), unchanged elsewhere.
+
+        Used where an operation takes a non-finite input to a finite value (1/inf = 0, atan(inf) = pi/2,
+        exp(-inf) = 0, max(-inf, 1) = 1, pow(nan, 0) = 1): a value is defined only when every step of the
+        typed text is a finite number. Each input gets its own 0 * term, so two large finite inputs cannot
+        overflow into a false NaN.
+        """
+        poison = [f"0.0 * {self.emit(g)}" for g in inputs if not g.is_Number]
+        return f"({text} + " + " + ".join(poison) + ")" if poison else text

@@ -157,6 +157,8 @@ class _Builder:
                         ast.Div: lambda p, q: p / q, ast.Pow: math.pow}[type(op)]
             return fold_constant(function, (left, right), node, self._text(node),
                                  operator_column=self._operator_column(node))
+        if isinstance(op, ast.Div) and _is_number(right) and right == 0:
+            raise ExpressionError(f"division by zero ({self._text(node)})", column=self._operator_column(node))
         if isinstance(op, ast.Pow) and _is_number(right) and abs(right) > MAX_ABS_EXPONENT:
             raise ExpressionError(f"exponent {right:g} is larger than {MAX_ABS_EXPONENT}", column=_column(node))
         # Built unevaluated: a - b is a + (-1)*b and a/b is a*b**-1, exactly as sympy spells them, but
