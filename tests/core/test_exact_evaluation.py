@@ -169,6 +169,7 @@ SYMBOLS = {name: symbol for name, symbol in compile_equation(Equation(a="x", b="
         ("-9007199254740993*x", "integer is too large", 2),
         ("9" * 400, "integer is too large for double precision", 1),
         ("1e-400", "number 1e-400 is below double precision", 1),   # would silently be 0
+        ("x/(1 - 1)", "division by zero (x/(1 - 1))", 2),           # undefined everywhere: said at once
     ],
 )
 def test_literals_doubles_cannot_hold_are_refused_with_their_column(text, fragment, column):
