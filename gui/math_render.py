@@ -11,6 +11,8 @@ import html
 
 import sympy
 
+from core.equations.parser import tidy_expression
+
 __all__ = ["equation_html", "expression_html", "symbol_html"]
 
 _GREEK = {name: chr(code) for name, code in (
@@ -163,13 +165,15 @@ def expression_html(expr) -> str:
 def equation_html(compiled) -> str:
     """The compiled equation as it reads on paper: the PDE, each definition, and D = b^2 - 4ac.
 
-    Uses the coefficients as typed (definitions kept as names) so the display matches the editor.
+    Uses the coefficients as typed (definitions kept as names) so the display matches the editor, tidied by
+    sympy (x - -y reads x + y; x/x reads 1 although the typed x/x is undefined at x = 0, as the map shows).
     """
+    symbolic = {name: tidy_expression(value) for name, value in compiled.symbolic.items()}
     x, y = compiled.variables
     second = {"a": (x, x), "b": (x, y), "c": (y, y)}
     terms = []
     for which in ("a", "b", "c"):
-        coefficient = compiled.symbolic[which]
+        coefficient = symbolic[which]
         if coefficient == 0:
             continue
         derivative = f"<i>u</i><sub>{html.escape(''.join(second[which]))}</sub>"
@@ -187,8 +191,8 @@ def equation_html(compiled) -> str:
     pde = " + ".join(terms).replace(f"+ {_MINUS}", f"{_MINUS} ") if terms else "0"
     lines = [f"{pde} + (lower order) = 0"]
     for name in compiled.definition_order:
-        lines.append(f"{symbol_html(name)} = {expression_html(compiled.symbolic[name])}")
-    a, b, c = (compiled.symbolic[k] for k in ("a", "b", "c"))
+        lines.append(f"{symbol_html(name)} = {expression_html(symbolic[name])}")
+    a, b, c = (symbolic[k] for k in ("a", "b", "c"))
     if sum(sympy.count_ops(e) for e in (a, b, c)) < 80:
         lines.append(f"<i>D</i> = <i>b</i><sup>2</sup> {_MINUS} 4<i>ac</i> = "
                      f"{expression_html(b ** 2 - 4 * a * c)}")

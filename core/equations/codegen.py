@@ -4,11 +4,14 @@ The input is a sympy tree made only of whitelisted nodes (never raw user text), 
 to an internal name, so the generated text can neither clash with numexpr's own names nor carry anything a
 user typed. Semantics follow IEEE doubles: a square root or logarithm of a negative number gives NaN, a
 division by zero gives infinity, and NaN in any argument of min, max, sign, heaviside or a piecewise
-condition gives NaN. The caller turns non-finite results into the ``undefined`` type.
+condition gives NaN. A value is defined only when every step of the typed text is a finite number: where an
+operation would take an infinite or NaN input to a finite value (1/inf, atan(inf), exp(-inf), max(-inf, 1),
+pow(nan, 0)) the input poisons the result. The caller turns non-finite results into the ``undefined`` type.
 """
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Mapping
 
@@ -17,6 +20,8 @@ import sympy
 __all__ = ["INF_NAME", "NAN_NAME", "CodegenError", "to_numexpr"]
 
 NAN_NAME = "qnan"
+MAX_BRACKET_DEPTH = 200   # Python's compile(), which numexpr parses with, refuses deeper brackets
+MAX_CODE_LENGTH = 1_000_000
 INF_NAME = "qinf"
 
 _DIRECT = {
@@ -25,6 +30,10 @@ _DIRECT = {
     sympy.sinh: "sinh", sympy.cosh: "cosh", sympy.tanh: "tanh",
     sympy.exp: "exp", sympy.log: "log", sympy.Abs: "abs",
 }
+
+
+# Functions that take an infinite argument to a finite value: their arguments poison the result.
+_FINITE_AT_INFINITY = frozenset({sympy.exp, sympy.atan, sympy.atan2, sympy.tanh})
 
 
 class CodegenError(ValueError):
@@ -42,7 +51,19 @@ def _number(value: float) -> str:
 
 def to_numexpr(expr: sympy.Basic, names: Mapping[sympy.Symbol, str]) -> str:
     """numexpr text for ``expr``; ``names`` maps each free symbol to its internal variable name."""
-    return _Printer(names).emit(expr)
+    try:
+        text = _Printer(names).emit(expr)
+    except RecursionError:
+        raise CodegenError("expression is nested too deeply to evaluate") from None
+    depth = max(itertools.accumulate((ch == "(") - (ch == ")") for ch in text), default=0)
+    if depth > MAX_BRACKET_DEPTH:
+        raise CodegenError(f"expression is nested too deeply to evaluate ({depth} levels of brackets, "
+                           f"at most {MAX_BRACKET_DEPTH})")
+    return text
+
+
+def _is_negated(term: sympy.Basic) -> bool:
+    return term.is_Mul and len(term.args) == 2 and term.args[0] is sympy.S.NegativeOne
 
 
 class _Printer:
@@ -50,6 +71,12 @@ class _Printer:
         self.names = names
 
     def emit(self, e: sympy.Basic) -> str:
+        text = self._emit(e)
+        if len(text) > MAX_CODE_LENGTH:   # min, max, sign and piecewise repeat their arguments' text
+            raise CodegenError(f"expression is too large to evaluate (more than {MAX_CODE_LENGTH} characters)")
+        return text
+
+    def _emit(self, e: sympy.Basic) -> str:
         if e is sympy.nan or e is sympy.zoo:
             return NAN_NAME
         if e is sympy.oo:
@@ -67,23 +94,29 @@ class _Printer:
                 raise CodegenError(f"no value for symbol {e}") from None
         if e.is_Number or e.is_NumberSymbol:
             return _number(float(e))
-        if e.is_Add:
-            return "(" + " + ".join(self.emit(t) for t in e.args) + ")"
-        if e.is_Mul:
-            return "(" + " * ".join(self.emit(t) for t in e.args) + ")"
+        if e.is_Add:   # the parser's a - b is Add(a, Mul(-1, b)): emitted as a - b, as typed
+            return "(" + "".join(" - " + self.emit(t.args[1]) if i and _is_negated(t)
+                                 else " + " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")"
+        if e.is_Mul:   # the parser's a / b is Mul(a, Pow(b, -1)): emitted as a / b, one rounding as typed
+            divisors = [t.base for t in e.args[1:] if t.is_Pow and t.exp is sympy.S.NegativeOne]
+            return self._poisoned("(" + "".join(
+                " / " + self.emit(t.base) if i and t.is_Pow and t.exp is sympy.S.NegativeOne
+                else " * " * bool(i) + self.emit(t) for i, t in enumerate(e.args)) + ")", divisors)
         if e.is_Pow:
-            return self._power(e)
+            exponent = e.args[1]
+            positive = exponent.is_Number and exponent > 0   # then an infinite or NaN base stays so
+            return self._poisoned(self._power(e), [exponent] if positive else e.args)
         if isinstance(e, sympy.Piecewise):
             return self._piecewise(e)
         if isinstance(e, sympy.Min | sympy.Max):
-            return self._extremum(e)
+            return self._poisoned(self._extremum(e), e.args)
         if isinstance(e, sympy.sign):
             v = self.emit(e.args[0])
-            return f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))"
+            return self._poisoned(f"where({v} > 0, 1.0, where({v} < 0, -1.0, {v} * 0.0))", e.args)
         if isinstance(e, sympy.Heaviside):
             v = self.emit(e.args[0])
             at_zero = _number(float(e.args[1]))   # the parser always gives H(0) = 1/2
-            return f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))"
+            return self._poisoned(f"where({v} > 0, 1.0, where({v} < 0, 0.0, {at_zero} + {v} * 0.0))", e.args[:1])
         if isinstance(e, sympy.Rel):
             return f"({self.emit(e.lhs)} {e.rel_op} {self.emit(e.rhs)})"   # <, <=, > or >= (the parser's only)
         if isinstance(e, sympy.And):
@@ -92,7 +125,8 @@ class _Printer:
             return "(" + " | ".join(self.emit(t) for t in e.args) + ")"
         function = _DIRECT.get(type(e))
         if function is not None:
-            return f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
+            text = f"{function}(" + ", ".join(self.emit(t) for t in e.args) + ")"
+            return self._poisoned(text, e.args) if type(e) in _FINITE_AT_INFINITY else text
         raise CodegenError(f"cannot evaluate {type(e).__name__} numerically")
 
     def _power(self, e: sympy.Pow) -> str:
@@ -124,8 +158,16 @@ class _Printer:
                 continue
             result = f"where({self.emit(condition)}, {value_text}, {result if result is not None else NAN_NAME})"
             guards.extend(a for rel in condition.atoms(sympy.Rel) for a in (rel.lhs, rel.rhs))
-        poison = [self.emit(g) for g in guards if not g.is_Number]
-        if poison:
-            # A NaN in any compared quantity makes the whole piecewise value NaN instead of a silent branch.
-            result = f"({result} + 0.0 * (" + " + ".join(poison) + "))"
-        return result
+        # A NaN in any compared quantity makes the whole piecewise value NaN instead of a silent branch.
+        return self._poisoned(result, guards)
+
+    def _poisoned(self, text: str, inputs) -> str:
+        """``text`` made NaN wherever one of ``inputs`` is NaN or infinite (0 * inf is NaN), unchanged elsewhere.
+
+        Used where an operation takes a non-finite input to a finite value (1/inf = 0, atan(inf) = pi/2,
+        exp(-inf) = 0, max(-inf, 1) = 1, pow(nan, 0) = 1): a value is defined only when every step of the
+        typed text is a finite number. Each input gets its own 0 * term, so two large finite inputs cannot
+        overflow into a false NaN.
+        """
+        poison = [f"0.0 * {self.emit(g)}" for g in inputs if not g.is_Number]
+        return f"({text} + " + " + ".join(poison) + ")" if poison else text

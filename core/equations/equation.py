@@ -21,7 +21,7 @@ import sympy
 
 from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
 from core.equations.language import ExpressionError, check_name, data_derivative_key
-from core.equations.parser import parse_expression
+from core.equations.parser import parse_expression, tidy_expression
 from core.equations.trade import check_trade_spec
 
 __all__ = [
@@ -210,11 +210,12 @@ class CompiledEquation:
     # -- symbolic views -----------------------------------------------------------------------------------
     @cached_property
     def substituted(self) -> dict[str, sympy.Expr]:
-        """a, b, c with every definition substituted: expressions in variables, parameters and data."""
+        """a, b, c with every definition substituted: expressions in variables, parameters and data, tidied by
+        sympy (x/x -> 1), so they may be defined where the typed ones are not."""
         resolved: dict[sympy.Symbol, sympy.Expr] = {}
         for name in self.definition_order:
             resolved[self.symbols[name]] = self.symbolic[name].xreplace(resolved)
-        return {k: self.symbolic[k].xreplace(resolved) for k in COEFFICIENT_NAMES}
+        return {k: tidy_expression(self.symbolic[k].xreplace(resolved)) for k in COEFFICIENT_NAMES}
 
     @cached_property
     def coefficient_matrix(self) -> sympy.Matrix:

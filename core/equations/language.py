@@ -10,7 +10,9 @@ import ast
 import keyword
 import math
 import re
+import sys
 from collections.abc import Callable
+from functools import partial
 
 import sympy
 
@@ -22,6 +24,7 @@ __all__ = [
     "FUNCTION_NAMES",
     "MAX_ABS_EXPONENT",
     "MAX_DEPTH",
+    "MAX_EXACT_INTEGER",
     "MAX_NAME_LENGTH",
     "MAX_NODES",
     "MAX_TEXT_LENGTH",
@@ -30,6 +33,7 @@ __all__ = [
     "check_name",
     "data_derivative_key",
     "fold_constant",
+    "number_literal",
 ]
 
 MAX_TEXT_LENGTH = 2000
@@ -37,6 +41,7 @@ MAX_NODES = 600
 MAX_DEPTH = 200
 MAX_ABS_EXPONENT = 64
 MAX_NAME_LENGTH = 40
+MAX_EXACT_INTEGER = 2**53
 
 
 class ExpressionError(ValueError):
@@ -71,26 +76,29 @@ def _sign(value: float) -> float:
     return float((value > 0) - (value < 0)) if not math.isnan(value) else math.nan
 
 
-# name -> (number of arguments, sympy builder, float evaluator for constant folding)
+# name -> (number of arguments, sympy builder, float evaluator for constant folding). The builders leave the
+# call unevaluated (sympy would rewrite log(exp(x)) to x), so a compiled expression is undefined exactly where
+# the typed one is.
 FUNCTIONS: dict[str, tuple[int, Callable, Callable]] = {
-    "sin": (1, sympy.sin, math.sin),
-    "cos": (1, sympy.cos, math.cos),
-    "tan": (1, sympy.tan, math.tan),
-    "asin": (1, sympy.asin, math.asin),
-    "acos": (1, sympy.acos, math.acos),
-    "atan": (1, sympy.atan, math.atan),
-    "atan2": (2, sympy.atan2, math.atan2),
-    "sinh": (1, sympy.sinh, math.sinh),
-    "cosh": (1, sympy.cosh, math.cosh),
-    "tanh": (1, sympy.tanh, math.tanh),
-    "exp": (1, sympy.exp, math.exp),
-    "log": (1, sympy.log, math.log),
-    "sqrt": (1, sympy.sqrt, math.sqrt),
-    "abs": (1, sympy.Abs, abs),
-    "sign": (1, sympy.sign, _sign),
-    "heaviside": (1, lambda v: sympy.Heaviside(v, sympy.Rational(1, 2)), _heaviside),
-    "min": (-2, sympy.Min, min),
-    "max": (-2, sympy.Max, max),
+    "sin": (1, partial(sympy.sin, evaluate=False), math.sin),
+    "cos": (1, partial(sympy.cos, evaluate=False), math.cos),
+    "tan": (1, partial(sympy.tan, evaluate=False), math.tan),
+    "asin": (1, partial(sympy.asin, evaluate=False), math.asin),
+    "acos": (1, partial(sympy.acos, evaluate=False), math.acos),
+    "atan": (1, partial(sympy.atan, evaluate=False), math.atan),
+    "atan2": (2, partial(sympy.atan2, evaluate=False), math.atan2),
+    "sinh": (1, partial(sympy.sinh, evaluate=False), math.sinh),
+    "cosh": (1, partial(sympy.cosh, evaluate=False), math.cosh),
+    "tanh": (1, partial(sympy.tanh, evaluate=False), math.tanh),
+    "exp": (1, partial(sympy.exp, evaluate=False), math.exp),
+    "log": (1, partial(sympy.log, evaluate=False), math.log),
+    "sqrt": (1, partial(sympy.sqrt, evaluate=False), math.sqrt),
+    "abs": (1, partial(sympy.Abs, evaluate=False), abs),
+    "sign": (1, partial(sympy.sign, evaluate=False), _sign),
+    "heaviside": (1, lambda v: sympy.Heaviside(v, sympy.S.Half, evaluate=False), _heaviside),
+    # unevaluated min/max still drop repeated arguments and sort them: both keep where the value is NaN
+    "min": (-2, partial(sympy.Min, evaluate=False), min),
+    "max": (-2, partial(sympy.Max, evaluate=False), max),
 }
 FUNCTION_NAMES = frozenset(FUNCTIONS) | {"piecewise", "diff"}
 CONSTANT_NAMES = frozenset({"pi", "e"})
@@ -130,20 +138,59 @@ def check_name(name: str, *, what: str = "name") -> None:
         raise ExpressionError(f"{what} {name!r} is a reserved word")
 
 
-def fold_constant(function: Callable, args, node: ast.AST, what: str) -> float:
-    """Evaluate a constant sub-expression in double precision; reject results that are not finite reals."""
+def number_literal(value: object, text: str, column: int | None) -> int | float:
+    """The value of a number literal typed as ``text``: a float, or an int no larger than 2**53 (held exactly
+    in double precision). Literals doubles cannot hold (1e309 would become infinity, 1e-400 zero) are refused
+    with their column rather than silently changed."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ExpressionError(f"only numbers are allowed here, not {text or repr(value)}", column=column)
+    if isinstance(value, int):
+        if abs(value) > MAX_EXACT_INTEGER:
+            if abs(value) > sys.float_info.max:
+                raise ExpressionError("integer is too large for double precision (the largest is "
+                                      f"{sys.float_info.max!r})", column=column)
+            raise ExpressionError(f"integer is too large to be exact in double precision (above 2**53); write "
+                                  f"{float(value)!r} to accept rounding", column=column)
+        return value
+    if math.isinf(value):
+        raise ExpressionError(f"number {_shortened(text)} is beyond double precision (the largest is "
+                              f"{sys.float_info.max!r})", column=column)
+    if value == 0.0 and any(digit in "123456789" for digit in text.lower().partition("e")[0]):
+        raise ExpressionError(f"number {_shortened(text)} is below double precision (the smallest is "
+                              "5e-324) and would be zero", column=column)
+    return value
+
+
+def fold_constant(function: Callable, args, node: ast.AST, what: str, *,
+                  operator_column: int | None = None) -> float:
+    """Evaluate a constant sub-expression in double precision; reject results that are not finite reals.
+
+    ``what`` is the constant's text for messages; an overflow is reported at ``operator_column`` (the operator
+    that overflowed) when given, other problems at the start of ``node``.
+    """
+    column = _column(node)
+    overflow = ExpressionError(f"constant {what} overflows double precision (the largest is "
+                               f"{sys.float_info.max!r})", column=operator_column or column)
     try:
         result = function(*[float(a) for a in args])
     except ZeroDivisionError:
-        raise ExpressionError(f"division by zero in a constant ({what})", column=_column(node)) from None
+        raise ExpressionError(f"division by zero in a constant ({what})", column=column) from None
     except OverflowError:
-        raise ExpressionError(f"constant {what} overflows double precision", column=_column(node)) from None
+        raise overflow from None
     except ValueError:
         raise ExpressionError(f"constant {what} has no real value (e.g. sqrt or log of a negative number)",
-                              column=_column(node)) from None
-    if isinstance(result, complex) or not math.isfinite(result):
-        raise ExpressionError(f"constant {what} is not a finite real number", column=_column(node))
+                              column=column) from None
+    if isinstance(result, complex):
+        raise ExpressionError(f"constant {what} is not a real number", column=column)
+    if math.isinf(result):
+        raise overflow
+    if math.isnan(result):
+        raise ExpressionError(f"constant {what} is not a finite real number", column=column)
     return float(result)
+
+
+def _shortened(text: str, limit: int = 30) -> str:
+    return text if len(text) <= limit else text[:limit - 3] + "..."
 
 
 def _column(node: ast.AST) -> int | None:

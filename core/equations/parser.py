@@ -4,6 +4,10 @@ Text is parsed with Python's ``ast`` module and every node is checked against a 
 object is built from it directly. Nothing is ever passed to eval, exec, sympify or parse_expr. Constant
 sub-expressions are folded to floats here (sympy's own evaluation of huge constants can hang), and the size,
 depth and exponents of an expression are bounded.
+
+The tree is built unevaluated: sympy's automatic rewrites (x/x -> 1, sqrt(x)**2 -> x, log(exp(x)) -> x,
+x - x -> 0, piecewise conditions merged or dropped) change where an expression is defined, and the typed text
+is what gets evaluated on points. ``tidy_expression`` applies those rewrites for symbolic views and display.
 """
 
 from __future__ import annotations
@@ -15,6 +19,7 @@ from collections.abc import Collection, Mapping
 from dataclasses import dataclass
 
 import sympy
+from sympy.functions.elementary.piecewise import ExprCondPair
 
 from core.equations.language import (
     CONSTANTS,
@@ -29,14 +34,18 @@ from core.equations.language import (
     check_name,
     data_derivative_key,
     fold_constant,
+    number_literal,
 )
 
-__all__ = ["ParsedExpression", "find_data_names", "parse_expression"]
+__all__ = ["ParsedExpression", "find_data_names", "parse_expression", "tidy_expression"]
 
 @dataclass(frozen=True)
 class ParsedExpression:
     """A parsed expression and the names it uses (variables, parameters, definitions, data); ``data_names``
-    are the names ``find_data_names`` took as background-data quantities (empty for parse_expression)."""
+    are the names ``find_data_names`` took as background-data quantities (empty for parse_expression).
+
+    ``value`` is the typed tree, unevaluated (x/x stays x/x); ``tidy_expression(value)`` is sympy's tidied form.
+    """
 
     text: str
     value: sympy.Basic
@@ -82,14 +91,28 @@ class _Builder:
         return method(node, depth + 1)
 
     def _build_Constant(self, node: ast.Constant, depth: int):
-        value = node.value
-        if isinstance(value, bool) or not isinstance(value, int | float):
-            raise ExpressionError(f"only numbers are allowed here, not {value!r}", column=_column(node))
-        if isinstance(value, int):
-            if abs(value) > 2**53:
-                raise ExpressionError("integer is too large", column=_column(node))
-            return int(value)
-        return float(value)
+        value = number_literal(node.value, self._text(node, limit=None), _column(node))
+        return int(value) if isinstance(value, int) else float(value)
+
+    def _text(self, node: ast.AST, limit: int | None = 30) -> str:
+        """The typed text of ``node`` (shortened to ``limit`` characters) for messages."""
+        text = self.source[node.col_offset:node.end_col_offset] if hasattr(node, "end_col_offset") else ""
+        return text if limit is None or len(text) <= limit else text[:limit - 3] + "..."
+
+    def _operator_column(self, node: ast.BinOp) -> int | None:
+        """1-based column of a binary operator: the first character after the left operand and its brackets."""
+        position = getattr(node.left, "end_col_offset", None)
+        if position is None:
+            return _column(node)
+        while position < len(self.source) and self.source[position] in " )":
+            position += 1
+        return position + 1
+
+    def _number_operand(self, value, node: ast.AST):
+        if _is_condition(value):
+            raise ExpressionError("a comparison is used where a number is expected; "
+                                  "comparisons belong inside piecewise()", column=_column(node))
+        return value
 
     def _build_Name(self, node: ast.Name, depth: int):
         name = node.id
@@ -108,8 +131,10 @@ class _Builder:
 
     def _build_UnaryOp(self, node: ast.UnaryOp, depth: int):
         operand = self.build(node.operand, depth)
+        if isinstance(node.op, ast.USub | ast.UAdd):
+            self._number_operand(operand, node.operand)
         if isinstance(node.op, ast.USub):
-            return -operand
+            return -operand if _is_number(operand) else sympy.Mul(sympy.S.NegativeOne, operand, evaluate=False)
         if isinstance(node.op, ast.UAdd):
             return operand
         if isinstance(node.op, ast.Not):
@@ -125,33 +150,34 @@ class _Builder:
         if not isinstance(op, ast.Add | ast.Sub | ast.Mult | ast.Div | ast.Pow):
             raise ExpressionError(f"operator {_OPERATOR_TEXT.get(type(op), '?')!r} is not supported; "
                                   "use + - * / **", column=_column(node))
-        left = self.build(node.left, depth)
-        right = self.build(node.right, depth)
-        constant = _is_number(left) and _is_number(right)
-        if isinstance(op, ast.Pow):
-            if _is_number(right) and abs(right) > MAX_ABS_EXPONENT and not constant:
-                raise ExpressionError(f"exponent {right:g} is larger than {MAX_ABS_EXPONENT}",
-                                      column=_column(node))
-            if constant:
-                return fold_constant(lambda p, q: math.pow(p, q), (left, right), node, "**")
-            return sympy.Pow(_to_sympy(left), _to_sympy(right))
-        if constant:
-            if isinstance(op, ast.Div):
-                return fold_constant(lambda p, q: p / q, (left, right), node, "/")
-            function = {ast.Add: lambda p, q: p + q, ast.Sub: lambda p, q: p - q,
-                        ast.Mult: lambda p, q: p * q}[type(op)]
-            return fold_constant(function, (left, right), node, "arithmetic")
+        left = self._number_operand(self.build(node.left, depth), node.left)
+        right = self._number_operand(self.build(node.right, depth), node.right)
+        if _is_number(left) and _is_number(right):
+            function = {ast.Add: lambda p, q: p + q, ast.Sub: lambda p, q: p - q, ast.Mult: lambda p, q: p * q,
+                        ast.Div: lambda p, q: p / q, ast.Pow: math.pow}[type(op)]
+            return fold_constant(function, (left, right), node, self._text(node),
+                                 operator_column=self._operator_column(node))
+        if isinstance(op, ast.Div) and _is_number(right) and right == 0:
+            raise ExpressionError(f"division by zero ({self._text(node)})", column=self._operator_column(node))
+        if isinstance(op, ast.Pow) and _is_number(right) and abs(right) > MAX_ABS_EXPONENT:
+            raise ExpressionError(f"exponent {right:g} is larger than {MAX_ABS_EXPONENT}", column=_column(node))
+        # Built unevaluated: a - b is a + (-1)*b and a/b is a*b**-1, exactly as sympy spells them, but
+        # nothing cancels (x/x stays undefined where x is 0). A left operand of the same kind is joined, as
+        # a + b + c is evaluated left to right either way (a long sum stays shallow).
         left, right = _to_sympy(left), _to_sympy(right)
-        if isinstance(op, ast.Add):
-            return left + right
+        if isinstance(op, ast.Pow):
+            return sympy.Pow(left, right, evaluate=False)
         if isinstance(op, ast.Sub):
-            return left - right
-        if isinstance(op, ast.Mult):
-            return left * right
-        return left / right
+            right = sympy.Mul(sympy.S.NegativeOne, right, evaluate=False)
+        elif isinstance(op, ast.Div):
+            right = sympy.Pow(right, sympy.S.NegativeOne, evaluate=False)
+        kind = sympy.Add if isinstance(op, ast.Add | ast.Sub) else sympy.Mul
+        terms = left.args if left.func is kind else (left,)
+        return kind(*terms, right, evaluate=False)
 
     def _build_Compare(self, node: ast.Compare, depth: int):
-        terms = [self.build(node.left, depth)] + [self.build(c, depth) for c in node.comparators]
+        operands = [node.left, *node.comparators]
+        terms = [self._number_operand(self.build(o, depth), o) for o in operands]
         conditions = []
         for op, left, right in zip(node.ops, terms, terms[1:], strict=False):
             if type(op) not in SYMBOLIC_COMPARISONS:
@@ -159,16 +185,17 @@ class _Builder:
                                       column=_column(node))
             if _is_number(left) and _is_number(right):
                 conditions.append(sympy.true if FLOAT_COMPARISONS[type(op)](left, right) else sympy.false)
-            else:
-                conditions.append(SYMBOLIC_COMPARISONS[type(op)](_to_sympy(left), _to_sympy(right)))
-        return sympy.And(*conditions) if len(conditions) > 1 else conditions[0]
+            else:   # unevaluated: x < x stays a comparison of x, NaN where x is
+                conditions.append(SYMBOLIC_COMPARISONS[type(op)](_to_sympy(left), _to_sympy(right),
+                                                                 evaluate=False))
+        return _unevaluated_logic(sympy.And, conditions)
 
     def _build_BoolOp(self, node: ast.BoolOp, depth: int):
         values = [self.build(v, depth) for v in node.values]
         for value, sub in zip(values, node.values, strict=True):
             if not _is_condition(value):
                 raise ExpressionError("'and'/'or' join comparisons, not numbers", column=_column(sub))
-        return sympy.And(*values) if isinstance(node.op, ast.And) else sympy.Or(*values)
+        return _unevaluated_logic(sympy.And if isinstance(node.op, ast.And) else sympy.Or, values)
 
     def _build_Call(self, node: ast.Call, depth: int):
         if not isinstance(node.func, ast.Name):
@@ -197,7 +224,7 @@ class _Builder:
             if _is_condition(arg):
                 raise ExpressionError(f"{name}() takes numbers, not a comparison", column=_column(sub))
         if all(_is_number(a) for a in args):
-            return fold_constant(evaluator, args, node, f"{name}()")
+            return fold_constant(evaluator, args, node, self._text(node))
         return builder(*[_to_sympy(a) for a in args])
 
     def _piecewise(self, node: ast.Call, depth: int):
@@ -213,11 +240,9 @@ class _Builder:
                 raise ExpressionError("piecewise() conditions must be comparisons such as x < 0",
                                       column=_column(args[index]))
             value = self._number_argument(args[index + 1], depth, "piecewise()")
-            pairs.append((_to_sympy(value), condition))
-        otherwise = self._number_argument(args[-1], depth, "piecewise()")
-        pairs.append((_to_sympy(otherwise), sympy.true))
-        result = sympy.Piecewise(*pairs)
-        return float(result) if result.is_Number else result
+            pairs.append((value, condition))
+        pairs.append((self._number_argument(args[-1], depth, "piecewise()"), sympy.true))
+        return _unevaluated_piecewise(pairs)
 
     def _number_argument(self, node: ast.AST, depth: int, where: str):
         value = self.build(node, depth)
@@ -277,6 +302,67 @@ def _is_condition(value) -> bool:
 
 def _is_number(value) -> bool:
     return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _unevaluated_logic(kind: type, conditions: list) -> sympy.Basic:
+    """``kind`` (sympy.And or sympy.Or) of ``conditions`` without sympy's merging.
+
+    sympy.And has no evaluate=False and turns And(x < 0, x >= 0) into false, which would drop x from the
+    piecewise NaN guard (codegen makes a piecewise NaN wherever a compared quantity is). Constant parts are
+    decided here; the others are kept as typed, constants after them (numexpr cannot start with a constant).
+    """
+    absorbing = sympy.false if kind is sympy.And else sympy.true
+    constants = [c for c in conditions if isinstance(c, sympy.logic.boolalg.BooleanAtom)]
+    others = [c for c in conditions if not isinstance(c, sympy.logic.boolalg.BooleanAtom)]
+    if not others:
+        return absorbing if absorbing in constants else ~absorbing
+    if len(others) == 1 and not constants:
+        return others[0]
+    arguments = others + ([absorbing] if absorbing in constants else [])
+    if len(arguments) == 1:
+        return arguments[0]
+    # LatticeOp.__new__ builds its objects this way after its simplifying filter, which is skipped here.
+    result = sympy.Basic.__new__(kind, *arguments)
+    result._argset = frozenset(arguments)
+    return result
+
+
+def _unevaluated_piecewise(pairs: list[tuple]) -> object:
+    """The piecewise value of (value, condition) ``pairs``, the last condition being true, as typed.
+
+    sympy.Piecewise drops every pair after a true condition and (evaluating) merges conditions, both of which
+    can drop a compared quantity from the NaN guard. Here only constant-false pairs are dropped (they compare
+    no quantity); when every condition is a constant the chosen value is returned, as nothing is compared.
+    """
+    kept = [(value, condition) for value, condition in pairs if condition is not sympy.false]
+    if all(condition is sympy.true for _, condition in kept):
+        return kept[0][0]
+    # Piecewise.__new__ ends the same way (Basic.__new__ over ExprCondPair tuples); ExprCondPair.__new__
+    # would rewrite a condition holding a piecewise into an ITE, which codegen does not evaluate.
+    return sympy.Basic.__new__(sympy.Piecewise, *[
+        sympy.Tuple.__new__(ExprCondPair, _to_sympy(value), condition) for value, condition in kept])
+
+
+def tidy_expression(value: sympy.Basic) -> sympy.Basic:
+    """``value`` with sympy's automatic simplifications applied (x/x -> 1, like terms collected).
+
+    For symbolic views and display only: the rewrites can change where an expression is defined, so points
+    are always evaluated from the typed tree. Rebuilds bottom-up without recursion (trees can be deep).
+    """
+    done: dict[int, sympy.Basic] = {}
+    stack = [value]
+    while stack:
+        node = stack[-1]
+        if id(node) in done:
+            stack.pop()
+            continue
+        pending = [a for a in node.args if id(a) not in done]
+        if pending:
+            stack.extend(pending)
+            continue
+        stack.pop()
+        done[id(node)] = node.func(*[done[id(a)] for a in node.args]) if node.args else node
+    return done[id(value)]
 
 
 def _to_sympy(value):
