@@ -7,20 +7,16 @@ import json
 from typing import TextIO
 
 from core.analysis.tracing import trace_characteristics
-from core.cli.command import EXIT_OK, Command, compiled_study, read_study, source_fields
-from core.cli.study import Study, UsageError, add_equation_options, finite
+from core.cli.command import compiled_study, read_study, source_fields
+from core.cli.options import EXIT_OK, UsageError
+from core.cli.study import Study
 from core.results.document import curve_document, seed_document, study_fields
 
-__all__ = ["COMMAND"]
+__all__ = ["run"]
 
 
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_equation_options(parser)
-    parser.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
-                        help="the seed point (default: FILE's seeds)")
-
-
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Trace from the seed (or FILE's seeds) and report it (options: core.cli.registry); returns the exit status."""
     study = read_study(args, err)
     compiled = compiled_study(study)
     if args.seed is None:
@@ -75,5 +71,3 @@ def _write_curves(curves, out: TextIO) -> None:
     if all(len(c.points) <= 1 for c in curves):
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
 
-
-COMMAND = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_arguments, _run)
