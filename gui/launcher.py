@@ -3,9 +3,9 @@
 Dependencies run one way: this module uses core.cli; core never imports gui. Qt is imported only when a
 command needs it (the window, ``render``), so ``mixtype --help``, ``--version`` and the headless commands
 start without loading Qt and work where its system libraries are missing; ``--help`` and ``--version`` load
-no numpy or sympy either (core.cli.registry). Before Qt is imported,
-gui.platform_check asks whether it can start at all: when not, one line says what is missing and the exit
-status is 2, instead of Qt aborting the process.
+no numpy or sympy either (core.cli.registry). Before Qt is imported, gui.platform_check asks whether it can
+start at all: when not, one line says what is missing and the exit status is 2, instead of Qt aborting the
+process.
 """
 
 from __future__ import annotations
@@ -35,6 +35,7 @@ def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(f"--size must be between 100 and 8000 pixels, got {args.size[0]} {args.size[1]}")
     os.environ["QT_QPA_PLATFORM"] = "offscreen"  # headless: no display needed, whatever the desktop uses
     from gui.platform_check import offscreen_problem  # lazy: see _open_window
+
     problem = offscreen_problem()
     if problem is not None:
         raise UsageError(f"render cannot start Qt: {problem}")

@@ -54,4 +54,3 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     err.writelines(f"mixtype: warning: {line}\n" for line in opened.changed)
     err.writelines(f"mixtype: {line}\n" for line in opened.problems)
     return status
-

@@ -105,4 +105,3 @@ def _save_study(study: Study, path: str) -> None:
         raise UsageError(f"--save-project: {error.problems[0]}") from None
     except OSError as error:
         raise UsageError(f"--save-project {path}: {error.strerror or error}") from None
-

@@ -89,4 +89,3 @@ def _write_probe(result, trade: TradeReading, out: TextIO) -> None:
     width = max(len(r[0]) for r in rows)
     for label, value in rows:
         out.write(f"{label:<{width}}  {value}\n")
-

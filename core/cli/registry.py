@@ -26,7 +26,6 @@ def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO
         # import numpy, sympy, scipy and the project layer, 0.4 to 0.6 s together, which --help never needs.
         return importlib.import_module(module).run(args, out, err)
 
-    run.__qualname__ = f"run[{module}]"
     return run
 
 

@@ -29,4 +29,3 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         data = f" (data: {', '.join(t.quantities)})" if t.quantities else ""
         out.write(f"{t.name:<{width}}  {t.title}{data}\n")
     return EXIT_OK
-

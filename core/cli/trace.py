@@ -70,4 +70,3 @@ def _write_curves(curves, out: TextIO) -> None:
                   f" [{curve.end_reasons[0]}] to ({last[0]:.6g}, {last[1]:.6g}) [{curve.end_reasons[1]}]\n")
     if all(len(c.points) <= 1 for c in curves):
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
-
