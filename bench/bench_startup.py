@@ -4,7 +4,8 @@ Each case is a fresh process (``python -m gui.launcher ...`` from this checkout)
 import it cannot do without: ``mixtype --help`` against ``python -c "import argparse"`` (the parser is all
 --help needs), and an inline classify at grid 64 against ``python -c "import numpy, sympy"`` (the equation is
 parsed with sympy and evaluated with numpy). The runs alternate, case and baseline in turn, so that a busy
-moment of the machine falls on both; each figure is the best of ``repeats`` runs.
+moment of the machine falls on both; each figure is the best of ``repeats`` runs. A third baseline, ``import
+numpy, sympy, scipy.ndimage``, shows how much of what classify adds is scipy.ndimage's own import.
 """
 
 from __future__ import annotations
@@ -30,6 +31,7 @@ RUNS = {
     "version": ("-m", "gui.launcher", "--version"),
     "classify_inline_64": ("-m", "gui.launcher", *INLINE_CLASSIFY),
     "import_numpy_sympy": ("-c", "import numpy, sympy"),
+    "import_numpy_sympy_ndimage": ("-c", "import numpy, sympy, scipy.ndimage"),
 }
 
 TARGETS = {"help_over_import_argparse": 1.5, "classify_inline_64_over_import_numpy_sympy": 1.3}
@@ -56,6 +58,9 @@ def run(repeats: int = 7) -> dict:
         "command_help_over_import_argparse": best["command_help"] / best["import_argparse"],
         "version_over_import_argparse": best["version"] / best["import_argparse"],
         "classify_inline_64_over_import_numpy_sympy": best["classify_inline_64"] / best["import_numpy_sympy"],
+        # how much of the classify's excess is scipy.ndimage's import (pockets and parabolic regions use it)
+        "classify_inline_64_over_import_numpy_sympy_ndimage":
+            best["classify_inline_64"] / best["import_numpy_sympy_ndimage"],
     }
     return {
         "repeats": repeats,
