@@ -4,8 +4,9 @@ Each case is a fresh process (``python -m gui.launcher ...`` from this checkout)
 import it cannot do without: ``mixtype --help`` against ``python -c "import argparse"`` (the parser is all
 --help needs), and an inline classify at grid 64 against ``python -c "import numpy, sympy"`` (the equation is
 parsed with sympy and evaluated with numpy). The runs alternate, case and baseline in turn, so that a busy
-moment of the machine falls on both; each figure is the best of ``repeats`` runs. A third baseline, ``import
-numpy, sympy, scipy.ndimage``, shows how much of what classify adds is scipy.ndimage's own import.
+moment of the machine falls on both; each figure is the best of ``repeats`` rounds (three runs a round for the
+cases that take a few tens of milliseconds). A third baseline, ``import numpy, sympy, scipy.ndimage``, shows
+how much of what classify adds is scipy.ndimage's own import.
 """
 
 from __future__ import annotations
@@ -23,12 +24,16 @@ ROOT = pathlib.Path(__file__).resolve().parents[1]
 INLINE_CLASSIFY = ("classify", "--a", "y", "--b", "0", "--c", "1", "--domain", "-1", "1", "-1", "1", "--grid", "64",
                    "--json")
 
-# name -> argv after the interpreter; a case and its baseline are run one after the other
-RUNS = {
+# name -> argv after the interpreter; each case is run next to its baseline. The light cases take a few tens
+# of milliseconds, where a busy moment weighs most: they run LIGHT_PER_ROUND times a round.
+LIGHT_RUNS = {
     "help": ("-m", "gui.launcher", "--help"),
     "import_argparse": ("-c", "import argparse"),
     "command_help": ("-m", "gui.launcher", "classify", "--help"),
     "version": ("-m", "gui.launcher", "--version"),
+}
+LIGHT_PER_ROUND = 3
+HEAVY_RUNS = {
     "classify_inline_64": ("-m", "gui.launcher", *INLINE_CLASSIFY),
     "import_numpy_sympy": ("-c", "import numpy, sympy"),
     "import_numpy_sympy_ndimage": ("-c", "import numpy, sympy, scipy.ndimage"),
@@ -48,11 +53,12 @@ def _seconds(arguments: tuple[str, ...]) -> float:
 
 
 def run(repeats: int = 7) -> dict:
-    """Best of ``repeats`` interleaved runs of every case; the ratios and their target records."""
-    best = dict.fromkeys(RUNS, float("inf"))
+    """Best of ``repeats`` interleaved rounds of every case; the ratios and their target records."""
+    best = dict.fromkeys({**LIGHT_RUNS, **HEAVY_RUNS}, float("inf"))
     for _ in range(repeats):
-        for name, arguments in RUNS.items():
-            best[name] = min(best[name], _seconds(arguments))
+        for runs in [LIGHT_RUNS] * LIGHT_PER_ROUND + [HEAVY_RUNS]:
+            for name, arguments in runs.items():
+                best[name] = min(best[name], _seconds(arguments))
     ratios = {
         "help_over_import_argparse": best["help"] / best["import_argparse"],
         "command_help_over_import_argparse": best["command_help"] / best["import_argparse"],
