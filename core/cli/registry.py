@@ -22,8 +22,8 @@ def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO
     """A command's run function that imports ``module`` when called and runs its ``run``."""
 
     def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-        # Lazy on purpose (measured with python -X importtime, see bench/bench_startup.py): the command modules
-        # import numpy, sympy, scipy and the project layer, 0.4 to 0.6 s together, which --help never needs.
+        # Lazy on purpose: a command module imports numpy, sympy, scipy and the project layer, 0.3 s (templates)
+        # to 0.6 s (classify) by python -X importtime, which --help never needs (bench/bench_startup.py).
         return importlib.import_module(module).run(args, out, err)
 
     return run
