@@ -2,9 +2,10 @@
 
 Dependencies run one way: this module uses core.cli; core never imports gui. Qt is imported only when a
 command needs it (the window, ``render``), so ``mixtype --help``, ``--version`` and the headless commands
-start without loading Qt and work where its system libraries are missing. Before Qt is imported,
-gui.platform_check asks whether it can start at all: when not, one line says what is missing and the exit
-status is 2, instead of Qt aborting the process.
+start without loading Qt and work where its system libraries are missing; ``--help`` and ``--version`` load
+no numpy or sympy either (core.cli.registry). Before Qt is imported, gui.platform_check asks whether it can
+start at all: when not, one line says what is missing and the exit status is 2, instead of Qt aborting the
+process.
 """
 
 from __future__ import annotations
@@ -15,11 +16,9 @@ import sys
 from collections.abc import Sequence
 from typing import TextIO
 
-from core.cli.command import EXIT_BAD_INPUT, EXIT_OK, Command
-from core.cli.main import HEADLESS_COMMANDS
 from core.cli.main import main as run_command
-from core.cli.study import UsageError
-from gui.platform_check import offscreen_problem, window_problem
+from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, Command, UsageError
+from core.cli.registry import HEADLESS_COMMANDS
 
 __all__ = ["RENDER", "main"]
 
@@ -35,6 +34,8 @@ def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.size is not None and not all(100 <= v <= 8000 for v in args.size):
         raise UsageError(f"--size must be between 100 and 8000 pixels, got {args.size[0]} {args.size[1]}")
     os.environ["QT_QPA_PLATFORM"] = "offscreen"  # headless: no display needed, whatever the desktop uses
+    from gui.platform_check import offscreen_problem  # lazy: see _open_window
+
     problem = offscreen_problem()
     if problem is not None:
         raise UsageError(f"render cannot start Qt: {problem}")
@@ -63,6 +64,10 @@ def _opens_window(argv: Sequence[str]) -> bool:
 
 
 def _open_window(argv: Sequence[str]) -> int:
+    # Lazy, as Qt below: platform_check imports subprocess, 5 to 7 ms by python -X importtime, a seventh of
+    # what `mixtype --help` may take (bench/bench_startup.py); only the window and render need it.
+    from gui.platform_check import window_problem
+
     problem = window_problem()
     if problem is not None:
         print(f"mixtype: the window cannot start: {problem}; headless commands work: mixtype --help",

@@ -1,1 +1,2 @@
-"""The headless ``mixtype`` commands (no Qt): one module per command, plus study assembly from options and files."""
+"""The headless ``mixtype`` commands (no Qt): the registry and options the parser is built from (standard
+library only), one implementation module per command, and study assembly from options and files."""

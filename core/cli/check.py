@@ -10,24 +10,18 @@ import argparse
 import json
 from typing import TextIO
 
-from core.cli.command import EXIT_BAD_INPUT, EXIT_OK, Command
-from core.cli.study import UsageError
+from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, UsageError
 from core.project.data_files import open_project_data
 from core.project.io import CURRENT_FORMAT_VERSION, ProjectError, load_project
 
-__all__ = ["COMMAND"]
-
-
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
-    parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+__all__ = ["run"]
 
 
 def _count(n: int, what: str) -> str:
     return f"{n} {what}{'s' * (n != 1)}"
 
 
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Validate a project file and open its data: a summary, or every problem (exit status 2)."""
     try:
         project = load_project(args.file)
@@ -60,9 +54,3 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     err.writelines(f"mixtype: warning: {line}\n" for line in opened.changed)
     err.writelines(f"mixtype: {line}\n" for line in opened.problems)
     return status
-
-
-COMMAND = Command("check", "validate a project file and open its data files", _add_arguments, _run,
-                  description="Validate a project file and list every problem in it, then open the data files it "
-                  "lists. Exit status 2 when the file is invalid or a data file is missing or unreadable; a data "
-                  "file that changed since the project was saved is a warning on stderr (exit status 0).")

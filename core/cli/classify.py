@@ -10,8 +10,9 @@ from typing import TextIO
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
-from core.cli.command import EXIT_OK, Command, compiled_study, data_document, read_study, source_fields
-from core.cli.study import Study, UsageError, add_equation_options
+from core.cli.command import compiled_study, data_document, read_study, source_fields
+from core.cli.options import EXIT_OK, UsageError
+from core.cli.study import Study
 from core.data.sources import DataError
 from core.project.data_files import data_source_ref
 from core.project.io import ProjectError, save_project
@@ -19,19 +20,13 @@ from core.project.model import ViewSettings, new_project
 from core.results.document import map_fields, study_fields
 from core.results.readouts import peak_quantity
 
-__all__ = ["COMMAND", "MAX_POCKET_ROWS"]
+__all__ = ["MAX_POCKET_ROWS", "run"]
 
 MAX_POCKET_ROWS = 20
 
 
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_equation_options(parser)
-    parser.add_argument("--raw", action="store_true", help="skip refining lines onto D = 0")
-    parser.add_argument("--save-project", metavar="FILE", help="also write a project file holding the "
-                        "equation, domain and data files used (data paths recorded relative to FILE)")
-
-
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Classify the study's grid and report it (options: core.cli.registry); returns the exit status."""
     study = read_study(args, err)
     compiled = compiled_study(study)
     type_map = classify_grid(compiled, study.domain, parameters=study.parameters, data=study.data,
@@ -110,7 +105,3 @@ def _save_study(study: Study, path: str) -> None:
         raise UsageError(f"--save-project: {error.problems[0]}") from None
     except OSError as error:
         raise UsageError(f"--save-project {path}: {error.strerror or error}") from None
-
-
-COMMAND = Command("classify", "type map: area fractions, type-change lines and hyperbolic pockets",
-                  _add_arguments, _run)

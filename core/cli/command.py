@@ -1,39 +1,22 @@
-"""What every ``mixtype`` command shares: the Command record, exit codes, the study it works on, JSON helpers.
+"""What the ``mixtype`` commands share when they run: the study they work on, compiled, and JSON helpers.
 
-A command is a name, a help line, a function that adds its options to an argparse parser and a function that
-runs it (``run(args, out, err) -> exit status``). Headless commands live in core.cli; the window's side adds
-its own (``render``) through core.cli.main.main(extra_commands=...), so core never imports gui.
+The Command record, the exit statuses and UsageError live in core.cli.options (no numpy, for --help); this
+module is imported by the commands' implementation modules, which load only when their command runs.
 """
 
 from __future__ import annotations
 
 import argparse
-from collections.abc import Callable
-from dataclasses import dataclass
 from typing import TextIO
 
-from core.cli.study import Study, UsageError, build_study
+from core.cli.options import UsageError
+from core.cli.study import Study, build_study
 from core.equations.equation import CompiledEquation
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
 from core.results.document import data_files_document, json_number, point_list, project_file_checksum
 
-__all__ = ["EXIT_BAD_INPUT", "EXIT_OK", "Command", "compiled_study", "data_document", "json_number", "points",
-           "read_study", "source_fields"]
-
-EXIT_OK = 0
-EXIT_BAD_INPUT = 2
-
-
-@dataclass(frozen=True)
-class Command:
-    """One ``mixtype`` command: its name, help, options and what it does."""
-
-    name: str
-    help: str
-    add_arguments: Callable[[argparse.ArgumentParser], None]
-    run: Callable[[argparse.Namespace, TextIO, TextIO], int]
-    description: str | None = None
+__all__ = ["compiled_study", "data_document", "json_number", "points", "read_study", "source_fields"]
 
 
 def read_study(args: argparse.Namespace, err: TextIO) -> Study:

@@ -5,7 +5,8 @@ and a one-line message on stderr, never a traceback, and nothing the user typed 
 classify, probe and trace take the equation and domain inline, from a template (``--template NAME``) or from
 a project FILE (inline options then override), plus background data files (``--data PATH[:NAMES]``, added to
 FILE's); see core.cli.study. The installed ``mixtype`` script is gui.launcher.main, which adds the window and
-``render`` to these commands; this module never imports Qt.
+``render`` to these commands; this module never imports Qt. It imports only the standard library and the
+command registry (core.cli.registry): a command's implementation, with numpy and sympy, loads when it runs.
 """
 
 from __future__ import annotations
@@ -15,15 +16,10 @@ import sys
 from collections.abc import Sequence
 
 import core
-from core.cli import check, classify, probe, templates, trace
-from core.cli.command import EXIT_BAD_INPUT, Command
-from core.cli.study import UsageError
-from core.equations.language import ExpressionError
+from core.cli.options import EXIT_BAD_INPUT, Command, UsageError
+from core.cli.registry import HEADLESS_COMMANDS
 
 __all__ = ["HEADLESS_COMMANDS", "UsageError", "main"]
-
-HEADLESS_COMMANDS: tuple[Command, ...] = (classify.COMMAND, probe.COMMAND, trace.COMMAND, check.COMMAND,
-                                          templates.COMMAND)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -83,12 +79,9 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None,
         for line in str(error).splitlines() or [""]:  # 'check' lists every problem, one per line
             err.write(f"mixtype: {line}\n")
         return EXIT_BAD_INPUT
-    except ExpressionError as error:
-        err.write(f"mixtype: {error}\n")
-        return EXIT_BAD_INPUT
     except SystemExit as exit_request:  # --help
         return int(exit_request.code or 0)
-    except (OSError, ValueError) as error:
+    except (OSError, ValueError) as error:  # ValueError includes a bad expression (ExpressionError)
         err.write(f"mixtype: {error}\n")
         return EXIT_BAD_INPUT
     except Exception as error:  # noqa: BLE001 - never a traceback in the user's face

@@ -9,18 +9,14 @@ from typing import TextIO
 
 from core.analysis.classify import TypeCode
 from core.analysis.probe import probe_point
-from core.cli.command import EXIT_OK, Command, compiled_study, data_document, read_study, source_fields
-from core.cli.study import Study, UsageError, add_equation_options, finite
+from core.cli.command import compiled_study, data_document, read_study, source_fields
+from core.cli.options import EXIT_OK, UsageError
+from core.cli.study import Study
 from core.equations.trade import READOUT_UNITS
 from core.results.document import pin_document, probe_document, study_fields
 from core.results.readouts import TradeReading, read_trade
 
-__all__ = ["COMMAND"]
-
-
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_equation_options(parser)
-    parser.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
+__all__ = ["run"]
 
 
 def _trade_reading(study: Study, compiled, x: float, y: float) -> TradeReading:
@@ -31,7 +27,8 @@ def _trade_reading(study: Study, compiled, x: float, y: float) -> TradeReading:
     return reading
 
 
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Probe the point (or FILE's pins) and report it (options: core.cli.registry); returns the exit status."""
     study = read_study(args, err)
     compiled = compiled_study(study)
     if args.at is None:
@@ -92,6 +89,3 @@ def _write_probe(result, trade: TradeReading, out: TextIO) -> None:
     width = max(len(r[0]) for r in rows)
     for label, value in rows:
         out.write(f"{label:<{width}}  {value}\n")
-
-
-COMMAND = Command("probe", "everything known at one point (or at every pin of FILE)", _add_arguments, _run)

@@ -4,18 +4,16 @@ The equation comes inline (``--a/--b/--c/--let/--param``), from a template (``--
 inline options then override) or from a project FILE (inline options override its values too). Background
 data come from FILE's data sources (paths relative to FILE) and from ``--data PATH[:NAMES]`` (paths
 relative to the working directory), all read for the equation's two variables. Every problem is a
-UsageError whose text is one line for the user.
+UsageError whose text is one line for the user. The options themselves are declared in core.cli.options.
 """
 
 from __future__ import annotations
 
 import argparse
-import math
-import os
-import re
 from dataclasses import dataclass, replace
 
 from core.analysis.classify import DEFAULT_TOLERANCE
+from core.cli.options import UsageError, finite
 from core.data.sources import DataError, DataSet, DataSources, load_data
 from core.domain import Domain
 from core.equations.equation import Equation, Parameter
@@ -24,14 +22,9 @@ from core.project.data_files import open_project_data, unprovided_names_problem
 from core.project.io import ProjectError, load_project
 from core.project.model import Project
 
-__all__ = ["DataFile", "Study", "UsageError", "add_equation_options", "build_study", "load_project_or_fail",
-           "parse_data_option"]
+__all__ = ["DataFile", "Study", "build_study", "load_project_or_fail"]
 
 DEFAULT_GRID = (201, 201)
-
-
-class UsageError(Exception):
-    """Bad command-line input: reported as one line on stderr with exit status 2."""
 
 
 @dataclass(frozen=True)
@@ -58,80 +51,6 @@ class Study:
     data: DataSources | None = None  # every data set read (FILE's and --data), None when there are none
     data_files: tuple[DataFile, ...] = ()
     warnings: tuple[str, ...] = ()   # e.g. a data file changed since FILE was saved
-
-
-def finite(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not math.isfinite(value):
-        raise argparse.ArgumentTypeError(f"{text!r} is not a finite number")
-    return value
-
-
-def _assignment(text: str) -> tuple[str, str]:
-    name, sep, value = text.partition("=")
-    if not sep or not name.strip():
-        raise argparse.ArgumentTypeError(f"expected NAME=VALUE, got {text!r}")
-    return name.strip(), value.strip()
-
-
-_NAME = r"[A-Za-z][A-Za-z0-9_]*"
-_NAMES_SPEC = re.compile(rf"^\s*{_NAME}\s*(=\s*{_NAME}\s*)?(,\s*{_NAME}\s*(=\s*{_NAME}\s*)?)*$")
-
-
-def parse_data_option(text: str) -> tuple[str, dict[str, str] | None]:
-    """``PATH`` or ``PATH:NAMES`` -> (path, {name in the file: quantity name} or None for every quantity).
-
-    NAMES is a comma-separated list of ``NAME`` (take it as it is) or ``OLD=NEW`` (take OLD, call it NEW),
-    after the last ':' of the text. A text naming an existing file is always a plain path.
-    """
-    head, sep, tail = text.rpartition(":")
-    if not sep or not head or os.path.isfile(text) or not _NAMES_SPEC.match(tail):
-        if not text.strip():
-            raise argparse.ArgumentTypeError("expected a data file PATH[:NAMES], got an empty text")
-        return text, None
-    names: dict[str, str] = {}
-    for item in tail.split(","):
-        old, _, new = (part.strip() for part in item.partition("="))
-        if old in names:
-            raise argparse.ArgumentTypeError(f"{text!r}: {old!r} is named twice")
-        names[old] = new or old
-    return head, names
-
-
-def add_equation_options(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("file", nargs="?", metavar="FILE",
-                        help="a project file (.mixtype.json) giving the equation, domain and data; options "
-                             "override it")
-    group = parser.add_argument_group("equation and domain (a u_xx + b u_xy + c u_yy + ... = 0)")
-    group.add_argument("--template", metavar="NAME",
-                       help="start the equation and domain from a template (list them with 'mixtype templates');"
-                            " the options below override it")
-    group.add_argument("--equation", metavar="NAME", help="which equation of FILE (default: the one it shows)")
-    group.add_argument("--vars", nargs=2, metavar=("X", "Y"), help="names of the two variables (default x y)")
-    group.add_argument("--a", metavar="EXPR", help="coefficient of u_xx")
-    group.add_argument("--b", metavar="EXPR", help="coefficient of u_xy")
-    group.add_argument("--c", metavar="EXPR", help="coefficient of u_yy")
-    group.add_argument("--let", action="append", type=_assignment, default=[], metavar="NAME=EXPR",
-                       help="a named definition usable in a, b, c and other definitions (repeatable)")
-    group.add_argument("--param", action="append", type=_assignment, default=[], metavar="NAME=VALUE",
-                       help="a named number (repeatable)")
-    group.add_argument("--domain", nargs="+", metavar="NAME | XMIN XMAX YMIN YMAX",
-                       help="a domain of FILE by name, or the rectangle (which overrides FILE's or the template's)")
-    group.add_argument("--grid", nargs="+", type=int, metavar="N", help="N (square) or NX NY grid nodes")
-    group.add_argument("--tolerance", type=finite, default=None,
-                       help=f"parabolic tolerance on |D|/(b^2+4|ac|) (default: FILE's, else {DEFAULT_TOLERANCE:g})")
-    data = parser.add_argument_group("background data")
-    data.add_argument("--data", action="append", type=parse_data_option, default=[], metavar="PATH[:NAMES]",
-                      help="a data file (CSV, NumPy .npz, NetCDF, VTK .vtu/.vtk) whose quantities the equation "
-                           "uses by name, read for the equation's two variables (repeatable; added to FILE's). "
-                           "Without NAMES every usable quantity is taken under its own name; NAMES is a comma-"
-                           "separated list of NAME (take it) and OLD=NEW (take OLD and call it NEW), e.g. "
-                           "--data flow.vtu:velocity_x=u,velocity_y=v. With --template, quantities the template "
-                           "knows replace its formulas (e.g. u and v for full_potential).")
-    parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
 
 def _parameter_value(name: str, text: str) -> float:

@@ -6,18 +6,14 @@ import argparse
 import json
 from typing import TextIO
 
-from core.cli.command import EXIT_OK, Command
-from core.cli.study import UsageError
+from core.cli.options import EXIT_OK, UsageError
 from core.equations.templates import TemplateError, list_templates, load_template
 
-__all__ = ["COMMAND"]
+__all__ = ["run"]
 
 
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
-
-
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """List the templates (options: core.cli.registry); returns the exit status."""
     try:
         templates = [load_template(name) for name in list_templates()]
     except TemplateError as error:
@@ -33,6 +29,3 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         data = f" (data: {', '.join(t.quantities)})" if t.quantities else ""
         out.write(f"{t.name:<{width}}  {t.title}{data}\n")
     return EXIT_OK
-
-
-COMMAND = Command("templates", "list the equation templates --template accepts", _add_arguments, _run)

@@ -10,32 +10,13 @@ import argparse
 import json
 from typing import TextIO
 
-from core.analysis.tracing import MAX_BOUNCES, trace_characteristics
-from core.cli.command import EXIT_OK, Command, compiled_study, read_study, source_fields
-from core.cli.study import Study, UsageError, add_equation_options, finite
+from core.analysis.tracing import trace_characteristics
+from core.cli.command import compiled_study, read_study, source_fields
+from core.cli.options import EXIT_OK, UsageError
+from core.cli.study import Study
 from core.results.document import curve_document, seed_document, study_fields
 
-__all__ = ["COMMAND"]
-
-
-def _add_arguments(parser: argparse.ArgumentParser) -> None:
-    add_equation_options(parser)
-    parser.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
-                        help="the seed point (default: FILE's seeds)")
-    parser.add_argument("--bounces", type=_bounces, default=None, metavar="N",
-                        help=f"go on as the other family through up to N (0 to {MAX_BOUNCES}) reflections at the "
-                             "domain edge or turns at the type-change line, on each side of the seed "
-                             "(default: FILE's setting, else 0)")
-
-
-def _bounces(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {text!r}") from None
-    if not 0 <= value <= MAX_BOUNCES:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {value}")
-    return value
+__all__ = ["run"]
 
 
 def _bounces_used(study: Study, args: argparse.Namespace) -> int:
@@ -45,7 +26,8 @@ def _bounces_used(study: Study, args: argparse.Namespace) -> int:
     return study.project.view.characteristic_bounces if study.project is not None else 0
 
 
-def _run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Trace from the seed (or FILE's seeds) and report it (options: core.cli.registry); returns the exit status."""
     study = read_study(args, err)
     compiled = compiled_study(study)
     if args.seed is None:
@@ -109,6 +91,3 @@ def _write_curves(curves, out: TextIO) -> None:
                            for event in curve.events)
     if all(len(c.points) <= 1 for c in curves):
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")
-
-
-COMMAND = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_arguments, _run)

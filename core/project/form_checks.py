@@ -13,8 +13,7 @@ import math
 import re
 from collections.abc import Iterable, Mapping
 from functools import cache
-
-import jsonschema
+from typing import TYPE_CHECKING
 
 from core.project.schema import (
     CHECKSUM_PATTERN,
@@ -25,6 +24,9 @@ from core.project.schema import (
     describe_json_value,
     project_schema,
 )
+
+if TYPE_CHECKING:
+    import jsonschema
 
 __all__ = [
     "MAX_JSON_DEPTH",
@@ -124,6 +126,8 @@ def _encodable(text: str) -> bool:
 # -- reading: schema -------------------------------------------------------------------------------------
 @cache
 def _validator() -> jsonschema.Draft202012Validator:
+    import jsonschema  # lazy: 45-80 ms to import (python -X importtime), only when a project file is read
+
     schema = project_schema()
     jsonschema.Draft202012Validator.check_schema(schema)
     return jsonschema.Draft202012Validator(schema)

@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.cli.study import parse_data_option
+from core.cli.options import parse_data_option
 from core.equations.templates import list_templates, load_template
 from core.project.io import load_project
 from core.project.model import demo_project_names, demo_project_path

@@ -62,6 +62,26 @@ print(json.dumps({"runs": runs, "qt": qt}))
     assert json.loads(report["runs"]["probe"][1])["type"] == "hyperbolic"  # y < 0 in y u_xx + u_yy
 
 
+def test_help_and_version_load_no_numpy_sympy_or_platform_check():
+    """The `mixtype` script's --help and --version build the parser only (bench/bench_startup.py times them)."""
+    script = """
+import io, json, sys
+from gui.launcher import main
+statuses = []
+for argv in (["--help"], ["--version"], ["render", "--help"], ["trace", "--help"]):
+    out = io.StringIO()
+    sys.stdout = out
+    statuses.append(main(argv, out=out, err=io.StringIO()))
+    sys.stdout = sys.__stdout__
+loaded = sorted(name for name in ("numpy", "sympy", "scipy", "jsonschema", "gui.platform_check", "PySide6")
+                if name in sys.modules)
+print(json.dumps({"statuses": statuses, "loaded": loaded}))
+"""
+    completed = subprocess.run([sys.executable, "-c", script], cwd=ROOT, capture_output=True, text=True,
+                               timeout=HANG_CEILING_S, check=True)
+    assert json.loads(completed.stdout) == {"statuses": [0, 0, 0, 0], "loaded": []}
+
+
 @pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the display check runs on Linux")
 @pytest.mark.parametrize("argv", [(), ("resources/demo/tricomi.mixtype.json",)])
 def test_the_window_without_a_display_says_so_in_one_line(argv):

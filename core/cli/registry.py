@@ -1,0 +1,77 @@
+"""The headless ``mixtype`` commands as the command line sees them: names, help lines and options.
+
+Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
+--help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
+(core.cli.classify, probe, trace, check, templates: each has ``run(args, out, err) -> exit status``) is
+imported only when that command runs; that is the one lazy import of the command line, in ``_implemented_in``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+from collections.abc import Callable
+from typing import TextIO
+
+from core.cli.options import MAX_BOUNCES, Command, add_equation_options, bounces, finite
+
+__all__ = ["HEADLESS_COMMANDS"]
+
+
+def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO], int]:
+    """A command's run function that imports ``module`` when called and runs its ``run``."""
+
+    def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+        # Lazy on purpose: a command module imports numpy, sympy, scipy and the project layer, 0.3 s (templates)
+        # to 0.6 s (classify) by python -X importtime, which --help never needs (bench/bench_startup.py).
+        return importlib.import_module(module).run(args, out, err)
+
+    return run
+
+
+def _add_classify_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--raw", action="store_true", help="skip refining lines onto D = 0")
+    parser.add_argument("--save-project", metavar="FILE", help="also write a project file holding the "
+                        "equation, domain and data files used (data paths recorded relative to FILE)")
+
+
+def _add_probe_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"), help="the point (default: FILE's pins)")
+
+
+def _add_trace_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    parser.add_argument("--from", dest="seed", nargs=2, type=finite, metavar=("X", "Y"),
+                        help="the seed point (default: FILE's seeds)")
+    parser.add_argument("--bounces", type=bounces, default=None, metavar="N",
+                        help=f"go on as the other family through up to N (0 to {MAX_BOUNCES}) reflections at the "
+                             "domain edge or turns at the type-change line, on each side of the seed "
+                             "(default: FILE's setting, else 0)")
+
+
+def _add_check_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
+    parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+
+
+def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
+
+
+CLASSIFY = Command("classify", "type map: area fractions, type-change lines and hyperbolic pockets",
+                   _add_classify_arguments, _implemented_in("core.cli.classify"))
+PROBE = Command("probe", "everything known at one point (or at every pin of FILE)", _add_probe_arguments,
+                _implemented_in("core.cli.probe"))
+TRACE = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_trace_arguments,
+                _implemented_in("core.cli.trace"))
+CHECK = Command("check", "validate a project file and open its data files", _add_check_arguments,
+                _implemented_in("core.cli.check"),
+                description="Validate a project file and list every problem in it, then open the data files it "
+                "lists. Exit status 2 when the file is invalid or a data file is missing or unreadable; a data "
+                "file that changed since the project was saved is a warning on stderr (exit status 0).")
+TEMPLATES = Command("templates", "list the equation templates --template accepts", _add_templates_arguments,
+                    _implemented_in("core.cli.templates"))
+
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, PROBE, TRACE, CHECK, TEMPLATES)
