@@ -17,11 +17,12 @@ from collections.abc import Mapping
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
+import numexpr
 import numpy as np
 
 from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
 from core.domain import Domain
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
@@ -38,9 +39,14 @@ _POOL: ThreadPoolExecutor | None = None
 
 
 def _grid_pool() -> ThreadPoolExecutor:
-    """Threads for grid blocks: numpy and numexpr release the GIL, so blocks run on every core."""
+    """Threads for grid blocks: numpy and numexpr release the GIL, so blocks run on every core.
+
+    numexpr is made single-threaded (a process-wide setting): the blocks already use every core, and
+    numexpr's own threads take a global lock, which would serialise the blocks' evaluations.
+    """
     global _POOL
     if _POOL is None:
+        numexpr.set_num_threads(1)
         _POOL = ThreadPoolExecutor(max_workers=min(8, os.cpu_count() or 1), thread_name_prefix="mixtype-grid")
     return _POOL
 
@@ -162,7 +168,7 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     rows = max(1, _BLOCK_ELEMENTS // nx)
     starts = list(range(0, ny, rows))
     x_row = x[np.newaxis, :]
-    rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y)
+    rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y, names=COEFFICIENT_NAMES)
     prepared = {**prepared, **rows_along_x}
     local = threading.local()
     done = [0]
@@ -176,7 +182,8 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
             local.scratch = DiscriminantScratch(rows * nx)
         block = normalized[start:stop]
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
-        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared)
+        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
+                                   names=COEFFICIENT_NAMES)
         normalized_discriminant_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:
