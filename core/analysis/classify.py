@@ -22,7 +22,7 @@ import numpy as np
 
 from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
 from core.domain import Domain
-from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
+from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, EvaluationBuffers, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
@@ -34,7 +34,7 @@ __all__ = [
 ]
 
 DEFAULT_TOLERANCE = 1e-10
-_BLOCK_ELEMENTS = 1 << 17
+_BLOCK_ELEMENTS = 1 << 14   # 128 KiB per float64 array: fresh temporaries of this size cost no page faults
 _POOL: ThreadPoolExecutor | None = None
 
 
@@ -180,10 +180,11 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         stop = min(ny, start + rows)
         if not hasattr(local, "scratch"):
             local.scratch = DiscriminantScratch(rows * nx)
+            local.buffers = EvaluationBuffers()
         block = normalized[start:stop]
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
-                                   names=COEFFICIENT_NAMES)
+                                   names=COEFFICIENT_NAMES, buffers=local.buffers)
         normalized_discriminant_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:

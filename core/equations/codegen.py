@@ -244,13 +244,28 @@ class _Builder:
         """An n-ary sum, product, and or or, left to right; cut into a chain of statements if too wide."""
         text, inputs = "", frozenset()
         for arg in e.args:
+            joiner = operator
+            if operator == "+" and text:
+                arg, joiner = self._negated(arg)
             part, part_inputs = self._part(arg)
             if text and len(inputs | part_inputs) > MAX_STEP_INPUTS:
                 name = self._temporary(f"({text})", inputs, self._boolean(e))
                 text, inputs = name, frozenset({name})
-            text = part if not text else f"{text} {operator} {part}"
+            text = part if not text else f"{text} {joiner} {part}"
             inputs |= part_inputs
         return f"({text})", inputs
+
+    def _negated(self, term: sympy.Basic) -> tuple[sympy.Basic, str]:
+        """A term c*X with c < 0 added inline as ``- (-c)*X``: one operation fewer, the same value bit for bit
+        (negation is exact). Returns the term to add and the operator."""
+        if not term.is_Mul or term in self.done or self.uses.get(term, 0) > 1 or term in self.forced:
+            return term, "+"
+        coefficient, *rest = term.args
+        if not (coefficient.is_Number and coefficient.is_negative) or not rest:
+            return term, "+"
+        if coefficient == -1:
+            return (rest[0] if len(rest) == 1 else sympy.Mul(*rest, evaluate=False)), "-"
+        return sympy.Mul(-coefficient, *rest, evaluate=False), "-"
 
     def _text(self, e: sympy.Basic) -> tuple[str, frozenset[str]]:
         if e is sympy.nan or e is sympy.zoo:

@@ -29,6 +29,7 @@ __all__ = [
     "COEFFICIENT_NAMES",
     "CompiledEquation",
     "Equation",
+    "EvaluationBuffers",
     "EvaluationPlan",
     "Parameter",
     "QuantitySource",
@@ -115,8 +116,40 @@ class EvaluationPlan:
     along_second: tuple[str, ...]
     pointwise: tuple[str, ...]
     data_keys: tuple[str, ...]
-    work: tuple[tuple[_Step, tuple[str, ...]], ...] = field(repr=False, compare=False, default=())
-    # (step, temporaries no later step of the plan reads): what evaluate_raw runs, in order
+    work: tuple[tuple[_Step, tuple[str, ...], bool], ...] = field(repr=False, compare=False, default=())
+    # (step, temporaries no later step of the plan reads, pointwise?): what evaluate_raw runs, in order
+
+
+class EvaluationBuffers:
+    """Arrays that one thread's evaluations of same-shaped blocks of points reuse from call to call.
+
+    Fresh arrays for every step of every block cost page faults that take longer than the arithmetic; with
+    buffers a step writes into an array a released temporary (or the previous call) left. Values that
+    ``evaluate_raw`` returns then live in these arrays: valid until the next call with the same buffers.
+    """
+
+    def __init__(self) -> None:
+        self._free: dict[tuple[tuple[int, ...], type], list[np.ndarray]] = {}
+        self._lent: list[np.ndarray] = []
+
+    def take(self, shape: tuple[int, ...], dtype: type) -> np.ndarray:
+        free = self._free.get((shape, dtype))
+        array = free.pop() if free else np.empty(shape, dtype=dtype)
+        self._lent.append(array)
+        return array
+
+    def give_back(self, array: np.ndarray) -> None:
+        for index, lent in enumerate(self._lent):
+            if lent is array:
+                del self._lent[index]
+                self._free.setdefault((array.shape, array.dtype.type), []).append(array)
+                return
+
+    def reclaim(self) -> None:
+        """Everything lent out is free again (the previous call's values are no longer read)."""
+        for array in self._lent:
+            self._free.setdefault((array.shape, array.dtype.type), []).append(array)
+        self._lent.clear()
 
 
 @dataclass(frozen=True, eq=False)
@@ -173,6 +206,8 @@ class CompiledEquation:
             if step.target in needed:
                 needed.update(step.statement.inputs)
         pointwise = [step for step in self._steps if step.target in needed and step.varies]
+        first, second = (self._internal[v] for v in self.variables)
+        everywhere = [len(s.varies) > 1 or not s.varies <= {first, second} for s in pointwise]
         kept = {self._internal[name] for name in names}
         last_reader: dict[str, int] = {}
         for index, step in enumerate(pointwise):
@@ -182,19 +217,18 @@ class CompiledEquation:
         released: list[list[str]] = [[] for _ in pointwise]
         for source, index in last_reader.items():
             released[index].append(source)
-        first, second = (self._internal[v] for v in self.variables)
         return EvaluationPlan(
             names=names,
             prepared=tuple(s.target for s in self._steps if s.target in needed and not s.varies),
             along_first=tuple(s.target for s in pointwise if s.varies == {first}),
             along_second=tuple(s.target for s in pointwise if s.varies == {second}),
-            pointwise=tuple(s.target for s in pointwise if len(s.varies) > 1 or not s.varies <= {first, second}),
+            pointwise=tuple(s.target for s, e in zip(pointwise, everywhere, strict=True) if e),
             data_keys=tuple(k for k in self.data_keys if self._internal[k] in needed),
-            work=tuple(zip(pointwise, (tuple(r) for r in released), strict=True)),
+            work=tuple(zip(pointwise, (tuple(r) for r in released), everywhere, strict=True)),
         )
 
-    def _run(self, step: _Step, env: Mapping[str, object]):
-        """One step's value from ``env``; each thread keeps its own compiled numexpr programs."""
+    def _run(self, step: _Step, env: Mapping[str, object], out: np.ndarray | None = None):
+        """One step's value from ``env`` (into ``out`` if given); each thread compiles its own numexpr programs."""
         if step.alias is not None:
             return env[step.alias]
         kernels = getattr(self._kernels, "by_target", None)
@@ -205,7 +239,11 @@ class CompiledEquation:
             boolean = {s.target for s in self._steps if s.statement.boolean}
             signature = [(n, bool if n in boolean else np.float64) for n in step.statement.inputs]
             kernel = kernels[step.target] = numexpr.NumExpr(step.statement.code, signature=signature)
-        return kernel(*[env[n] for n in step.statement.inputs])
+        if out is None:
+            return kernel(*[env[n] for n in step.statement.inputs])
+        # ex_uses_vml only tunes numexpr's block length for Intel VML builds; the generated code needs none.
+        return kernel(*[env[n] for n in step.statement.inputs], out=out, order="K", casting="safe",
+                      ex_uses_vml=False)
 
     # -- evaluation -------------------------------------------------------------------------------------
     def evaluate(self, x, y, *, parameters: Mapping[str, float] | None = None,
@@ -222,13 +260,15 @@ class CompiledEquation:
     def evaluate_raw(self, x, y, *, parameters: Mapping[str, float] | None = None,
                      data: QuantitySource | None = None,
                      prepared: Mapping[str, object] | None = None,
-                     names: Iterable[str] | None = None) -> dict[str, np.ndarray]:
+                     names: Iterable[str] | None = None,
+                     buffers: EvaluationBuffers | None = None) -> dict[str, np.ndarray]:
         """Like ``evaluate`` but each value keeps the smallest shape that broadcasts to the points' shape.
 
         A coefficient that depends on y alone stays a column; a constant stays 0-d. ``prepared`` (from
         ``prepare``) skips re-evaluating what depends on parameters only: hot loops over blocks use both.
         ``names`` limits the work to what those values need (e.g. ("a", "b", "c") skips readout-only
-        definitions and the data quantities only they use).
+        definitions and the data quantities only they use). ``buffers`` (one per thread) makes hot loops
+        write into reused arrays; the values returned then live in them until the next call.
         """
         plan = self.plan(names)
         x = np.asarray(x, dtype=np.float64)
@@ -241,11 +281,27 @@ class CompiledEquation:
                 raise ExpressionError(f"background data are needed for {', '.join(plan.data_keys)}")
             for key in plan.data_keys:
                 env[self._internal[key]] = np.asarray(data.sample(key, x, y), dtype=np.float64)
-        for step, released in plan.work:
+        if buffers is not None:
+            buffers.reclaim()
+            shape = np.broadcast_shapes(x.shape, y.shape)
+        owned: dict[int, int] = {}   # id of a buffer -> how many names in env hold it
+        for step, released, everywhere in plan.work:
             if step.target not in env:   # (a grid run may have it from along_axes)
-                env[step.target] = self._run(step, env)
+                if buffers is not None and everywhere and step.alias is None:
+                    value = self._run(step, env, buffers.take(shape, bool if step.statement.boolean else np.float64))
+                    owned[id(value)] = 1
+                else:
+                    value = self._run(step, env)
+                    if id(value) in owned:   # an alias of a buffer
+                        owned[id(value)] += 1
+                env[step.target] = value
             for target in released:
-                del env[target]
+                value = env.pop(target)
+                if owned.get(id(value), 0) == 1:
+                    del owned[id(value)]
+                    buffers.give_back(value)  # type: ignore[union-attr]
+                elif id(value) in owned:
+                    owned[id(value)] -= 1
         return {name: env[self._internal[name]] for name in plan.names}
 
     def prepare(self, parameters: Mapping[str, float] | None = None) -> dict[str, object]:
@@ -276,7 +332,7 @@ class CompiledEquation:
         rows: dict[str, np.ndarray] = {}
         columns: dict[str, np.ndarray] = {}
         targets_x, targets_y = set(plan.along_first), set(plan.along_second)
-        for step, _ in plan.work:
+        for step, _, _ in plan.work:
             for targets, env, out in ((targets_x, along_x, rows), (targets_y, along_y, columns)):
                 if step.target in targets:
                     env[step.target] = out[step.target] = self._run(step, env)
