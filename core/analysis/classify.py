@@ -34,7 +34,10 @@ __all__ = [
 ]
 
 DEFAULT_TOLERANCE = 1e-10
-_BLOCK_ELEMENTS = 1 << 14   # 128 KiB per float64 array: fresh temporaries of this size cost no page faults
+_BLOCK_ELEMENTS = 1 << 16   # nodes per block (512 KiB per float64 array): the fastest of 2**14..2**17 in bench_classify
+# D/S of full-size coefficients is formed in parts of this many nodes: its temporaries (128 KiB) then come from
+# memory the allocator keeps, while fresh 512 KiB ones cost page faults that take longer than the arithmetic.
+_DISCRIMINANT_ELEMENTS = 1 << 14
 _POOL: ThreadPoolExecutor | None = None
 
 
@@ -88,10 +91,12 @@ def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.nda
     out += TypeCode.PARABOLIC
     n_hyperbolic = int(np.count_nonzero(hyperbolic))
     n_elliptic = int(np.count_nonzero(elliptic))
-    undefined = np.isnan(normalized)
-    n_undefined = int(np.count_nonzero(undefined))
-    if n_undefined:
-        out[undefined] = TypeCode.UNDEFINED
+    n_undefined = 0
+    if n_hyperbolic + n_elliptic < normalized.size:   # only the remaining nodes can be NaN
+        undefined = np.isnan(normalized)
+        n_undefined = int(np.count_nonzero(undefined))
+        if n_undefined:
+            out[undefined] = TypeCode.UNDEFINED
     counts = np.zeros(len(TypeCode), dtype=np.int64)
     counts[TypeCode.HYPERBOLIC] = n_hyperbolic
     counts[TypeCode.ELLIPTIC] = n_elliptic
@@ -185,7 +190,7 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
                                    names=COEFFICIENT_NAMES, buffers=local.buffers)
-        normalized_discriminant_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
+        _normalized_in_parts(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:
             with lock:
@@ -200,6 +205,19 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     fractions = {code.label: counts[code] / total for code in TypeCode}
     return TypeMap(domain=domain, x=x, y=y, codes=codes, normalized=normalized, fractions=fractions,
                    tolerance=tolerance, parameters=values)
+
+
+def _normalized_in_parts(a, b, c, out: np.ndarray, scratch: DiscriminantScratch) -> None:
+    """D/S of a block of rows into ``out``, a few rows at a time when a coefficient spans the whole block."""
+    rows, nx = out.shape
+    if max(np.size(a), np.size(b), np.size(c)) <= _DISCRIMINANT_ELEMENTS or rows == 1:
+        normalized_discriminant_into(a, b, c, out, scratch)
+        return
+    step = max(1, _DISCRIMINANT_ELEMENTS // nx)
+    for start in range(0, rows, step):
+        part = slice(start, start + step)
+        a_part, b_part, c_part = (v[part] if np.ndim(v) == 2 and np.shape(v)[0] == rows else v for v in (a, b, c))
+        normalized_discriminant_into(a_part, b_part, c_part, out[part], scratch)
 
 
 def _check_tolerance(tolerance: float) -> None:
