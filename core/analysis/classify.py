@@ -152,7 +152,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     """Classify every node of ``domain``'s grid, a block of rows at a time, on all cores.
 
     ``cancel`` is polled between blocks (raise Cancelled when it returns True); ``progress`` gets a fraction
-    in [0, 1]. Extra memory is two work buffers of 2**17 doubles per thread, independent of the grid size.
+    in [0, 1]. Only a, b, c are evaluated (readout-only definitions and their data are not). Extra memory per
+    thread is two work buffers of 2**16 doubles plus one such buffer per value the equation's program holds at
+    once (core.equations.equation.EvaluationBuffers), independent of the grid size.
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
     """
