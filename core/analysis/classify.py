@@ -34,10 +34,12 @@ __all__ = [
 ]
 
 DEFAULT_TOLERANCE = 1e-10
-_BLOCK_ELEMENTS = 1 << 16   # nodes per block (512 KiB per float64 array): the fastest of 2**14..2**17 in bench_classify
+_BLOCK_ELEMENTS = 1 << 18   # nodes per block: the fastest of 2**16..2**19 in bench_classify (fewer, longer blocks
+# hold the GIL between numpy calls less often; cancel still answers within one block)
 # D/S of full-size coefficients is formed in parts of this many nodes: its temporaries (128 KiB) then come from
 # memory the allocator keeps, while fresh 512 KiB ones cost page faults that take longer than the arithmetic.
 _DISCRIMINANT_ELEMENTS = 1 << 14
+_WORKERS = min(8, os.cpu_count() or 1)
 _POOL: ThreadPoolExecutor | None = None
 
 
@@ -50,7 +52,7 @@ def _grid_pool() -> ThreadPoolExecutor:
     global _POOL
     if _POOL is None:
         numexpr.set_num_threads(1)
-        _POOL = ThreadPoolExecutor(max_workers=min(8, os.cpu_count() or 1), thread_name_prefix="mixtype-grid")
+        _POOL = ThreadPoolExecutor(max_workers=_WORKERS, thread_name_prefix="mixtype-grid")
     return _POOL
 
 
@@ -153,7 +155,7 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
 
     ``cancel`` is polled between blocks (raise Cancelled when it returns True); ``progress`` gets a fraction
     in [0, 1]. Only a, b, c are evaluated (readout-only definitions and their data are not). Extra memory per
-    thread is two work buffers of 2**16 doubles plus one such buffer per value the equation's program holds at
+    thread is two work buffers of 2**18 doubles plus one such buffer per value the equation's program holds at
     once (core.equations.equation.EvaluationBuffers), independent of the grid size.
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
@@ -172,7 +174,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
                 or normalized.dtype != np.float32:
             raise ValueError(f"out must be (int8, float32) arrays of shape {(ny, nx)}, got "
                              f"{codes.dtype}{codes.shape} and {normalized.dtype}{normalized.shape}")
-    rows = max(1, _BLOCK_ELEMENTS // nx)
+    pool = _grid_pool()
+    # Long blocks, but at least two per thread so that mid-size grids use every core too.
+    rows = max(1, min(_BLOCK_ELEMENTS // nx, -(-ny // (2 * _WORKERS))))
     starts = list(range(0, ny, rows))
     x_row = x[np.newaxis, :]
     rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y, names=COEFFICIENT_NAMES)
@@ -201,7 +205,7 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         return counts
 
     counts = np.zeros(len(TypeCode), dtype=np.int64)
-    for block_counts in _grid_pool().map(work, starts):
+    for block_counts in pool.map(work, starts):
         counts += block_counts
     total = float(nx * ny)
     fractions = {code.label: counts[code] / total for code in TypeCode}
