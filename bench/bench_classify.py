@@ -1,18 +1,23 @@
 """Grid classification speed and memory, as ratios measured in one run (not run by CI).
 
 Against (1) the memory floor: one np.multiply of a grid-sized float64 array into a preallocated, already
-touched array; and (2) the hand-made baseline: sympy.lambdify with numpy on the whole meshgrid, then the same
-tolerance rule. Extra memory is the tracemalloc peak above the outputs, with outputs preallocated.
+touched array, on one thread and split between two threads (classification runs on every core, so the
+two-thread floor is the honest one on two cores); and (2) the hand-made baseline: sympy.lambdify with numpy
+on the whole meshgrid, then the same tolerance rule. Extra memory is the tracemalloc peak above the outputs,
+with outputs preallocated. A max of many arguments is timed against the sum of the same arguments: with
+shared sub-expressions both cost about the same, and the generated program stays small.
 """
 
 from __future__ import annotations
 
 import json
 import tracemalloc
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import sympy
-from timing import best_time  # bench/ is on sys.path (script dir or bench/run.py)
+from records import figure  # bench/ is on sys.path (script dir or bench/run.py)
+from timing import best_time
 
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
 from core.domain import Domain
@@ -55,18 +60,54 @@ def _baseline(equation: Equation, domain: Domain):
     return run
 
 
-SMOKE = {"sizes": (48,), "repeats": 1}     # python bench/run.py --smoke: every line runs, figures meaningless
+# The arguments of the max-of-many case: each depends on both variables, none can be compared symbolically.
+MANY_ARGUMENTS = tuple(f"sin({k}*x + y)*exp(-{k}*y**2)" for k in range(1, 13))
+
+SMOKE = {"sizes": (48,), "repeats": 1, "many_size": 32}   # python bench/run.py --smoke: figures meaningless
 
 
-def run(sizes=(2048, 4096), repeats: int = 3) -> dict:
+def _floors(n: int, repeats: int) -> tuple[float, float]:
+    """np.multiply of an (n, n) array into a touched one: on one thread, and split between two threads."""
+    source = np.random.default_rng(0).random((n, n))
+    target = np.empty_like(source)
+    np.multiply(source, 2.0, out=target)
+    halves = (slice(0, n // 2), slice(n // 2, n))
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        def two_threads():
+            list(pool.map(lambda rows: np.multiply(source[rows], 2.0, out=target[rows]), halves))
+        two_threads()
+        one = best_time(lambda: np.multiply(source, 2.0, out=target), repeats + 2)
+        two = best_time(two_threads, repeats + 2)
+    return one, two
+
+
+def _max_of_many(n: int, repeats: int) -> dict:
+    """Classification of max(...) of the twelve arguments against their sum, on an (n, n) grid."""
+    domain = Domain(-2.0, 2.0, -2.0, 2.0, n, n)
+    maximum = compile_equation(Equation(a=f"max({', '.join(MANY_ARGUMENTS)})", b="0", c="1"))
+    half = compile_equation(Equation(a=f"max({', '.join(MANY_ARGUMENTS[:6])})", b="0", c="1"))
+    total = compile_equation(Equation(a=" + ".join(MANY_ARGUMENTS), b="0", c="1"))
+    out = (np.zeros((n, n), np.int8), np.zeros((n, n), np.float32))
+    times = {}
+    for name, compiled in (("max", maximum), ("sum", total)):
+        classify_grid(compiled, domain, out=out)
+        times[name] = best_time(lambda c=compiled: classify_grid(c, domain, out=out), repeats + 2)
+    return {
+        "arguments": len(MANY_ARGUMENTS),
+        "max_s": round(times["max"], 5),
+        "sum_s": round(times["sum"], 5),
+        "max_over_sum": round(times["max"] / times["sum"], 2),
+        "max_program_characters": maximum.program_characters,
+        "max_program_steps": len(maximum.program),
+        "max_of_half_program_characters": half.program_characters,
+    }
+
+
+def run(sizes=(2048, 4096), repeats: int = 3, many_size: int = 256) -> dict:
     results: dict = {}
     for n in sizes:
         domain = Domain(-2.0, 2.0, -2.0, 2.0, n, n)
-        source = np.random.default_rng(0).random((n, n))
-        target = np.empty_like(source)
-        np.multiply(source, 2.0, out=target)
-        floor = best_time(lambda s=source, t=target: np.multiply(s, 2.0, out=t), repeats + 2)
-        del source, target
+        floor, floor_two = _floors(n, repeats)
         for name, equation in CASES.items():
             compiled = compile_equation(equation)
             out = (np.zeros((n, n), np.int8), np.zeros((n, n), np.float32))
@@ -84,15 +125,31 @@ def run(sizes=(2048, 4096), repeats: int = 3) -> dict:
             del reference
             results[f"{name}_{n}"] = {
                 "floor_s": round(floor, 4),
+                "floor_two_threads_s": round(floor_two, 4),
                 "classify_preallocated_s": round(warm, 4),
                 "classify_new_arrays_s": round(cold, 4),
                 "ratio_to_floor_preallocated": round(warm / floor, 2),
                 "ratio_to_floor_new_arrays": round(cold / floor, 2),
+                "ratio_to_two_thread_floor": round(warm / floor_two, 2),
                 "baseline_lambdify_s": round(baseline, 4),
                 "speedup_vs_baseline": round(baseline / warm, 2),
                 "extra_memory_MiB": round(peak / 2**20, 2),
                 "codes_agree_with_baseline": agree,
             }
+    many = results["max_of_many"] = _max_of_many(many_size, repeats)
+    n = sizes[-1]
+    results["records"] = [
+        figure(f"formula flow at {n}^2, time over the one-thread floor",
+               results[f"formula_flow_{n}"]["ratio_to_floor_preallocated"], 15.0, unit="x"),
+        figure(f"unit circle at {n}^2, time over the two-thread floor",
+               results[f"unit_circle_{n}"]["ratio_to_two_thread_floor"], 2.5, unit="x"),
+        figure(f"max of {many['arguments']} arguments over their sum at {many_size}^2", many["max_over_sum"], 1.5,
+               unit="x"),
+        figure(f"generated program of a max of {many['arguments']} arguments", many["max_program_characters"],
+               2000, unit="characters"),
+        figure("program of max of 12 over max of 6 (linear growth: about 2)",
+               many["max_program_characters"] / many["max_of_half_program_characters"], 2.5, unit="x"),
+    ]
     return results
 
 

@@ -17,11 +17,12 @@ from collections.abc import Mapping
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
+import numexpr
 import numpy as np
 
 from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
 from core.domain import Domain
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, EvaluationBuffers, QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
@@ -33,15 +34,25 @@ __all__ = [
 ]
 
 DEFAULT_TOLERANCE = 1e-10
-_BLOCK_ELEMENTS = 1 << 17
+_BLOCK_ELEMENTS = 1 << 18   # nodes per block: the fastest of 2**16..2**19 in bench_classify (fewer, longer blocks
+# hold the GIL between numpy calls less often; cancel still answers within one block)
+# D/S of full-size coefficients is formed in parts of this many nodes: its temporaries (128 KiB) then come from
+# memory the allocator keeps, while fresh 512 KiB ones cost page faults that take longer than the arithmetic.
+_DISCRIMINANT_ELEMENTS = 1 << 14
+_WORKERS = min(8, os.cpu_count() or 1)
 _POOL: ThreadPoolExecutor | None = None
 
 
 def _grid_pool() -> ThreadPoolExecutor:
-    """Threads for grid blocks: numpy and numexpr release the GIL, so blocks run on every core."""
+    """Threads for grid blocks: numpy and numexpr release the GIL, so blocks run on every core.
+
+    numexpr is made single-threaded (a process-wide setting): the blocks already use every core, and
+    numexpr's own threads take a global lock, which would serialise the blocks' evaluations.
+    """
     global _POOL
     if _POOL is None:
-        _POOL = ThreadPoolExecutor(max_workers=min(8, os.cpu_count() or 1), thread_name_prefix="mixtype-grid")
+        numexpr.set_num_threads(1)
+        _POOL = ThreadPoolExecutor(max_workers=_WORKERS, thread_name_prefix="mixtype-grid")
     return _POOL
 
 
@@ -82,10 +93,12 @@ def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.nda
     out += TypeCode.PARABOLIC
     n_hyperbolic = int(np.count_nonzero(hyperbolic))
     n_elliptic = int(np.count_nonzero(elliptic))
-    undefined = np.isnan(normalized)
-    n_undefined = int(np.count_nonzero(undefined))
-    if n_undefined:
-        out[undefined] = TypeCode.UNDEFINED
+    n_undefined = 0
+    if n_hyperbolic + n_elliptic < normalized.size:   # only the remaining nodes can be NaN
+        undefined = np.isnan(normalized)
+        n_undefined = int(np.count_nonzero(undefined))
+        if n_undefined:
+            out[undefined] = TypeCode.UNDEFINED
     counts = np.zeros(len(TypeCode), dtype=np.int64)
     counts[TypeCode.HYPERBOLIC] = n_hyperbolic
     counts[TypeCode.ELLIPTIC] = n_elliptic
@@ -141,7 +154,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     """Classify every node of ``domain``'s grid, a block of rows at a time, on all cores.
 
     ``cancel`` is polled between blocks (raise Cancelled when it returns True); ``progress`` gets a fraction
-    in [0, 1]. Extra memory is two work buffers of 2**17 doubles per thread, independent of the grid size.
+    in [0, 1]. Only a, b, c are evaluated (readout-only definitions and their data are not). Extra memory per
+    thread is two work buffers of 2**18 doubles plus one such buffer per value the equation's program holds at
+    once (core.equations.equation.EvaluationBuffers), independent of the grid size.
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
     """
@@ -159,10 +174,12 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
                 or normalized.dtype != np.float32:
             raise ValueError(f"out must be (int8, float32) arrays of shape {(ny, nx)}, got "
                              f"{codes.dtype}{codes.shape} and {normalized.dtype}{normalized.shape}")
-    rows = max(1, _BLOCK_ELEMENTS // nx)
+    pool = _grid_pool()
+    # Long blocks, but at least two per thread so that mid-size grids use every core too.
+    rows = max(1, min(_BLOCK_ELEMENTS // nx, -(-ny // (2 * _WORKERS))))
     starts = list(range(0, ny, rows))
     x_row = x[np.newaxis, :]
-    rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y)
+    rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y, names=COEFFICIENT_NAMES)
     prepared = {**prepared, **rows_along_x}
     local = threading.local()
     done = [0]
@@ -174,10 +191,12 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         stop = min(ny, start + rows)
         if not hasattr(local, "scratch"):
             local.scratch = DiscriminantScratch(rows * nx)
+            local.buffers = EvaluationBuffers()
         block = normalized[start:stop]
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
-        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared)
-        normalized_discriminant_into(raw["a"], raw["b"], raw["c"], block, local.scratch)
+        raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
+                                   names=COEFFICIENT_NAMES, buffers=local.buffers)
+        _normalized_in_parts(raw["a"], raw["b"], raw["c"], block, local.scratch)
         counts = _codes_from_normalized(block, tolerance, codes[start:stop])
         if progress is not None:
             with lock:
@@ -186,12 +205,25 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         return counts
 
     counts = np.zeros(len(TypeCode), dtype=np.int64)
-    for block_counts in _grid_pool().map(work, starts):
+    for block_counts in pool.map(work, starts):
         counts += block_counts
     total = float(nx * ny)
     fractions = {code.label: counts[code] / total for code in TypeCode}
     return TypeMap(domain=domain, x=x, y=y, codes=codes, normalized=normalized, fractions=fractions,
                    tolerance=tolerance, parameters=values)
+
+
+def _normalized_in_parts(a, b, c, out: np.ndarray, scratch: DiscriminantScratch) -> None:
+    """D/S of a block of rows into ``out``, a few rows at a time when a coefficient spans the whole block."""
+    rows, nx = out.shape
+    if max(np.size(a), np.size(b), np.size(c)) <= _DISCRIMINANT_ELEMENTS or rows == 1:
+        normalized_discriminant_into(a, b, c, out, scratch)
+        return
+    step = max(1, _DISCRIMINANT_ELEMENTS // nx)
+    for start in range(0, rows, step):
+        part = slice(start, start + step)
+        a_part, b_part, c_part = (v[part] if np.ndim(v) == 2 and np.shape(v)[0] == rows else v for v in (a, b, c))
+        normalized_discriminant_into(a_part, b_part, c_part, out[part], scratch)
 
 
 def _check_tolerance(tolerance: float) -> None:

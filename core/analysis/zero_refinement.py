@@ -11,7 +11,7 @@ from collections.abc import Callable, Mapping
 import numpy as np
 
 from core.analysis.discriminant import discriminant
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
 from core.progress import CancelCheck, Cancelled
 
 __all__ = ["PointFunction", "discriminant_function", "roots_on_segments"]
@@ -28,7 +28,7 @@ def discriminant_function(compiled: CompiledEquation, parameters: Mapping[str, f
     prepared = compiled.prepare(parameters)
 
     def values(x: np.ndarray, y: np.ndarray) -> np.ndarray:
-        raw = compiled.evaluate_raw(x, y, data=data, prepared=prepared)
+        raw = compiled.evaluate_raw(x, y, data=data, prepared=prepared, names=COEFFICIENT_NAMES)
         return np.broadcast_to(discriminant(raw["a"], raw["b"], raw["c"]), np.shape(x)).copy()
 
     return values

@@ -10,7 +10,8 @@ Evaluation works on any broadcastable arrays of points: a whole grid, a tile, a 
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+import threading
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Protocol
@@ -19,7 +20,7 @@ import numexpr
 import numpy as np
 import sympy
 
-from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, to_numexpr
+from core.equations.codegen import INF_NAME, NAN_NAME, CodegenError, Statement, build_program
 from core.equations.language import ExpressionError, check_name, data_derivative_key
 from core.equations.parser import parse_expression, tidy_expression
 from core.equations.trade import check_trade_spec
@@ -28,6 +29,8 @@ __all__ = [
     "COEFFICIENT_NAMES",
     "CompiledEquation",
     "Equation",
+    "EvaluationBuffers",
+    "EvaluationPlan",
     "Parameter",
     "QuantitySource",
     "compile_equation",
@@ -89,17 +92,73 @@ class QuantitySource(Protocol):
 
 @dataclass(frozen=True)
 class _Step:
-    name: str            # user-facing name: a definition, or "a", "b", "c"
-    target: str          # internal numexpr name
-    code: str            # numexpr text over internal names
-    pointwise: bool      # depends on the variables or on data (else on parameters only)
-    alias: str | None    # the code is just another internal name: copy, do not evaluate
-    inputs: frozenset[str] = frozenset()   # internal names of the variables and data keys it depends on
+    statement: Statement
+    alias: str | None        # the code is just another internal name: copy, do not evaluate
+    varies: frozenset[str]   # internal names of the variables and data keys it depends on (empty: parameters)
+
+    @property
+    def target(self) -> str:
+        return self.statement.target
+
+
+@dataclass(frozen=True)
+class EvaluationPlan:
+    """The steps that evaluating some named values takes, grouped by where they vary (internal targets).
+
+    ``prepared`` steps depend on parameters only and are computed once by ``prepare`` (for every name);
+    ``along_first`` and ``along_second`` depend on one variable only (once per grid axis in a grid run);
+    ``pointwise`` run at every point; ``data_keys`` are the data quantities sampled.
+    """
+
+    names: tuple[str, ...]
+    prepared: tuple[str, ...]
+    along_first: tuple[str, ...]
+    along_second: tuple[str, ...]
+    pointwise: tuple[str, ...]
+    data_keys: tuple[str, ...]
+    work: tuple[tuple[_Step, tuple[str, ...], bool], ...] = field(repr=False, compare=False, default=())
+    # (step, temporaries no later step of the plan reads, pointwise?): what evaluate_raw runs, in order
+
+
+class EvaluationBuffers:
+    """Arrays that one thread's evaluations of same-shaped blocks of points reuse from call to call.
+
+    Fresh arrays for every step of every block cost page faults that take longer than the arithmetic; with
+    buffers a step writes into an array a released temporary (or the previous call) left. Values that
+    ``evaluate_raw`` returns then live in these arrays: valid until the next call with the same buffers.
+    """
+
+    def __init__(self) -> None:
+        self._free: dict[tuple[tuple[int, ...], type], list[np.ndarray]] = {}
+        self._lent: list[np.ndarray] = []
+
+    def take(self, shape: tuple[int, ...], dtype: type) -> np.ndarray:
+        free = self._free.get((shape, dtype))
+        array = free.pop() if free else np.empty(shape, dtype=dtype)
+        self._lent.append(array)
+        return array
+
+    def give_back(self, array: np.ndarray) -> None:
+        for index, lent in enumerate(self._lent):
+            if lent is array:
+                del self._lent[index]
+                self._free.setdefault((array.shape, array.dtype.type), []).append(array)
+                return
+
+    def reclaim(self) -> None:
+        """Everything lent out is free again (the previous call's values are no longer read)."""
+        for array in self._lent:
+            self._free.setdefault((array.shape, array.dtype.type), []).append(array)
+        self._lent.clear()
 
 
 @dataclass(frozen=True, eq=False)
 class CompiledEquation:
-    """An equation ready to evaluate: definitions in dependency order, each as a numexpr program."""
+    """An equation ready to evaluate: definitions in dependency order, compiled into one program of steps.
+
+    The program (``program``) shares every repeated sub-expression, keeps parameter-only parts for ``prepare``
+    and one-variable parts for ``along_axes``; ``plan(names)`` picks the steps that some values need.
+    """
 
     equation: Equation
     variables: tuple[str, str]
@@ -110,64 +169,161 @@ class CompiledEquation:
     symbols: Mapping[str, sympy.Symbol]
     _steps: tuple[_Step, ...]
     _internal: Mapping[str, str]
+    _plans: dict = field(default_factory=dict, repr=False)
+    _kernels: threading.local = field(default_factory=threading.local, repr=False)
+
+    # -- the program ----------------------------------------------------------------------------------------
+    @property
+    def program(self) -> tuple[Statement, ...]:
+        """Every step as ``target = code`` over internal names, in evaluation order."""
+        return tuple(step.statement for step in self._steps)
+
+    @property
+    def program_characters(self) -> int:
+        """Size of the generated code: grows linearly with the expressions (see core.equations.codegen)."""
+        return sum(len(step.statement.code) for step in self._steps)
+
+    def internal_name(self, name: str) -> str:
+        """The internal name (a target of ``program``) of a variable, parameter, definition or a, b, c."""
+        return self._internal[name]
+
+    def plan(self, names: Iterable[str] | None = None) -> EvaluationPlan:
+        """The steps needed for ``names`` (definitions and a, b, c; default: all of them), cached."""
+        key = tuple(dict.fromkeys(names)) if names is not None else (*self.definition_order, *COEFFICIENT_NAMES)
+        plan = self._plans.get(key)
+        if plan is None:
+            plan = self._plans[key] = self._make_plan(key)
+        return plan
+
+    def _make_plan(self, names: tuple[str, ...]) -> EvaluationPlan:
+        for name in names:
+            if name not in self.definition_order and name not in COEFFICIENT_NAMES:
+                known = ", ".join((*self.definition_order, *COEFFICIENT_NAMES))
+                raise ExpressionError(f"unknown quantity {name!r}; expected one of {known}")
+        by_target = {step.target: step for step in self._steps}
+        needed = {self._internal[name] for name in names}
+        for step in reversed(self._steps):
+            if step.target in needed:
+                needed.update(step.statement.inputs)
+        pointwise = [step for step in self._steps if step.target in needed and step.varies]
+        first, second = (self._internal[v] for v in self.variables)
+        everywhere = [len(s.varies) > 1 or not s.varies <= {first, second} for s in pointwise]
+        kept = {self._internal[name] for name in names}
+        last_reader: dict[str, int] = {}
+        for index, step in enumerate(pointwise):
+            for source in step.statement.inputs:
+                if source in by_target and by_target[source].varies and source not in kept:
+                    last_reader[source] = index
+        released: list[list[str]] = [[] for _ in pointwise]
+        for source, index in last_reader.items():
+            released[index].append(source)
+        return EvaluationPlan(
+            names=names,
+            prepared=tuple(s.target for s in self._steps if s.target in needed and not s.varies),
+            along_first=tuple(s.target for s in pointwise if s.varies == {first}),
+            along_second=tuple(s.target for s in pointwise if s.varies == {second}),
+            pointwise=tuple(s.target for s, e in zip(pointwise, everywhere, strict=True) if e),
+            data_keys=tuple(k for k in self.data_keys if self._internal[k] in needed),
+            work=tuple(zip(pointwise, (tuple(r) for r in released), everywhere, strict=True)),
+        )
+
+    def _run(self, step: _Step, env: Mapping[str, object], out: np.ndarray | None = None):
+        """One step's value from ``env`` (into ``out`` if given); each thread compiles its own numexpr programs."""
+        if step.alias is not None:
+            return env[step.alias]
+        kernels = getattr(self._kernels, "by_target", None)
+        if kernels is None:
+            kernels = self._kernels.by_target = {}
+        kernel = kernels.get(step.target)
+        if kernel is None:
+            boolean = {s.target for s in self._steps if s.statement.boolean}
+            signature = [(n, bool if n in boolean else np.float64) for n in step.statement.inputs]
+            kernel = kernels[step.target] = numexpr.NumExpr(step.statement.code, signature=signature)
+        if out is None:
+            return kernel(*[env[n] for n in step.statement.inputs])
+        # ex_uses_vml only tunes numexpr's block length for Intel VML builds; the generated code needs none.
+        return kernel(*[env[n] for n in step.statement.inputs], out=out, order="K", casting="safe",
+                      ex_uses_vml=False)
 
     # -- evaluation -------------------------------------------------------------------------------------
     def evaluate(self, x, y, *, parameters: Mapping[str, float] | None = None,
-                 data: QuantitySource | None = None) -> dict[str, np.ndarray]:
-        """Every definition and a, b, c at the points (x, y), broadcast together (float64 arrays).
+                 data: QuantitySource | None = None, names: Iterable[str] | None = None
+                 ) -> dict[str, np.ndarray]:
+        """Definitions and a, b, c (or only ``names``) at the points (x, y), broadcast together (float64).
 
         Non-finite values are returned as they come (NaN, inf): classification maps them to ``undefined``.
         """
         shape = np.broadcast_shapes(np.shape(x), np.shape(y))
-        raw = self.evaluate_raw(x, y, parameters=parameters, data=data)
+        raw = self.evaluate_raw(x, y, parameters=parameters, data=data, names=names)
         return {name: np.broadcast_to(value, shape) for name, value in raw.items()}
 
     def evaluate_raw(self, x, y, *, parameters: Mapping[str, float] | None = None,
                      data: QuantitySource | None = None,
-                     prepared: Mapping[str, object] | None = None) -> dict[str, np.ndarray]:
+                     prepared: Mapping[str, object] | None = None,
+                     names: Iterable[str] | None = None,
+                     buffers: EvaluationBuffers | None = None) -> dict[str, np.ndarray]:
         """Like ``evaluate`` but each value keeps the smallest shape that broadcasts to the points' shape.
 
         A coefficient that depends on y alone stays a column; a constant stays 0-d. ``prepared`` (from
         ``prepare``) skips re-evaluating what depends on parameters only: hot loops over blocks use both.
+        ``names`` limits the work to what those values need (e.g. ("a", "b", "c") skips readout-only
+        definitions and the data quantities only they use). ``buffers`` (one per thread) makes hot loops
+        write into reused arrays; the values returned then live in them until the next call.
         """
+        plan = self.plan(names)
         x = np.asarray(x, dtype=np.float64)
         y = np.asarray(y, dtype=np.float64)
         env = dict(prepared if prepared is not None else self.prepare(parameters))
         env[self._internal[self.variables[0]]] = x
         env[self._internal[self.variables[1]]] = y
-        if self.data_keys:
+        if plan.data_keys:
             if data is None:
-                raise ExpressionError(f"background data are needed for {', '.join(self.data_keys)}")
-            for key in self.data_keys:
+                raise ExpressionError(f"background data are needed for {', '.join(plan.data_keys)}")
+            for key in plan.data_keys:
                 env[self._internal[key]] = np.asarray(data.sample(key, x, y), dtype=np.float64)
-        values: dict[str, np.ndarray] = {}
-        for step in self._steps:
-            if step.pointwise and step.target not in env:   # (a grid run may have it from along_axes)
-                if step.alias is not None:
-                    env[step.target] = env[step.alias]
+        if buffers is not None:
+            buffers.reclaim()
+            shape = np.broadcast_shapes(x.shape, y.shape)
+        owned: dict[int, int] = {}   # id of a buffer -> how many names in env hold it
+        for step, released, everywhere in plan.work:
+            if step.target not in env:   # (a grid run may have it from along_axes)
+                if buffers is not None and everywhere and step.alias is None:
+                    value = self._run(step, env, buffers.take(shape, bool if step.statement.boolean else np.float64))
+                    owned[id(value)] = 1
                 else:
-                    env[step.target] = numexpr.evaluate(step.code, local_dict=env)
-            values[step.name] = env[step.target]
-        return values
+                    value = self._run(step, env)
+                    if id(value) in owned:   # an alias of a buffer
+                        owned[id(value)] += 1
+                env[step.target] = value
+            for target in released:
+                value = env.pop(target)
+                if owned.get(id(value), 0) == 1:
+                    del owned[id(value)]
+                    buffers.give_back(value)  # type: ignore[union-attr]
+                elif id(value) in owned:
+                    owned[id(value)] -= 1
+        return {name: env[self._internal[name]] for name in plan.names}
 
     def prepare(self, parameters: Mapping[str, float] | None = None) -> dict[str, object]:
         """Parameter values and every parameter-only step, evaluated once for many blocks of points."""
         env: dict[str, object] = {NAN_NAME: np.float64(np.nan), INF_NAME: np.float64(np.inf)}
         for name, value in self.parameter_vector(parameters).items():
             env[self._internal[name]] = np.float64(value)
-        with np.errstate(all="ignore"):
-            for step in self._steps:
-                if not step.pointwise:
-                    env[step.target] = np.float64(numexpr.evaluate(step.code, local_dict=env))
+        for step in self._steps:
+            if not step.varies:
+                env[step.target] = np.asarray(self._run(step, env))[()]
         return env
 
-    def along_axes(self, prepared: Mapping[str, object], x_nodes: np.ndarray, y_nodes: np.ndarray
+    def along_axes(self, prepared: Mapping[str, object], x_nodes: np.ndarray, y_nodes: np.ndarray, *,
+                   names: Iterable[str] | None = None
                    ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
         """Steps of a grid run that depend on one variable only, evaluated once on that axis.
 
         Returns ({internal name: (1, nx) row}, {internal name: (ny, 1) column}); a block of rows adds the
         rows to ``prepared`` and the matching slice of the columns, and evaluate_raw skips those steps.
+        ``names`` as in ``evaluate_raw``.
         """
+        plan = self.plan(names)
         first, second = (self._internal[v] for v in self.variables)
         along_x = dict(prepared)
         along_x[first] = np.asarray(x_nodes, dtype=np.float64)[np.newaxis, :]
@@ -175,24 +331,23 @@ class CompiledEquation:
         along_y[second] = np.asarray(y_nodes, dtype=np.float64)[:, np.newaxis]
         rows: dict[str, np.ndarray] = {}
         columns: dict[str, np.ndarray] = {}
-        for step in self._steps:
-            for inputs, env, out in ((frozenset({first}), along_x, rows), (frozenset({second}), along_y, columns)):
-                if step.pointwise and step.inputs == inputs:
-                    value = env[step.alias] if step.alias is not None else \
-                        numexpr.evaluate(step.code, local_dict=env)
-                    env[step.target] = out[step.target] = value
+        targets_x, targets_y = set(plan.along_first), set(plan.along_second)
+        for step, _, _ in plan.work:
+            for targets, env, out in ((targets_x, along_x, rows), (targets_y, along_y, columns)):
+                if step.target in targets:
+                    env[step.target] = out[step.target] = self._run(step, env)
         return rows, columns
 
     def coefficients(self, x, y, *, parameters: Mapping[str, float] | None = None,
                      data: QuantitySource | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(a, b, c) at the points, each an array of the broadcast shape of x and y."""
-        values = self.evaluate(x, y, parameters=parameters, data=data)
+        values = self.evaluate(x, y, parameters=parameters, data=data, names=COEFFICIENT_NAMES)
         return values["a"], values["b"], values["c"]
 
     def coefficients_raw(self, x, y, *, parameters: Mapping[str, float] | None = None,
                          data: QuantitySource | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(a, b, c) at the points, each in its smallest broadcastable shape (see ``evaluate_raw``)."""
-        values = self.evaluate_raw(x, y, parameters=parameters, data=data)
+        values = self.evaluate_raw(x, y, parameters=parameters, data=data, names=COEFFICIENT_NAMES)
         return values["a"], values["b"], values["c"]
 
     def parameter_vector(self, parameters: Mapping[str, float] | None) -> dict[str, float]:
@@ -292,23 +447,20 @@ def compile_equation(equation: Equation, *, data_names: tuple[str, ...] | frozen
                         if kinds.get(n) == "data quantity" or n.startswith("diff(")})
     internal = {name: f"q{i}" for i, name in enumerate(list(symbols) + list(COEFFICIENT_NAMES))}
     by_symbol = {symbols[name]: internal[name] for name in symbols}
+    sources = {internal[n]: frozenset({internal[n]}) for n in (*variables, *used_data)}
+    roots = [(internal[name], name if name in COEFFICIENT_NAMES else f"definitions.{name}", parsed[name])
+             for name in (*order, *COEFFICIENT_NAMES)]
+    try:
+        program = build_program(roots, by_symbol, axes=[internal[v] for v in variables], sources=sources)
+    except CodegenError as error:
+        raise ExpressionError(error.message, field=error.field) from None
     steps = []
-    pointwise_names = set(variables) | set(used_data)
-    depends: dict[str, frozenset[str]] = {n: frozenset({internal[n]}) for n in (*variables, *used_data)}
-    for name in (*order, *COEFFICIENT_NAMES):
-        try:
-            code = to_numexpr(parsed[name], by_symbol)
-        except CodegenError as error:
-            prefix = "definitions." if name not in COEFFICIENT_NAMES else ""
-            raise ExpressionError(str(error), field=prefix + name) from None
-        pointwise = bool(uses[name] & pointwise_names)
-        inputs = frozenset().union(*(depends.get(n, frozenset()) for n in uses[name]))
-        if pointwise:
-            pointwise_names.add(name)
-            depends[name] = inputs
-        alias = code if code in internal.values() else None
-        steps.append(_Step(name=name, target=internal[name], code=code, pointwise=pointwise, alias=alias,
-                           inputs=inputs))
+    varies: dict[str, frozenset[str]] = dict(sources)
+    for statement in program:
+        depends = frozenset().union(*(varies.get(n, frozenset()) for n in statement.inputs))
+        varies[statement.target] = depends
+        alias = statement.code if statement.inputs == (statement.code,) else None
+        steps.append(_Step(statement=statement, alias=alias, varies=depends))
     return CompiledEquation(
         equation=equation,
         variables=variables,  # type: ignore[arg-type]
