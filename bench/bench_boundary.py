@@ -17,7 +17,8 @@ from records import figure
 from core.analysis.classify import classify_grid
 from core.analysis.type_change_lines import find_type_boundaries
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 
 NODES = 1024
 REPEATS = 15

@@ -21,7 +21,8 @@ from timing import best_time
 
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_grid
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 
 CASES = {
     # D = 4(x^2 + y^2 - 1): a polynomial field that depends on both variables.

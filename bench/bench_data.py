@@ -24,7 +24,7 @@ from timing import best_time  # bench/ is on sys.path (script dir or bench/run.p
 from core.analysis.classify import TypeCode, classify_grid
 from core.data.sources import DataSources, load_data
 from core.domain import Domain
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.equations.templates import load_template
 
 DATA = pathlib.Path(__file__).resolve().parents[1] / "resources" / "demo" / "data"

@@ -37,7 +37,7 @@ from core.analysis.classify import classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
 from core.domain import Domain
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.results.readouts import peak_quantity
 
 PEAK_QUANTITIES = {"formula_flow": "u"}     # what each case's pockets report the peak of

@@ -33,7 +33,8 @@ from scipy.integrate import solve_ivp
 from core.analysis.directions import Family, characteristic_directions
 from core.analysis.tracing import trace_characteristics
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 
 __all__ = ["main", "run"]
 

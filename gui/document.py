@@ -16,7 +16,8 @@ from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoStack
 
 from core.domain import Domain
-from core.equations.equation import CompiledEquation, Equation, Parameter
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import Equation, Parameter
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
 from core.project.model import Pin, Project, Seed

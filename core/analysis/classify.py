@@ -22,7 +22,9 @@ import numpy as np
 
 from core.analysis.discriminant import DiscriminantScratch, normalized_discriminant_into
 from core.domain import Domain
-from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, EvaluationBuffers, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import COEFFICIENT_NAMES, QuantitySource
+from core.equations.evaluation import EvaluationBuffers
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [

@@ -18,7 +18,8 @@ import contourpy
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = ["Pocket", "node_areas", "pocket_outline", "pocket_statistics", "pockets_and_labels"]

@@ -17,7 +17,8 @@ from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, classify_points
 from core.analysis.directions import characteristic_directions, parabolic_direction
 from core.analysis.discriminant import discriminant
 from core.domain import Domain
-from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import COEFFICIENT_NAMES, QuantitySource
 
 __all__ = ["VERTICAL_TOLERANCE", "ProbeResult", "probe_point"]
 

@@ -19,7 +19,7 @@ import numpy as np
 from core.analysis.directions import unit_direction
 from core.analysis.discriminant import discriminant, scaled_by_power_of_two
 from core.domain import Domain
-from core.equations.equation import CompiledEquation
+from core.equations.compiled import CompiledEquation
 from core.progress import Cancelled
 
 __all__ = ["BLOCKED", "EDGE", "LENGTH", "MIN_STEP", "REASON_NAMES", "STALLED", "STEPS", "TYPE_CHANGE", "UNDEFINED",

@@ -28,7 +28,8 @@ from core.analysis.stepping import (
     trace_legs,
 )
 from core.domain import Domain
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import QuantitySource
 from core.progress import CancelCheck, ProgressReport
 
 __all__ = ["END_REASONS", "EVENT_KINDS", "MAX_BOUNCES", "CharacteristicCurve", "CurveEvent", "seeds_along_segment",

@@ -23,7 +23,8 @@ from core.analysis.classify import TypeCode, TypeMap
 from core.analysis.parabolic_regions import ParabolicRegion, parabolic_cells, parabolic_regions
 from core.analysis.strip_contours import zero_lines
 from core.analysis.zero_refinement import PointFunction, discriminant_function, roots_on_segments
-from core.equations.equation import CompiledEquation, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [

@@ -11,7 +11,8 @@ from collections.abc import Callable, Mapping
 import numpy as np
 
 from core.analysis.discriminant import discriminant
-from core.equations.equation import COEFFICIENT_NAMES, CompiledEquation, QuantitySource
+from core.equations.compiled import CompiledEquation
+from core.equations.equation import COEFFICIENT_NAMES, QuantitySource
 from core.progress import CancelCheck, Cancelled
 
 __all__ = ["PointFunction", "discriminant_function", "roots_on_segments"]

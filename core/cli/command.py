@@ -11,7 +11,7 @@ from typing import TextIO
 
 from core.cli.options import UsageError
 from core.cli.study import Study, build_study
-from core.equations.equation import CompiledEquation
+from core.equations.compiled import CompiledEquation
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
 from core.results.document import data_files_document, json_number, point_list, project_file_checksum

@@ -14,7 +14,8 @@ from datetime import datetime
 
 import sympy
 
-from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError, check_name
 from core.equations.parser import find_data_names, parse_expression
 from core.project.form_checks import clip, json_path

@@ -22,7 +22,8 @@ from pathlib import Path, PurePosixPath, PureWindowsPath
 import numpy as np
 
 from core.data.sources import DataError, DataSet, DataSources, file_checksum, load_data, parse_quantity_key
-from core.equations.equation import CompiledEquation, Equation, compile_equation
+from core.equations.compiled import CompiledEquation, compile_equation
+from core.equations.equation import Equation
 from core.progress import CancelCheck, Cancelled, ProgressReport
 from core.project.checks import equation_data_names
 from core.project.form_checks import json_path

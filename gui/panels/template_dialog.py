@@ -25,7 +25,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.equations.language import ExpressionError
 from core.equations.templates import Template, TemplateError, list_templates, load_template
 from gui.math_render import equation_html

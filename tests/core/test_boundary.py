@@ -19,7 +19,8 @@ from core.analysis.type_change_lines import (
 )
 from core.analysis.zero_refinement import discriminant_function, roots_on_segments
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.progress import Cancelled
 
 X, Y = sympy.symbols("x y", real=True)

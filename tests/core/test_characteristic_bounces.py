@@ -9,7 +9,8 @@ import pytest
 from core.analysis.directions import Family
 from core.analysis.tracing import END_REASONS, EVENT_KINDS, MAX_BOUNCES, trace_characteristics
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 
 BOX = Domain(-2.0, 2.0, -2.0, 1.0, name="box")
 

@@ -10,7 +10,8 @@ from hypothesis import strategies as st
 from core.analysis.directions import Family, characteristic_directions, parabolic_direction
 from core.analysis.tracing import END_REASONS, seeds_along_segment, trace_characteristics
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.progress import Cancelled
 from core.project.model import Seed
 

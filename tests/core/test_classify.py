@@ -10,7 +10,8 @@ from hypothesis import strategies as st
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.progress import Cancelled
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, 81, 61)

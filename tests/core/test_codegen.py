@@ -11,7 +11,9 @@ from core.analysis.classify import TypeCode, classify_grid
 from core.domain import Domain
 from core.equations import codegen
 from core.equations.codegen import build_program
-from core.equations.equation import Equation, EvaluationBuffers, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
+from core.equations.evaluation import EvaluationBuffers
 from core.equations.language import ExpressionError
 from core.progress import Cancelled
 

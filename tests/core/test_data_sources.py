@@ -11,7 +11,8 @@ from scipy import ndimage
 from core.analysis.classify import TypeCode, classify_grid
 from core.data.sources import DataError, DataSources, load_data, parse_quantity_key
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 from core.equations.templates import load_template
 
 DEMO = pathlib.Path(__file__).resolve().parents[2] / "resources" / "demo" / "data"

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 import sympy
 
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.equations.language import ExpressionError
 
 FLOW = Equation(

@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 
 from core.analysis.classify import TypeCode, classify_grid
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 from core.equations.language import ExpressionError
 from core.equations.parser import parse_expression, tidy_expression
 from tests.core.cli_runner import run_json

@@ -9,7 +9,8 @@ from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import node_areas, pocket_outline, pocket_statistics, pockets_and_labels
 from core.data.sources import DataSources, load_data
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.equations.templates import load_template
 from core.progress import Cancelled
 

@@ -9,7 +9,8 @@ import pytest
 from core.analysis.classify import TypeCode, classify_points
 from core.analysis.probe import probe_point
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.results.document import probe_to_dict
 
 SQUARE = Domain(-1.0, 1.0, -1.0, 1.0, name="square")

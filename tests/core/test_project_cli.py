@@ -12,7 +12,7 @@ import pytest
 
 from core.analysis.classify import classify_grid
 from core.domain import Domain
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.project.io import ProjectError, load_project
 from core.project.model import demo_project_path
 from tests.ceilings import HANG_CEILING_S

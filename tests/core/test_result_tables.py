@@ -11,7 +11,8 @@ import numpy as np
 
 from core.analysis.probe import probe_point
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 from core.results.document import results_document
 from core.results.tables import (
     CHARACTERISTIC_COLUMNS,

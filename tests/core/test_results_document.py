@@ -17,7 +17,8 @@ from core.analysis.probe import probe_point
 from core.analysis.tracing import trace_characteristics
 from core.analysis.type_change_lines import find_type_boundaries
 from core.domain import Domain
-from core.equations.equation import Equation, Parameter, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation, Parameter
 from core.project.io import save_project
 from core.project.model import Pin, Seed, new_project
 from core.results.document import map_fields, results_document, type_labels

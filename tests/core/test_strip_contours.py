@@ -8,7 +8,8 @@ from core.analysis import strip_contours
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.type_change_lines import find_type_boundaries
 from core.domain import Domain
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 
 CASES = {
     # D = 4 (x^2 + y^2 - 1): the unit circle, through nodes where D is exactly 0 (odd node counts)

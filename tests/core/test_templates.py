@@ -10,7 +10,7 @@ import pytest
 from scipy import integrate, optimize
 
 from core.analysis.classify import TypeCode, classify_grid, classify_points
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.equations.templates import TemplateError, list_templates, load_template
 from core.equations.trade import (
     internal_wave_ray_slope,

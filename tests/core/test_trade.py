@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from core.data.sources import DataSources, load_data
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 from core.equations.trade import (
     READOUT_UNITS,
     check_trade_spec,

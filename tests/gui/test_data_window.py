@@ -12,7 +12,7 @@ import pytest
 
 from core.analysis.classify import TypeCode, classify_grid
 from core.data.sources import DataSources, file_checksum, load_data
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.equations.templates import load_template
 from tests.ceilings import HANG_CEILING_MS, HANG_CEILING_S
 from tests.gui.conftest import hump_project

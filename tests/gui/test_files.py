@@ -10,7 +10,7 @@ import pytest
 
 from core.analysis.classify import TypeCode
 from core.analysis.probe import probe_point
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.project.model import Seed
 from tests.gui.conftest import hump_project, tricomi_project
 

@@ -9,7 +9,8 @@ from PySide6.QtGui import QKeySequence, QMouseEvent
 from PySide6.QtWidgets import QApplication
 
 from core.analysis.classify import TypeCode
-from core.equations.equation import Equation, compile_equation
+from core.equations.compiled import compile_equation
+from core.equations.equation import Equation
 from gui.main_window import ABOUT_TEXT, CAUTION
 from gui.math_render import equation_html, expression_html
 from gui.palette import type_lookup_table

@@ -13,7 +13,7 @@ import pytest
 import core
 from core.analysis.pockets import pocket_statistics
 from core.analysis.probe import probe_point
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.project.model import Seed
 from core.results.document import pocket_document, probe_to_dict
 from core.results.readouts import read_trade

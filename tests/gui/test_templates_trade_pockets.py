@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from core.analysis.pockets import pocket_statistics
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from core.equations.templates import load_template
 from core.results.readouts import read_trade
 from gui.panels.pins import trade_rows

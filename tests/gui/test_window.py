@@ -10,7 +10,7 @@ from PySide6.QtCore import QPoint, Qt
 
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.probe import probe_point
-from core.equations.equation import compile_equation
+from core.equations.compiled import compile_equation
 from gui.palette import TYPE_COLOURS
 from tests.ceilings import HANG_CEILING_MS
 from tests.gui.conftest import hump_project, tricomi_project
