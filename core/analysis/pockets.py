@@ -245,7 +245,7 @@ def _quantity_at(compiled: CompiledEquation, quantity: str, px: np.ndarray, py: 
                  data) -> np.ndarray:
     """``quantity`` at the points (px, py)."""
     if quantity in compiled.definition_order or quantity in ("a", "b", "c"):
-        raw = compiled.evaluate_raw(px, py, data=data, prepared=prepared)[quantity]
+        raw = compiled.evaluate_raw(px, py, data=data, prepared=prepared, names=(quantity,))[quantity]
         return np.array(np.broadcast_to(raw, px.shape), dtype=np.float64)
     return np.asarray(data.sample(quantity, px, py), dtype=np.float64)
 

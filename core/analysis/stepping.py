@@ -20,6 +20,7 @@ from core.analysis.directions import unit_direction
 from core.analysis.discriminant import discriminant, scaled_by_power_of_two
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
+from core.equations.equation import COEFFICIENT_NAMES
 from core.progress import Cancelled
 
 __all__ = ["BLOCKED", "EDGE", "LENGTH", "MIN_STEP", "REASON_NAMES", "STALLED", "STEPS", "TYPE_CHANGE", "UNDEFINED",
@@ -64,13 +65,13 @@ class DirectionField:
 
     def coefficients(self, x, y):
         """a, b, c at (x, y), each broadcast to the shape of x."""
-        raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared)
-        return tuple(np.broadcast_to(raw[name], np.shape(x)) for name in ("a", "b", "c"))
+        raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared, names=COEFFICIENT_NAMES)
+        return tuple(np.broadcast_to(raw[name], np.shape(x)) for name in COEFFICIENT_NAMES)
 
     def __call__(self, x, y, sign, ref_x, ref_y):
         """Directions at (x, y) turned to make a positive dot product with (ref_x, ref_y); also the sign of D
         there, as D of a, b, c scaled by a power of two (exact; only its sign is used, and it cannot overflow)."""
-        raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared)
+        raw = self.compiled.evaluate_raw(x, y, data=self.data, prepared=self.prepared, names=COEFFICIENT_NAMES)
         a, b, c = scaled_by_power_of_two(raw["a"], raw["b"], raw["c"])
         d = discriminant(a, b, c)
         dx, dy = unit_direction(a, b, c, sign, d)

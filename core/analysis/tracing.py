@@ -29,7 +29,7 @@ from core.analysis.stepping import (
 )
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
-from core.equations.equation import QuantitySource
+from core.equations.equation import COEFFICIENT_NAMES, QuantitySource
 from core.progress import CancelCheck, ProgressReport
 
 __all__ = ["END_REASONS", "EVENT_KINDS", "MAX_BOUNCES", "CharacteristicCurve", "CurveEvent", "seeds_along_segment",
@@ -160,7 +160,8 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
 
     # The seeds: which ones can be traced, and the starting direction of every half-curve.
     with np.errstate(all="ignore"):
-        raw = compiled.evaluate_raw(seeds[:, 0], seeds[:, 1], data=data, prepared=field.prepared)
+        raw = compiled.evaluate_raw(seeds[:, 0], seeds[:, 1], data=data, prepared=field.prepared,
+                                    names=COEFFICIENT_NAMES)
         a, b, c = np.broadcast_arrays(raw["a"], raw["b"], raw["c"], np.empty(len(seeds)))[:3]
         d = discriminant(*scaled_by_power_of_two(a, b, c))   # its sign only: exact, and it cannot overflow
         directions = dict(zip(Family, characteristic_directions(a, b, c)))
