@@ -3,7 +3,7 @@
 Each case runs in a fresh interpreter (``python bench/bench_pipeline.py --case NAME --nodes N``) that
 imports everything, compiles the equation and runs the pipeline once on a tiny grid (so that every lazy
 import and cache is in place), then reads its resident-set high-water mark (``resource.getrusage``
-``ru_maxrss``, Linux: KiB) as the baseline and runs classify_grid, find_type_boundaries and
+``VmHWM``, Linux; ru_maxrss elsewhere) as the baseline and runs classify_grid, find_type_boundaries and
 pocket_statistics as the command does. Peak memory is the high-water mark after the pipeline minus the
 baseline: it counts every allocation (numpy, contourpy's C++ vectors, scipy.ndimage's buffers), which
 tracemalloc would not, and includes the type map itself. Times are the best of ``repeats`` runs in the same
@@ -64,6 +64,15 @@ def _pipeline(compiled, equation, domain: Domain) -> tuple[float, float, float, 
 
 
 def _peak_rss_bytes() -> int:
+    """This process's resident high-water mark. On Linux VmHWM of /proc/self/status: ru_maxrss would carry
+    the parent's high-water mark across fork and exec (bench/run.py's own peak then hid every case's)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as status:
+            for line in status:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) * 1024
+    except OSError:
+        pass
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024     # Linux reports KiB
 
 
@@ -101,7 +110,7 @@ SMOKE = {"sizes": (48,), "repeats": 1}     # python bench/run.py --smoke: every 
 
 def run(sizes=(4096, 8192), repeats: int = 2, cases=tuple(CASES)) -> dict:
     """Every case at every size, each in its own interpreter; figures and target records."""
-    results: dict = {"memory_method": "ru_maxrss of a fresh interpreter per case, minus its value after "
+    results: dict = {"memory_method": "resident high-water mark (VmHWM) of a fresh interpreter per case, minus its value after "
                                       "imports and a warm-up run"}
     records = []
     for nodes in sizes:
