@@ -2,8 +2,8 @@
 
 Each case runs in a fresh interpreter (``python bench/bench_pipeline.py --case NAME --nodes N``) that
 imports everything, compiles the equation and runs the pipeline once on a tiny grid (so that every lazy
-import and cache is in place), then reads its resident-set high-water mark (``resource.getrusage``
-``VmHWM``, Linux; ru_maxrss elsewhere) as the baseline and runs classify_grid, find_type_boundaries and
+import and cache is in place), then reads its resident-set high-water mark (VmHWM of /proc/self/status on
+Linux, ``resource.getrusage`` elsewhere) as the baseline and runs classify_grid, find_type_boundaries and
 pocket_statistics as the command does. Peak memory is the high-water mark after the pipeline minus the
 baseline: it counts every allocation (numpy, contourpy's C++ vectors, scipy.ndimage's buffers), which
 tracemalloc would not, and includes the type map itself. Times are the best of ``repeats`` runs in the same
