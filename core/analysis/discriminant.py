@@ -81,13 +81,23 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
         half_b = np.multiply(b, 0.5)
         quarter_b2 = np.multiply(half_b, half_b)        # b^2/4
         product = np.multiply(a, c)                     # ac
+        size_of_parts = np.size(quarter_b2) + np.size(product)
+        absolute = np.abs(product)
         np.subtract(quarter_b2, product, out=numerator)  # D/4
-        np.add(quarter_b2, np.abs(product), out=scale)  # S/4
+        np.add(quarter_b2, absolute, out=scale)         # S/4
         np.divide(numerator, scale, out=out, casting="same_kind")  # D/S, stored as out's dtype
-    # Where the scale under- or overflowed (or a coefficient is not finite: NaN or inf scale), compute again from
-    # coefficients scaled by a power of two. 0/0 stays 0 only where a = b = c = 0 (D = 0 exactly); genuinely
-    # non-finite coefficients stay NaN.
-    if scale.size and scale.min() > _SAFE_SCALE and scale.max() < np.inf:   # two reductions: no NaN, all safe
+        # Where the scale under- or overflowed (or a coefficient is not finite: NaN or inf scale), compute again
+        # from coefficients scaled by a power of two. 0/0 stays 0 only where a = b = c = 0 (D = 0 exactly);
+        # genuinely non-finite coefficients stay NaN. Whether every point is safe is read from bounds of the
+        # scale: from its parts when they are smaller than the block (a row, a column), else from the scale.
+        if not scale.size:
+            return
+        if size_of_parts < scale.size:
+            low = np.min(quarter_b2) + np.min(absolute)
+            high = np.max(quarter_b2) + np.max(absolute)
+        else:
+            low, high = scale.min(), scale.max()
+    if low > _SAFE_SCALE and high < np.inf:   # no NaN, every point safe: the fast path is exact
         return
     suspect = ~((scale > _SAFE_SCALE) & (scale < np.inf))
     if suspect.any():

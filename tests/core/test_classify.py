@@ -192,3 +192,12 @@ def test_scaling_by_any_representable_power_of_two_keeps_the_type(a, b, c, expon
     plain, _ = classify_points(compiled, *point)
     big, _ = classify_points(compiled, *point, parameters={"p": scaled})
     assert big.tolist() == plain.tolist()
+
+
+def test_underflow_in_part_of_a_grid_is_found_when_coefficients_are_rows_or_columns():
+    # c is a column (depends on y only) that underflows b^2 and ac in half the rows: those rows must still be
+    # elliptic like the others (a u_xx + c u_yy with a, c > 0: common practice, no source).
+    result = type_map("1e-170", "0", "piecewise(y < 0, 1e-170, 1)")
+    assert (result.codes == TypeCode.ELLIPTIC).all()
+    result = type_map("1e160", "0*x", "piecewise(y < 0, -1e160, -1)")
+    assert (result.codes == TypeCode.HYPERBOLIC).all()
