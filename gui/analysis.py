@@ -4,7 +4,7 @@ Listens to the document's specific signals and asks the job runner for exactly t
 a new type map (then its type-change lines and its hyperbolic pockets), characteristics for the seeds, probes
 (with the trade quantities of the equation) for the pins, and the hover readout. Every computation uses the
 document's background data. Requests made in one pass of the event loop are coalesced. Every number comes
-from core (classify_grid, find_type_boundaries, pocket_statistics, trace_characteristics, probe_point,
+from core (classify_grid, find_type_boundaries, pockets_and_labels, trace_characteristics, probe_point,
 read_trade, peak_quantity); this module only schedules.
 """
 

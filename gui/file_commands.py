@@ -89,9 +89,7 @@ class FileCommands:
             self.report_error("Could not open the study", str(error))
             return False
         self.document.replace_project(project, path)
-        self.preferences.add_recent_file(path)
-        self.preferences.set_last_folder(str(Path(path).resolve().parent))
-        self._refresh_recent_menu()
+        self._remember(path)
         self._after_replace()
         return True
 
@@ -120,12 +118,16 @@ class FileCommands:
             self.report_error("Could not save the study", str(error))
             return False
         self.document.mark_saved(path, written)
-        self.preferences.add_recent_file(path)
-        self.preferences.set_last_folder(str(Path(path).resolve().parent))
-        self._refresh_recent_menu()
+        self._remember(path)
         self.remove_recovery()
         self.statusBar().showMessage(f"Saved {path}", 5000)
         return True
+
+    def _remember(self, path: str | Path) -> None:
+        """A study just opened or saved at ``path``: first of the recent files, its folder the next to offer."""
+        self.preferences.add_recent_file(path)
+        self.preferences.set_last_folder(str(Path(path).resolve().parent))
+        self._refresh_recent_menu()
 
     def _refresh_recent_menu(self) -> None:
         self.recent_menu.clear()

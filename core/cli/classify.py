@@ -10,14 +10,14 @@ from typing import TextIO
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
-from core.cli.command import compiled_study, data_document, read_study, source_fields
+from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
 from core.data.sources import DataError
 from core.project.data_files import data_source_ref
 from core.project.io import ProjectError, save_project
 from core.project.model import ViewSettings, new_project
-from core.results.document import map_fields, study_fields
+from core.results.document import data_files_document, map_fields, study_fields
 from core.results.readouts import peak_quantity
 
 __all__ = ["MAX_POCKET_ROWS", "run"]
@@ -42,7 +42,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                              boundaries=boundaries, pockets=pockets),
                 **study_fields(study.equation, study.parameters)}
     if study.data is not None:
-        document["data"] = data_document(study)
+        document["data"] = data_files_document(study.data)
     document.update(source_fields(study))
     if args.json:
         json.dump(document, out)

@@ -14,9 +14,9 @@ from core.cli.study import Study, build_study
 from core.equations.compiled import CompiledEquation
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
-from core.results.document import data_files_document, json_number, point_list, project_file_checksum
+from core.results.document import project_file_checksum
 
-__all__ = ["compiled_study", "data_document", "json_number", "points", "read_study", "source_fields"]
+__all__ = ["compiled_study", "read_study", "source_fields"]
 
 
 def read_study(args: argparse.Namespace, err: TextIO) -> Study:
@@ -38,14 +38,6 @@ def compiled_study(study: Study) -> CompiledEquation:
             hint = " (if it is a data quantity, give its file with --data)"
         raise UsageError(f"{option}: {error.message}" + (f" (column {error.column})" if error.column else "")
                          + hint) from None
-
-
-points = point_list   # an (n, 2) array of points as JSON pairs (core.results.document)
-
-
-def data_document(study: Study) -> list[dict]:
-    """Which data files a result was computed from: path, checksum, quantities."""
-    return data_files_document(study.data)
 
 
 def source_fields(study: Study) -> dict:

@@ -9,11 +9,11 @@ from typing import TextIO
 
 from core.analysis.classify import TypeCode
 from core.analysis.probe import probe_point
-from core.cli.command import compiled_study, data_document, read_study, source_fields
+from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
 from core.equations.trade import READOUT_UNITS
-from core.results.document import pin_document, probe_document, study_fields
+from core.results.document import data_files_document, pin_document, probe_document, study_fields
 from core.results.readouts import TradeReading, read_trade
 
 __all__ = ["run"]
@@ -50,7 +50,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             document = {"pins": [pin_document(pin, result, trade) for pin, (result, _, trade) in located_pins]}
         document.update(study_fields(study.equation, study.parameters, tolerance=study.tolerance))
         if study.data is not None:
-            document["data"] = data_document(study)
+            document["data"] = data_files_document(study.data)
         document.update(source_fields(study))
         json.dump(document, out)
         out.write("\n")
