@@ -41,6 +41,11 @@ class Domain:
             if isinstance(value, bool) or not isinstance(value, int) or not MIN_GRID <= value <= MAX_GRID:
                 raise ValueError(f"domain {self.name!r}: {label} must be an integer in "
                                  f"[{MIN_GRID}, {MAX_GRID}], got {value!r}")
+        if not math.isfinite(math.hypot(self.xmax - self.xmin, self.ymax - self.ymin)):
+            raise ValueError(f"domain {self.name!r}: too large: its width, height or diagonal overflows double "
+                             f"precision (about 1.8e308); shift or rescale the variables")
+        for axis, low, high, count in (("x", self.xmin, self.xmax, self.nx), ("y", self.ymin, self.ymax, self.ny)):
+            _check_resolvable(self.name, axis, low, high, count)
 
     @property
     def x_nodes(self) -> np.ndarray:
@@ -66,3 +71,22 @@ class Domain:
 
     def with_grid(self, nx: int, ny: int) -> Domain:
         return Domain(self.xmin, self.xmax, self.ymin, self.ymax, nx, ny, self.name)
+
+
+def _doubles_between(low: float, high: float) -> int:
+    """How many double-precision numbers lie in [low, high] (low <= high, both finite)."""
+    def ordinal(value: float) -> int:            # doubles in order map to consecutive integers
+        bits = int(np.float64(value).view(np.int64))
+        return bits if bits >= 0 else -(bits & 0x7FFFFFFFFFFFFFFF)
+    return ordinal(high) - ordinal(low) + 1
+
+
+def _check_resolvable(name: str, axis: str, low: float, high: float, count: int) -> None:
+    """Refuse an extent so narrow that its ``count`` grid nodes would not be distinct numbers."""
+    nodes = np.linspace(low, high, count)
+    if np.all(nodes[1:] > nodes[:-1]):
+        return
+    raise ValueError(f"domain {name!r}: {axis} from {low!r} to {high!r} is too narrow for {count} grid nodes "
+                     f"(double precision holds only {_doubles_between(low, high)} numbers there); widen it or "
+                     f"use fewer nodes")
+

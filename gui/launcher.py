@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import warnings
 from collections.abc import Sequence
 from typing import TextIO
 
@@ -84,6 +85,8 @@ def _open_window(argv: Sequence[str]) -> int:
 def main(argv: Sequence[str] | None = None, *, out: TextIO | None = None, err: TextIO | None = None) -> int:
     """Entry point of the ``mixtype`` script; returns the exit status."""
     argv = list(sys.argv[1:] if argv is None else argv)
+    if not sys.warnoptions:  # a user's terminal gets one-line messages, never a library's warning text
+        warnings.simplefilter("ignore")  # (python -W ... still shows them; tests/fuzz sees them in core.cli)
     if _opens_window(argv):
         return _open_window(argv)
     return run_command(argv, out=out, err=err, extra_commands=(RENDER,))

@@ -12,17 +12,29 @@ command registry (core.cli.registry): a command's implementation, with numpy and
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 from collections.abc import Sequence
 
 import core
-from core.cli.options import EXIT_BAD_INPUT, Command, UsageError
+from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, Command, UsageError
+from core.cli.printable import PrintableStream
 from core.cli.registry import HEADLESS_COMMANDS
 
 __all__ = ["HEADLESS_COMMANDS", "UsageError", "main"]
 
 
+# Every number Python's float() reads, negative: argparse's own pattern (-5, -.5) leaves out exponents and
+# infinities, so `--at 0 -5e-1` or `--domain -1e308 ...` would be read as unknown options.
+_NEGATIVE_NUMBER = re.compile(r"^-(\d[\d_]*\.?[\d_]*|\.\d[\d_]*)([eE][-+]?\d[\d_]*)?$|^-(inf|infinity|nan)$",
+                              re.IGNORECASE)
+
+
 class _Parser(argparse.ArgumentParser):
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self._negative_number_matcher = _NEGATIVE_NUMBER   # argparse's hook for what counts as a number
+
     def error(self, message: str):  # one line, no usage dump
         raise UsageError(message)
 
@@ -64,8 +76,8 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None,
          extra_commands: Sequence[Command] = ()) -> int:
     """Run one command; returns the exit status. ``extra_commands`` are added by the window's launcher."""
     argv = list(sys.argv[1:] if argv is None else argv)
-    out = out or sys.stdout
-    err = err or sys.stderr
+    out = PrintableStream(out or sys.stdout)        # nothing typed or read reaches the terminal raw
+    err = PrintableStream(err or sys.stderr)
     commands = {command.name: command for command in (*HEADLESS_COMMANDS, *extra_commands)}
     try:
         args = _build_parser(tuple(commands.values())).parse_args(_glue_expression_values(argv))
@@ -81,12 +93,26 @@ def main(argv: Sequence[str] | None = None, *, out=None, err=None,
         return EXIT_BAD_INPUT
     except SystemExit as exit_request:  # --help
         return int(exit_request.code or 0)
+    except BrokenPipeError:  # the reader went away (e.g. `| head`): nothing more to say to it
+        return EXIT_OK
     except (OSError, ValueError) as error:  # ValueError includes a bad expression (ExpressionError)
-        err.write(f"mixtype: {error}\n")
+        err.write(f"mixtype: {_one_line(error)}\n")
+        return EXIT_BAD_INPUT
+    except MemoryError:
+        err.write("mixtype: not enough memory for this request; use a smaller grid, fewer seeds or smaller data "
+                  "files\n")
+        return EXIT_BAD_INPUT
+    except RecursionError:
+        err.write("mixtype: the input is nested too deeply to handle\n")
         return EXIT_BAD_INPUT
     except Exception as error:  # noqa: BLE001 - never a traceback in the user's face
-        err.write(f"mixtype: internal error ({type(error).__name__}): {error}\n")
+        err.write(f"mixtype: internal error ({type(error).__name__}): {_one_line(error)}\n")
         return 1
+
+
+def _one_line(error: BaseException) -> str:
+    """An exception's message on one line (an OSError's or a library's may hold several)."""
+    return " ".join(str(error).split("\n")) or type(error).__name__
 
 
 if __name__ == "__main__":

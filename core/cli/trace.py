@@ -16,7 +16,9 @@ from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
 from core.results.document import curve_document, seed_document, study_fields
 
-__all__ = ["run"]
+__all__ = ["MAX_CURVES", "run"]
+
+MAX_CURVES = 100_000   # curves one trace command may ask for (seed points x families): about 5 s and 120 MB
 
 
 def _bounces_used(study: Study, args: argparse.Namespace) -> int:
@@ -50,24 +52,30 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 
 def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: TextIO) -> int:
-    """Trace the chosen families from every point of every seed of the project."""
-    if not study.project.seeds:
+    """Trace the chosen families from every point of every seed of the project, one seed at a time: each
+    seed's curves are written before the next seed is traced, so memory holds one seed's curves."""
+    seeds = study.project.seeds
+    if not seeds:
         raise UsageError(f"{args.file}: the project has no seeds; give --from X Y")
-    traced = []
-    for seed in study.project.seeds:
-        seed_points = seed.points()
-        curves = trace_characteristics(compiled, study.domain, seed_points, families=seed.families,
-                                       parameters=study.parameters, data=study.data,
-                                       bounces=_bounces_used(study, args))
-        traced.append((seed, seed_points, curves))
+    requested = sum(len(seed.points()) * len(seed.families) for seed in seeds)
+    if requested > MAX_CURVES:
+        raise UsageError(f"{args.file}: its seeds ask for {requested} curves; trace at most {MAX_CURVES} at once "
+                         f"(fewer seeds or fewer points along the segments)")
+
+    def traced():
+        for seed in seeds:
+            seed_points = seed.points()
+            yield seed, seed_points, trace_characteristics(
+                compiled, study.domain, seed_points, families=seed.families, parameters=study.parameters,
+                data=study.data, bounces=_bounces_used(study, args))
+
     if args.json:
-        document = {"seeds": [seed_document(seed, seed_points, curves) for seed, seed_points, curves in traced],
-                    **study_fields(study.equation, study.parameters), "source": study.source,
-                    **source_fields(study)}
-        json.dump(document, out)
-        out.write("\n")
+        rest = {**study_fields(study.equation, study.parameters), "source": study.source, **source_fields(study)}
+        out.write('{"seeds": [')
+        out.writelines((", " if index else "") + json.dumps(seed_document(seed, seed_points, curves)) for index, (seed, seed_points, curves) in enumerate(traced()))
+        out.write("], " + json.dumps(rest)[1:] + "\n")       # the same document as one json.dump of it all
         return EXIT_OK
-    for index, (seed, seed_points, curves) in enumerate(traced, 1):
+    for index, (seed, seed_points, curves) in enumerate(traced(), 1):
         kind = f"{len(seed_points)} points along a segment" if seed.is_segment else "one point"
         out.write(f"seed {index}" + (f" ({seed.label})" if seed.label else "") + f": {kind}, families "
                   f"{', '.join(map(str, seed.families))}\n")

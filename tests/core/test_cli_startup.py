@@ -50,7 +50,8 @@ def test_help_version_and_every_command_help_load_no_numpy_sympy_or_scipy():
     report = loaded_after(["--help"], ["--version"], *([name, "--help"] for name in commands))
     assert [status for status, _, _ in report["runs"]] == [0] * (2 + len(commands))
     assert report["heavy"] == []
-    assert report["core"] == ["core.cli", "core.cli.main", "core.cli.options", "core.cli.registry"]
+    assert report["core"] == ["core.cli", "core.cli.main", "core.cli.options", "core.cli.printable",
+                              "core.cli.registry"]
     outputs = [out for _, out, _ in report["runs"]]
     assert all(name in outputs[0] for name in commands)
     assert outputs[1].startswith("mixtype ")

@@ -1,0 +1,104 @@
+"""The command line under awkward input: every number form, control characters, huge requests, odd domains.
+
+Each case must end in a result or one located line on stderr with exit status 2, never a traceback or an
+"internal error" (common practice for command-line tools, no source).
+"""
+
+from __future__ import annotations
+
+import io
+
+import pytest
+
+import core.cli.trace
+from core.bundled import bundled_path
+from core.cli.main import main
+from core.cli.options import Command
+from core.cli.printable import PrintableStream, printable
+from core.domain import Domain
+from tests.core.cli_runner import run, run_json
+
+OCEAN = bundled_path("demo", "ocean_turning_depth.mixtype.json")     # a bundled demo with seeds
+LAPLACE = ("--a", "1", "--b", "0", "--c", "1")
+
+
+@pytest.mark.parametrize("text, value", [("-5e-1", -0.5), ("-1E-12", -1e-12), ("-1_0.5", -10.5), ("-.5", -0.5),
+                                         ("-5.", -5.0), ("-2e+3", -2000.0)])
+def test_every_negative_number_form_python_reads_is_an_option_value(text, value):
+    document = run_json("probe", *LAPLACE, "--domain", "-3000", "3000", "-3000", "3000", "--at", "0", text)
+    assert document["point"] == [0.0, value]
+    traced = run_json("trace", "--a", "1", "--b", "0", "--c", "-1", "--domain", "-3000", "3000", "-3000", "3000",
+                      "--from", text, "0")
+    assert traced["seed"] == [value, 0.0]
+
+
+def test_a_domain_given_in_exponent_notation():
+    document = run_json("classify", *LAPLACE, "--domain", "-1e-3", "-1E-4", "-2e1", "-1e1", "--grid", "4")
+    assert document["domain"] == [-1e-3, -1e-4, -20.0, -10.0]
+
+
+def test_minus_infinity_is_refused_as_a_number_not_taken_for_an_option():
+    status, _, err = run("probe", *LAPLACE, "--domain", "-1", "1", "-1", "1", "--at", "0", "-inf")
+    assert status == 2
+    assert "'-inf' is not a finite number" in err and "expected 2 arguments" not in err
+
+
+def test_control_characters_from_the_user_are_escaped_in_messages():
+    status, _, err = run("classify", *LAPLACE, "--let", "h\x1b[2J=1", "--domain", "-1", "1", "-1", "1")
+    assert status == 2
+    assert "\x1b" not in err and "h\\x1b[2J" in err
+    assert err.count("\n") == 1
+
+
+def test_printable_keeps_newlines_and_tabs_and_escapes_the_rest():
+    assert printable("a\tb\nc") == "a\tb\nc"
+    assert printable("\x07\x7f\x9b") == "\\x07\\x7f\\x9b"
+    assert printable("safe\u202eeman") == "safe\\u202eeman"            # right-to-left override
+    stream = io.StringIO()
+    PrintableStream(stream).writelines(["\x1b[31m", "red"])
+    assert stream.getvalue() == "\\x1b[31mred"
+
+
+def test_a_domain_one_ulp_wide_gets_a_message_a_user_understands():
+    with pytest.raises(ValueError, match=r"too narrow for 201 grid nodes \(double precision holds only 2 numbers"):
+        Domain(1.0, 1.0000000000000002, 0.0, 1.0)
+    status, _, err = run("classify", *LAPLACE, "--domain", "1", "1.0000000000000002", "0", "1")
+    assert status == 2 and "too narrow" in err and "increase" not in err
+
+
+def test_a_domain_whose_width_overflows_is_refused():
+    status, _, err = run("classify", *LAPLACE, "--domain", "-1e308", "1e308", "-1", "1", "--grid", "8")
+    assert status == 2 and "overflows double precision" in err
+
+
+def test_a_domain_reaching_the_largest_double_classifies():
+    document = run_json("classify", *LAPLACE, "--domain", "-1.7e308", "0", "-1", "1", "--grid", "8")
+    assert document["fractions"]["elliptic"] == 1.0
+
+
+def test_memory_and_recursion_errors_become_one_line_messages():
+    def exhausting(error):
+        def raise_it(args, out, err):
+            raise error
+        return raise_it
+
+    for error, words in ((MemoryError(), "not enough memory"), (RecursionError(), "nested too deeply")):
+        out, err = io.StringIO(), io.StringIO()
+        command = Command("exhaust", "test only", lambda parser: None, exhausting(error))
+        assert main(["exhaust"], out=out, err=err, extra_commands=(command,)) == 2
+        assert words in err.getvalue() and "internal error" not in err.getvalue()
+        assert err.getvalue().count("\n") == 1
+
+
+def test_a_trace_asking_for_too_many_curves_is_refused_before_tracing(monkeypatch):
+    monkeypatch.setattr(core.cli.trace, "MAX_CURVES", 3)
+    status, _, err = run("trace", str(OCEAN))
+    assert status == 2
+    assert "curves; trace at most 3 at once" in err
+
+
+def test_a_streamed_project_trace_is_one_json_document_with_the_usual_fields():
+    document = run_json("trace", str(OCEAN))
+    assert next(iter(document)) == "seeds" and document["seeds"]
+    assert all(curve["points"] for seed in document["seeds"] for curve in seed["curves"])
+    assert {"source", "project_checksum", "equation", "parameters"} <= set(document)
