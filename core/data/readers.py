@@ -27,7 +27,7 @@ from core.data.raw import DataError, RawData, checked_axis, failure_reason
 __all__ = ["read_raw"]
 
 _MISSING_TEXT = {"", "nan", "na", "n/a", "null", "none", "-"}
-_CSV_CHUNK_ROWS = 1 << 16                      # rows parsed into one block of values before the next
+_CSV_CHUNK_ROWS = 1 << 14                      # rows held as text before they are parsed into values
 _FORMAT_NAMES = {"csv": "CSV", "npz": "a NumPy .npz archive", "netcdf": "NetCDF", "vtu": "a VTU mesh",
                  "vtk": "a VTK mesh"}
 
@@ -138,37 +138,62 @@ def _csv_values(path: str, reader, lines: _ContentLines, header: list[str]) -> n
     width = len(header)
     budget = ValueBudget(path)
     blocks: list[np.ndarray] = []
-    block = np.empty((_CSV_CHUNK_ROWS, width))
-    filled = 0
+    pending: list[list[str]] = []
+    first_line = 0                      # line number of pending[0]
     for row in reader:
         if len(row) != width:
             raise DataError(f"{path}: line {lines.number} has {len(row)} value(s) but the header names "
                             f"{width} columns (a truncated or malformed row)")
-        if filled == _CSV_CHUNK_ROWS:
-            blocks.append(block)
-            budget.take(block.size, "the table's values")
-            block = np.empty((_CSV_CHUNK_ROWS, width))
-            filled = 0
-        target = block[filled]
+        if not pending:
+            first_line = lines.number
+        pending.append(row)
+        if len(pending) == _CSV_CHUNK_ROWS:
+            budget.take(len(pending) * width, "the table's values")
+            blocks.append(_parsed_block(path, pending, header, first_line))
+            pending = []
+    if pending:
+        budget.take(len(pending) * width, "the table's values")
+        blocks.append(_parsed_block(path, pending, header, first_line))
+    rows = sum(block.shape[0] for block in blocks)
+    if rows < 2:
+        raise DataError(f"{path}: needs at least 2 data rows under the header, got {rows}")
+    return blocks[0] if len(blocks) == 1 else np.concatenate(blocks)
+
+
+def _parsed_block(path: str, rows: list[list[str]], header: list[str], first_line: int) -> np.ndarray:
+    """A block of rows as float64: numpy parses numbers as Python's float() does; cells with a missing
+    marker or a problem are then read one by one (the message gives the line of the first bad cell)."""
+    try:
+        return np.array(rows, dtype=np.float64)
+    except (ValueError, TypeError):
+        pass
+    values = np.empty((len(rows), len(header)))
+    for index, row in enumerate(rows):
         for column, text_value in enumerate(row):
             cell = text_value.strip()
             if cell.lower() in _MISSING_TEXT:
-                target[column] = math.nan
+                values[index, column] = math.nan
                 continue
             try:
-                target[column] = float(cell)
+                values[index, column] = float(cell)
             except ValueError:
-                raise DataError(f"{path}: line {lines.number}, column {header[column]!r}: the value is not a "
+                line = _line_of_row_in_block(path, first_line, index)
+                raise DataError(f"{path}: line {line}, column {header[column]!r}: the value is not a "
                                 "number") from None
-        filled += 1
-    rows = sum(b.shape[0] for b in blocks) + filled
-    if rows < 2:
-        raise DataError(f"{path}: needs at least 2 data rows under the header, got {rows}")
-    budget.take(filled * width, "the table's values")
-    if not blocks:
-        return block[:filled]
-    blocks.append(block[:filled])
-    return np.concatenate(blocks)
+    return values
+
+
+def _line_of_row_in_block(path: str, first_line: int, index: int) -> int:
+    """The line of the ``index``-th data row counted from the one on ``first_line`` (re-read for a message)."""
+    with open(path, encoding="utf-8-sig", newline="") as handle:
+        lines = _ContentLines(handle, path)
+        seen = -1
+        for _ in csv.reader(lines):
+            if lines.number >= first_line:
+                seen += 1
+                if seen == index:
+                    return lines.number
+    return lines.number
 
 
 def _line_of_row(path: str, row: int) -> int:
