@@ -144,8 +144,8 @@ def data_source_ref(path: str | os.PathLike, project_path: str | os.PathLike, *,
 class DataSourceStatus:
     """One listed data file once looked for.
 
-    ``state`` is OPENED, CHANGED (loaded, but its checksum differs from the recorded one), MISSING or
-    UNREADABLE; ``checksum`` is the file's checksum now (None unless loaded); ``dataset`` the loaded data
+    ``state`` is OPENED, CHANGED (loaded, but its checksum differs from the recorded one), MISSING,
+    UNREADABLE or REFUSED (outside the project's folder, not allowed); ``checksum`` is the file's checksum now (None unless loaded); ``dataset`` the loaded data
     (None when missing or unreadable, except for a file whose quantities clash with an earlier file's: read,
     not used).
     ``message`` is the whole line with its place (PROJECT: JSON-PATH: what), ``reason`` only the what.
