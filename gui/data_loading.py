@@ -6,7 +6,8 @@ runs as one background job ("data" channel: progress per file, cancellable betwe
 (one status per file: opened, changed, missing or unreadable) goes to the document and the window. Quantities of
 files that could not be used read as NaN (ProjectData.quantity_source), so equations still compile and the map
 shows them as undefined (grey). The loader keeps core's DataCache between loads, so adding, removing or renaming
-one file does not read the others again.
+one file does not read the others again. Files outside the study's folder are read (allow_outside): the user
+confirmed them when the study was opened (gui.file_commands) or added them in the Data panel.
 """
 
 from __future__ import annotations
@@ -80,7 +81,8 @@ class DataLoader(QObject):
     def _open(self, **options) -> ProjectData:
         """core's open_project_data on the study as it is now (paths in the window are absolute)."""
         label = self.document.path or "unsaved study"
-        return open_project_data(self.document.project, label, variables=self._variables(), **options)
+        return open_project_data(self.document.project, label, variables=self._variables(), allow_outside=True,
+                                 **options)
 
     def _equation_changed(self) -> None:
         if self.result is not None and self.result.variables != self._variables():
@@ -116,7 +118,7 @@ class DataLoader(QObject):
 
         def work(cancel, progress):
             opened = open_project_data(project, label, variables=variables, cache=cache, cancel=cancel,
-                                       progress=progress)
+                                       progress=progress, allow_outside=True)
             return opened, cache
 
         self.document.set_data_pending(True)

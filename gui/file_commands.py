@@ -12,6 +12,7 @@ from pathlib import Path
 from PySide6.QtGui import QAction
 from PySide6.QtWidgets import QFileDialog, QMessageBox
 
+from core.project.data_files import outside_data_paths
 from gui.project_bridge import (
     PROJECT_FILTER,
     ProjectFileError,
@@ -46,6 +47,16 @@ class FileCommands:
             self, "Recover unsaved work?",
             "Mixtype did not close normally last time. Restore the study as it was at the last autosave?")
         return answer == QMessageBox.StandardButton.Yes
+
+    def ask_read_outside(self, paths: tuple[str, ...]) -> bool:
+        """True when the user lets the study read these data files outside its folder (named in the question)."""
+        box = QMessageBox(QMessageBox.Icon.Warning, "Data files outside the study's folder",
+                          "This study reads data files outside its own folder:\n\n" + "\n".join(paths)
+                          + "\n\nA study file can come from anyone. Read these files?", parent=self)
+        read = box.addButton("Read them", QMessageBox.ButtonRole.AcceptRole)
+        box.addButton("Do not open the study", QMessageBox.ButtonRole.RejectRole)
+        box.exec()
+        return box.clickedButton() is read
 
     def choose_open_path(self) -> str:
         path, _ = QFileDialog.getOpenFileName(self, "Open study", self.preferences.last_folder(), PROJECT_FILTER)
@@ -87,6 +98,11 @@ class FileCommands:
             project = open_project_file(path)
         except ProjectFileError as error:
             self.report_error("Could not open the study", str(error))
+            return False
+        outside = outside_data_paths(project, path)
+        if outside and not self.ask_read_outside(outside):
+            self.statusBar().showMessage(f"Did not open {path}: its data files outside its folder were not allowed",
+                                         8000)
             return False
         self.document.replace_project(project, path)
         self._remember(path)

@@ -18,7 +18,7 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from core.cli.main import main as run_command
-from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, Command, UsageError
+from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, Command, UsageError, add_data_access_options
 from core.cli.registry import HEADLESS_COMMANDS
 
 __all__ = ["RENDER", "main"]
@@ -29,6 +29,7 @@ def _add_render_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--out", required=True, metavar="PNG", help="the picture to write")
     parser.add_argument("--window", action="store_true", help="draw the whole main window, not only the map")
     parser.add_argument("--size", nargs=2, type=int, default=None, metavar=("W", "H"), help="size in pixels")
+    add_data_access_options(parser)
 
 
 def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
@@ -41,13 +42,15 @@ def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if problem is not None:
         raise UsageError(f"render cannot start Qt: {problem}")
     try:
+        from core.data.limits import data_cap_raised
         from gui.project_bridge import ProjectFileError
         from gui.render import render_project  # Qt is loaded only for this command (see the module docstring)
     except ImportError as error:
         raise UsageError(f"rendering needs the window's libraries ({error})") from None
     try:
-        render_project(args.file, args.out, whole_window=args.window,
-                       size=tuple(args.size) if args.size else None)
+        with data_cap_raised(args.data_cap):
+            render_project(args.file, args.out, whole_window=args.window,
+                           size=tuple(args.size) if args.size else None, allow_outside_data=args.allow_outside_data)
     except ProjectFileError as error:
         raise UsageError(str(error)) from None
     out.write(f"wrote {args.out}\n")

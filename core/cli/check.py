@@ -11,6 +11,7 @@ import json
 from typing import TextIO
 
 from core.cli.options import EXIT_BAD_INPUT, EXIT_OK, UsageError
+from core.data.limits import data_cap_raised
 from core.project.data_files import open_project_data
 from core.project.io import CURRENT_FORMAT_VERSION, ProjectError, load_project
 
@@ -33,7 +34,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(str(error)) from None
     with open(args.file, "rb") as stream:  # valid, hence small and a JSON object with a version number
         version = json.loads(stream.read())["format_version"]
-    opened = open_project_data(project, args.file)
+    with data_cap_raised(args.data_cap):
+        opened = open_project_data(project, args.file, allow_outside=args.allow_outside_data)
     summary = {"file": args.file, "valid": True, "format_version": version,
                "equations": list(project.equation_names), "domains": list(project.domain_names),
                "pins": len(project.pins), "seeds": len(project.seeds),

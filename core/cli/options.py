@@ -22,9 +22,11 @@ __all__ = [
     "MAX_BOUNCES",
     "Command",
     "UsageError",
+    "add_data_access_options",
     "add_equation_options",
     "assignment",
     "bounces",
+    "data_cap_gib",
     "finite",
     "parse_data_option",
 ]
@@ -131,6 +133,7 @@ def add_equation_options(parser: argparse.ArgumentParser) -> None:
                            "separated list of NAME (take it) and OLD=NEW (take OLD and call it NEW), e.g. "
                            "--data flow.vtu:velocity_x=u,velocity_y=v. With --template, quantities the template "
                            "knows replace its formulas (e.g. u and v for full_potential).")
+    add_data_access_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
 
@@ -143,3 +146,26 @@ def bounces(text: str) -> int:
     if not 0 <= value <= MAX_BOUNCES:
         raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {value}")
     return value
+
+
+def data_cap_gib(text: str) -> int:
+    """--data-cap GIB: a positive size in GiB, as bytes (core.data.limits reads the same from the environment)."""
+    try:
+        value = float(text)
+    except ValueError:
+        value = math.nan
+    if not (math.isfinite(value) and 0 < value < 2**32):
+        raise argparse.ArgumentTypeError(f"expected a size in GiB above 0 (such as 2 or 0.5), got {text!r}")
+    return max(1, int(value * 2**30))
+
+
+def add_data_access_options(parser: argparse.ArgumentParser) -> None:
+    """What a project's data files may make Mixtype read (every command that reads a project FILE)."""
+    group = parser.add_argument_group("reading data files")
+    group.add_argument("--allow-outside-data", action="store_true",
+                       help="read data files that FILE lists outside its own folder (an absolute path, '../' or a "
+                            "symbolic link leading out); without it they are refused, since a project file may come "
+                            "from anyone")
+    group.add_argument("--data-cap", type=data_cap_gib, default=None, metavar="GIB",
+                       help="the most one data file may take, on disk and decoded, in GiB (default 1, or the "
+                            "environment variable MIXTYPE_DATA_CAP_GIB)")

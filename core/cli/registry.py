@@ -13,7 +13,14 @@ import importlib
 from collections.abc import Callable
 from typing import TextIO
 
-from core.cli.options import MAX_BOUNCES, Command, add_equation_options, bounces, finite
+from core.cli.options import (
+    MAX_BOUNCES,
+    Command,
+    add_data_access_options,
+    add_equation_options,
+    bounces,
+    finite,
+)
 
 __all__ = ["HEADLESS_COMMANDS"]
 
@@ -53,6 +60,7 @@ def _add_trace_arguments(parser: argparse.ArgumentParser) -> None:
 
 def _add_check_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
+    add_data_access_options(parser)
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
 
 

@@ -14,6 +14,7 @@ from dataclasses import dataclass, replace
 
 from core.analysis.classify import DEFAULT_TOLERANCE
 from core.cli.options import UsageError, finite
+from core.data.limits import data_cap_raised
 from core.data.sources import DataError, DataSet, DataSources, load_data
 from core.domain import Domain
 from core.equations.equation import Equation, Parameter
@@ -123,6 +124,11 @@ def _combined(datasets: list[DataSet]) -> DataSources | None:
 
 def build_study(args: argparse.Namespace) -> Study:
     """The equation, domain and data of a command; every problem is a UsageError naming the option."""
+    with data_cap_raised(args.data_cap):
+        return _build_study(args)
+
+
+def _build_study(args: argparse.Namespace) -> Study:
     if args.file:
         if args.template:
             raise UsageError("--template starts an equation without a project FILE; it cannot be combined with "
@@ -201,7 +207,7 @@ def _study_from_file(args: argparse.Namespace) -> Study:
     except ValueError as error:
         raise UsageError(f"--domain/--grid: {error}") from None
     variables = tuple(equation.variables)
-    opened = open_project_data(project, args.file, variables=variables)
+    opened = open_project_data(project, args.file, variables=variables, allow_outside=args.allow_outside_data)
     blocking = [s.message for s in opened.statuses if not s.usable]
     if blocking:
         raise UsageError(_first_of(blocking, args.file))

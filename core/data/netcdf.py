@@ -5,7 +5,9 @@ variable is called x, y, z or t; a vertical coordinate matched by axis with ``po
 is negated so that the variable points up. Data variables on both coordinates' dimensions (in either
 order, extra dimensions of length 1 allowed) make a grid; on one coordinate's dimension, a profile. Masked
 (fill) values become NaN. Classic-format files are checked against the length their header describes,
-because the netCDF library reads past the end of a truncated classic file without complaint.
+because the netCDF library reads past the end of a truncated classic file without complaint. Every variable's
+declared shape is counted against the data cap (core.data.limits) before its values are read, so a small
+file declaring huge (or compressed) variables is refused before anything is allocated.
 """
 
 from __future__ import annotations
@@ -14,7 +16,8 @@ import os
 
 import numpy as np
 
-from core.data.raw import DataError, RawData, checked_axis, float_array
+from core.data.limits import ValueBudget
+from core.data.raw import DataError, RawData, checked_axis, failure_reason, float_array
 
 __all__ = ["read_netcdf"]
 
@@ -31,7 +34,7 @@ def read_netcdf(path: str, variables: tuple[str, str]) -> RawData:
             header = handle.read(1 << 20)
             size = handle.seek(0, os.SEEK_END)
     except OSError as error:
-        raise DataError(f"{path}: cannot be read ({error.strerror or error})") from None
+        raise DataError(f"{path}: cannot be read ({failure_reason(error)})") from None
     data_end = _classic_netcdf_data_end(header)
     if data_end is not None and size < data_end:
         raise DataError(f"{path}: the NetCDF file is truncated: {size} bytes where its header needs at "
@@ -39,13 +42,14 @@ def read_netcdf(path: str, variables: tuple[str, str]) -> RawData:
     try:
         dataset = netCDF4.Dataset(path, "r")
     except (OSError, RuntimeError, ValueError) as error:
-        raise DataError(f"{path}: cannot be read as NetCDF (truncated or another format: {error})") from None
+        raise DataError(f"{path}: cannot be read as NetCDF (truncated or another format: "
+                        f"{failure_reason(error)})") from None
     try:
         return _netcdf_contents(dataset, path, variables)
     except DataError:
         raise
     except (OSError, RuntimeError, ValueError, IndexError) as error:
-        raise DataError(f"{path}: cannot be read as NetCDF ({type(error).__name__}: {error})") from None
+        raise DataError(f"{path}: cannot be read as NetCDF ({failure_reason(error)})") from None
     finally:
         dataset.close()
 
@@ -135,6 +139,7 @@ def _netcdf_coordinate(dataset, variable: str, path: str):
 
 
 def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
+    budget = ValueBudget(path)
     notes = []
     found = {}
     for variable in variables:
@@ -142,6 +147,7 @@ def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
         if match is None:
             continue
         nc_variable, how = match
+        budget.take(nc_variable.size, f"coordinate {nc_variable.name!r}")
         values = float_array(nc_variable[:], nc_variable.name, path)
         positive = str(getattr(nc_variable, "positive", "")).lower()
         if how == "axis" and positive == "down":
@@ -153,9 +159,9 @@ def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
         coordinate, flipped = checked_axis(values, nc_variable.name, path)
         found[variable] = (nc_variable, coordinate, flipped)
     if not found:
-        names = ", ".join(dataset.variables) or "nothing"
         raise DataError(f"{path}: missing variables: no coordinate variable named {variables[0]!r} or "
-                        f"{variables[1]!r} or with a matching CF axis attribute (the file holds {names})")
+                        f"{variables[1]!r} or with a matching CF axis attribute (the file holds "
+                        f"{len(dataset.variables)} variable(s))")
     dims = {variable: item[0].dimensions[0] for variable, item in found.items()}
     if len(found) == 2 and dims[variables[0]] == dims[variables[1]]:
         raise DataError(f"{path}: coordinates {variables[0]!r} and {variables[1]!r} share the dimension "
@@ -175,6 +181,7 @@ def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
         if not isinstance(nc_variable.dtype, np.dtype) or nc_variable.dtype.kind not in "biuf":
             rejected[name] = f"variable {name!r} does not hold numbers"
             continue
+        budget.take(nc_variable.size, f"variable {name!r}")
         values = float_array(nc_variable[:], name, path)
         all_dims = list(nc_variable.dimensions)
         axes = [all_dims.index(d) for d in order]

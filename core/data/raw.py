@@ -1,18 +1,26 @@
 """What every data reader shares: the raw arrays a reader returns, its error, formats, coordinate checks.
 
 A reader turns a file into ``RawData`` (coordinates, quantities and a layout) and raises ``DataError`` naming
-the file and the problem. Layouts: ``grid`` (1-D coordinates x (nx,), y (ny,) and arrays (ny, nx)),
+the file and the problem. A message never quotes a line or a value of the file, and quotes names from it
+(columns, arrays) only once the file is recognised as data for the equation's variables: a project file
+from someone else may point at any file, whose contents must not reach the screen. Layouts: ``grid`` (1-D coordinates x (nx,), y (ny,) and arrays (ny, nx)),
 ``profile`` (one coordinate (n,) and arrays (n,), extended over the other variable), ``points`` (scattered
 x, y (n,) and arrays (n,)) and ``mesh`` (points plus the file's own triangles (m, 3)).
 """
 
 from __future__ import annotations
 
+import binascii
+import lzma
+import struct
+import zipfile
+import zlib
 from dataclasses import dataclass, field
+from xml.etree import ElementTree
 
 import numpy as np
 
-__all__ = ["FORMATS", "DataError", "RawData", "checked_axis", "float_array", "format_for_path"]
+__all__ = ["FORMATS", "DataError", "RawData", "checked_axis", "failure_reason", "float_array", "format_for_path"]
 
 
 # file extension -> format name
@@ -56,6 +64,32 @@ def format_for_path(path: str) -> str:
     known = ", ".join(sorted(FORMATS))
     raise DataError(f"{path}: unknown file extension; Mixtype reads {known}")
 
+
+
+def failure_reason(error: BaseException) -> str:
+    """What went wrong, for a one-line message: the system's words for an OSError, else the error's type name.
+
+    Other libraries' texts are left out: a parser's message may quote the bytes it choked on.
+    """
+    for kind, words in _FAILURES:
+        if isinstance(error, kind):
+            return words
+    if isinstance(error, OSError) and error.strerror:
+        return error.strerror
+    return type(error).__name__
+
+
+_FAILURES: tuple[tuple[type[BaseException], str], ...] = (
+    (UnicodeDecodeError, "not UTF-8 text"),
+    (zlib.error, "a compressed stream is corrupt"),
+    (lzma.LZMAError, "a compressed stream is corrupt"),
+    (binascii.Error, "base64 text is corrupt"),
+    (zipfile.BadZipFile, "not a valid zip archive"),
+    (EOFError, "the file ends too early"),
+    (struct.error, "a binary header is cut short"),
+    (ElementTree.ParseError, "not well-formed XML"),
+    (RecursionError, "nested too deeply"),
+)
 
 
 # -- coordinates -----------------------------------------------------------------------------------------

@@ -4,8 +4,14 @@ A project records each data file as a ``core.project.model.DataSourceRef``: its 
 file's folder and the SHA-256 of its bytes when the project was saved. ``open_project_data`` finds the files
 from wherever the project file now lies (not from the working directory), reads them with core.data.sources,
 and gives each a status: opened, changed (loaded, but its bytes differ from the recorded checksum: the user can
-look and accept it with ``accept_changed_data``), missing or unreadable (also a file whose quantities clash
-with an earlier file's). A missing or unreadable file, or a data quantity an equation uses that no file
+look and accept it with ``accept_changed_data``), missing, unreadable (also a file whose quantities clash
+with an earlier file's) or refused.
+
+A project file is untrusted input: it may come from someone else. A data file whose real location (symbolic
+links resolved) is outside the project file's folder, by an absolute path or by climbing out with '../', is
+refused, not read, unless the caller allows it (``allow_outside``: the command line's --allow-outside-data,
+the window after the user confirmed the paths ``outside_data_paths`` lists). Messages name a file and say
+what is wrong with it; they never quote what it holds. A missing or unreadable file, or a data quantity an equation uses that no file
 provides, is a problem; a changed file only warns. Every message is one line ``PROJECT: JSON-PATH: what``,
 like those of core.project.io. The window and the command line open data through this one function: a
 ``DataCache`` the caller keeps spares reading unchanged files again, and ``cancel``/``progress`` hooks let it
@@ -21,6 +27,8 @@ from pathlib import Path, PurePosixPath, PureWindowsPath
 
 import numpy as np
 
+from core.data.limits import check_file_size
+from core.data.raw import failure_reason
 from core.data.sources import DataError, DataSet, DataSources, file_checksum, load_data, parse_quantity_key
 from core.equations.compiled import CompiledEquation, compile_equation
 from core.equations.equation import Equation
@@ -33,6 +41,7 @@ __all__ = [
     "CHANGED",
     "MISSING",
     "OPENED",
+    "REFUSED",
     "UNREADABLE",
     "DataCache",
     "DataSourceStatus",
@@ -42,6 +51,7 @@ __all__ = [
     "compile_with_data",
     "data_source_ref",
     "open_project_data",
+    "outside_data_paths",
     "relative_data_path",
     "resolve_data_path",
     "unprovided_names_problem",
@@ -49,6 +59,7 @@ __all__ = [
 
 # states of a data source once opened
 OPENED, CHANGED, MISSING, UNREADABLE = "opened", "changed", "missing", "unreadable"
+REFUSED = "refused"    # outside the project's folder, and reading outside it was not allowed
 
 
 def _folder(project_path: str | os.PathLike) -> Path:
@@ -65,6 +76,35 @@ def resolve_data_path(source: DataSourceRef | str, project_path: str | os.PathLi
     if _is_absolute(recorded):
         return Path(recorded)
     return Path(os.path.normpath(_folder(project_path) / Path(*PurePosixPath(recorded).parts)))
+
+
+def _inside(location: str | os.PathLike, folder: str) -> bool:
+    """True when ``location``, symbolic links resolved, is ``folder`` (already resolved) or inside it."""
+    try:
+        real = os.path.realpath(location)
+        return os.path.commonpath([real, folder]) == folder
+    except (OSError, ValueError):          # another drive, an embedded NUL: not inside
+        return False
+
+
+def _real_folder(project_path: str | os.PathLike) -> str:
+    return os.path.realpath(_folder(project_path))
+
+
+def outside_data_paths(project: Project, project_path: str | os.PathLike) -> tuple[str, ...]:
+    """The recorded paths of ``project``'s data files whose real location (symbolic links resolved) is
+    outside the folder of the project file at ``project_path``: what needs the user's leave to be read."""
+    folder = _real_folder(project_path)
+    outside = []
+    for source in project.data_sources:
+        try:
+            location = resolve_data_path(source, project_path)
+        except (OSError, ValueError):
+            outside.append(source.path)
+            continue
+        if not _inside(location, folder):
+            outside.append(source.path)
+    return tuple(outside)
 
 
 def relative_data_path(path: str | os.PathLike, project_path: str | os.PathLike) -> str:
@@ -104,8 +144,8 @@ def data_source_ref(path: str | os.PathLike, project_path: str | os.PathLike, *,
 class DataSourceStatus:
     """One listed data file once looked for.
 
-    ``state`` is OPENED, CHANGED (loaded, but its checksum differs from the recorded one), MISSING or
-    UNREADABLE; ``checksum`` is the file's checksum now (None unless loaded); ``dataset`` the loaded data
+    ``state`` is OPENED, CHANGED (loaded, but its checksum differs from the recorded one), MISSING,
+    UNREADABLE or REFUSED (outside the project's folder, not allowed); ``checksum`` is the file's checksum now (None unless loaded); ``dataset`` the loaded data
     (None when missing or unreadable, except for a file whose quantities clash with an earlier file's: read,
     not used).
     ``message`` is the whole line with its place (PROJECT: JSON-PATH: what), ``reason`` only the what.
@@ -256,6 +296,7 @@ def _read(source: DataSourceRef, location: Path, variables: tuple[str, ...], cac
         return UNREADABLE, None, (f"file {source.path!r} was not read: loading was cancelled "
                                   "(reload to read it)")
     try:
+        check_file_size(str(location))     # before the checksum reads a huge file through
         dataset = load_data(location, variables=variables, names=dict(source.names) or None,
                             format=source.format)
     except DataError as error:
@@ -266,18 +307,38 @@ def _read(source: DataSourceRef, location: Path, variables: tuple[str, ...], cac
     return OPENED, dataset, ""
 
 
+def _looked_up(source: DataSourceRef, project_path: str | os.PathLike, folder: str, variables: tuple[str, ...],
+               cache: DataCache | None, cached_only: bool, allow_outside: bool
+               ) -> tuple[Path, str, DataSet | None, str]:
+    """(location, state, dataset, reason) for one listed file; every failure becomes its state."""
+    location = Path(source.path)
+    try:
+        location = resolve_data_path(source, project_path)
+        if not allow_outside and not _inside(location, folder):
+            return location, REFUSED, None, (f"file {source.path!r} is outside the project's folder, so it is not "
+                                             "read unless allowed (--allow-outside-data on the command line)")
+        return (location, *_read(source, location, variables, cache, cached_only))
+    except Cancelled:
+        raise
+    except MemoryError:
+        return location, UNREADABLE, None, f"file {source.path!r} needs more memory than is free to read it"
+    except Exception as error:  # noqa: BLE001 - documented never to raise: any failure is the file's status
+        return location, UNREADABLE, None, f"file {source.path!r} cannot be read ({failure_reason(error)})"
+
+
 def open_project_data(project: Project, project_path: str | os.PathLike, *,
                       variables: Sequence[str] | None = None, cache: DataCache | None = None,
                       cached_only: bool = False, cancel: CancelCheck | None = None,
-                      progress: ProgressReport | None = None) -> ProjectData:
-    """Find, check and load every data file ``project`` lists; never raises for a bad file.
+                      progress: ProgressReport | None = None, allow_outside: bool = False) -> ProjectData:
+    """Find, check and load every data file ``project`` lists; never raises (but Cancelled).
 
     Paths resolve against the folder of ``project_path`` (the project file as named: the working
     directory does not matter). ``variables`` are the names the data are read for (default: the shown
     equation's); equations with these variables must find every data quantity they use. ``cache`` (the
     caller's) gives back files read before and keeps those read now; with ``cached_only`` nothing is read and
     files the cache lacks count as unreadable (after a cancelled open). ``cancel`` is polled before each file
-    (raises core.progress.Cancelled); ``progress`` gets the fraction of files done.
+    (raises core.progress.Cancelled); ``progress`` gets the fraction of files done. A file outside the project
+    file's folder is REFUSED unless ``allow_outside``; any failure of a file is its status, never an exception.
     """
     label = os.fspath(project_path)
     variables = tuple(project.shown()[0].variables if variables is None else variables)
@@ -287,13 +348,14 @@ def open_project_data(project: Project, project_path: str | os.PathLike, *,
         return ProjectData(None, (), (), (), variables)
     statuses: list[DataSourceStatus] = []
     usable: list[DataSet] = []
+    folder = _real_folder(project_path)
     count = len(project.data_sources)
     for index, source in enumerate(project.data_sources):
         if cancel is not None and cancel():
             raise Cancelled("opening the data files was cancelled")
         where = f"{label}: {json_path(['data_sources', index])}"
-        location = resolve_data_path(source, project_path)
-        state, dataset, reason = _read(source, location, variables, cache, cached_only)
+        location, state, dataset, reason = _looked_up(source, project_path, folder, variables, cache,
+                                                      cached_only, allow_outside)
         checksum = None if dataset is None else dataset.checksum
         if dataset is not None:
             try:
@@ -321,12 +383,15 @@ def open_project_data(project: Project, project_path: str | os.PathLike, *,
     for index, equation in enumerate(project.equations):
         if tuple(equation.variables) != variables:
             continue
-        if problems:
-            unavailable.update(dict.fromkeys(equation_data_names(equation)))
-        else:
+        try:
+            if problems:
+                unavailable.update(dict.fromkeys(equation_data_names(equation)))
+                continue
             problem = unprovided_names_problem(equation, sources.names)
-            if problem:
-                problems.append(f"{label}: {json_path(['equations', index])}: {problem}")
+        except Exception as error:  # noqa: BLE001 - documented never to raise
+            problem = f"equation {equation.name!r} cannot be matched with the data ({failure_reason(error)})"
+        if problem:
+            problems.append(f"{label}: {json_path(['equations', index])}: {problem}")
     return ProjectData(sources, tuple(problems), tuple(changed), tuple(statuses), variables,
                        tuple(n for n in unavailable if n not in sources.names))
 

@@ -245,17 +245,17 @@ def test_a_saved_project_records_its_data_relative_to_itself_and_checks_from_any
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
     monkeypatch.chdir(elsewhere)
-    status, out, err = run("check", str(path))
+    status, out, err = run("check", str(path), "--allow-outside-data")
     assert status == 0 and err == "" and ", 1 data file; " in out
-    checked = run_json("check", str(path))
+    checked = run_json("check", str(path), "--allow-outside-data")
     assert checked["data"] == {"files": 1, "quantities": ["u", "v"], "problems": [], "changed": []}
-    again = run_json("classify", str(path))
+    again = run_json("classify", str(path), "--allow-outside-data")
     inline = run_json("classify", "--template", "full_potential", "--data", str(tmp_path / "data" / "bump.npz"),
                       *ABOVE_CREST)
     assert again["fractions"] == inline["fractions"] and again["pockets"] == inline["pockets"]
     # the file's data plus inline data: a second quantity file joins the first
     np.savez(tmp_path / "extra.npz", x=np.linspace(-3, 3, 7), y=np.linspace(0, 3, 4), w=np.ones((4, 7)))
-    probed = run_json("probe", str(path), "--data", str(tmp_path / "extra.npz"), "--at", "0", "1.1", "--b", "w - 1")
+    probed = run_json("probe", str(path), "--allow-outside-data", "--data", str(tmp_path / "extra.npz"), "--at", "0", "1.1", "--b", "w - 1")
     assert probed["coefficients"]["b"] == pytest.approx(0.0, abs=1e-12)
     assert [d["quantities"] for d in probed["data"]] == [["u", "v"], ["w"]]
 
@@ -266,18 +266,18 @@ def test_missing_data_exit_2_and_changed_data_warn(tmp_path, monkeypatch):
     moved = tmp_path / "bump.npz"
     data.rename(moved)
     problem = f"{path}: $.data_sources[0]: file '../data/bump.npz' is missing (looked in {data})"
-    status, out, err = run("check", str(path))
+    status, out, err = run("check", str(path), "--allow-outside-data")
     assert status == 2 and out.startswith(f"{path}: valid, format version 3") and err == f"mixtype: {problem}\n"
-    assert run("check", str(path), "--json")[0] == 2
-    status, out, err = run("classify", str(path))
+    assert run("check", str(path), "--allow-outside-data", "--json")[0] == 2
+    status, out, err = run("classify", str(path), "--allow-outside-data")
     assert status == 2 and out == "" and err == f"mixtype: {problem}\n"
     # a changed file: a warning, and the new values are used
     with np.load(moved) as arrays:
         np.savez(data, x=arrays["x"], y=arrays["y"], u=0.5 * arrays["u"], v=0.5 * arrays["v"])
-    status, out, err = run("check", str(path))
+    status, out, err = run("check", str(path), "--allow-outside-data")
     assert status == 0 and err.startswith(f"mixtype: warning: {path}: $.data_sources[0]: file '../data/bump.npz' "
                                           "has changed since the project was saved (checksum recorded ")
-    status, out, err = run("classify", str(path), "--json")
+    status, out, err = run("classify", str(path), "--json", "--allow-outside-data")
     assert status == 0 and err.count("\n") == 1 and "warning" in err
     assert json.loads(out)["fractions"]["hyperbolic"] == 0.0          # at half the speed the flow is subsonic
 

@@ -205,11 +205,12 @@ def assert_data_error(path, *words, **options):
 
 def test_missing_variables(tmp_path):
     np.savez(tmp_path / "a.npz", lon=np.arange(3.0), lat=np.arange(2.0), u=np.ones((2, 3)))
-    assert_data_error(tmp_path / "a.npz", "missing variables", "'x'", "lat, lon, u")
+    # names found in a file not recognised as data are not quoted (a project may point at any file)
+    assert "lat" not in assert_data_error(tmp_path / "a.npz", "missing variables", "'x'", "3 array(s)")
     np.savez(tmp_path / "b.npz", x=np.arange(3.0), u=np.ones((2, 3)))
     assert_data_error(tmp_path / "b.npz", "missing variable", "'y'")
     write_csv(tmp_path / "c.csv", ["east", "north", "h"], [(0, 0, 1), (1, 0, 1), (0, 1, 1)])
-    assert_data_error(tmp_path / "c.csv", "missing variables", "east, north, h")
+    assert "east" not in assert_data_error(tmp_path / "c.csv", "missing variables", "3 column(s)")
     with netCDF4.Dataset(tmp_path / "d.nc", "w") as nc:
         nc.createDimension("n", 3)
         nc.createVariable("h", "f8", ("n",))[:] = [1, 2, 3]
@@ -285,7 +286,7 @@ def test_other_bad_inputs(tmp_path):
     assert_data_error(tmp_path / "data.xlsx", "unknown file extension")
     assert_data_error(tmp_path / "absent.csv", "no such file")
     write_csv(tmp_path / "a.csv", ["x", "y", "h"], [(0, 0, 1), (1, 0, "deep"), (0, 1, 1)])
-    assert_data_error(tmp_path / "a.csv", "line 3", "'h'", "'deep' is not a number")
+    assert "deep" not in assert_data_error(tmp_path / "a.csv", "line 3", "'h'", "is not a number")
     write_csv(tmp_path / "b.csv", ["x", "y", "h"], [(0, 0, 1), (1, 1, 1), (2, 2, 1)])
     assert_data_error(tmp_path / "b.csv", "cannot be triangulated")
     np.savez(tmp_path / "c.npz", x=np.arange(3.0), y=np.arange(2.0), u=np.ones((2, 3)))

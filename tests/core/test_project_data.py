@@ -157,7 +157,7 @@ def test_opening_from_another_working_directory_finds_the_files_beside_the_proje
     monkeypatch.chdir(elsewhere)
     project = load_project(project_path)
     assert project.data_sources[0].path == "../shared/grid.npz"
-    opened = open_project_data(project, os.path.relpath(project_path))
+    opened = open_project_data(project, os.path.relpath(project_path), allow_outside=True)
     assert opened.ok and opened.changed == () and opened.names == ("k",)
     assert opened.statuses[0].location == data and opened.statuses[0].state == "opened"
     compiled = compile_with_data(project.shown()[0], opened)
@@ -170,7 +170,7 @@ def test_opening_from_another_working_directory_finds_the_files_beside_the_proje
 def test_a_missing_file_is_a_problem_naming_where_it_was_looked_for(tmp_path):
     project_path, data = _study(tmp_path)
     data.unlink()
-    opened = open_project_data(load_project(project_path), project_path)
+    opened = open_project_data(load_project(project_path), project_path, allow_outside=True)
     assert opened.problems == ((f"{project_path}: $.data_sources[0]: file '../shared/grid.npz' is missing "
                                f"(looked in {data})"),)
     assert not opened.ok and opened.names == () and opened.statuses[0].state == "missing"
@@ -181,7 +181,7 @@ def test_a_changed_file_is_loaded_with_a_warning_and_can_be_accepted(tmp_path):
     recorded = load_project(project_path).data_sources[0].checksum
     _grid_file(data, scale=-0.5)
     project = load_project(project_path)
-    opened = open_project_data(project, project_path)
+    opened = open_project_data(project, project_path, allow_outside=True)
     now = hashlib.sha256(data.read_bytes()).hexdigest()
     assert opened.ok and opened.problems == ()
     assert opened.changed == ((f"{project_path}: $.data_sources[0]: file '../shared/grid.npz' has changed since the "
@@ -190,20 +190,20 @@ def test_a_changed_file_is_loaded_with_a_warning_and_can_be_accepted(tmp_path):
     accepted = accept_changed_data(project, opened)
     assert accepted.data_sources[0].checksum == now
     save_project(accepted, project_path)
-    assert open_project_data(load_project(project_path), project_path).changed == ()
+    assert open_project_data(load_project(project_path), project_path, allow_outside=True).changed == ()
 
 
 def test_unreadable_files_and_quantities_nobody_provides(tmp_path):
     project_path, data = _study(tmp_path)
     data.write_bytes(b"not an archive")
-    opened = open_project_data(load_project(project_path), project_path)
+    opened = open_project_data(load_project(project_path), project_path, allow_outside=True)
     (line,) = opened.problems
     assert line.startswith(f"{project_path}: $.data_sources[0]: ") and "grid.npz" in line
     _grid_file(data)
     project = load_project(project_path)
     project = project.with_data_source(DataSourceRef(project.data_sources[0].path,
                                                      project.data_sources[0].checksum, names={"h": "h"}))
-    opened = open_project_data(project, project_path)
+    opened = open_project_data(project, project_path, allow_outside=True)
     assert opened.problems == ((f"{project_path}: $.equations[0]: equation 'uses data' uses 'k', which no data "
                                "source provides (the data provide h)"),)
 
@@ -213,7 +213,7 @@ def test_two_files_may_not_provide_the_same_quantity(tmp_path):
     shutil.copy(data, tmp_path / "shared" / "copy.npz")
     project = load_project(project_path).with_data_source(
         data_source_ref(tmp_path / "shared" / "copy.npz", project_path, names=["k"]))
-    opened = open_project_data(project, project_path)
+    opened = open_project_data(project, project_path, allow_outside=True)
     (line,) = opened.problems
     # the second file is the one that cannot be used; the first stays in use
     assert line.startswith(f"{project_path}: $.data_sources[1]: quantity 'k' is in both ")
