@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["LabelledRuns", "connect_runs", "find_runs", "label_runs", "paint_labels"]
+__all__ = ["LabelledRuns", "bounding_slices", "connect_runs", "find_runs", "label_runs", "paint_labels"]
 
 _BLOCK_NODES = 1 << 20          # nodes a pass over the map reads at a time (a 1 MiB mask block)
 
@@ -158,3 +158,19 @@ def paint_labels(runs: LabelledRuns, relabel: np.ndarray | None = None) -> np.nd
         pieces[1::2] = values[chosen]
         block.ravel()[:] = np.repeat(pieces, np.diff(edges))
     return labels
+
+
+def bounding_slices(runs: LabelledRuns) -> list[tuple[slice, slice]]:
+    """(rows, columns) slices of each region's bounding box, regions in label order (as
+    scipy.ndimage.find_objects gives them)."""
+    index = runs.label.astype(np.int64) - 1
+    first_row = np.full(runs.count, np.iinfo(np.int64).max)
+    first_column = np.full(runs.count, np.iinfo(np.int64).max)
+    last_row = np.full(runs.count, -1)
+    last_column = np.full(runs.count, -1)
+    np.minimum.at(first_row, index, runs.row)
+    np.maximum.at(last_row, index, runs.row)
+    np.minimum.at(first_column, index, runs.start)
+    np.maximum.at(last_column, index, runs.stop)
+    return [(slice(int(r0), int(r1) + 1), slice(int(c0), int(c1)))
+            for r0, r1, c0, c1 in zip(first_row, last_row, first_column, last_column)]
