@@ -5,13 +5,19 @@ import it cannot do without: ``mixtype --help`` against ``python -c "import argp
 --help needs), and an inline classify at grid 64 against ``python -c "import numpy, sympy"`` (the equation is
 parsed with sympy and evaluated with numpy). The runs alternate, case and baseline in turn, so that a busy
 moment of the machine falls on both; each figure is the best of ``repeats`` rounds (three runs a round for the
-cases that take a few tens of milliseconds). A third baseline, ``import numpy, sympy, scipy.ndimage``, shows
-how much of what classify adds is scipy.ndimage's own import.
+cases that take a few tens of milliseconds). A third baseline imports every library an inline classify
+computes with (numpy, sympy, numexpr, contourpy): what classify takes beyond it is Mixtype's own code
+(no scipy: pockets and type-change lines are labelled without scipy.ndimage).
+Whether the checkout's modules load from cached bytecode changes that own share (a few tens of
+milliseconds: PYTHONDONTWRITEBYTECODE and no __pycache__ compile them from source on every run, where numpy
+and sympy always load compiled), so the figures say which it was: ``checkout_bytecode_cached``.
 """
 
 from __future__ import annotations
 
+import importlib.util
 import json
+import os
 import pathlib
 import subprocess
 import sys
@@ -36,7 +42,7 @@ LIGHT_PER_ROUND = 3
 HEAVY_RUNS = {
     "classify_inline_64": ("-m", "gui.launcher", *INLINE_CLASSIFY),
     "import_numpy_sympy": ("-c", "import numpy, sympy"),
-    "import_numpy_sympy_ndimage": ("-c", "import numpy, sympy, scipy.ndimage"),
+    "import_its_libraries": ("-c", "import numpy, sympy, numexpr, contourpy"),
 }
 
 TARGETS = {"help_over_import_argparse": 1.5, "classify_inline_64_over_import_numpy_sympy": 1.3}
@@ -52,6 +58,14 @@ def _seconds(arguments: tuple[str, ...]) -> float:
     return time.perf_counter() - start
 
 
+def _bytecode_cached() -> bool:
+    """Whether the runs load the checkout's modules compiled: a cached file beside the sources (Python reads
+    one even under PYTHONDONTWRITEBYTECODE), or caching on so the first run writes it."""
+    source = ROOT / "core" / "cli" / "classify.py"
+    cached = pathlib.Path(importlib.util.cache_from_source(str(source))).exists()
+    return cached or not os.environ.get("PYTHONDONTWRITEBYTECODE")
+
+
 def run(repeats: int = 7) -> dict:
     """Best of ``repeats`` interleaved rounds of every case; the ratios and their target records."""
     best = dict.fromkeys({**LIGHT_RUNS, **HEAVY_RUNS}, float("inf"))
@@ -64,12 +78,12 @@ def run(repeats: int = 7) -> dict:
         "command_help_over_import_argparse": best["command_help"] / best["import_argparse"],
         "version_over_import_argparse": best["version"] / best["import_argparse"],
         "classify_inline_64_over_import_numpy_sympy": best["classify_inline_64"] / best["import_numpy_sympy"],
-        # how much of the classify's excess is scipy.ndimage's import (pockets and parabolic regions use it)
-        "classify_inline_64_over_import_numpy_sympy_ndimage":
-            best["classify_inline_64"] / best["import_numpy_sympy_ndimage"],
+        # the classify's own share, beyond the libraries it computes with
+        "classify_inline_64_over_import_its_libraries": best["classify_inline_64"] / best["import_its_libraries"],
     }
     return {
         "repeats": repeats,
+        "checkout_bytecode_cached": _bytecode_cached(),
         "best_s": {name: round(seconds, 4) for name, seconds in best.items()},
         **{name: round(ratio, 3) for name, ratio in ratios.items()},
         "targets": TARGETS,

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from core.analysis.classify import TypeCode
+from core.analysis.run_labels import bounding_slices, label_runs, paint_labels
 from core.progress import CancelCheck, Cancelled
 
 __all__ = ["ParabolicRegion", "parabolic_cells", "parabolic_regions"]
@@ -48,11 +49,8 @@ def parabolic_regions(cells: np.ndarray, x: np.ndarray, y: np.ndarray, cancel: C
     """Edge-connected groups of parabolic cells, with their boundary loops and areas."""
     if not cells.any():
         return ()
-    # Here, not at the top: scipy.ndimage takes 0.25 to 0.3 s to import (python -X importtime: its array-API
-    # layer pulls in numpy.testing and unittest), and only maps with a parabolic area need it.
-    from scipy import ndimage
-
-    labels, count = ndimage.label(cells)
+    runs = label_runs(cells, True, connectivity=4)
+    labels, count = paint_labels(runs), runs.count
     areas, sizes = np.zeros(count + 1), np.zeros(count + 1, dtype=np.int64)
     widths, heights = np.diff(x), np.diff(y)
     step = max(1, (1 << 17) // max(widths.size, 1))
@@ -62,7 +60,7 @@ def parabolic_regions(cells: np.ndarray, x: np.ndarray, y: np.ndarray, cancel: C
                              minlength=count + 1)
         sizes += np.bincount(block.ravel(), minlength=count + 1)
     regions = []
-    for label, box in enumerate(ndimage.find_objects(labels), start=1):
+    for label, box in enumerate(bounding_slices(runs), start=1):
         if cancel is not None and cancel():
             raise Cancelled("parabolic regions cancelled")
         loops = _cell_boundary_loops(labels[box] == label)

@@ -1,23 +1,25 @@
 """Connected regions of one type (supersonic pockets, elliptic islands) and their statistics.
 
-From a type map (core.analysis.classify) the nodes of one type are grouped into connected regions with
-scipy.ndimage.label; each region gets its area (trapezoid weights of its nodes: the weights of all nodes
+From a type map (core.analysis.classify) the nodes of one type are grouped into connected regions, labelled
+on their runs along the rows (core.analysis.run_labels; node by node with scipy.ndimage.label when a map has
+very many runs); each region gets its area (trapezoid weights of its nodes: the weights of all nodes
 sum to the domain's area exactly, so areas are in the variables' units squared and accurate to O(h) at the
 region's edge), its bounding box and centroid, whether it reaches the domain's edge, and the peak of a
 chosen quantity over its nodes (e.g. the peak Mach number of a supersonic pocket).
-Big grids stay in bounded memory: beside the label array, the sums run over the runs of one label along
-the rows, a block of rows at a time, and the quantity is evaluated on one block's pocket nodes at a time.
+Big grids stay in bounded memory: the sums run over the runs, and the quantity is evaluated on one block's
+pocket nodes at a time; a label array is made only when the labels are asked for.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 
 import contourpy
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
+from core.analysis.run_labels import LabelledRuns, label_runs, paint_labels
 from core.equations.compiled import CompiledEquation
 from core.equations.equation import QuantitySource
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -25,6 +27,8 @@ from core.progress import CancelCheck, Cancelled, ProgressReport
 __all__ = ["Pocket", "node_areas", "pocket_outline", "pocket_statistics", "pockets_and_labels"]
 
 _CHUNK = 1 << 17
+_NODES_PER_RUN = 32                # more runs than one in this many nodes: labelled node by node
+_FEWEST_RUNS_LABELLED = 1 << 16    # ... but never fewer runs than this (small maps never load scipy.ndimage)
 
 
 @dataclass(frozen=True)
@@ -64,24 +68,39 @@ def pockets_and_labels(compiled: CompiledEquation, type_map: TypeMap, *, quantit
 
     ``quantity`` names a definition, a coefficient (a, b, c) or a data key, evaluated on the regions' nodes
     with ``parameters`` (default: those the map was computed with) to give each region's peak.
-    Extra memory is the label array (4 bytes a node) and a mask (1 byte a node); everything else works on
-    the runs of equal labels along the rows and on blocks of rows.
+    Extra memory is the label array (4 bytes a node) and the runs of the regions (a map with more runs than
+    one in 32 nodes is labelled node by node instead, with a mask of 1 byte a node); everything else works
+    on blocks of rows.
     """
-    labels, count = _scan_labels(type_map, code, connectivity)
-    if count == 0:
-        return (), labels
+    return _find_pockets(compiled, type_map, quantity=quantity, parameters=parameters, data=data, code=code,
+                         connectivity=connectivity, cancel=cancel, progress=progress, with_labels=True)
+
+
+def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, **options) -> tuple[Pocket, ...]:
+    """The pockets of ``pockets_and_labels`` (same options), without their labels: no label array is made."""
+    return _find_pockets(compiled, type_map, with_labels=False, **options)[0]
+
+
+def _find_pockets(compiled: CompiledEquation, type_map: TypeMap, *, quantity: str | None = None,
+                  parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
+                  code: TypeCode | int | str = TypeCode.HYPERBOLIC, connectivity: int = 8,
+                  cancel: CancelCheck | None = None, progress: ProgressReport | None = None,
+                  with_labels: bool) -> tuple[tuple[Pocket, ...], np.ndarray | None]:
+    code = TypeCode.coerce(code)
+    regions = _label_regions(type_map.codes, code, connectivity)
+    if regions.count == 0:
+        return (), (np.zeros(type_map.codes.shape, dtype=np.int32) if with_labels else None)
     if quantity is not None:
         _check_quantity(compiled, quantity, data)
     x, y = type_map.x, type_map.y
-    ny, nx = labels.shape
-    area, weighted_x, weighted_y, nodes, box = _region_sums(labels, x, y, count)
+    ny, nx = type_map.codes.shape
+    area, weighted_x, weighted_y, nodes, box = _region_sums(regions, x, y)
     safe = np.where(area > 0, area, 1.0)
     cx, cy = weighted_x / safe, weighted_y / safe
-    peaks = {} if quantity is None else _peaks(compiled, quantity, labels, count, type_map, parameters, data,
-                                               cancel, progress)
-    code = TypeCode.coerce(code)
+    peaks = {} if quantity is None else _peaks(compiled, quantity, regions, int(nodes.sum()), type_map,
+                                               parameters, data, cancel, progress)
     order = _largest_first(area)
-    _renumber(labels, order)
+    labels = regions.final_labels(order) if with_labels else None
     pockets = []
     for new_label, old in enumerate(order, start=1):
         row0, row1, column0, column1 = box[:, old]
@@ -96,82 +115,153 @@ def pockets_and_labels(compiled: CompiledEquation, type_map: TypeMap, *, quantit
     return tuple(pockets), labels
 
 
-def pocket_statistics(compiled: CompiledEquation, type_map: TypeMap, **options) -> tuple[Pocket, ...]:
-    """The pockets of ``pockets_and_labels`` (same options), without their labels."""
-    return pockets_and_labels(compiled, type_map, **options)[0]
+class _RunRegions:
+    """Regions held as labelled runs (core.analysis.run_labels): the label array is painted only if asked."""
+
+    def __init__(self, runs: LabelledRuns):
+        self.runs, self.count, self.shape = runs, runs.count, runs.shape
+
+    def run_chunks(self) -> Iterator[tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]]:
+        """(row, start, stop, scan-order label) of the runs, at most _CHUNK runs at a time."""
+        runs = self.runs
+        for first in range(0, runs.row.size, _CHUNK):
+            chosen = slice(first, first + _CHUNK)
+            yield runs.row[chosen], runs.start[chosen], runs.stop[chosen], runs.label[chosen]
+
+    def block_nodes(self, first: int, last: int) -> tuple[np.ndarray, np.ndarray]:
+        """Flat indices in rows first..last - 1 of the regions' nodes, in scan order, and their labels."""
+        runs = self.runs
+        chosen = runs.rows_between(first, last)
+        lengths = (runs.stop[chosen] - runs.start[chosen]).astype(np.int64)
+        before = np.cumsum(lengths) - lengths
+        begin = (runs.row[chosen].astype(np.int64) - first) * self.shape[1] + runs.start[chosen]
+        inside = np.repeat(begin - before, lengths) + np.arange(int(lengths.sum()))
+        return inside, np.repeat(runs.label[chosen], lengths)
+
+    def final_labels(self, order: np.ndarray) -> np.ndarray:
+        """The label array with region ``order[k] + 1`` numbered k + 1."""
+        return paint_labels(self.runs, _relabelling(order))
 
 
-def _renumber(labels: np.ndarray, order: np.ndarray) -> None:
-    """Relabel in place, a block of rows at a time: region ``order[k] + 1`` becomes k + 1."""
-    relabel = np.zeros(len(order) + 1, dtype=np.int32)
-    relabel[order + 1] = np.arange(1, len(order) + 1, dtype=np.int32)
-    step = _rows_per_chunk(labels.shape[1])
-    for start in range(0, labels.shape[0], step):
-        block = labels[start:start + step]
-        block[...] = relabel[block]
+class _NodeRegions:
+    """Regions held as a label array from scipy.ndimage.label, for maps with very many runs (noise)."""
+
+    def __init__(self, labels: np.ndarray, count: int):
+        self.labels, self.count, self.shape = labels, count, labels.shape
+
+    def run_chunks(self) -> Iterator[tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]]:
+        """(row, start, stop, label) of the runs of equal nonzero labels, a block of rows at a time."""
+        ny, nx = self.shape
+        step = _rows_per_chunk(nx)
+        for first in range(0, ny, step):
+            block = self.labels[first:first + step]
+            change = np.ones(block.shape, dtype=bool)              # True where a run starts
+            np.not_equal(block[:, 1:], block[:, :-1], out=change[:, 1:])
+            starts = np.flatnonzero(change)
+            stops = np.append(starts[1:], block.size)
+            label = block.ravel()[starts]
+            keep = label > 0
+            starts, stops, label = starts[keep], stops[keep], label[keep]
+            row = starts // nx
+            yield row + first, starts - row * nx, stops - row * nx, label
+
+    def block_nodes(self, first: int, last: int) -> tuple[np.ndarray, np.ndarray]:
+        flat = self.labels[first:last].ravel()
+        inside = np.flatnonzero(flat)
+        return inside, flat[inside]
+
+    def final_labels(self, order: np.ndarray) -> np.ndarray:
+        relabel = _relabelling(order)
+        step = _rows_per_chunk(self.shape[1])
+        for start in range(0, self.shape[0], step):              # in place, a block of rows at a time
+            block = self.labels[start:start + step]
+            block[...] = relabel[block]
+        return self.labels
 
 
-def _scan_labels(type_map: TypeMap, code: TypeCode | int | str, connectivity: int) -> tuple[np.ndarray, int]:
-    """scipy.ndimage.label of the nodes of type ``code``: (labels (ny, nx) int32 in scan order, count)."""
+def _label_regions(codes: np.ndarray, code: TypeCode, connectivity: int) -> _RunRegions | _NodeRegions:
+    """The regions of type ``code``, numbered in scan order (as scipy.ndimage.label numbers them)."""
     if connectivity not in (4, 8):
         raise ValueError(f"connectivity must be 4 or 8, got {connectivity!r}")
+    runs = label_runs(codes, code, connectivity, max_runs=_run_budget(codes.size))
+    if runs is not None:
+        return _RunRegions(runs)
     # Here, not at the top: scipy.ndimage takes 0.25 to 0.3 s to import (python -X importtime: its array-API
-    # layer pulls in numpy.testing and unittest), which every command importing this module would pay.
+    # layer pulls in numpy.testing and unittest), and only maps with very many runs need it.
     from scipy import ndimage
 
-    mask = type_map.codes == TypeCode.coerce(code)
     structure = np.ones((3, 3), dtype=bool) if connectivity == 8 else None
-    labels = np.empty(mask.shape, dtype=np.int32)
-    count = ndimage.label(mask, structure=structure, output=labels)
-    return labels, int(count)
+    labels = np.empty(codes.shape, dtype=np.int32)
+    count = ndimage.label(codes == code, structure=structure, output=labels)
+    return _NodeRegions(labels, int(count))
+
+
+def _run_budget(nodes: int) -> int:
+    """Most runs labelled as runs. Measured at 4096^2 (8-connectivity): a disc of 6144 runs takes 5 ms on runs
+    and 0.12 s node by node with scipy.ndimage.label; random squares of 8 x 8 nodes (one run in 31 nodes)
+    0.20 s either way; pure noise (one run in 4 nodes) several seconds on runs and 0.3 to 0.5 s node by node,
+    whose label array is then smaller than the runs too."""
+    return max(nodes // _NODES_PER_RUN, _FEWEST_RUNS_LABELLED)
+
+
+def _relabelling(order: np.ndarray) -> np.ndarray:
+    """Lookup table from scan-order label to final label: ``order[k] + 1`` becomes k + 1, 0 stays 0."""
+    relabel = np.zeros(len(order) + 1, dtype=np.int32)
+    relabel[order + 1] = np.arange(1, len(order) + 1, dtype=np.int32)
+    return relabel
 
 
 def _rows_per_chunk(nx: int) -> int:
     return max(1, _CHUNK // max(nx, 1))
 
 
-def _region_sums(labels: np.ndarray, x: np.ndarray, y: np.ndarray, count: int
+def _region_sums(regions: _RunRegions | _NodeRegions, x: np.ndarray, y: np.ndarray
                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted sums of x and of y, nodes,
     and the bounding box of its nodes (4, count) as first and last row, first and last column.
 
-    A node's trapezoid weight is wy[row] * wx[column] (node_areas). The rows are cut into maximal runs of
-    one label, a block of rows at a time; each run's sums of wx and wx * x are taken in order along the
-    run (np.add.reduceat), so the runs of a pocket, far fewer than its nodes, carry everything further.
+    A node's trapezoid weight is wy[row] * wx[column] (node_areas), so a run's area is wy[row] times the sum
+    of wx over its columns: a difference of two prefix sums, kept in double-double so that a short run far
+    along a long row keeps every digit. Runs, far fewer than nodes, carry everything further.
     """
-    ny, nx = labels.shape
+    count = regions.count
     x = np.asarray(x, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
     wx, wy = _trapezoid_weights(x), _trapezoid_weights(y)
-    step = _rows_per_chunk(nx)
-    tiled_w = np.tile(wx, min(step, ny))
-    tiled_wx = np.tile(wx * x, min(step, ny))
+    width_sums, moment_sums = _prefix_sums(wx), _prefix_sums(wx * x)
     sums = np.zeros((4, count))
     box = np.empty((4, count), dtype=np.int64)              # first row, last row, first column, last column
     box[0::2], box[1::2] = np.iinfo(np.int64).max, -1
-    for start in range(0, ny, step):
-        block = labels[start:start + step]
-        rows = block.shape[0]
-        change = np.ones((rows, nx), dtype=bool)              # True where a run starts
-        np.not_equal(block[:, 1:], block[:, :-1], out=change[:, 1:])
-        starts = np.flatnonzero(change)
-        label = block.ravel()[starts]
-        lengths = np.diff(np.append(starts, rows * nx))
-        width = np.add.reduceat(tiled_w[:rows * nx], starts)
-        moment = np.add.reduceat(tiled_wx[:rows * nx], starts)
-        keep = label > 0
-        index, row = label[keep] - 1, starts[keep] // nx + start
+    for row, start, stop, label in regions.run_chunks():
+        index = label - 1
         weight = wy[row]
-        sums[0] += np.bincount(index, weights=weight * width[keep], minlength=count)
-        sums[1] += np.bincount(index, weights=weight * moment[keep], minlength=count)
-        sums[2] += np.bincount(index, weights=weight * y[row] * width[keep], minlength=count)
-        sums[3] += np.bincount(index, weights=lengths[keep], minlength=count)
-        first = starts[keep] % nx
+        sums[0] += np.bincount(index, weights=weight * _run_sums(width_sums, start, stop), minlength=count)
+        sums[1] += np.bincount(index, weights=weight * _run_sums(moment_sums, start, stop), minlength=count)
+        sums[2] += np.bincount(index, weights=weight * y[row] * _run_sums(width_sums, start, stop),
+                               minlength=count)
+        sums[3] += np.bincount(index, weights=stop - start, minlength=count)
         np.minimum.at(box[0], index, row)
         np.maximum.at(box[1], index, row)
-        np.minimum.at(box[2], index, first)
-        np.maximum.at(box[3], index, first + lengths[keep] - 1)
+        np.minimum.at(box[2], index, start)
+        np.maximum.at(box[3], index, stop - 1)
     return sums[0], sums[1], sums[2], sums[3].astype(np.int64), box
+
+
+def _prefix_sums(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Prefix sums (n + 1,) of ``values`` as pairs high + low: high is np.cumsum's (sequential) sum, low the
+    running total of each step's exact rounding error (TwoSum, Knuth), so a difference of two prefix sums is
+    as accurate as the difference itself, however far along the row."""
+    high = np.concatenate(([0.0], np.cumsum(values)))
+    before, after = high[:-1], high[1:]
+    added = after - before
+    error = (before - (after - added)) + (values - added)
+    return high, np.concatenate(([0.0], np.cumsum(error)))
+
+
+def _run_sums(prefix: tuple[np.ndarray, np.ndarray], start: np.ndarray, stop: np.ndarray) -> np.ndarray:
+    """Sum of the values over columns start..stop - 1 of each run, from ``_prefix_sums``."""
+    high, low = prefix
+    return (high[stop] - high[start]) + (low[stop] - low[start])
 
 
 def _largest_first(area: np.ndarray) -> np.ndarray:
@@ -189,27 +279,25 @@ def _trapezoid_weights(nodes: np.ndarray) -> np.ndarray:
     return w
 
 
-def _peaks(compiled: CompiledEquation, quantity: str, labels: np.ndarray, count: int, type_map: TypeMap,
-           parameters, data, cancel, progress) -> dict[int, tuple[float, float, float]]:
+def _peaks(compiled: CompiledEquation, quantity: str, regions: _RunRegions | _NodeRegions, total: int,
+           type_map: TypeMap, parameters, data, cancel, progress) -> dict[int, tuple[float, float, float]]:
     """Per scan-order label: (largest finite value of ``quantity``, x, y of its node; the last such node in
-    scan order on ties), evaluated a block of rows at a time on the labelled nodes only."""
+    scan order on ties), evaluated a block of rows at a time on the regions' ``total`` nodes only."""
     x, y = type_map.x, type_map.y
-    ny, nx = labels.shape
+    ny, nx = regions.shape
+    count = regions.count
     chosen = dict(type_map.parameters) if parameters is None else parameters
     prepared = compiled.prepare(compiled.parameter_vector(chosen))
     best = np.full(count + 1, -np.inf)
     where = np.full(count + 1, -1, dtype=np.int64)            # flat node index of the peak so far
-    total = max(1, int(np.count_nonzero(labels)))
     done = 0
     step = _rows_per_chunk(nx)
     for start in range(0, ny, step):
         if cancel is not None and cancel():
             raise Cancelled("pocket statistics cancelled")
-        flat = labels[start:start + step].ravel()
-        inside = np.flatnonzero(flat)
+        inside, region = regions.block_nodes(start, min(start + step, ny))
         if inside.size == 0:
             continue
-        region = flat[inside]
         rows, columns = np.divmod(inside, nx)
         values = _quantity_at(compiled, quantity, x[columns], y[rows + start], prepared, data)
         finite = np.isfinite(values)
@@ -221,9 +309,9 @@ def _peaks(compiled: CompiledEquation, quantity: str, labels: np.ndarray, count:
         np.maximum.at(block_where, region[at_best], node[at_best])
         better = (block_where >= 0) & (block_best >= best)      # a later block wins ties: the last node
         best[better], where[better] = block_best[better], block_where[better]
-        done += flat.size - int(np.count_nonzero(flat == 0))
+        done += inside.size
         if progress is not None:
-            progress(done / total)
+            progress(done / max(total, 1))
     if progress is not None:
         progress(1.0)
     found = np.flatnonzero(where >= 0)

@@ -13,10 +13,6 @@ from core.analysis.type_change_lines import find_type_boundaries
 from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
-from core.data.sources import DataError
-from core.project.data_files import data_source_ref
-from core.project.io import ProjectError, save_project
-from core.project.model import ViewSettings, new_project
 from core.results.document import data_files_document, map_fields, study_fields
 from core.results.readouts import peak_quantity
 
@@ -91,6 +87,12 @@ def _write_pockets(pockets, x: str, y: str, out: TextIO) -> None:
 
 def _save_study(study: Study, path: str) -> None:
     """Write a new project file holding the study's equation, domain, tolerance and data files."""
+    # Here, not at the top: the project files load only when one is written (see core/cli/study.py)
+    from core.data.raw import DataError
+    from core.project.data_files import data_source_ref
+    from core.project.io import ProjectError, save_project
+    from core.project.model import ViewSettings, new_project
+
     project = replace(new_project(study.equation, study.domain),
                       view=ViewSettings(parabolic_tolerance=study.tolerance))
     try:

@@ -11,9 +11,8 @@ from typing import TextIO
 
 from core.cli.options import UsageError
 from core.cli.study import Study, build_study
-from core.equations.compiled import CompiledEquation
+from core.equations.compiled import CompiledEquation, compile_equation
 from core.equations.language import ExpressionError
-from core.project.data_files import compile_with_data
 from core.results.document import project_file_checksum
 
 __all__ = ["compiled_study", "read_study", "source_fields"]
@@ -29,6 +28,11 @@ def read_study(args: argparse.Namespace, err: TextIO) -> Study:
 def compiled_study(study: Study) -> CompiledEquation:
     """The study's equation compiled with its data; an error names the option the user typed."""
     try:
+        if study.data is None:
+            return compile_equation(study.equation)
+        # Here, not at the top: the data machinery loads only for studies with data (see core/cli/study.py)
+        from core.project.data_files import compile_with_data
+
         return compile_with_data(study.equation, study.data)
     except ExpressionError as error:
         option = error.field.replace("definitions.", "--let ").replace("parameters.", "--param ")

@@ -21,7 +21,7 @@ import numpy as np
 import core
 from core.analysis.classify import TypeCode
 from core.analysis.probe import ProbeResult
-from core.data.sources import DataError, file_checksum
+from core.data.raw import DataError
 from core.results.readouts import TradeReading
 
 __all__ = [
@@ -89,6 +89,10 @@ def project_file_checksum(path: str | os.PathLike | None) -> str | None:
     """SHA-256 (64 hex digits) of a project file's bytes as they are on disk; None without a readable file."""
     if path is None:
         return None
+    # Here, not at the top: core.data.sources (the data readers) loads only when there is a file to read;
+    # an inline classify never needs it (measured, see core/cli/study.py)
+    from core.data.sources import file_checksum
+
     try:
         return file_checksum(path)
     except DataError:

@@ -1,12 +1,14 @@
 """Connected hyperbolic pockets: labels, areas, boxes, centroids and peaks against closed forms."""
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
 
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import node_areas, pocket_outline, pocket_statistics, pockets_and_labels
+from core.analysis.run_labels import label_runs
 from core.data.sources import DataSources, load_data
 from core.domain import Domain
 from core.equations.compiled import compile_equation
@@ -202,9 +204,13 @@ def _reference_pockets(compiled, type_map, quantity, code, connectivity):
     (Equation("sqrt(y + 0.9)", "0", "-x*y", definitions={"q": "sqrt(x)*cos(9*y)"}),
      Domain(-1, 1.2, -1, 1, nx=64, ny=64), "q", "hyperbolic", 4),
 ])
-def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quantity, code, connectivity):
+@pytest.mark.parametrize("labelled_on", ["runs", "nodes"])
+def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quantity, code, connectivity,
+                                             labelled_on):
     # blocks of a few rows, so that sums and peaks are carried across blocks
     monkeypatch.setattr("core.analysis.pockets._CHUNK", 3 * domain.nx + 5)
+    if labelled_on == "nodes":                   # the way maps with very many runs go: scipy.ndimage.label
+        monkeypatch.setattr("core.analysis.pockets._run_budget", lambda nodes: 0)
     compiled = compile_equation(equation)
     type_map = classify_grid(compiled, domain)
     pockets = pocket_statistics(compiled, type_map, quantity=quantity, code=code, connectivity=connectivity)
@@ -221,3 +227,26 @@ def test_pockets_match_a_per_label_reference(monkeypatch, equation, domain, quan
         assert pocket.bounding_box == reference["bounding_box"]
         assert pocket.touches_boundary == reference["touches_boundary"]
         assert pocket.peak == reference["peak"] and pocket.peak_at == reference["peak_at"]
+
+
+def test_noise_is_labelled_node_by_node_and_agrees_with_runs(monkeypatch):
+    # pure noise: more runs than one in 32 nodes, so scipy.ndimage.label labels it node by node
+    compiled = compile_equation(Equation("1", "0", "-1"))
+    type_map = classify_grid(compiled, Domain(-1, 1, -0.5, 2, nx=90, ny=70))
+    noise = np.random.default_rng(3).random(type_map.codes.shape) < 0.45
+    type_map = replace(type_map, codes=np.where(noise, TypeCode.HYPERBOLIC, TypeCode.ELLIPTIC).astype(np.int8))
+    monkeypatch.setattr("core.analysis.pockets._FEWEST_RUNS_LABELLED", 0)
+    found = []
+    monkeypatch.setattr("core.analysis.pockets.label_runs",
+                        lambda *args, **options: found.append(label_runs(*args, **options)) or found[-1])
+    by_nodes, labels_by_nodes = pockets_and_labels(compiled, type_map)
+    assert found == [None]                        # past the budget: labelled node by node
+    monkeypatch.setattr("core.analysis.pockets._run_budget", lambda nodes: nodes)
+    by_runs, labels_by_runs = pockets_and_labels(compiled, type_map)
+    assert found[-1] is not None and len(by_runs) > 50
+    np.testing.assert_array_equal(labels_by_runs, labels_by_nodes)
+    for on_runs, on_nodes in zip(by_runs, by_nodes, strict=True):
+        assert on_runs.label == on_nodes.label and on_runs.node_count == on_nodes.node_count
+        assert on_runs.area == pytest.approx(on_nodes.area, rel=1e-14)
+        assert on_runs.centroid == pytest.approx(on_nodes.centroid, rel=1e-13, abs=1e-15)
+        assert on_runs.bounding_box == on_nodes.bounding_box
