@@ -102,7 +102,7 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
     if not (np.isfinite(xtol) and xtol > 0):
         raise ValueError(f"xtol must be a positive number, got {xtol}")
     _poll(cancel)
-    region_cells = parabolic_cells(codes)
+    region_cells = _region_cells(type_map, codes)
     lines, loops = zero_lines(codes, type_map.normalized, x, y)
     _report(progress, 0.4)
     _poll(cancel)
@@ -131,7 +131,7 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
         curves.append(TypeChangeCurve(
             points=_read_only(points[indices]), raw_points=_read_only(raw[indices]), closed=closed,
             left_type=TypeCode.HYPERBOLIC, right_type=TypeCode(right), unrefined=unrefined))
-    regions = parabolic_regions(region_cells, x, y, cancel)
+    regions = () if region_cells is None else parabolic_regions(region_cells, x, y, cancel)
     _report(progress, 1.0)
     return TypeBoundaries(curves=tuple(curves), parabolic_regions=regions, refined=bool(refine),
                           xtol=float(xtol))
@@ -149,6 +149,22 @@ def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]
         raise ValueError(f"type map nodes must increase, with at least 2 in each direction; got {x.size} x "
                          f"{y.size}")
     return codes, x, y
+
+
+def _region_cells(type_map: TypeMap, codes: np.ndarray) -> np.ndarray | None:
+    """parabolic_cells(codes), or None when no cell has four parabolic corners.
+
+    Most maps have no parabolic node at all (the map's own count says so) or only scattered ones; a pass
+    over their corners then replaces building the (ny-1, nx-1) cell mask, which costs about as much as
+    contouring the lines of a big grid.
+    """
+    if type_map.fractions.get(TypeCode.PARABOLIC.label, 1.0) == 0.0:
+        return None
+    j, i = np.nonzero(codes[:-1, :-1] == TypeCode.PARABOLIC)
+    if not ((codes[j + 1, i] == TypeCode.PARABOLIC) & (codes[j, i + 1] == TypeCode.PARABOLIC)
+            & (codes[j + 1, i + 1] == TypeCode.PARABOLIC)).any():
+        return None
+    return parabolic_cells(codes)
 
 
 def _grid_line(values: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -179,8 +195,8 @@ def _locate(points: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
     return np.stack([kind, j0, i0, j1, i1])
 
 
-def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray, region_cells: np.ndarray
-           ) -> tuple[np.ndarray, np.ndarray]:
+def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
+           region_cells: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
     """The type on the non-hyperbolic side of each vertex, and vectors (n, 2) toward the hyperbolic side.
 
     An edge vertex's non-hyperbolic node decides; a parabolic node is PARABOLIC in a parabolic region, else
@@ -196,8 +212,10 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     beyond = np.where((neighbour == TypeCode.ELLIPTIC).any(axis=0), TypeCode.ELLIPTIC,
                       np.where((neighbour == TypeCode.UNDEFINED).any(axis=0), TypeCode.UNDEFINED,
                                TypeCode.HYPERBOLIC))
-    in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
-                 | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
+    in_region = np.zeros(len(kind), dtype=bool)
+    if region_cells is not None:
+        in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
+                     | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
     side[parabolic] = np.where(in_region, TypeCode.PARABOLIC, beyond)[parabolic]
     side[kind == _KIND_OFF] = -1
 
