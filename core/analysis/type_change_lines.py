@@ -302,40 +302,44 @@ def _refine_vertices(discriminant: PointFunction, raw: np.ndarray, x: np.ndarray
     """Vertices (n, 2) moved onto D = 0 along their grid edge, and which of them were (bool (n,)).
 
     An edge vertex is searched between the edge's two nodes. A vertex on a node is exact if D is 0 there;
-    otherwise the nearest root on the four half-edges leaving the node is taken. D is evaluated once per
-    grid node involved.
+    otherwise the nearest root on the four half-edges leaving the node is taken. The values at all segment
+    ends come from one evaluation (a node shared by two segments is evaluated twice: cheaper than sorting
+    the nodes out for the cheap formulas of most equations, and at most twice the points for costly ones).
     """
     kind, j0, i0, j1, i1 = located
     points, ok = raw.copy(), np.zeros(len(raw), dtype=bool)
     edge = np.flatnonzero((kind == _KIND_X_EDGE) | (kind == _KIND_Y_EDGE))
     node = np.flatnonzero(kind == _KIND_NODE)
-    starts, ends, owners = [(j0[edge], i0[edge])], [(j1[edge], i1[edge])], [edge]
-    for dj, di in _NEIGHBOURS:
+    starts_j, starts_i, ends_j, ends_i, owners = [j0[edge]], [i0[edge]], [j1[edge]], [i1[edge]], [edge]
+    for dj, di in _NEIGHBOURS if node.size else ():
         nj, ni = j0[node] + dj, i0[node] + di
         inside = (nj >= 0) & (nj < y.size) & (ni >= 0) & (ni < x.size)
-        starts.append((j0[node[inside]], i0[node[inside]]))
-        ends.append((nj[inside], ni[inside]))
+        starts_j.append(j0[node[inside]])
+        starts_i.append(i0[node[inside]])
+        ends_j.append(nj[inside])
+        ends_i.append(ni[inside])
         owners.append(node[inside])
-    start_id = np.concatenate([j * x.size + i for j, i in starts])
-    end_id = np.concatenate([j * x.size + i for j, i in ends])
+    start_j, start_i, end_j, end_i = (np.concatenate(v) for v in (starts_j, starts_i, ends_j, ends_i))
     owner = np.concatenate(owners)
-    unique, position = np.unique(np.concatenate([start_id, end_id, j0[node] * x.size + i0[node]]),
-                                 return_inverse=True)
-    at_unique = np.column_stack([x[unique % x.size], y[unique // x.size]])
-    value = discriminant(at_unique[:, 0], at_unique[:, 1])[position]
-    m = start_id.size
+    m = owner.size
+    value = discriminant(np.concatenate([x[start_i], x[end_i], x[i0[node]]]),
+                         np.concatenate([y[start_j], y[end_j], y[j0[node]]]))
     f_start, f_end, f_node = value[:m], value[m:2 * m], value[2 * m:]
 
-    exact = f_node == 0                               # a vertex on a node where D vanishes: nothing to do
-    points[node[exact]] = np.column_stack([x[i0[node[exact]]], y[j0[node[exact]]]])
-    ok[node[exact]] = True
-    search = ~np.isin(owner, node[exact])
-    start_id, end_id, owner, f_start, f_end = (v[search] for v in (start_id, end_id, owner, f_start, f_end))
-    start = np.column_stack([x[start_id % x.size], y[start_id // x.size]])
-    end = np.column_stack([x[end_id % x.size], y[end_id // x.size]])
+    if node.size:
+        exact = f_node == 0                           # a vertex on a node where D vanishes: nothing to do
+        points[node[exact]] = np.column_stack([x[i0[node[exact]]], y[j0[node[exact]]]])
+        ok[node[exact]] = True
+        search = ~np.isin(owner, node[exact])
+        start_j, start_i, end_j, end_i, owner, f_start, f_end = (
+            v[search] for v in (start_j, start_i, end_j, end_i, owner, f_start, f_end))
+    start = np.column_stack([x[start_i], y[start_j]])
+    end = np.column_stack([x[end_i], y[end_j]])
     roots, found = roots_on_segments(discriminant, start, end, xtol=xtol, cancel=cancel, f_start=f_start,
                                      f_end=f_end)
-    if found.any():
+    if not node.size:                                 # one segment per vertex
+        points[owner[found]], ok[owner[found]] = roots[found], True
+    elif found.any():                                 # a node's vertex: the root nearest the node
         distance = np.hypot(*(roots - start).T)
         candidates = np.flatnonzero(found)
         order = candidates[np.lexsort((distance[candidates], owner[candidates]))]
