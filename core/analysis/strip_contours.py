@@ -3,13 +3,16 @@
 The field is F = D/S with parabolic nodes exactly 0 and undefined nodes NaN (masked), built a strip at a
 time from the map's float32 storage, so no float64 copy of the whole grid is ever made (contourpy also
 makes 2-D coordinate arrays: three doubles a node for the whole grid otherwise). Strips overlap by one
-row of nodes; within a strip only the columns holding a sign change are contoured, and strips without one
-are skipped. A line leaving a strip through its top or bottom row ends there on a grid edge; the
-strip on the other side has a line ending on the same edge, computed from the same two values: the two
-pieces are joined there, so each line comes out whole, closed ones closed.
+row of nodes. Within a strip, the columns of cells holding a sign change form clusters separated by at
+least one column without one, which no line can cross; only the clusters are contoured, packed side by
+side with a masked column between neighbours, so the work follows the lines' length, not the domain's area,
+and strips without a change are skipped. A line leaving a strip through its top or bottom row ends there
+on a grid edge; the strip on the other side has a line ending on the same edge, computed from the same two
+values: the two pieces are joined there, so each line comes out whole, closed ones closed.
 
-On a grid of one strip the lines are contourpy's, in its order. Across strips, lines come in the order in
-which their first piece was found (strips bottom to top, contourpy's order within a strip).
+On a grid of one strip the lines are contourpy's, in its order (packing keeps the order in which contourpy
+meets them, row by row). Across strips, lines come in the order in which their first piece was found (strips
+bottom to top, contourpy's order within a strip).
 """
 
 from __future__ import annotations
@@ -51,25 +54,52 @@ def zero_lines(codes: np.ndarray, normalized: np.ndarray, x: np.ndarray, y: np.n
 
 def _strip_lines(codes: np.ndarray, normalized: np.ndarray, x: np.ndarray, y: np.ndarray, bottom: int,
                  top: int) -> list[tuple[np.ndarray, bool]]:
-    """contourpy's lines of F on node rows bottom..top, cropped to the columns of cells with a sign change;
+    """contourpy's lines of F on node rows bottom..top, in the columns of cells with a sign change only;
     a closed line repeats its first point at the end."""
-    block = codes[bottom:top + 1]
-    above = block == TypeCode.HYPERBOLIC                     # F > 0 exactly where the node is hyperbolic
-    corner = above[:-1, :-1]
-    changes = (corner != above[:-1, 1:]) | (corner != above[1:, :-1]) | (corner != above[1:, 1:])
-    columns = np.flatnonzero(changes.any(axis=0))
-    if columns.size == 0:
+    clusters = _changing_columns(codes[bottom:top + 1])
+    if clusters.size == 0:
         return []
-    first, last = int(columns[0]), int(columns[-1]) + 1      # node columns of the cells with a change
-    block = block[:, first:last + 1]
-    field = np.asarray(normalized[bottom:top + 1, first:last + 1], dtype=np.float64)
+    columns, separators = _packed_columns(clusters)
+    block = codes[bottom:top + 1].take(columns, axis=1)
+    field = normalized[bottom:top + 1].take(columns, axis=1).astype(np.float64)
     field[block == TypeCode.PARABOLIC] = 0.0
     field[block == TypeCode.UNDEFINED] = np.nan
-    generator = contourpy.contour_generator(x[first:last + 1], y[bottom:top + 1], field, name="serial",
+    field[:, separators] = np.nan
+    x_packed = x[columns]
+    # a separator sits between its neighbours: coordinates keep increasing (its quads are masked anyway)
+    x_packed[separators] = 0.5 * (x_packed[separators - 1] + x_packed[separators + 1])
+    generator = contourpy.contour_generator(x_packed, y[bottom:top + 1], field, name="serial",
                                             line_type="SeparateCode", corner_mask=False, quad_as_tri=False,
                                             chunk_size=0)
     lines, line_codes = generator.lines(0.0)
     return [(line, bool(len(code) > 2 and code[-1] == _CLOSED)) for line, code in zip(lines, line_codes)]
+
+
+def _changing_columns(block: np.ndarray) -> np.ndarray:
+    """Runs of columns of cells (rows of ``block``'s codes) holding a sign change of F: int (k, 2) rows of
+    (first cell column, last cell column + 1), separated by at least one column without a change.
+
+    A column of cells between node columns i and i + 1 holds a change exactly when those two columns of
+    nodes are not all hyperbolic and not all non-hyperbolic; HYPERBOLIC being the largest code, that is read
+    from the columns' maxima and minima: two reductions of the int8 codes, no array of the strip's size.
+    """
+    some_hyperbolic = block.max(axis=0) == TypeCode.HYPERBOLIC
+    some_other = block.min(axis=0) != TypeCode.HYPERBOLIC
+    changing = (some_hyperbolic[:-1] | some_hyperbolic[1:]) & (some_other[:-1] | some_other[1:])
+    bounds = np.flatnonzero(np.diff(changing, prepend=False, append=False))
+    return bounds.reshape(-1, 2)
+
+
+def _packed_columns(clusters: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Node columns of the clusters side by side with one separator column between neighbours, and the
+    separators' positions in the packed array (their entries in ``columns`` are -1)."""
+    widths = clusters[:, 1] - clusters[:, 0] + 1                 # node columns of each cluster
+    starts = np.concatenate([[0], np.cumsum(widths + 1)[:-1]])  # packed position of each cluster's first
+    total = int(starts[-1] + widths[-1])
+    columns = np.arange(total) + np.repeat(clusters[:, 0] - starts, widths + 1)[:total]
+    separators = starts[1:] - 1
+    columns[separators] = -1
+    return columns, separators
 
 
 def _stitch(pieces: list[np.ndarray], closed: list[bool], edge_rows: list[tuple[int, int]], x: np.ndarray,

@@ -102,7 +102,7 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
     if not (np.isfinite(xtol) and xtol > 0):
         raise ValueError(f"xtol must be a positive number, got {xtol}")
     _poll(cancel)
-    region_cells = parabolic_cells(codes)
+    region_cells = _region_cells(type_map, codes)
     lines, loops = zero_lines(codes, type_map.normalized, x, y)
     _report(progress, 0.4)
     _poll(cancel)
@@ -131,7 +131,7 @@ def find_type_boundaries(compiled: CompiledEquation, type_map: TypeMap, *,
         curves.append(TypeChangeCurve(
             points=_read_only(points[indices]), raw_points=_read_only(raw[indices]), closed=closed,
             left_type=TypeCode.HYPERBOLIC, right_type=TypeCode(right), unrefined=unrefined))
-    regions = parabolic_regions(region_cells, x, y, cancel)
+    regions = () if region_cells is None else parabolic_regions(region_cells, x, y, cancel)
     _report(progress, 1.0)
     return TypeBoundaries(curves=tuple(curves), parabolic_regions=regions, refined=bool(refine),
                           xtol=float(xtol))
@@ -149,6 +149,22 @@ def _checked_map(type_map: TypeMap) -> tuple[np.ndarray, np.ndarray, np.ndarray]
         raise ValueError(f"type map nodes must increase, with at least 2 in each direction; got {x.size} x "
                          f"{y.size}")
     return codes, x, y
+
+
+def _region_cells(type_map: TypeMap, codes: np.ndarray) -> np.ndarray | None:
+    """parabolic_cells(codes), or None when no cell has four parabolic corners.
+
+    Most maps have no parabolic node at all (the map's own count says so) or only scattered ones; a pass
+    over their corners then replaces building the (ny-1, nx-1) cell mask, which costs about as much as
+    contouring the lines of a big grid.
+    """
+    if type_map.fractions.get(TypeCode.PARABOLIC.label, 1.0) == 0.0:
+        return None
+    j, i = np.nonzero(codes[:-1, :-1] == TypeCode.PARABOLIC)
+    if not ((codes[j + 1, i] == TypeCode.PARABOLIC) & (codes[j, i + 1] == TypeCode.PARABOLIC)
+            & (codes[j + 1, i + 1] == TypeCode.PARABOLIC)).any():
+        return None
+    return parabolic_cells(codes)
 
 
 def _grid_line(values: np.ndarray, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -179,8 +195,8 @@ def _locate(points: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
     return np.stack([kind, j0, i0, j1, i1])
 
 
-def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray, region_cells: np.ndarray
-           ) -> tuple[np.ndarray, np.ndarray]:
+def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
+           region_cells: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
     """The type on the non-hyperbolic side of each vertex, and vectors (n, 2) toward the hyperbolic side.
 
     An edge vertex's non-hyperbolic node decides; a parabolic node is PARABOLIC in a parabolic region, else
@@ -196,8 +212,10 @@ def _sides(codes: np.ndarray, x: np.ndarray, y: np.ndarray, located: np.ndarray,
     beyond = np.where((neighbour == TypeCode.ELLIPTIC).any(axis=0), TypeCode.ELLIPTIC,
                       np.where((neighbour == TypeCode.UNDEFINED).any(axis=0), TypeCode.UNDEFINED,
                                TypeCode.HYPERBOLIC))
-    in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
-                 | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
+    in_region = np.zeros(len(kind), dtype=bool)
+    if region_cells is not None:
+        in_region = (_value_at(region_cells, pj - 1, pi - 1, False) | _value_at(region_cells, pj, pi - 1, False)
+                     | _value_at(region_cells, pj - 1, pi, False) | _value_at(region_cells, pj, pi, False))
     side[parabolic] = np.where(in_region, TypeCode.PARABOLIC, beyond)[parabolic]
     side[kind == _KIND_OFF] = -1
 
@@ -284,40 +302,44 @@ def _refine_vertices(discriminant: PointFunction, raw: np.ndarray, x: np.ndarray
     """Vertices (n, 2) moved onto D = 0 along their grid edge, and which of them were (bool (n,)).
 
     An edge vertex is searched between the edge's two nodes. A vertex on a node is exact if D is 0 there;
-    otherwise the nearest root on the four half-edges leaving the node is taken. D is evaluated once per
-    grid node involved.
+    otherwise the nearest root on the four half-edges leaving the node is taken. The values at all segment
+    ends come from one evaluation (a node shared by two segments is evaluated twice: cheaper than sorting
+    the nodes out for the cheap formulas of most equations, and at most twice the points for costly ones).
     """
     kind, j0, i0, j1, i1 = located
     points, ok = raw.copy(), np.zeros(len(raw), dtype=bool)
     edge = np.flatnonzero((kind == _KIND_X_EDGE) | (kind == _KIND_Y_EDGE))
     node = np.flatnonzero(kind == _KIND_NODE)
-    starts, ends, owners = [(j0[edge], i0[edge])], [(j1[edge], i1[edge])], [edge]
-    for dj, di in _NEIGHBOURS:
+    starts_j, starts_i, ends_j, ends_i, owners = [j0[edge]], [i0[edge]], [j1[edge]], [i1[edge]], [edge]
+    for dj, di in _NEIGHBOURS if node.size else ():
         nj, ni = j0[node] + dj, i0[node] + di
         inside = (nj >= 0) & (nj < y.size) & (ni >= 0) & (ni < x.size)
-        starts.append((j0[node[inside]], i0[node[inside]]))
-        ends.append((nj[inside], ni[inside]))
+        starts_j.append(j0[node[inside]])
+        starts_i.append(i0[node[inside]])
+        ends_j.append(nj[inside])
+        ends_i.append(ni[inside])
         owners.append(node[inside])
-    start_id = np.concatenate([j * x.size + i for j, i in starts])
-    end_id = np.concatenate([j * x.size + i for j, i in ends])
+    start_j, start_i, end_j, end_i = (np.concatenate(v) for v in (starts_j, starts_i, ends_j, ends_i))
     owner = np.concatenate(owners)
-    unique, position = np.unique(np.concatenate([start_id, end_id, j0[node] * x.size + i0[node]]),
-                                 return_inverse=True)
-    at_unique = np.column_stack([x[unique % x.size], y[unique // x.size]])
-    value = discriminant(at_unique[:, 0], at_unique[:, 1])[position]
-    m = start_id.size
+    m = owner.size
+    value = discriminant(np.concatenate([x[start_i], x[end_i], x[i0[node]]]),
+                         np.concatenate([y[start_j], y[end_j], y[j0[node]]]))
     f_start, f_end, f_node = value[:m], value[m:2 * m], value[2 * m:]
 
-    exact = f_node == 0                               # a vertex on a node where D vanishes: nothing to do
-    points[node[exact]] = np.column_stack([x[i0[node[exact]]], y[j0[node[exact]]]])
-    ok[node[exact]] = True
-    search = ~np.isin(owner, node[exact])
-    start_id, end_id, owner, f_start, f_end = (v[search] for v in (start_id, end_id, owner, f_start, f_end))
-    start = np.column_stack([x[start_id % x.size], y[start_id // x.size]])
-    end = np.column_stack([x[end_id % x.size], y[end_id // x.size]])
+    if node.size:
+        exact = f_node == 0                           # a vertex on a node where D vanishes: nothing to do
+        points[node[exact]] = np.column_stack([x[i0[node[exact]]], y[j0[node[exact]]]])
+        ok[node[exact]] = True
+        search = ~np.isin(owner, node[exact])
+        start_j, start_i, end_j, end_i, owner, f_start, f_end = (
+            v[search] for v in (start_j, start_i, end_j, end_i, owner, f_start, f_end))
+    start = np.column_stack([x[start_i], y[start_j]])
+    end = np.column_stack([x[end_i], y[end_j]])
     roots, found = roots_on_segments(discriminant, start, end, xtol=xtol, cancel=cancel, f_start=f_start,
                                      f_end=f_end)
-    if found.any():
+    if not node.size:                                 # one segment per vertex
+        points[owner[found]], ok[owner[found]] = roots[found], True
+    elif found.any():                                 # a node's vertex: the root nearest the node
         distance = np.hypot(*(roots - start).T)
         candidates = np.flatnonzero(found)
         order = candidates[np.lexsort((distance[candidates], owner[candidates]))]

@@ -1,5 +1,7 @@
 """Contouring in strips of rows gives the lines of contouring the whole field at once, joined whole."""
 
+from types import SimpleNamespace
+
 import contourpy
 import numpy as np
 import pytest
@@ -74,3 +76,69 @@ def test_refined_unit_circle_is_the_same_from_strips(monkeypatch):
     assert a.closed and b.closed and a.unrefined == b.unrefined == 0
     assert same_line(a.points[:-1], True, b.points[:-1], True)
     assert np.abs(np.hypot(*b.points.T) - 1).max() <= 1e-12 * type_map.domain.size
+
+
+def hand_made_map(field):
+    """A map with the codes and float32 D/S a classification would give for ``field`` (ny, nx) on [0, 1]^2:
+    F > 0 hyperbolic, F < 0 elliptic, F = 0 parabolic, NaN undefined."""
+    ny, nx = field.shape
+    codes = np.select([np.isnan(field), field > 0, field < 0], [TypeCode.UNDEFINED, TypeCode.HYPERBOLIC,
+                                                                TypeCode.ELLIPTIC], TypeCode.PARABOLIC)
+    return SimpleNamespace(codes=codes.astype(np.int8), normalized=field.astype(np.float32),
+                           x=np.linspace(0, 1, nx), y=np.linspace(0, 1, ny))
+
+
+def islands_in_columns():
+    """Blobs in groups of node columns, some groups one cell column apart (the narrowest gap between
+    clusters), the blobs' heights crossing strips; a row of exact zeros and an undefined node among them."""
+    pattern = np.array([-1, -1, 1, -1, -1, 1, 1, -1, -1, -1, 1, -1, 1, 1, 1, -1, -1, 1, -1, -1, -1, -1, 1, -1])
+    ny = 40
+    y = np.linspace(0, 1, ny)[:, np.newaxis]
+    height = 0.3 + 0.02 * np.arange(pattern.size)            # each group's blob has its own height
+    wobble = 0.003 * np.sin(7 * y + np.arange(pattern.size))
+    field = np.where(pattern > 0, height - np.abs(y - 0.5) + wobble, -0.2 + wobble)
+    field[31, 12:15] = 0.0
+    field[12, 6] = np.nan
+    return field
+
+
+def many_islands():
+    """Dozens of small islands, many per row of the grid: many clusters in every strip."""
+    y, x = np.mgrid[0:1:83j, 0:1:131j]
+    return np.sin(37 * x) * np.sin(29 * y) + 0.2 * np.cos(5 * x * y) - 0.55
+
+
+@pytest.mark.parametrize("rows", [1, 2, 5, 16, 1000])
+@pytest.mark.parametrize(("make_field", "narrowest_gap"), [(islands_in_columns, 1), (many_islands, 4)])
+def test_lines_across_clusters_and_strips_are_the_whole_field_lines(monkeypatch, make_field, narrowest_gap,
+                                                                    rows):
+    # Reference: contourpy on the whole float64 field at once (whole_field_lines). Strips contour only the
+    # clusters of columns with a sign change, packed side by side: the lines must not notice.
+    type_map = hand_made_map(make_field())
+    _, nx = type_map.codes.shape
+    clusters = strip_contours._changing_columns(type_map.codes[14:20])              # in a strip of 5 cells
+    assert len(clusters) >= 5 and (clusters[1:, 0] - clusters[:-1, 1]).min() == narrowest_gap   # in cells
+    monkeypatch.setattr(strip_contours, "_STRIP_NODES", rows * nx)
+    lines, closed = strip_contours.zero_lines(type_map.codes, type_map.normalized, type_map.x, type_map.y)
+    expected, expected_closed = whole_field_lines(type_map)
+    assert len(lines) == len(expected) >= 9
+    unmatched = list(range(len(lines)))
+    for line, is_closed in zip(expected, expected_closed):
+        match = next(k for k in unmatched if same_line(lines[k], closed[k], line, is_closed))
+        unmatched.remove(match)
+    if rows >= type_map.codes.shape[0]:      # one strip: contourpy's own lines, in its order, from its starts
+        assert all(np.array_equal(a, b) for a, b in zip(lines, expected)) and closed == expected_closed
+
+
+def test_clusters_hold_every_cell_with_a_sign_change():
+    # The cells with a change, found corner by corner; columns between clusters have none.
+    rng = np.random.default_rng(5)
+    codes = rng.choice(np.array([0, 1, 2, 3], dtype=np.int8), size=(9, 300), p=[0.02, 0.9, 0.02, 0.06])
+    above = codes == TypeCode.HYPERBOLIC
+    corner = above[:-1, :-1]
+    changes = (corner != above[:-1, 1:]) | (corner != above[1:, :-1]) | (corner != above[1:, 1:])
+    in_cluster = np.zeros(codes.shape[1] - 1, dtype=bool)
+    for first, stop in strip_contours._changing_columns(codes):
+        assert changes[:, first].any() and changes[:, stop - 1].any()
+        in_cluster[first:stop] = True
+    np.testing.assert_array_equal(in_cluster, changes.any(axis=0))
