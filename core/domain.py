@@ -41,8 +41,9 @@ class Domain:
             if isinstance(value, bool) or not isinstance(value, int) or not MIN_GRID <= value <= MAX_GRID:
                 raise ValueError(f"domain {self.name!r}: {label} must be an integer in "
                                  f"[{MIN_GRID}, {MAX_GRID}], got {value!r}")
-        if not math.isfinite(math.hypot(self.xmax - self.xmin, self.ymax - self.ymin)):
-            raise ValueError(f"domain {self.name!r}: too large: its width, height or diagonal overflows double "
+        width, height = self.xmax - self.xmin, self.ymax - self.ymin
+        if not (math.isfinite(math.hypot(width, height)) and math.isfinite(width * height)):
+            raise ValueError(f"domain {self.name!r}: too large: its width, height, diagonal or area overflows double "
                              f"precision (about 1.8e308); shift or rescale the variables")
         for axis, low, high, count in (("x", self.xmin, self.xmax, self.nx), ("y", self.ymin, self.ymax, self.ny)):
             _check_resolvable(self.name, axis, low, high, count)

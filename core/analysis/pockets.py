@@ -94,9 +94,7 @@ def _find_pockets(compiled: CompiledEquation, type_map: TypeMap, *, quantity: st
         _check_quantity(compiled, quantity, data)
     x, y = type_map.x, type_map.y
     ny, nx = type_map.codes.shape
-    area, weighted_x, weighted_y, nodes, box = _region_sums(regions, x, y)
-    safe = np.where(area > 0, area, 1.0)
-    cx, cy = weighted_x / safe, weighted_y / safe
+    area, cx, cy, nodes, box = _region_sums(regions, x, y)
     peaks = {} if quantity is None else _peaks(compiled, quantity, regions, int(nodes.sum()), type_map,
                                                parameters, data, cancel, progress)
     order = _largest_first(area)
@@ -217,7 +215,7 @@ def _rows_per_chunk(nx: int) -> int:
 
 def _region_sums(regions: _RunRegions | _NodeRegions, x: np.ndarray, y: np.ndarray
                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted sums of x and of y, nodes,
+    """Per label 1..count (index 0 for label 1): trapezoid area, area-weighted mean of x and of y, nodes,
     and the bounding box of its nodes (4, count) as first and last row, first and last column.
 
     A node's trapezoid weight is wy[row] * wx[column] (node_areas), so a run's area is wy[row] times the sum
@@ -227,6 +225,12 @@ def _region_sums(regions: _RunRegions | _NodeRegions, x: np.ndarray, y: np.ndarr
     count = regions.count
     x = np.asarray(x, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
+    # Sums run on the grid scaled to the unit square (x - x0) / W and (y - y0) / H, so that no product of
+    # weights and coordinates overflows on a domain near the largest doubles; they are scaled back at the end.
+    x0, y0 = x[0], y[0]
+    width, height = (x[-1] - x0, y[-1] - y0) if x.size > 1 and y.size > 1 else (1.0, 1.0)
+    width, height = width or 1.0, height or 1.0
+    x, y = (x - x0) / width, (y - y0) / height
     wx, wy = _trapezoid_weights(x), _trapezoid_weights(y)
     width_sums, moment_sums = _prefix_sums(wx), _prefix_sums(wx * x)
     sums = np.zeros((4, count))
@@ -244,7 +248,10 @@ def _region_sums(regions: _RunRegions | _NodeRegions, x: np.ndarray, y: np.ndarr
         np.maximum.at(box[1], index, row)
         np.minimum.at(box[2], index, start)
         np.maximum.at(box[3], index, stop - 1)
-    return sums[0], sums[1], sums[2], sums[3].astype(np.int64), box
+    scaled_area = np.where(sums[0] > 0, sums[0], 1.0)
+    centroid_x = x0 + width * (sums[1] / scaled_area)
+    centroid_y = y0 + height * (sums[2] / scaled_area)
+    return sums[0] * (width * height), centroid_x, centroid_y, sums[3].astype(np.int64), box
 
 
 def _prefix_sums(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -71,9 +71,19 @@ def test_a_domain_whose_width_overflows_is_refused():
     assert status == 2 and "overflows double precision" in err
 
 
-def test_a_domain_reaching_the_largest_double_classifies():
-    document = run_json("classify", *LAPLACE, "--domain", "-1.7e308", "0", "-1", "1", "--grid", "8")
-    assert document["fractions"]["elliptic"] == 1.0
+def test_a_domain_reaching_the_largest_double_classifies_without_overflow(recwarn):
+    document = run_json("classify", "--a", "1", "--b", "x", "--c", "1", "--domain", "-1.7e308", "0", "-1e-9", "1e-9",
+                        "--grid", "8")
+    assert document["fractions"]["hyperbolic"] == 0.875            # every column but x = 0, where D = -4
+    (pocket,) = document["pockets"]
+    assert pocket["area"] == pytest.approx(1.7e308 * 2e-9 * 13 / 14)   # trapezoid weights: 6.5 of 7 spacings
+    assert -1.7e308 < pocket["centroid"][0] < -1e307 and abs(pocket["centroid"][1]) < 1e-24
+    assert not [w for w in recwarn if issubclass(w.category, RuntimeWarning)]
+
+
+def test_a_domain_whose_area_overflows_is_refused():
+    status, _, err = run("classify", *LAPLACE, "--domain", "-1.7e308", "0", "-1", "1", "--grid", "8")
+    assert status == 2 and "area overflows double precision" in err
 
 
 def test_memory_and_recursion_errors_become_one_line_messages():
