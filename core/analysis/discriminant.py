@@ -16,6 +16,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from core.equations.evaluation import broadcast_shape
+
 __all__ = ["DiscriminantScratch", "discriminant", "normalized_discriminant", "normalized_discriminant_into",
            "scaled_by_power_of_two"]
 
@@ -84,7 +86,7 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
     first, second, third = scratch.views(shape)
 
     def into(buffer: np.ndarray, *operands) -> np.ndarray | None:
-        return buffer if np.broadcast_shapes(*(np.shape(v) for v in operands)) == shape else None
+        return buffer if broadcast_shape(operands) == shape else None
 
     with np.errstate(all="ignore"):
         half_b = np.multiply(b, 0.5, out=into(first, b))

@@ -10,7 +10,7 @@ import numpy as np
 
 from core.equations.codegen import Statement
 
-__all__ = ["EvaluationBuffers", "EvaluationPlan", "Step", "UfuncProgram"]
+__all__ = ["EvaluationBuffers", "EvaluationPlan", "Step", "UfuncProgram", "broadcast_shape"]
 
 
 @dataclass(frozen=True)
@@ -87,6 +87,15 @@ _EXACT_FUNCTIONS = {numexpr.interpreter.funccodes[b"absolute_dd"]: np.absolute}
 _WHERE = b"where_dbdd"
 
 
+def broadcast_shape(values) -> tuple[int, ...]:
+    """The shape arrays and scalars broadcast to (np.broadcast_shapes, without its cost when shapes agree)."""
+    shapes = {getattr(value, "shape", ()) for value in values}
+    shapes.discard(())
+    if len(shapes) <= 1:
+        return shapes.pop() if shapes else ()
+    return np.broadcast_shapes(*shapes)
+
+
 @dataclass(frozen=True)
 class _Operation:
     ufunc: np.ufunc | None   # None: where(condition, then, otherwise)
@@ -160,7 +169,7 @@ class UfuncProgram:
         with np.errstate(all="ignore"):
             for operation in self._operations:
                 values = [registers[source] for source in operation.sources]
-                shape = np.broadcast_shapes(*(np.shape(v) for v in values))
+                shape = broadcast_shape(values)
                 dtype = np.bool_ if operation.boolean else np.float64
                 destination = registers[operation.target] if operation.target in owned else None
                 if destination is not None and (destination.shape != shape or destination.dtype != dtype):
