@@ -1,5 +1,7 @@
-"""How a compiled equation's program runs: which steps some values need (EvaluationPlan) and the arrays
-one thread reuses from block to block (EvaluationBuffers)."""
+"""How a compiled equation's program runs: which steps some values need (EvaluationPlan), the arrays one
+thread reuses from block to block (EvaluationBuffers), and steps of IEEE-exact operations run as numpy ufuncs
+taken operation for operation from numexpr's compiled program (UfuncProgram: the same bits, several times
+faster, each intermediate in the smallest shape its operands broadcast to)."""
 
 from __future__ import annotations
 
