@@ -166,9 +166,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
 
     ``cancel`` is polled between blocks (raise Cancelled when it returns True); ``progress`` gets a fraction
     in [0, 1]. Only a, b, c are evaluated (readout-only definitions and their data are not). Extra memory per
-    thread is three work buffers of 2**18 doubles plus one such buffer per value the equation's program holds at
-    once (core.equations.evaluation.EvaluationBuffers), independent of the grid size; each pool thread keeps
-    them for the next call with the same block shape (``_Workspace``).
+    thread is one buffer of 2**18 doubles per value the equation's program holds at once, and at least the
+    three D/S works in (core.equations.evaluation.EvaluationBuffers), independent of the grid size; each pool
+    thread keeps them for the next call with the same block shape (``_Workspace``).
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
     """
@@ -202,8 +202,10 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
                                    names=COEFFICIENT_NAMES, buffers=workspace.buffers)
+        # D/S works in arrays the evaluation has just released (still in cache), lent until its next call.
+        arrays = tuple(workspace.buffers.take((stop - start, nx), np.float64) for _ in range(3))
         may_be_nan = normalized_discriminant_into(raw["a"], raw["b"], raw["c"], normalized[start:stop],
-                                                  workspace.scratch)
+                                                  DiscriminantScratch(arrays=arrays))  # type: ignore[arg-type]
         counts = _codes_from_normalized(normalized[start:stop], tolerance, codes[start:stop],
                                         may_be_nan=may_be_nan, scratch=workspace.flags)
         if progress is not None:
@@ -244,7 +246,6 @@ class _Workspace:
     def __init__(self, shape: tuple[int, int]) -> None:
         self.shape = shape
         size = shape[0] * shape[1]
-        self.scratch = DiscriminantScratch(size)
         self.buffers = EvaluationBuffers()
         self.flags = (np.empty(size, bool), np.empty(size, bool))
 

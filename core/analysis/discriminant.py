@@ -50,15 +50,19 @@ def discriminant(a, b, c) -> np.ndarray:
 
 
 class DiscriminantScratch:
-    """Work buffers for one block of points, reused from block to block by one thread (no fresh temporaries:
-    block-sized arrays allocated anew cost page faults that take longer than the arithmetic)."""
+    """Three work arrays for one block of points, reused from block to block by one thread (no fresh
+    temporaries: block-sized arrays allocated anew cost page faults that take longer than the arithmetic).
 
-    def __init__(self, size: int) -> None:
-        self.buffers = (np.empty(size), np.empty(size), np.empty(size))
+    ``arrays`` lends arrays the caller already has (a grid run passes buffers its evaluation has just
+    released, still in cache); otherwise three of ``size`` doubles are made.
+    """
+
+    def __init__(self, size: int = 0, *, arrays: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None) -> None:
+        self.buffers = arrays if arrays is not None else (np.empty(size), np.empty(size), np.empty(size))
 
     def views(self, shape: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         size = int(np.prod(shape))
-        return tuple(b[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
+        return tuple(b.reshape(-1)[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
 
 
 def normalized_discriminant(a, b, c) -> np.ndarray:
