@@ -38,9 +38,6 @@ __all__ = [
 DEFAULT_TOLERANCE = 1e-10
 _BLOCK_ELEMENTS = 1 << 18   # nodes per block: the fastest of 2**16..2**19 in bench_classify (fewer, longer blocks
 # hold the GIL between numpy calls less often; cancel still answers within one block)
-# D/S of full-size coefficients is formed in parts of this many nodes: its temporaries (128 KiB) then come from
-# memory the allocator keeps, while fresh 512 KiB ones cost page faults that take longer than the arithmetic.
-_DISCRIMINANT_ELEMENTS = 1 << 14
 _WORKERS = min(8, os.cpu_count() or 1)
 _POOL: ThreadPoolExecutor | None = None
 
@@ -82,30 +79,42 @@ class TypeCode(enum.IntEnum):
         return self.name.lower()
 
 
-def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.ndarray) -> np.ndarray:
+# Plain ints: numpy treats an IntEnum operand as a Python object, some thirty times slower on a block.
+_UNDEFINED, _ELLIPTIC, _PARABOLIC, _HYPERBOLIC = (int(code) for code in (
+    TypeCode.UNDEFINED, TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC))
+
+
+def _codes_from_normalized(normalized: np.ndarray, tolerance: float, out: np.ndarray, *,
+                           may_be_nan: bool = True, scratch: tuple[np.ndarray, np.ndarray] | None = None
+                           ) -> np.ndarray:
     """Type codes (int8, into ``out``) from D/S; returns the count of each TypeCode, indexed by code.
 
     NaN -> undefined, D/S > tolerance -> hyperbolic, D/S < -tolerance -> elliptic, otherwise parabolic.
     Written as a few vectorised passes over boolean buffers (no fancy indexing) because it runs on every
-    grid node.
+    grid node; ``scratch`` (two boolean arrays of ``normalized``'s size) spares fresh ones, and
+    ``may_be_nan=False`` (D/S known finite) skips the search for NaN.
     """
-    hyperbolic = normalized > tolerance
-    elliptic = normalized < -tolerance
+    if scratch is None:
+        hyperbolic, elliptic = np.empty(normalized.shape, bool), np.empty(normalized.shape, bool)
+    else:
+        hyperbolic, elliptic = (buffer[:normalized.size].reshape(normalized.shape) for buffer in scratch)
+    np.greater(normalized, tolerance, out=hyperbolic)
+    np.less(normalized, -tolerance, out=elliptic)
     np.subtract(hyperbolic.view(np.int8), elliptic.view(np.int8), out=out)
-    out += TypeCode.PARABOLIC
+    np.add(out, _PARABOLIC, out=out)
     n_hyperbolic = int(np.count_nonzero(hyperbolic))
     n_elliptic = int(np.count_nonzero(elliptic))
     n_undefined = 0
-    if n_hyperbolic + n_elliptic < normalized.size:   # only the remaining nodes can be NaN
-        undefined = np.isnan(normalized)
+    if may_be_nan and n_hyperbolic + n_elliptic < normalized.size:   # only the remaining nodes can be NaN
+        undefined = np.isnan(normalized, out=hyperbolic)
         n_undefined = int(np.count_nonzero(undefined))
         if n_undefined:
-            out[undefined] = TypeCode.UNDEFINED
+            out[undefined] = _UNDEFINED
     counts = np.zeros(len(TypeCode), dtype=np.int64)
-    counts[TypeCode.HYPERBOLIC] = n_hyperbolic
-    counts[TypeCode.ELLIPTIC] = n_elliptic
-    counts[TypeCode.UNDEFINED] = n_undefined
-    counts[TypeCode.PARABOLIC] = normalized.size - n_hyperbolic - n_elliptic - n_undefined
+    counts[_HYPERBOLIC] = n_hyperbolic
+    counts[_ELLIPTIC] = n_elliptic
+    counts[_UNDEFINED] = n_undefined
+    counts[_PARABOLIC] = normalized.size - n_hyperbolic - n_elliptic - n_undefined
     return counts
 
 
@@ -117,9 +126,9 @@ def classify_points(compiled: CompiledEquation, x, y, *, parameters: Mapping[str
     shape = np.broadcast_shapes(np.shape(x), np.shape(y))
     a, b, c = compiled.coefficients_raw(x, y, parameters=parameters, data=data)
     normalized = np.empty(shape, dtype=np.float64)
-    normalized_discriminant_into(a, b, c, normalized, DiscriminantScratch(normalized.size))
+    may_be_nan = normalized_discriminant_into(a, b, c, normalized, DiscriminantScratch(normalized.size))
     codes = np.empty(shape, dtype=np.int8)
-    _codes_from_normalized(normalized, tolerance, codes)
+    _codes_from_normalized(normalized, tolerance, codes, may_be_nan=may_be_nan)
     return codes, normalized
 
 
@@ -157,8 +166,9 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
 
     ``cancel`` is polled between blocks (raise Cancelled when it returns True); ``progress`` gets a fraction
     in [0, 1]. Only a, b, c are evaluated (readout-only definitions and their data are not). Extra memory per
-    thread is two work buffers of 2**18 doubles plus one such buffer per value the equation's program holds at
-    once (core.equations.equation.EvaluationBuffers), independent of the grid size.
+    thread is one buffer of 2**18 doubles per value the equation's program holds at once, and at least the
+    three D/S works in (core.equations.evaluation.EvaluationBuffers), independent of the grid size; each pool
+    thread keeps them for the next call with the same block shape (``_Workspace``).
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
     """
@@ -179,53 +189,76 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     pool = _grid_pool()
     # Long blocks, but at least two per thread so that mid-size grids use every core too.
     rows = max(1, min(_BLOCK_ELEMENTS // nx, -(-ny // (2 * _WORKERS))))
-    starts = list(range(0, ny, rows))
+    starts = iter(range(0, ny, rows))   # shared by the workers: next() on it is atomic under the GIL
     x_row = x[np.newaxis, :]
     rows_along_x, columns_along_y = compiled.along_axes(prepared, x, y, names=COEFFICIENT_NAMES)
     prepared = {**prepared, **rows_along_x}
-    local = threading.local()
     done = [0]
     lock = threading.Lock()
+    stopped = threading.Event()
 
-    def work(start: int) -> np.ndarray:
-        if cancel is not None and cancel():
-            raise Cancelled("classification cancelled")
+    def block(start: int, workspace: _Workspace) -> np.ndarray:
         stop = min(ny, start + rows)
-        if not hasattr(local, "scratch"):
-            local.scratch = DiscriminantScratch(rows * nx)
-            local.buffers = EvaluationBuffers()
-        block = normalized[start:stop]
         block_prepared = {**prepared, **{k: v[start:stop] for k, v in columns_along_y.items()}}
         raw = compiled.evaluate_raw(x_row, y[start:stop, np.newaxis], data=data, prepared=block_prepared,
-                                   names=COEFFICIENT_NAMES, buffers=local.buffers)
-        _normalized_in_parts(raw["a"], raw["b"], raw["c"], block, local.scratch)
-        counts = _codes_from_normalized(block, tolerance, codes[start:stop])
+                                   names=COEFFICIENT_NAMES, buffers=workspace.buffers)
+        # D/S works in arrays the evaluation has just released (still in cache), lent until its next call.
+        arrays = tuple(workspace.buffers.take((stop - start, nx), np.float64) for _ in range(3))
+        may_be_nan = normalized_discriminant_into(raw["a"], raw["b"], raw["c"], normalized[start:stop],
+                                                  DiscriminantScratch(arrays=arrays))  # type: ignore[arg-type]
+        counts = _codes_from_normalized(normalized[start:stop], tolerance, codes[start:stop],
+                                        may_be_nan=may_be_nan, scratch=workspace.flags)
         if progress is not None:
             with lock:
                 done[0] += stop - start
                 progress(done[0] / ny)
         return counts
 
+    def work() -> np.ndarray:
+        """Blocks taken in turn until none are left: one hand-off per thread, not per block."""
+        workspace = _workspace((rows, nx))
+        counts = np.zeros(len(TypeCode), dtype=np.int64)
+        try:
+            for start in starts:
+                if stopped.is_set():
+                    break
+                if cancel is not None and cancel():
+                    raise Cancelled("classification cancelled")
+                counts += block(start, workspace)
+        except BaseException:
+            stopped.set()   # the other threads stop at their next block
+            raise
+        return counts
+
     counts = np.zeros(len(TypeCode), dtype=np.int64)
-    for block_counts in pool.map(work, starts):
-        counts += block_counts
+    for future in [pool.submit(work) for _ in range(min(_WORKERS, -(-ny // rows)))]:
+        counts += future.result()
     total = float(nx * ny)
     fractions = {code.label: counts[code] / total for code in TypeCode}
     return TypeMap(domain=domain, x=x, y=y, codes=codes, normalized=normalized, fractions=fractions,
                    tolerance=tolerance, parameters=values)
 
 
-def _normalized_in_parts(a, b, c, out: np.ndarray, scratch: DiscriminantScratch) -> None:
-    """D/S of a block of rows into ``out``, a few rows at a time when a coefficient spans the whole block."""
-    rows, nx = out.shape
-    if max(np.size(a), np.size(b), np.size(c)) <= _DISCRIMINANT_ELEMENTS or rows == 1:
-        normalized_discriminant_into(a, b, c, out, scratch)
-        return
-    step = max(1, _DISCRIMINANT_ELEMENTS // nx)
-    for start in range(0, rows, step):
-        part = slice(start, start + step)
-        a_part, b_part, c_part = (v[part] if np.ndim(v) == 2 and np.shape(v)[0] == rows else v for v in (a, b, c))
-        normalized_discriminant_into(a_part, b_part, c_part, out[part], scratch)
+class _Workspace:
+    """One thread's arrays for blocks of ``shape`` (rows, columns), kept from call to call: fresh block-sized
+    arrays at every call cost page faults that take as long as a small grid's arithmetic."""
+
+    def __init__(self, shape: tuple[int, int]) -> None:
+        self.shape = shape
+        size = shape[0] * shape[1]
+        self.buffers = EvaluationBuffers()
+        self.flags = (np.empty(size, bool), np.empty(size, bool))
+
+
+_WORKSPACES = threading.local()
+
+
+def _workspace(shape: tuple[int, int]) -> _Workspace:
+    """The calling thread's workspace for blocks of ``shape`` (replaced when the block shape changes)."""
+    workspace = getattr(_WORKSPACES, "workspace", None)
+    if workspace is None or workspace.shape != shape:
+        workspace = _WORKSPACES.workspace = _Workspace(shape)
+    return workspace
 
 
 def _check_tolerance(tolerance: float) -> None:

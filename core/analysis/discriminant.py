@@ -16,6 +16,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from core.equations.evaluation import broadcast_shape
+
 __all__ = ["DiscriminantScratch", "discriminant", "normalized_discriminant", "normalized_discriminant_into",
            "scaled_by_power_of_two"]
 
@@ -48,14 +50,19 @@ def discriminant(a, b, c) -> np.ndarray:
 
 
 class DiscriminantScratch:
-    """Work buffers for one block of points, reused from block to block by one thread."""
+    """Three work arrays for one block of points, reused from block to block by one thread (no fresh
+    temporaries: block-sized arrays allocated anew cost page faults that take longer than the arithmetic).
 
-    def __init__(self, size: int) -> None:
-        self.buffers = (np.empty(size), np.empty(size))
+    ``arrays`` lends arrays the caller already has (a grid run passes buffers its evaluation has just
+    released, still in cache); otherwise three of ``size`` doubles are made.
+    """
 
-    def views(self, shape: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray]:
+    def __init__(self, size: int = 0, *, arrays: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None) -> None:
+        self.buffers = arrays if arrays is not None else (np.empty(size), np.empty(size), np.empty(size))
+
+    def views(self, shape: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         size = int(np.prod(shape))
-        return tuple(b[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
+        return tuple(b.reshape(-1)[:size].reshape(shape) for b in self.buffers)  # type: ignore[return-value]
 
 
 def normalized_discriminant(a, b, c) -> np.ndarray:
@@ -69,39 +76,45 @@ def normalized_discriminant(a, b, c) -> np.ndarray:
     return result
 
 
-def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: DiscriminantScratch) -> None:
-    """D/S into ``out`` (float64, or float32 for grid storage) with numpy passes over cache-sized buffers.
+def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: DiscriminantScratch) -> bool:
+    """D/S into ``out`` (float64, or float32 for grid storage); True if it may hold NaN, False if all finite.
 
-    Computed as (b^2/4 - ac) / (b^2/4 + |ac|). b^2/4 and ac are formed in the coefficients' own broadcast
-    shapes (a row, a column or a constant costs almost nothing), so only three passes span the whole block.
-    (numexpr evaluates this several times slower than numpy: its abs and division are not vectorised.)
+    Computed as (b^2/4 - ac) / (b^2/4 + |ac|) with numpy passes: b^2/4 and ac are formed in the coefficients'
+    own broadcast shapes (a row, a column or a constant costs almost nothing), and every block-sized
+    intermediate is written in place into ``scratch``. (numexpr evaluates this several times slower than
+    numpy: its abs and division are not vectorised.)
     """
-    scale, numerator = scratch.views(out.shape)
+    shape = out.shape
+    if not out.size:
+        return False
+    first, second, third = scratch.views(shape)
+
+    def into(buffer: np.ndarray, *operands) -> np.ndarray | None:
+        return buffer if broadcast_shape(operands) == shape else None
+
     with np.errstate(all="ignore"):
-        half_b = np.multiply(b, 0.5)
-        quarter_b2 = np.multiply(half_b, half_b)        # b^2/4
-        product = np.multiply(a, c)                     # ac
+        half_b = np.multiply(b, 0.5, out=into(first, b))
+        quarter_b2 = np.multiply(half_b, half_b, out=into(first, half_b))          # b^2/4
+        product = np.multiply(a, c, out=into(second, a, c))                       # ac
+        absolute = np.abs(product, out=into(third, product))
         size_of_parts = np.size(quarter_b2) + np.size(product)
-        absolute = np.abs(product)
-        np.subtract(quarter_b2, product, out=numerator)  # D/4
-        np.add(quarter_b2, absolute, out=scale)         # S/4
-        np.divide(numerator, scale, out=out, casting="same_kind")  # D/S, stored as out's dtype
+        if size_of_parts < out.size:   # bounds of the scale from its parts, before they are overwritten
+            low = np.min(quarter_b2) + np.min(absolute)
+            high = np.max(quarter_b2) + np.max(absolute)
+        numerator = np.subtract(quarter_b2, product, out=second)                   # D/4
+        scale = np.add(quarter_b2, absolute, out=third)                          # S/4
+        np.divide(numerator, scale, out=out, casting="same_kind")                # D/S, stored as out's dtype
         # Where the scale under- or overflowed (or a coefficient is not finite: NaN or inf scale), compute again
         # from coefficients scaled by a power of two. 0/0 stays 0 only where a = b = c = 0 (D = 0 exactly);
         # genuinely non-finite coefficients stay NaN. Whether every point is safe is read from bounds of the
         # scale: from its parts when they are smaller than the block (a row, a column), else from the scale.
-        if not scale.size:
-            return
-        if size_of_parts < scale.size:
-            low = np.min(quarter_b2) + np.min(absolute)
-            high = np.max(quarter_b2) + np.max(absolute)
-        else:
+        if size_of_parts >= out.size:
             low, high = scale.min(), scale.max()
     if low > _SAFE_SCALE and high < np.inf:   # no NaN, every point safe: the fast path is exact
-        return
+        return False
     suspect = ~((scale > _SAFE_SCALE) & (scale < np.inf))
     if suspect.any():
-        a_s, b_s, c_s = scaled_by_power_of_two(*(np.broadcast_to(v, out.shape)[suspect] for v in (a, b, c)))
+        a_s, b_s, c_s = scaled_by_power_of_two(*(np.broadcast_to(v, shape)[suspect] for v in (a, b, c)))
         with np.errstate(all="ignore"):
             quarter_b2 = (0.5 * b_s) ** 2
             product = a_s * c_s
@@ -109,3 +122,4 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
             value = (quarter_b2 - product) / scale_s
         value[scale_s == 0] = 0.0
         out[suspect] = value
+    return True
