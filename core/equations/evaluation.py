@@ -5,6 +5,7 @@ faster, each intermediate in the smallest shape its operands broadcast to)."""
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numexpr
@@ -125,7 +126,14 @@ class UfuncProgram:
 
     @classmethod
     def from_numexpr(cls, kernel: numexpr.NumExpr) -> UfuncProgram | None:
-        """The same program as numpy operations, or None if one of its operations is not IEEE-exact in both."""
+        """The same program as numpy operations, or None if one of its operations is not IEEE-exact in both
+        (or if this numexpr's program layout is not the one read here: see ``_layout_understood``)."""
+        if not _layout_understood():
+            return None
+        return cls._read(kernel)
+
+    @classmethod
+    def _read(cls, kernel: numexpr.NumExpr) -> UfuncProgram | None:
         names = {code: name for name, code in numexpr.interpreter.opcodes.items()}
         program = kernel.program
         inputs = len(kernel.signature)
@@ -212,3 +220,31 @@ class UfuncProgram:
             if array is not result:
                 buffers.give_back(array)  # type: ignore[union-attr]
         return result
+
+
+@functools.cache
+def _layout_understood() -> bool:
+    """Whether numexpr's compiled programs read as UfuncProgram expects: a probe using every operation read
+    here, on IEEE special values, gives the same bits both ways. The program layout is numexpr's own, not a
+    published interface; a numexpr that changes it falls back to running every step in numexpr."""
+    probe = "where((x > y) & ~(x == y) | (x != 0), sqrt(abs(x)) * y - x / 3, -(x + y) * 2) >= y"
+    names = (("x", np.float64), ("y", np.float64))
+    x = np.array([-2.0, -0.0, 0.0, 1.5, np.inf, -np.inf, np.nan, 1e300, 5e-324, 3.0])
+    y = x[::-1].copy()
+    with np.errstate(all="ignore"):
+        for text in (probe, probe.removesuffix(" >= y")):
+            kernel = numexpr.NumExpr(text, signature=names)
+            program = UfuncProgram._read(kernel)
+            if program is None:
+                return False
+            expected, got = kernel(x, y), program(x, y)
+            if expected.dtype != got.dtype:
+                return False
+            if expected.dtype == np.float64:          # any NaN equals any NaN (its sign bit means nothing)
+                same_nan = np.array_equal(np.isnan(expected), np.isnan(got))
+                expected, got = np.nan_to_num(expected, nan=0.0), np.nan_to_num(got, nan=0.0)
+                if not same_nan:
+                    return False
+            if expected.tobytes() != got.tobytes():
+                return False
+    return True

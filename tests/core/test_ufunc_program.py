@@ -189,3 +189,19 @@ def test_an_error_in_one_block_stops_every_thread_and_reaches_the_caller(monkeyp
         classify_grid(compiled, domain)
     # the failing thread's block and at most one more per thread, never the 32 blocks
     assert len(calls) <= 2 * classify_module._WORKERS < 32
+
+
+def test_the_numexpr_layout_is_checked_before_any_program_is_read(monkeypatch):
+    from core.equations import evaluation
+
+    evaluation._layout_understood.cache_clear()
+    assert evaluation._layout_understood()          # this numexpr's layout reads as expected: the fast path runs
+    swapped = {**evaluation._EXACT_UFUNCS, b"add_ddd": np.subtract}   # as if numexpr's codes had moved
+    monkeypatch.setattr(evaluation, "_EXACT_UFUNCS", swapped)
+    evaluation._layout_understood.cache_clear()
+    try:
+        assert not evaluation._layout_understood()
+        kernel = numexpr.NumExpr("x + y", signature=(("x", np.float64), ("y", np.float64)))
+        assert evaluation.UfuncProgram.from_numexpr(kernel) is None       # every step then runs in numexpr
+    finally:
+        evaluation._layout_understood.cache_clear()
