@@ -90,10 +90,11 @@ def run(n: int = 1024) -> dict:
 
     vtu = meshio.read(DATA / "bump_flow.vtu")
     points, values = vtu.points[:, :2], vtu.point_data["velocity"][:, 0]
-    mesh_base = best_time(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"), 1)
+    # the same best of three on both sides (scipy keeps no cache to clear)
+    mesh_base = best_time(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"))
     prebuilt = interpolate.LinearNDInterpolator(points, values)         # its triangulation built once
-    prebuilt_time = best_time(lambda: prebuilt(xx, yy), 1)
-    prebuilt_scattered_time = best_time(lambda: prebuilt(scattered_x, scattered_y), 1)
+    prebuilt_time = best_time(lambda: prebuilt(xx, yy))
+    prebuilt_scattered_time = best_time(lambda: prebuilt(scattered_x, scattered_y))
     reference = prebuilt(xx, yy)
     ours = mesh.sample("u", xx, yy)
     both = np.isfinite(reference) & np.isfinite(ours)

@@ -10,6 +10,8 @@ shape, NaN outside the data or where a value needed for the point is missing:
 - ``MeshField``: linear interpolation on triangles (a mesh's own cells, or a Delaunay triangulation of
   scattered points); derivatives by area-weighted recovery of per-vertex gradients from the piecewise-linear
   field, then interpolated linearly (second order on smooth, regular meshes; first order at the boundary).
+  Points are located by core.data.mesh_location (a grid's nodes by rasterising the triangles) and the
+  locations kept per set of points, so sampling the same points again only interpolates.
 
 Fields are safe to sample from several threads at once (classification samples blocks in parallel).
 """
