@@ -163,6 +163,7 @@ class TriangleLocator:
         self._origin_x, self._origin_y = self.origin[:, 0].copy(), self.origin[:, 1].copy()
         self._i00, self._i01 = self.inverse[:, 0, 0].copy(), self.inverse[:, 0, 1].copy()
         self._i10, self._i11 = self.inverse[:, 1, 0].copy(), self.inverse[:, 1, 1].copy()
+        self._edge_bounds = self._column_bounds()
         self.low, self.high = low.min(axis=0), high.max(axis=0)
         self._build_buckets(low, high, scale)
 
@@ -249,8 +250,9 @@ class TriangleLocator:
         triangle = np.empty(nx * ny, dtype=self._index_type)      # the bands fill every node
         weights = np.empty((2, nx * ny))
         # rows each triangle may cross: its bounding box widened by the slack (a barycentric coordinate of
-        # -s is a distance of at most s times the triangle's diameter outside it)
-        pad = 2 * _CANDIDATE_SLACK * np.max(self._box_high - self._box_low, axis=1)
+        # -s is a distance of at most s times the triangle's diameter outside it) and by rounding
+        pad = (2 * _CANDIDATE_SLACK * np.max(self._box_high - self._box_low, axis=1)
+               + 8 * np.finfo(float).eps * max(abs(float(y_nodes[0])), abs(float(y_nodes[-1]))))
         row_low = np.searchsorted(y_nodes, self._box_low[:, 1] - pad, side="left")
         row_high = np.searchsorted(y_nodes, self._box_high[:, 1] + pad, side="right")
         crossing = np.cumsum(np.bincount(row_low, minlength=ny + 1) - np.bincount(row_high, minlength=ny + 1))
@@ -286,11 +288,12 @@ class TriangleLocator:
                + np.arange(triangle.size))
         origin_x = self._origin_x.take(triangle)
         relative_y = y_nodes.take(row) - self._origin_y.take(triangle)
+        column_low, column_high = self._column_range(x_nodes, triangle, origin_x, relative_y)
+        held = np.flatnonzero(column_high > column_low)
+        triangle, origin_x, relative_y = triangle[held], origin_x[held], relative_y[held]
         # along the row, l1 = i00 u + row_1 and l2 = i10 u + row_2 with u = x - origin_x
         i00, i10 = self._i00.take(triangle), self._i10.take(triangle)
         row_1, row_2 = self._i01.take(triangle) * relative_y, self._i11.take(triangle) * relative_y
-        column_low, column_high = self._column_range(x_nodes, origin_x, i00, i10, row_1, row_2)
-        held = np.flatnonzero(column_high > column_low)
         # candidate column ranges as [start, end) of the band's flat node index
         line = (row[held] - first) * nx
         nodes = (stop - first) * nx
@@ -311,7 +314,7 @@ class TriangleLocator:
         def per_span(values: np.ndarray) -> np.ndarray:
             """values[span] per node, NaN where no range holds it."""
             table[0] = np.nan
-            values.take(held, out=table[1:])
+            table[1:] = values
             return table.take(span.reshape(stop - first, nx), out=gathered)
 
         band = slice(first * nx, stop * nx)
@@ -328,26 +331,44 @@ class TriangleLocator:
         w2.ravel()[outside] = np.nan
         triangle_table = np.empty(held.size + 1, dtype=located.dtype)
         triangle_table[0] = -1
-        triangle_table[1:] = triangle[held]
+        triangle_table[1:] = triangle
         triangle_table.take(span, out=located[band])
         located[band][outside] = -1
         return ambiguous + first * nx
 
-    @staticmethod
-    def _column_range(x_nodes: np.ndarray, origin_x: np.ndarray, i00: np.ndarray, i10: np.ndarray,
-                      row_1: np.ndarray, row_2: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """[low, high) columns of the nodes where l0, l1, l2 >= -_CANDIDATE_SLACK on each (triangle, row)."""
+    def _column_bounds(self) -> tuple[np.ndarray, ...]:
+        """Per triangle, the column range on a row as u = x - origin_x between two lower bounds A + B ry and
+        two upper ones (ry = y - origin_y), from l0, l1, l2 >= -_CANDIDATE_SLACK; a constraint whose slope
+        along the row is zero (a horizontal edge) bounds rows, which the bounding box and the test of each
+        node settle, and fills its place with an infinite bound."""
         s = _CANDIDATE_SLACK
-        u_low = np.full(origin_x.size, -np.inf)
-        u_high = np.full(origin_x.size, np.inf)
+        i00, i01, i10, i11 = self._i00, self._i01, self._i10, self._i11
+        # l_k = slope u + rise ry + constant >= -s, for l1, l2 and l0 = 1 - l1 - l2
+        constraints = ((i00, i01, 0.0), (i10, i11, 0.0), (-(i00 + i10), -(i01 + i11), 1.0))
+        m = i00.size
+        lower_a, lower_b = np.full((2, m), -np.inf), np.zeros((2, m))
+        upper_a, upper_b = np.full((2, m), np.inf), np.zeros((2, m))
+        lower_used, upper_used = np.zeros(m, dtype=np.intp), np.zeros(m, dtype=np.intp)
         with np.errstate(divide="ignore", invalid="ignore"):
-            # each l >= -s as slope * u >= rest: a lower bound on u where the slope is positive, an upper one
-            # where it is negative, and no node at all where it is zero and rest is positive
-            for slope, rest in ((i00, -s - row_1), (i10, -s - row_2), (-(i00 + i10), -s - 1.0 + row_1 + row_2)):
-                bound = rest / slope
-                np.maximum(u_low, bound, out=u_low, where=slope > 0)
-                np.minimum(u_high, bound, out=u_high, where=slope < 0)
-                u_high[(slope == 0) & (rest > 0)] = -np.inf
-        u_low += origin_x
-        u_high += origin_x
-        return np.searchsorted(x_nodes, u_low, side="left"), np.searchsorted(x_nodes, u_high, side="right")
+            for slope, rise, constant in constraints:
+                a, b = (-s - constant) / slope, -rise / slope
+                for sign, used, bound_a, bound_b in ((slope > 0, lower_used, lower_a, lower_b),
+                                                     (slope < 0, upper_used, upper_a, upper_b)):
+                    where = np.flatnonzero(sign)
+                    bound_a[used[where], where] = a[where]
+                    bound_b[used[where], where] = b[where]
+                    used[where] += 1
+        return lower_a[0], lower_b[0], lower_a[1], lower_b[1], upper_a[0], upper_b[0], upper_a[1], upper_b[1]
+
+    def _column_range(self, x_nodes: np.ndarray, triangle: np.ndarray, origin_x: np.ndarray,
+                      relative_y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """[low, high) columns of the nodes that may lie in each (triangle, row) pair's triangle."""
+        a1, b1, a2, b2, c1, d1, c2, d2 = (values.take(triangle) for values in self._edge_bounds)
+        with np.errstate(invalid="ignore"):
+            low = np.maximum(a1 + b1 * relative_y, a2 + b2 * relative_y)
+            high = np.minimum(c1 + d1 * relative_y, c2 + d2 * relative_y)
+        # and a few units in the last place of the coordinates wider, so rounding never drops a node
+        widen = 8 * np.finfo(float).eps * max(abs(float(x_nodes[0])), abs(float(x_nodes[-1])))
+        low += origin_x - widen
+        high += origin_x + widen
+        return np.searchsorted(x_nodes, low, side="left"), np.searchsorted(x_nodes, high, side="right")
