@@ -116,6 +116,19 @@ def test_a_triangle_with_a_non_finite_corner_value_is_undefined():
     assert on_grid[2, 2] == pytest.approx(1.1, abs=1e-14)
 
 
+def test_a_mesh_far_from_the_origin_keeps_the_nodes_on_its_edges():
+    # map coordinates: cells of 10 m about 500 km and 4000 km from the origin; grid nodes on the cells' edges
+    points = lattice_points(0) * 80.0 + [5e5, 4e6]
+    triangles = Delaunay(points - [5e5, 4e6]).simplices
+    field = MeshField(points[:, 0], points[:, 1], triangles, {"f": points[:, 0] - 5e5 + 3 * (points[:, 1] - 4e6)})
+    gx, gy = 5e5 + np.linspace(0.0, 80.0, 33), 4e6 + np.linspace(0.0, 80.0, 17)
+    on_grid = field.sample("f", gx[np.newaxis, :], gy[:, np.newaxis])
+    xx, yy = np.meshgrid(gx, gy)
+    np.testing.assert_array_equal(on_grid, field.sample("f", xx.ravel(), yy.ravel()).reshape(xx.shape))
+    # linear interpolation is exact for a linear field (common practice, no source)
+    np.testing.assert_allclose(on_grid, (xx - 5e5) + 3 * (yy - 4e6), rtol=0, atol=1e-8)
+
+
 def test_bands_of_rows_give_the_same_locations(monkeypatch):
     points = lattice_points(200, seed=3)
     _, field, _ = reference_and_field(points)
