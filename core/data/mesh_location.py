@@ -23,7 +23,7 @@ import numpy as np
 
 from core.data.raw import DataError
 
-__all__ = ["LocationCache", "PointLocations", "TriangleLocator", "grid_axes", "points_key"]
+__all__ = ["LocationCache", "PointLocations", "TriangleLocator", "grid_axes", "points_key", "search_nodes"]
 
 SLACK = 1e-9                    # points this far (in barycentric units) outside a triangle still belong to it
 _CANDIDATE_SLACK = 4 * SLACK    # rasterised column ranges are this generous; each node is then tested at SLACK
@@ -79,6 +79,32 @@ def grid_axes(x: np.ndarray, y: np.ndarray, shape: tuple[int, ...]) -> tuple[np.
         if not (math.isfinite(nodes[0]) and math.isfinite(nodes[-1]) and np.all(nodes[1:] > nodes[:-1])):
             return None
     return x_nodes, y_nodes
+
+
+def search_nodes(nodes: np.ndarray, values: np.ndarray, side: str) -> np.ndarray:
+    """np.searchsorted(nodes, values, side=side) for strictly increasing nodes, faster on evenly spaced ones
+    (a grid's axis): a guess from the mean spacing, corrected by one comparison each way; values the guess
+    does not settle (uneven nodes, NaN) go to searchsorted. Unsorted values make searchsorted slow."""
+    n = nodes.size
+    if n < 2:
+        return np.searchsorted(nodes, values, side=side)
+    bounded = np.concatenate([[-np.inf], nodes, [np.inf]])      # bounded[i] = nodes[i - 1]
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        guess = np.floor((values - nodes[0]) * ((n - 1) / (nodes[-1] - nodes[0])))
+        np.clip(guess, -1.0, float(n), out=guess)
+        index = guess.astype(np.intp)
+    index += 1
+    np.clip(index, 0, n, out=index)
+    # the answer i has bounded[i] < v <= bounded[i + 1] (side "left") or bounded[i] <= v < bounded[i + 1]
+    below, above = (np.less, np.less_equal) if side == "left" else (np.less_equal, np.less)
+    index += ~above(values, bounded.take(index + 1))
+    np.minimum(index, n, out=index)
+    index -= ~below(bounded.take(index), values)
+    np.maximum(index, 0, out=index)
+    unsettled = np.flatnonzero(~(below(bounded.take(index), values) & above(values, bounded.take(index + 1))))
+    if unsettled.size:
+        index[unsettled] = np.searchsorted(nodes, values[unsettled], side=side)
+    return index
 
 
 def points_key(*arrays: np.ndarray) -> tuple:
@@ -253,8 +279,8 @@ class TriangleLocator:
         # -s is a distance of at most s times the triangle's diameter outside it) and by rounding
         pad = (2 * _CANDIDATE_SLACK * np.max(self._box_high - self._box_low, axis=1)
                + 8 * np.finfo(float).eps * max(abs(float(y_nodes[0])), abs(float(y_nodes[-1]))))
-        row_low = np.searchsorted(y_nodes, self._box_low[:, 1] - pad, side="left")
-        row_high = np.searchsorted(y_nodes, self._box_high[:, 1] + pad, side="right")
+        row_low = search_nodes(y_nodes, self._box_low[:, 1] - pad, "left")
+        row_high = search_nodes(y_nodes, self._box_high[:, 1] + pad, "right")
         crossing = np.cumsum(np.bincount(row_low, minlength=ny + 1) - np.bincount(row_high, minlength=ny + 1))
         # bands of rows: each about _BAND_BUDGET nodes plus (triangle, row) crossings, at least one row
         band_of_row = np.cumsum(crossing[:ny] + nx) // _BAND_BUDGET
@@ -371,4 +397,4 @@ class TriangleLocator:
         widen = 8 * np.finfo(float).eps * max(abs(float(x_nodes[0])), abs(float(x_nodes[-1])))
         low += origin_x - widen
         high += origin_x + widen
-        return np.searchsorted(x_nodes, low, side="left"), np.searchsorted(x_nodes, high, side="right")
+        return search_nodes(x_nodes, low, "left"), search_nodes(x_nodes, high, "right")

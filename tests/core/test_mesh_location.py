@@ -11,7 +11,7 @@ from scipy.spatial import Delaunay
 
 from core.data import mesh_location
 from core.data.fields import MeshField
-from core.data.mesh_location import TriangleLocator, grid_axes
+from core.data.mesh_location import TriangleLocator, grid_axes, search_nodes
 
 # Grid nodes at multiples of 1/32 (exact in binary) hit the lattice's vertices, its edges (including the
 # hull's) and points outside the hull.
@@ -127,6 +127,17 @@ def test_a_mesh_far_from_the_origin_keeps_the_nodes_on_its_edges():
     np.testing.assert_array_equal(on_grid, field.sample("f", xx.ravel(), yy.ravel()).reshape(xx.shape))
     # linear interpolation is exact for a linear field (common practice, no source)
     np.testing.assert_allclose(on_grid, (xx - 5e5) + 3 * (yy - 4e6), rtol=0, atol=1e-8)
+
+
+@pytest.mark.parametrize("nodes", [np.linspace(-3.0, 3.0, 1024), np.linspace(0.1, 0.7, 7), np.array([2.0]),
+                                   np.cumsum(np.linspace(0.1, 1.0, 40)) ** 3, np.array([-1.0, 0.0, 1e-300, 5.0])])
+def test_search_nodes_is_searchsorted(nodes):
+    # numpy.searchsorted is the reference
+    rng = np.random.default_rng(8)
+    values = np.concatenate([rng.uniform(nodes[0] - 1, nodes[-1] + 1, 500), nodes, np.nextafter(nodes, -np.inf),
+                             np.nextafter(nodes, np.inf), [np.nan, np.inf, -np.inf, 1e300, -1e300]])
+    for side in ("left", "right"):
+        np.testing.assert_array_equal(search_nodes(nodes, values, side), np.searchsorted(nodes, values, side=side))
 
 
 def test_bands_of_rows_give_the_same_locations(monkeypatch):
