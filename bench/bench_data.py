@@ -5,7 +5,9 @@ core.data.sources (what classification uses), against the obvious hand-made base
 RegularGridInterpolator built per call for the grid, and for the mesh scipy.interpolate.griddata (which
 triangulates the points again on every call) and a LinearNDInterpolator built once (which locates the
 points on every call). Mesh sampling is timed with its point-location cache cleared before each call
-("cold") and with the points located before (what a slider drag repeats); scipy keeps no such cache.
+("cold") and with the points located before (what a slider drag repeats); scipy keeps no such cache. Both
+sides get the same meshgrid arrays; ours sees that they are a grid's nodes and rasterises the triangles.
+Scattered points (probes, traces) are timed too, cold, against the same prebuilt interpolator.
 Also: classifying the data-driven flow against the formula flow on the same grid, the agreement of the two
 type maps, and a drag step over mesh data (the map again with the same grid) against the first map.
 """
@@ -71,18 +73,37 @@ def run(n: int = 1024) -> dict:
     mesh_cold()
     mesh_cold_time = best_time(mesh_cold)
     mesh_warm_time = best_time(lambda: mesh.sample("u", xx, yy))     # the points were located before
+
+    def mesh_cold_row_and_column():     # classification's form: a row of x and a column of y
+        interpolator.clear_location_cache()
+        return mesh.sample("u", domain.x_nodes[np.newaxis, :], domain.y_nodes[:, np.newaxis])
+
+    mesh_row_and_column_time = best_time(mesh_cold_row_and_column)
+    scattered_x, scattered_y = np.random.default_rng(7).uniform((-3.0, 0.0), (3.0, 3.0), (xx.size // 8, 2)).T
+
+    def mesh_cold_scattered():
+        interpolator.clear_location_cache()
+        return mesh.sample("u", scattered_x, scattered_y)
+
+    mesh_scattered_time = best_time(mesh_cold_scattered)
     import meshio
 
     vtu = meshio.read(DATA / "bump_flow.vtu")
     points, values = vtu.points[:, :2], vtu.point_data["velocity"][:, 0]
-    mesh_base = best_time(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"), 1)
+    # the same best of three on both sides (scipy keeps no cache to clear)
+    mesh_base = best_time(lambda: interpolate.griddata(points, values, (xx, yy), method="linear"))
     prebuilt = interpolate.LinearNDInterpolator(points, values)         # its triangulation built once
-    prebuilt_time = best_time(lambda: prebuilt(xx, yy), 1)
+    prebuilt_time = best_time(lambda: prebuilt(xx, yy))
+    prebuilt_scattered_time = best_time(lambda: prebuilt(scattered_x, scattered_y))
     reference = prebuilt(xx, yy)
     ours = mesh.sample("u", xx, yy)
     both = np.isfinite(reference) & np.isfinite(ours)
     results["mesh_sample_s"] = round(mesh_cold_time, 4)
     results["mesh_sample_located_before_s"] = round(mesh_warm_time, 4)
+    results["mesh_sample_row_and_column_s"] = round(mesh_row_and_column_time, 4)
+    results["mesh_sample_scattered_points"] = int(scattered_x.size)
+    results["mesh_sample_scattered_s"] = round(mesh_scattered_time, 4)
+    results["mesh_baseline_prebuilt_scattered_s"] = round(prebuilt_scattered_time, 4)
     results["mesh_baseline_griddata_s"] = round(mesh_base, 4)
     results["mesh_baseline_prebuilt_linear_nd_interpolator_s"] = round(prebuilt_time, 4)
     results["mesh_speedup"] = round(mesh_base / mesh_cold_time, 2)

@@ -10,25 +10,25 @@ shape, NaN outside the data or where a value needed for the point is missing:
 - ``MeshField``: linear interpolation on triangles (a mesh's own cells, or a Delaunay triangulation of
   scattered points); derivatives by area-weighted recovery of per-vertex gradients from the piecewise-linear
   field, then interpolated linearly (second order on smooth, regular meshes; first order at the boundary).
+  Points are located by core.data.mesh_location (a grid's nodes by rasterising the triangles) and the
+  locations kept per set of points, so sampling the same points again only interpolates.
 
 Fields are safe to sample from several threads at once (classification samples blocks in parallel).
 """
 
 from __future__ import annotations
 
-import hashlib
 import math
 import threading
-from collections import OrderedDict
 from collections.abc import Mapping
 
 import numpy as np
 
+from core.data.mesh_location import LocationCache, PointLocations, TriangleLocator, grid_axes, points_key
 from core.data.raw import DataError
 
 __all__ = ["GridField", "MeshField", "ProfileField", "triangulate_points"]
 
-_BARYCENTRIC_SLACK = 1e-9     # points this far (in barycentric units) outside a triangle still belong to it
 LOCATION_CACHE_BYTES = 256 << 20   # per mesh: point locations kept for sets of points sampled again
 
 
@@ -190,24 +190,30 @@ class MeshField:
                  arrays: Mapping[str, np.ndarray], *, where: str = "mesh") -> None:
         self.points = np.column_stack([np.asarray(x, dtype=np.float64), np.asarray(y, dtype=np.float64)])
         self.arrays = {name: np.asarray(a, dtype=np.float64) for name, a in arrays.items()}
-        self._locator = _TriangleLocator(self.points, np.asarray(triangles, dtype=np.int64), where=where)
+        self._locator = TriangleLocator(self.points, np.asarray(triangles, dtype=np.int64), where=where)
         self.triangles = self._locator.triangles
         used = self.points[np.unique(self.triangles)]
         self.extent = (float(used[:, 0].min()), float(used[:, 0].max()),
                        float(used[:, 1].min()), float(used[:, 1].max()))
         self.size = (self.points.shape[0], self.triangles.shape[0])
         self._gradients = _LazyCache()
-        self._locations = _LocationCache(LOCATION_CACHE_BYTES)
+        self._corner_values = _LazyCache()      # per quantity (and derivative): values at triangles' corners
+        self._locations = LocationCache(LOCATION_CACHE_BYTES)
 
     def clear_location_cache(self) -> None:
         """Forget every cached point location (benchmarks start from a cold cache)."""
         self._locations.clear()
 
     def sample(self, name: str, x, y) -> np.ndarray:
-        return self._interpolate(self.arrays[name], x, y)
+        table = self._corner_values.get(name, lambda: self._locator.corner_values(self.arrays[name]))
+        return self._interpolate(table, x, y)
 
     def sample_derivative(self, name: str, axis: int, x, y) -> np.ndarray:
-        return self._interpolate(self._gradients.get(name, lambda: self._vertex_gradient(name))[axis], x, y)
+        def table():
+            gradient = self._gradients.get(name, lambda: self._vertex_gradient(name))[axis]
+            return self._locator.corner_values(gradient)
+
+        return self._interpolate(self._corner_values.get((name, axis), table), x, y)
 
     def _vertex_gradient(self, name: str) -> tuple[np.ndarray, np.ndarray]:
         """Per-vertex gradient: the area-weighted mean of the constant gradients of adjacent triangles."""
@@ -230,161 +236,26 @@ class MeshField:
         gy[missing] = np.nan
         return gx, gy
 
-    def _interpolate(self, values: np.ndarray, x, y) -> np.ndarray:
+    def _interpolate(self, corner_values: np.ndarray, x, y) -> np.ndarray:
         x, y, shape = _points(x, y)
-        triangle, weights = self._located(x, y, shape)
-        out = np.full(triangle.shape, np.nan)
-        found = triangle >= 0
-        corners = self.triangles[triangle[found]]
-        with np.errstate(invalid="ignore"):
-            out[found] = np.einsum("ij,ij->i", weights[found], values[corners])
-        return out.reshape(shape)
+        return self._located(x, y, shape).interpolate(corner_values).reshape(shape)
 
-    def _located(self, x: np.ndarray, y: np.ndarray, shape: tuple[int, ...]):
-        """(triangle, barycentric weights) of the points, located once per set of points.
+    def _located(self, x: np.ndarray, y: np.ndarray, shape: tuple[int, ...]) -> PointLocations:
+        """Triangles and barycentric weights of the points, located once per set of points.
 
         Point location does not depend on parameters or on the quantity, so a slider drag or several
-        quantities sampled on the same grid (the same row blocks, classification's form) reuse it.
+        quantities sampled on the same grid (the same row blocks, classification's form) reuse it. The nodes
+        of a grid (a row of x and a column of y, or their meshgrid) are located by rasterising the triangles
+        and keyed by the two axes alone; other points through the locator's buckets.
         """
-        key = _points_key(x, y)
+        axes = grid_axes(x, y, shape)
+        key = ("grid", *points_key(*axes)) if axes is not None else ("points", *points_key(x, y))
         result = self._locations.get(key)
         if result is None:
-            xb, yb = np.broadcast_arrays(x, y)
-            result = self._locator.locate(xb.ravel(), yb.ravel())
+            if axes is not None:
+                result = self._locator.locate_grid(*axes)
+            else:
+                xb, yb = np.broadcast_arrays(x, y)
+                result = self._locator.locate(xb.ravel(), yb.ravel())
             self._locations.put(key, result)
         return result
-
-
-def _points_key(x: np.ndarray, y: np.ndarray) -> tuple:
-    """Shapes and BLAKE2b digests of the coordinates: equal keys mean equal points (128-bit digests)."""
-    digests = []
-    for values in (x, y):
-        digest = hashlib.blake2b(digest_size=16)
-        digest.update(np.ascontiguousarray(values).view(np.uint8))
-        digests.append(digest.digest())
-    return (x.shape, y.shape, *digests)
-
-
-class _LocationCache:
-    """Least-recently-used point locations, at most ``limit`` bytes of them; safe across threads."""
-
-    def __init__(self, limit: int) -> None:
-        self._limit = limit
-        self._entries: OrderedDict[tuple, tuple[np.ndarray, np.ndarray]] = OrderedDict()
-        self._bytes = 0
-        self._lock = threading.Lock()
-
-    def get(self, key: tuple):
-        with self._lock:
-            entry = self._entries.get(key)
-            if entry is not None:
-                self._entries.move_to_end(key)
-            return entry
-
-    def put(self, key: tuple, entry: tuple[np.ndarray, np.ndarray]) -> None:
-        size = sum(array.nbytes for array in entry)
-        if size > self._limit:
-            return
-        for array in entry:
-            array.flags.writeable = False
-        with self._lock:
-            if key in self._entries:
-                return
-            self._entries[key] = entry
-            self._bytes += size
-            while self._bytes > self._limit:
-                _, dropped = self._entries.popitem(last=False)
-                self._bytes -= sum(array.nbytes for array in dropped)
-
-    def clear(self) -> None:
-        with self._lock:
-            self._entries.clear()
-            self._bytes = 0
-
-
-class _TriangleLocator:
-    """Finds the triangle holding each query point through a uniform grid of buckets.
-
-    Every triangle is listed in each bucket its bounding box touches, so a point's triangle is always among
-    the candidates of the point's bucket; candidates are tried in rounds, each round vectorised over all
-    points still unplaced. Degenerate (zero-area) triangles are dropped.
-    """
-
-    def __init__(self, points: np.ndarray, triangles: np.ndarray, *, where: str) -> None:
-        corners = points[triangles]                                          # (m, 3, 2)
-        edges = np.stack([corners[:, 1] - corners[:, 0], corners[:, 2] - corners[:, 0]], axis=2)  # (m,2,2)
-        det = edges[:, 0, 0] * edges[:, 1, 1] - edges[:, 0, 1] * edges[:, 1, 0]
-        span = np.ptp(points, axis=0)
-        scale = float(max(span.max(), np.finfo(float).tiny))
-        keep = np.abs(det) > 1e-12 * scale * scale
-        if not keep.any():
-            raise DataError(f"{where}: every triangle has zero area (all points on a line?)")
-        self.triangles = triangles[keep]
-        corners, edges, det = corners[keep], edges[keep], det[keep]
-        self.origin = corners[:, 0]
-        # inverse of [[e1x, e2x], [e1y, e2y]]: maps (q - origin) to the barycentric coordinates (l1, l2)
-        self.inverse = np.empty_like(edges)
-        self.inverse[:, 0, 0] = edges[:, 1, 1] / det
-        self.inverse[:, 0, 1] = -edges[:, 0, 1] / det
-        self.inverse[:, 1, 0] = -edges[:, 1, 0] / det
-        self.inverse[:, 1, 1] = edges[:, 0, 0] / det
-        self.area = 0.5 * np.abs(det)
-        low, high = corners.min(axis=1), corners.max(axis=1)                 # (m, 2) bounding boxes
-        self.low, self.high = low.min(axis=0), high.max(axis=0)
-        m = self.triangles.shape[0]
-        width = np.maximum(self.high - self.low, scale * 1e-12)
-        nbx = int(np.clip(math.ceil(math.sqrt(m * width[0] / width[1])), 1, 2048))
-        nby = int(np.clip(math.ceil(m / nbx), 1, 2048))
-        self.shape = np.array([nbx, nby])
-        self.cell = width / self.shape
-        i0, j0 = self._bucket_of(low).T
-        i1, j1 = self._bucket_of(high).T
-        wide, tall = i1 - i0 + 1, j1 - j0 + 1
-        count = wide * tall
-        owner = np.repeat(np.arange(m), count)
-        offset = np.arange(count.sum()) - np.repeat(np.cumsum(count) - count, count)
-        bucket = ((np.repeat(j0, count) + offset // np.repeat(wide, count)) * nbx
-                  + np.repeat(i0, count) + offset % np.repeat(wide, count))
-        order = np.argsort(bucket, kind="stable")
-        self.candidates = owner[order]
-        self.counts = np.bincount(bucket, minlength=nbx * nby)
-        self.starts = np.cumsum(self.counts) - self.counts
-
-    def _bucket_of(self, xy: np.ndarray) -> np.ndarray:
-        index = np.floor((xy - self.low) / self.cell).astype(np.int64)
-        return np.clip(index, 0, self.shape - 1)
-
-    def locate(self, qx: np.ndarray, qy: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(triangle index (k,), -1 where outside every triangle; barycentric weights (k, 3))."""
-        k = qx.size
-        triangle = np.full(k, -1, dtype=np.int64)
-        weights = np.zeros((k, 3))
-        slack = 1e-9 * float(np.max(self.high - self.low))
-        with np.errstate(invalid="ignore"):
-            near = ((qx >= self.low[0] - slack) & (qx <= self.high[0] + slack)
-                    & (qy >= self.low[1] - slack) & (qy <= self.high[1] + slack))
-        active = np.flatnonzero(near)
-        q = np.column_stack([qx[active], qy[active]])
-        i, j = self._bucket_of(q).T
-        bucket = j * self.shape[0] + i
-        count, start = self.counts[bucket], self.starts[bucket]
-        round_number = 0
-        while active.size:
-            more = count > round_number
-            active, q, count, start = active[more], q[more], count[more], start[more]
-            if not active.size:
-                break
-            candidate = self.candidates[start + round_number]
-            relative = q - self.origin[candidate]
-            inverse = self.inverse[candidate]
-            l1 = inverse[:, 0, 0] * relative[:, 0] + inverse[:, 0, 1] * relative[:, 1]
-            l2 = inverse[:, 1, 0] * relative[:, 0] + inverse[:, 1, 1] * relative[:, 1]
-            l0 = 1.0 - l1 - l2
-            hit = (l0 >= -_BARYCENTRIC_SLACK) & (l1 >= -_BARYCENTRIC_SLACK) & (l2 >= -_BARYCENTRIC_SLACK)
-            placed = active[hit]
-            triangle[placed] = candidate[hit]
-            weights[placed] = np.column_stack([l0[hit], l1[hit], l2[hit]])
-            miss = ~hit
-            active, q, count, start = active[miss], q[miss], count[miss], start[miss]
-            round_number += 1
-        return triangle, weights

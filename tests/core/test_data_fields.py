@@ -208,9 +208,11 @@ def test_delaunay_of_scattered_points_and_degenerate_input():
 def test_mesh_points_sampled_again_are_not_located_again(monkeypatch):
     x, y, triangles = structured_triangles(21, jitter=0.2)
     mesh = MeshField(x, y, triangles, {"f": smooth(x, y), "g": x - y})
-    calls = []
-    locate = mesh._locator.locate
+    calls = []     # how many points each location located (scattered points or the nodes of a grid)
+    locate, locate_grid = mesh._locator.locate, mesh._locator.locate_grid
     monkeypatch.setattr(mesh._locator, "locate", lambda qx, qy: calls.append(qx.size) or locate(qx, qy))
+    monkeypatch.setattr(mesh._locator, "locate_grid",
+                        lambda gx, gy: calls.append(gx.size * gy.size) or locate_grid(gx, gy))
     # classification's form: a row of x and a column of y per block of rows
     row = np.linspace(0, 2, 50)[np.newaxis, :]
     blocks = [np.linspace(-1, 0, 10)[:, np.newaxis], np.linspace(0.05, 1, 10)[:, np.newaxis]]
@@ -232,7 +234,7 @@ def test_mesh_points_sampled_again_are_not_located_again(monkeypatch):
 
 def test_mesh_location_cache_stays_within_its_bound(monkeypatch):
     x, y, triangles = structured_triangles(9)
-    monkeypatch.setattr("core.data.fields.LOCATION_CACHE_BYTES", 3 * 100 * 32)    # three sets of 100 points
+    monkeypatch.setattr("core.data.fields.LOCATION_CACHE_BYTES", 3 * 100 * 20)    # three sets of 100 points
     mesh = MeshField(x, y, triangles, {"f": x})
     calls = []
     locate = mesh._locator.locate
@@ -244,4 +246,4 @@ def test_mesh_location_cache_stays_within_its_bound(monkeypatch):
     assert len(calls) == 5
     mesh.sample("f", sets[0], 0.0)                   # the oldest was dropped
     assert len(calls) == 6
-    assert mesh._locations._bytes <= 3 * 100 * 32
+    assert mesh._locations._bytes <= 3 * 100 * 20
