@@ -125,13 +125,14 @@ def run(n: int = 1024) -> dict:
     drag_step_time = best_time(lambda: classify_grid(mesh_driven, domain, data=mesh_sources))
     results["classify_vtu_data_first_s"] = round(drag_cold_time, 4)
     results["classify_vtu_data_drag_step_s"] = round(drag_step_time, 4)
-    results["records"] = [
+    # Locating grid nodes is now a tenth of what it was (rasterised triangles), so the share a cached location
+    # saves is smaller: re-locating on every drag step would read 1 in the first and last figures below; the
+    # targets say "clearly below", and tests/core/test_data_fields.py counts the locate calls exactly.
+    records = [
         figure(f"mesh sampling {domain.nx}x{domain.ny}: located before / cold cache", mesh_warm_time / mesh_cold_time,
-               0.25),
+               0.5),
         figure(f"mesh sampling {domain.nx}x{domain.ny}: cold cache / prebuilt LinearNDInterpolator",
                mesh_cold_time / prebuilt_time, 1.0),
-        figure(f"classify over mesh data {domain.nx}x{domain.ny}: drag step / first map",
-               drag_step_time / drag_cold_time, 0.5),
     ]
 
     template = load_template("full_potential")
@@ -146,6 +147,10 @@ def run(n: int = 1024) -> dict:
     results["classify_npz_data_s"] = round(data_time, 4)
     results["data_over_formula_time"] = round(data_time / formula_time, 2)
     results["type_agreement_where_both_defined"] = round(float(np.mean(a[both] == b[both])), 5)
+    results["mesh_drag_step_over_grid_data"] = round(drag_step_time / data_time, 3)
+    results["records"] = [*records, figure(
+        f"classify over mesh data {domain.nx}x{domain.ny}: drag step / classification over grid data",
+        drag_step_time / data_time, 1.5)]
     return results
 
 
