@@ -112,25 +112,45 @@ def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tupl
     variables = raw["variables"]
     names = [*variables, *raw["parameters"], *raw["definitions"]]
     texts = _expression_texts(raw["definitions"], raw["coefficients"])
+    if len(set(names)) != len(names):
+        return problems
+    symbols = {n: sympy.Symbol(n, real=True) for n in names}
+    if not has_data and not problems:
+        # The compiler parses every text itself, so each text is parsed a second time, to list every text's
+        # error rather than the compiler's first, only when the equation does not compile (parsing twice made
+        # checking a large file take twice as long).
+        compiled = _compile_problems(index, raw, ())
+        if not compiled:
+            return []
+        errors = _parse_errors(texts, symbols, variables)
+        return _located(index, errors, has_data=False) if errors else compiled
     data_names: tuple[str, ...] = ()
-    if len(set(names)) == len(names):
-        if has_data:   # names defined nowhere in the equation are data quantities when the project lists data
-            data_names, errors = _data_names_and_errors(
-                variables, raw["parameters"], raw["definitions"], texts,
-                _readout_names(raw.get("trade", {}), raw.get("peak_quantity", "")))
-        else:
-            errors = _parse_errors(texts, {n: sympy.Symbol(n, real=True) for n in names}, variables)
-        for field, error in errors:
-            message = _expression_message(error)
-            if not has_data and error.message.startswith("unknown name"):
-                message += " (and the project lists no data source that could provide it)"
-            problems.append((_equation_path(index, field), message))
-    if not problems:
-        try:
-            compile_equation(equation_from_dict(raw), data_names=data_names)
-        except ExpressionError as error:
-            problems.append((_equation_path(index, error.field), _expression_message(error)))
+    if has_data:   # names defined nowhere in the equation are data quantities when the project lists data
+        data_names, errors = _data_names_and_errors(
+            variables, raw["parameters"], raw["definitions"], texts,
+            _readout_names(raw.get("trade", {}), raw.get("peak_quantity", "")))
+    else:
+        errors = _parse_errors(texts, symbols, variables)
+    problems += _located(index, errors, has_data=has_data)
+    return problems or _compile_problems(index, raw, data_names)
+
+
+def _located(index: int, errors: list[tuple[str, ExpressionError]], *, has_data: bool) -> list[tuple[str, str]]:
+    problems = []
+    for field, error in errors:
+        message = _expression_message(error)
+        if not has_data and error.message.startswith("unknown name"):
+            message += " (and the project lists no data source that could provide it)"
+        problems.append((_equation_path(index, field), message))
     return problems
+
+
+def _compile_problems(index: int, raw: Mapping, data_names: tuple[str, ...]) -> list[tuple[str, str]]:
+    try:
+        compile_equation(equation_from_dict(raw), data_names=data_names)
+    except ExpressionError as error:
+        return [(_equation_path(index, error.field), _expression_message(error))]
+    return []
 
 
 def _parse_errors(texts: list[tuple[str, str]], symbols: Mapping[str, sympy.Symbol], variables
