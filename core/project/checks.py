@@ -19,6 +19,7 @@ from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError, check_name
 from core.equations.parser import find_data_names, parse_expression
 from core.project.form_checks import clip, json_path
+from core.project.schema import MAX_EXPRESSION_CHARACTERS
 
 __all__ = ["equation_data_names", "equation_from_dict", "meaning_problems"]
 
@@ -187,8 +188,14 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
     problems += _repeated_names(data["equations"], "equation", "equations")
     problems += _repeated_names(data["domains"], "domain", "domains")
     has_data = bool(data["data_sources"])
-    for index, raw in enumerate(data["equations"]):
-        problems += _equation_problems(index, raw, has_data=has_data)
+    size = _expression_characters(data["equations"])
+    if size > MAX_EXPRESSION_CHARACTERS:
+        problems.append((json_path(["equations"]), (f"the coefficients and definitions hold {size:,} characters "
+                                                    f"in all, more than the {MAX_EXPRESSION_CHARACTERS:,} a "
+                                                    "project may hold")))
+    else:
+        for index, raw in enumerate(data["equations"]):
+            problems += _equation_problems(index, raw, has_data=has_data)
     problems += _data_source_problems(data["data_sources"])
     for index, raw in enumerate(data["domains"]):
         for axis in ("x_range", "y_range"):
@@ -204,6 +211,12 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             problems.append((json_path(["shown", field]), (f"there is no {field} named {clip(shown, 40)!r} "
                                                           f"(the project has {listed})")))
     return problems
+
+
+def _expression_characters(equations: list) -> int:
+    """How many characters the coefficient and definition texts of schema-valid ``equations`` hold."""
+    return sum(len(text) for raw in equations
+               for text in (*raw["coefficients"].values(), *raw["definitions"].values()))
 
 
 def _data_source_problems(sources: list) -> list[tuple[str, str]]:
