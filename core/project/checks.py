@@ -19,6 +19,7 @@ from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError, check_name
 from core.equations.parser import find_data_names, parse_expression
 from core.project.form_checks import clip, json_path
+from core.project.schema import MAX_EXPRESSION_CHARACTERS
 
 __all__ = ["equation_data_names", "equation_from_dict", "meaning_problems"]
 
@@ -112,25 +113,45 @@ def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tupl
     variables = raw["variables"]
     names = [*variables, *raw["parameters"], *raw["definitions"]]
     texts = _expression_texts(raw["definitions"], raw["coefficients"])
+    if len(set(names)) != len(names):
+        return problems
+    symbols = {n: sympy.Symbol(n, real=True) for n in names}
+    if not has_data and not problems:
+        # The compiler parses every text itself, so each text is parsed a second time, to list every text's
+        # error rather than the compiler's first, only when the equation does not compile (parsing twice made
+        # checking a large file take twice as long).
+        compiled = _compile_problems(index, raw, ())
+        if not compiled:
+            return []
+        errors = _parse_errors(texts, symbols, variables)
+        return _located(index, errors, has_data=False) if errors else compiled
     data_names: tuple[str, ...] = ()
-    if len(set(names)) == len(names):
-        if has_data:   # names defined nowhere in the equation are data quantities when the project lists data
-            data_names, errors = _data_names_and_errors(
-                variables, raw["parameters"], raw["definitions"], texts,
-                _readout_names(raw.get("trade", {}), raw.get("peak_quantity", "")))
-        else:
-            errors = _parse_errors(texts, {n: sympy.Symbol(n, real=True) for n in names}, variables)
-        for field, error in errors:
-            message = _expression_message(error)
-            if not has_data and error.message.startswith("unknown name"):
-                message += " (and the project lists no data source that could provide it)"
-            problems.append((_equation_path(index, field), message))
-    if not problems:
-        try:
-            compile_equation(equation_from_dict(raw), data_names=data_names)
-        except ExpressionError as error:
-            problems.append((_equation_path(index, error.field), _expression_message(error)))
+    if has_data:   # names defined nowhere in the equation are data quantities when the project lists data
+        data_names, errors = _data_names_and_errors(
+            variables, raw["parameters"], raw["definitions"], texts,
+            _readout_names(raw.get("trade", {}), raw.get("peak_quantity", "")))
+    else:
+        errors = _parse_errors(texts, symbols, variables)
+    problems += _located(index, errors, has_data=has_data)
+    return problems or _compile_problems(index, raw, data_names)
+
+
+def _located(index: int, errors: list[tuple[str, ExpressionError]], *, has_data: bool) -> list[tuple[str, str]]:
+    problems = []
+    for field, error in errors:
+        message = _expression_message(error)
+        if not has_data and error.message.startswith("unknown name"):
+            message += " (and the project lists no data source that could provide it)"
+        problems.append((_equation_path(index, field), message))
     return problems
+
+
+def _compile_problems(index: int, raw: Mapping, data_names: tuple[str, ...]) -> list[tuple[str, str]]:
+    try:
+        compile_equation(equation_from_dict(raw), data_names=data_names)
+    except ExpressionError as error:
+        return [(_equation_path(index, error.field), _expression_message(error))]
+    return []
 
 
 def _parse_errors(texts: list[tuple[str, str]], symbols: Mapping[str, sympy.Symbol], variables
@@ -167,8 +188,14 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
     problems += _repeated_names(data["equations"], "equation", "equations")
     problems += _repeated_names(data["domains"], "domain", "domains")
     has_data = bool(data["data_sources"])
-    for index, raw in enumerate(data["equations"]):
-        problems += _equation_problems(index, raw, has_data=has_data)
+    size = _expression_characters(data["equations"])
+    if size > MAX_EXPRESSION_CHARACTERS:
+        problems.append((json_path(["equations"]), (f"the coefficients and definitions hold {size:,} characters "
+                                                    f"in all, more than the {MAX_EXPRESSION_CHARACTERS:,} a "
+                                                    "project may hold")))
+    else:
+        for index, raw in enumerate(data["equations"]):
+            problems += _equation_problems(index, raw, has_data=has_data)
     problems += _data_source_problems(data["data_sources"])
     for index, raw in enumerate(data["domains"]):
         for axis in ("x_range", "y_range"):
@@ -184,6 +211,12 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             problems.append((json_path(["shown", field]), (f"there is no {field} named {clip(shown, 40)!r} "
                                                           f"(the project has {listed})")))
     return problems
+
+
+def _expression_characters(equations: list) -> int:
+    """How many characters the coefficient and definition texts of schema-valid ``equations`` hold."""
+    return sum(len(text) for raw in equations
+               for text in (*raw["coefficients"].values(), *raw["definitions"].values()))
 
 
 def _data_source_problems(sources: list) -> list[tuple[str, str]]:

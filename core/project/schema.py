@@ -27,6 +27,7 @@ __all__ = [
     "MAX_DATA_SOURCES",
     "MAX_DOMAINS",
     "MAX_EQUATIONS",
+    "MAX_EXPRESSION_CHARACTERS",
     "MAX_LABEL_LENGTH",
     "MAX_NOTES_LENGTH",
     "MAX_PINS",
@@ -49,6 +50,11 @@ MAX_DESCRIPTION_LENGTH = 4_000
 MAX_NOTES_LENGTH = 1_000_000
 MAX_DATA_SOURCES = 100
 MAX_PATH_LENGTH = 4_000
+# All coefficient and definition texts of a project together (the schema cannot say it; core.project.checks
+# does). Checking costs about 4 microseconds a character for sums and up to 35 for long min/max lists, whose
+# arguments sympy sorts (measured on a shared 2-core machine): within this limit any file checks in a few
+# seconds, where 100 equations of 200 definitions of 2000 characters would take many minutes.
+MAX_EXPRESSION_CHARACTERS = 100_000
 
 # A title: no control characters, no white space at either end.
 TITLE_PATTERN = r"^[^\s\u0000-\u001f\u007f](?:[^\u0000-\u001f\u007f]*[^\s\u0000-\u001f\u007f])?$"
