@@ -29,8 +29,9 @@ _SAFE_SCALE = 1e-290
 def scaled_by_power_of_two(a, b, c) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """a, b, c (broadcast together, float64) divided by 2^e, where 2^(e-1) <= max(|a|, |b|, |c|) < 2^e.
 
-    The division is exact (only the exponents change, unless a much smaller coefficient underflows, where it is
-    negligible), so signs, zeros and ratios are kept while b^2 and ac can no longer overflow or underflow.
+    The division is exact (only the exponents change) unless a coefficient smaller than the largest by more
+    than 2^-1074 underflows to 0, so signs, zeros and ratios are kept while b^2 and ac can no longer overflow.
+    For the type itself use normalized_discriminant, which keeps even such a coefficient's sign.
     Points where all three are 0, or one is not finite, are returned unchanged.
     """
     a, b, c = np.broadcast_arrays(*(np.asarray(v, dtype=np.float64) for v in (a, b, c)))
@@ -114,12 +115,26 @@ def normalized_discriminant_into(a, b, c, out: np.ndarray, scratch: Discriminant
         return False
     suspect = ~((scale > _SAFE_SCALE) & (scale < np.inf))
     if suspect.any():
-        a_s, b_s, c_s = scaled_by_power_of_two(*(np.broadcast_to(v, shape)[suspect] for v in (a, b, c)))
-        with np.errstate(all="ignore"):
-            quarter_b2 = (0.5 * b_s) ** 2
-            product = a_s * c_s
-            scale_s = quarter_b2 + np.abs(product)
-            value = (quarter_b2 - product) / scale_s
-        value[scale_s == 0] = 0.0
-        out[suspect] = value
+        out[suspect] = _normalized_from_exponents(*(np.broadcast_to(v, shape)[suspect] for v in (a, b, c)))
     return True
+
+
+def _normalized_from_exponents(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
+    """D/S at points where b^2/4 + |ac| under- or overflows: each coefficient split into mantissa and exponent
+    (np.frexp, exact), b^2/4 and ac formed from the mantissas and brought to the exponent of the larger of the
+    two. Only a term smaller than the other by more than 2^-1074 can vanish, where it cannot change D/S, so
+    a u_xx + c u_yy with a = 5e-324 and c = 1 stays elliptic (a common power of two for a, b, c would lose
+    the tiny a). Where the plain formula is exact this gives the same bits: only exponents differ."""
+    (ma, ea), (mb, eb), (mc, ec) = np.frexp(a), np.frexp(b), np.frexp(c)
+    with np.errstate(all="ignore"):
+        b_exponent = np.where(mb != 0, 2 * eb, np.iinfo(np.int32).min)
+        product_mantissa = ma * mc
+        ac_exponent = np.where(product_mantissa != 0, ea + ec, np.iinfo(np.int32).min)
+        common = np.maximum(b_exponent, ac_exponent)
+        quarter_b2 = np.ldexp((0.5 * mb) ** 2, np.maximum(b_exponent - common, -2000))
+        product = np.ldexp(product_mantissa, np.maximum(ac_exponent - common, -2000))
+        scale = quarter_b2 + np.abs(product)
+        value = (quarter_b2 - product) / scale
+    value[scale == 0] = 0.0                                  # a = b = c = 0 (or b = 0 and ac = 0): D = 0
+    value[~(np.isfinite(a) & np.isfinite(b) & np.isfinite(c))] = np.nan
+    return value

@@ -17,7 +17,7 @@ import numpy as np
 
 from core.analysis.continuation import EVENT_KINDS, CurveEvent, continuation_directions
 from core.analysis.directions import Family, characteristic_directions
-from core.analysis.discriminant import discriminant, scaled_by_power_of_two
+from core.analysis.discriminant import normalized_discriminant
 from core.analysis.stepping import (
     BLOCKED,
     EDGE,
@@ -163,7 +163,7 @@ def trace_characteristics(compiled: CompiledEquation, domain: Domain, seeds, *,
         raw = compiled.evaluate_raw(seeds[:, 0], seeds[:, 1], data=data, prepared=field.prepared,
                                     names=COEFFICIENT_NAMES)
         a, b, c = np.broadcast_arrays(raw["a"], raw["b"], raw["c"], np.empty(len(seeds)))[:3]
-        d = discriminant(*scaled_by_power_of_two(a, b, c))   # its sign only: exact, and it cannot overflow
+        d = normalized_discriminant(a, b, c)   # its sign only: the one type formula, free of over- and underflow
         directions = dict(zip(Family, characteristic_directions(a, b, c)))
     inside = ((seeds[:, 0] >= domain.xmin) & (seeds[:, 0] <= domain.xmax)
               & (seeds[:, 1] >= domain.ymin) & (seeds[:, 1] <= domain.ymax))

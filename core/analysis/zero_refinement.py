@@ -115,10 +115,10 @@ def roots_on_segments(function: PointFunction, start, end, *, xtol: float, cance
         t_root[active[hit]] = t[hit]
         switch = np.signbit(ft) != np.signbit(fb)            # the root lies between t and b
         # Anderson-Bjorck: scale the value at an end kept twice by 1 - f(t)/f(b) (by 1/2 if that is not > 0).
-        with np.errstate(all="ignore"):
+        with np.errstate(all="ignore"):        # (a scaled value may overflow: the next step then bisects)
             scale = 1.0 - ft / fb
-        scale = np.where(scale > 0, scale, 0.5)
-        fa = np.where(switch, fb, np.where(bisect, fa, scale * fa))
+            scale = np.where(scale > 0, scale, 0.5)
+            fa = np.where(switch, fb, np.where(bisect, fa, scale * fa))
         a = np.where(switch, b, a)
         b, fb = t, ft
         halved = np.abs(b - a) <= 0.5 * reference
