@@ -8,12 +8,11 @@ runs with and without it). Targets: refined error <= 1e-12 of the domain size, a
 
 from __future__ import annotations
 
-import gc
 import json
-import time
 
 import numpy as np
 from records import figure
+from timing import paired_times
 
 from core.analysis.classify import classify_grid
 from core.analysis.type_change_lines import find_type_boundaries
@@ -23,32 +22,6 @@ from core.equations.equation import Equation
 
 NODES = 1024
 REPEATS = 41      # pairs (about 1 s); the target's figure is their median ratio (best of 15 drifted by 0.2)
-
-
-def _paired_times(first, second, repeats: int = REPEATS) -> tuple[np.ndarray, np.ndarray, object, object]:
-    """Times (repeats,) of two calls run back to back in pairs, which one goes first alternating, so that
-    load on the machine hits both alike; and their last results.
-
-    The garbage collector is off while timing, as timeit does: a collection of the whole heap (sympy's
-    objects included) lands on whichever call happens to allocate past the threshold and costs more than
-    the refinement being measured.
-    """
-    times = np.zeros((2, repeats))
-    results: list[object] = [None, None]
-    calls = (first, second)
-    gc.collect()
-    was_enabled = gc.isenabled()
-    gc.disable()
-    try:
-        for repeat in range(repeats):
-            for k in (0, 1) if repeat % 2 == 0 else (1, 0):
-                start = time.perf_counter()
-                results[k] = calls[k]()
-                times[k, repeat] = time.perf_counter() - start
-    finally:
-        if was_enabled:
-            gc.enable()
-    return times[0], times[1], results[0], results[1]
 
 
 def _radius_error(curves, attribute: str) -> float:
@@ -65,7 +38,7 @@ def run(nodes: int = NODES) -> dict:
     compiled = compile_equation(Equation(a="1", b="-2*x", c="1 - y**2"))
     type_map = classify_grid(compiled, domain)
     find_type_boundaries(compiled, type_map)                       # warm up imports and caches
-    raw_times, refined_times, raw, refined = _paired_times(
+    raw_times, refined_times, raw, refined = paired_times(
         lambda: find_type_boundaries(compiled, type_map, refine=False),
         lambda: find_type_boundaries(compiled, type_map, refine=True))
     raw_time, refined_time = float(raw_times.min()), float(refined_times.min())
