@@ -3,7 +3,7 @@
     python -m tests.fuzz.campaign --expressions 10000 --projects 10000 --data 1000 [--seed S] [--json]
 
 prints, per kind, tried / rejected with a message / internal errors / hangs / memory cap hits / warnings /
-files outside read / bad messages, then up to --samples failing cases of each column with what reproduces
+files outside read / bad messages, the slowest case of each kind, then up to --samples failing cases of each column with what reproduces
 them (the command line and a description of the files). Known failures (tests/fuzz/known_failures.py) are
 counted like any other; the "explained" column says how many failing cases the table expects.
 """
@@ -36,6 +36,7 @@ def run_campaign(counts: dict[str, int], *, seed: int, ceiling_s: float, samples
     table: dict[str, Counter] = {}
     found: dict[str, dict[str, list[str]]] = {}
     seconds: dict[str, float] = {}
+    slowest: dict[str, tuple[float, str]] = {}
     with Workshop(ceiling_s=ceiling_s) as workshop:
         for kind, count in counts.items():
             started = time.monotonic()
@@ -49,13 +50,17 @@ def run_campaign(counts: dict[str, int], *, seed: int, ceiling_s: float, samples
                 if not cases:
                     break
                 for case in cases:
-                    _count(workshop.run(case), row, examples, samples)
+                    outcome = workshop.run(case)
+                    _count(outcome, row, examples, samples)
+                    if outcome.seconds > slowest.get(kind, (-1.0, ""))[0]:
+                        slowest[kind] = (outcome.seconds, outcome.summary(300))
                 done += len(cases)
                 if progress:
                     progress(f"{kind}: {done}/{count} ({time.monotonic() - started:.0f} s)")
             table[kind], found[kind], seconds[kind] = row, examples, round(time.monotonic() - started, 1)
     return {"table": {k: {c: v.get(c, 0) for c in _COLUMNS} for k, v in table.items()}, "samples": found,
-            "seconds": seconds, "seed": seed, "ceiling_s": ceiling_s, "memory_cap_bytes": MEMORY_CAP_BYTES}
+            "seconds": seconds, "slowest_case": {k: {"seconds": round(t, 3), "case": c} for k, (t, c) in slowest.items()},
+            "seed": seed, "ceiling_s": ceiling_s, "memory_cap_bytes": MEMORY_CAP_BYTES}
 
 
 def _count(outcome: Outcome, row: Counter, examples: dict[str, list[str]], samples: int) -> None:
@@ -80,6 +85,8 @@ def _text(report: dict) -> str:
     for kind, row in report["table"].items():
         lines.append(f"{kind:<11}" + "".join(f"{row[c]:>10}" for c in _COLUMNS)
                      + f"{report['seconds'][kind]:>10}")
+    for kind, slowest in report["slowest_case"].items():
+        lines.append(f"slowest {kind} case: {slowest['seconds']:.2f} s: {slowest['case']}")
     for kind, examples in report["samples"].items():
         for failure, listed in examples.items():
             lines.append(f"\n{kind}, {failure}:")
