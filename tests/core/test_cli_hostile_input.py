@@ -112,3 +112,43 @@ def test_a_streamed_project_trace_is_one_json_document_with_the_usual_fields():
     assert next(iter(document)) == "seeds" and document["seeds"]
     assert all(curve["points"] for seed in document["seeds"] for curve in seed["curves"])
     assert {"source", "project_checksum", "equation", "parameters"} <= set(document)
+
+
+@pytest.mark.parametrize("c", ["0*y", "y-y", "acos(-(y+3)+y)"])
+def test_a_coefficient_constant_after_folding_works_everywhere(c):
+    # 0*y and y-y fold to 0: D = 1 - 0 > 0 everywhere; acos(-3) is undefined: every node undefined.
+    for command in (("classify", "--grid", "8"), ("probe", "--at", "0.5", "-0.5"), ("trace", "--from", "0", "0")):
+        status, out, err = run(command[0], "--a", "1", "--b", "1", "--c", c, "--domain", "-1", "1", "-1", "1",
+                               *command[1:], "--json")
+        assert status == 0 and err == "", (command, err)
+    fractions = run_json("classify", "--a", "1", "--b", "1", "--c", c, "--domain", "-1", "1", "-1", "1",
+                         "--grid", "8")["fractions"]
+    assert fractions == ({"elliptic": 0.0, "parabolic": 0.0, "hyperbolic": 0.0, "undefined": 1.0} if "acos" in c
+                         else {"elliptic": 0.0, "parabolic": 0.0, "hyperbolic": 1.0, "undefined": 0.0})
+
+
+def test_a_tower_of_300_powers_is_refused_with_its_column():
+    status, _, err = run("classify", "--a", "x" + "**x" * 300, "--b", "0", "--c", "1",
+                         "--domain", "-1", "1", "-1", "1", "--grid", "8")
+    assert status == 2 and "nested too deeply" in err and "(column" in err
+
+
+def test_100_parameters_and_150_definitions_in_one_study_evaluate():
+    # more distinct names than numexpr takes in one program (62): the program is split into steps
+    options = [item for k in range(100) for item in ("--param", f"p{k}={k / 100}")]
+    options += [item for k in range(150) for item in ("--let", f"d{k}=x*{k}+y")]
+    a = "+".join(f"p{k}*x" for k in range(100))
+    c = "1+" + "+".join(f"d{k}" for k in range(150))
+    document = run_json("classify", "--a", a, "--b", "0", "--c", c, *options, "--domain", "0.5", "1", "0", "1",
+                        "--grid", "16")
+    # a = 49.5 x > 0 and c = 1 + 11175 x + 150 y > 0 on [0.5, 1] x [0, 1]: elliptic everywhere (b = 0)
+    assert document["fractions"]["elliptic"] == 1.0
+
+
+def test_the_overflowing_coefficient_beside_a_jump_classifies_without_warnings(recwarn):
+    document = run_json("classify", "--a", "1e308", "--b", "x", "--c", "piecewise(x < 0, 1, -1)",
+                        "--domain", "-1", "1", "-1", "1", "--grid", "16")
+    # x < 0: D = x^2 - 4e308 < 0 (elliptic); x > 0: D = x^2 + 4e308 > 0 (hyperbolic) (the sign of -4ac)
+    assert document["fractions"]["elliptic"] == pytest.approx(0.5)
+    assert document["fractions"]["hyperbolic"] == pytest.approx(0.5)
+    assert not [w for w in recwarn if issubclass(w.category, Warning)]
