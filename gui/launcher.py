@@ -23,16 +23,25 @@ from core.cli.registry import HEADLESS_COMMANDS
 
 __all__ = ["RENDER", "main"]
 
+# Equal to gui.render.DEFAULT_RENDER_SIZE and gui.export.PICTURE_SUFFIXES (tests/gui/test_picture_exports.py
+# checks), written here so that `mixtype render --help` loads no Qt.
+RENDER_SIZE = (1200, 900)
+RENDER_SUFFIXES = (".png", ".svg", ".pdf")
+
 
 def _add_render_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
-    parser.add_argument("--out", required=True, metavar="PNG", help="the picture to write")
+    parser.add_argument("--out", required=True, metavar="PICTURE",
+                        help="the picture to write: its suffix picks the format (.png, .svg or .pdf)")
     parser.add_argument("--window", action="store_true", help="draw the whole main window, not only the map")
-    parser.add_argument("--size", nargs=2, type=int, default=None, metavar=("W", "H"), help="size in pixels")
+    parser.add_argument("--size", nargs=2, type=int, default=None, metavar=("W", "H"),
+                        help=f"window size in pixels (default {RENDER_SIZE[0]} {RENDER_SIZE[1]})")
     add_data_access_options(parser)
 
 
 def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    if os.path.splitext(args.out)[1].lower() not in RENDER_SUFFIXES:
+        raise UsageError(f"--out {args.out}: the picture's name must end in {', '.join(RENDER_SUFFIXES)}")
     if args.size is not None and not all(100 <= v <= 8000 for v in args.size):
         raise UsageError(f"--size must be between 100 and 8000 pixels, got {args.size[0]} {args.size[1]}")
     os.environ["QT_QPA_PLATFORM"] = "offscreen"  # headless: no display needed, whatever the desktop uses
@@ -57,8 +66,8 @@ def _run_render(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return EXIT_OK
 
 
-RENDER = Command("render", "draw the map (or the whole window) of a project to a PNG", _add_render_arguments,
-                 _run_render)
+RENDER = Command("render", "draw the map (or the whole window) of a project to a PNG, SVG or PDF file",
+                 _add_render_arguments, _run_render)
 
 
 def _opens_window(argv: Sequence[str]) -> bool:

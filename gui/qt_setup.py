@@ -8,6 +8,8 @@ import sys
 import pyqtgraph as pg
 from PySide6.QtWidgets import QApplication
 
+from gui.qt_messages import install_message_filter
+
 __all__ = ["configure_plotting", "ensure_application"]
 
 _CONFIGURED = False
@@ -24,6 +26,7 @@ def configure_plotting() -> None:
 
 def ensure_application(argv: list[str] | None = None) -> QApplication:
     """The running QApplication, created (offscreen when there is no display) if there is none yet."""
+    install_message_filter()
     app = QApplication.instance()
     if app is None:
         if sys.platform.startswith("linux") and not os.environ.get("DISPLAY") \
