@@ -15,6 +15,7 @@ O(h^2) on smooth lines, where node counts converge as O(h).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from itertools import pairwise
 
 import contourpy
 import numpy as np
@@ -150,8 +151,7 @@ def zone_polygons(type_map: TypeMap, boundaries: TypeBoundaries | None = None, *
                                                 fill_type=contourpy.FillType.OuterOffset)
         points_list, offsets_list = generator.filled(0.0, _UPPER)
         for points, offsets in zip(points_list, offsets_list, strict=True):
-            rings = tuple(_closed(snap(points[start:stop])) for start, stop in zip(offsets[:-1], offsets[1:],
-                                                                                     strict=True))
+            rings = tuple(_closed(snap(points[start:stop])) for start, stop in pairwise(offsets))
             polygons.append(ZonePolygon(type=code, rings=rings))
     cells = parabolic_cells(codes)
     for region in parabolic_regions(cells, x, y, cancel):
