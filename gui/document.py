@@ -297,7 +297,8 @@ class Document(QObject):
 
     def add_pin(self, x: float, y: float, label: str = "") -> bool:
         label = label or f"P{len(self._project.pins) + 1}"
-        return self.edit(replace(self._project, pins=self._project.pins + (Pin(float(x), float(y), label),)),
+        pin = Pin(float(x), float(y), label, study=self._project.shown_study)
+        return self.edit(replace(self._project, pins=self._project.pins + (pin,)),
                          f"Pin {label}")
 
     def move_pin(self, index: int, x: float, y: float, *, merge_key: str = "") -> bool:

@@ -33,6 +33,7 @@ from gui.analysis import StudyAnalysis
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.document import Document
 from gui.export_commands import ExportCommands
+from gui.field_layer import FieldLayer
 from gui.file_commands import FileCommands
 from gui.jobs import JobRunner
 from gui.map_view import MAX_STRETCH, MapView
@@ -130,7 +131,9 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.cancel_button.setToolTip("Stop the computation in progress (Esc)")
         self.cancel_button.clicked.connect(self.cancel_work)
         self.cancel_button.setVisible(False)
+        self.field_layer = FieldLayer(self.map_view, self.document, self.analysis, self.runner, self)
         self.statusBar().addWidget(self.hover_label, 1)
+        self.statusBar().addWidget(self.field_layer.readout)
         self.statusBar().addPermanentWidget(self.progress)
         self.statusBar().addPermanentWidget(self.cancel_button)
 
@@ -165,7 +168,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         d.equation_changed.connect(self._equation_shown)
         d.parameters_changed.connect(self._update_titles)
         d.domain_changed.connect(self._domain_shown)
-        d.pins_changed.connect(lambda: m.show_pins(d.project.pins))
+        d.pins_changed.connect(lambda: m.show_pins(d.project.pins, d.project.pins_shown()))
         d.seeds_changed.connect(lambda: m.show_seeds(d.project.seeds))
         d.layers_changed.connect(self._layers_shown)
         d.dirty_changed.connect(lambda dirty: self._update_title())
@@ -204,7 +207,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         project = self.document.project
         self._equation_shown()
         self.map_view.show_domain(self.document.domain)
-        self.map_view.show_pins(project.pins)
+        self.map_view.show_pins(project.pins, project.pins_shown())
         self.map_view.show_seeds(project.seeds)
         self._layers_shown()
         self.analysis.refresh_all()

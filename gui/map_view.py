@@ -267,8 +267,10 @@ class MapView(QWidget):
         x, y = polyline_with_breaks(segments)
         self.seed_lines.setData(x, y, connect="finite")
 
-    def show_pins(self, pins: tuple[Pin, ...]) -> None:
-        self._pins = tuple(pins)
+    def show_pins(self, pins: tuple[Pin, ...], shown: tuple[bool, ...] | None = None) -> None:
+        """Draw ``pins`` (indices as in the project); ``shown`` False for pins of another study (not drawn)."""
+        self._pins = tuple(pin if shown is None or shown[k] else None for k, pin in enumerate(pins))
+        pins = [pin for pin in self._pins if pin is not None]
         self.pin_markers.setData([p.x for p in pins], [p.y for p in pins])
         for label in self._pin_labels:
             self.plot.removeItem(label)
@@ -324,6 +326,8 @@ class MapView(QWidget):
             return None
         best, best_distance = None, PIN_GRAB_PIXELS
         for index, pin in enumerate(self._pins):
+            if pin is None:
+                continue
             where = self.view_box.mapViewToScene(QPointF(pin.x, pin.y))
             distance = np.hypot(where.x() - scene_pos.x(), where.y() - scene_pos.y())
             if distance <= best_distance:

@@ -78,7 +78,7 @@ def changed_parts(before: Project, after: Project) -> tuple[str, ...]:
         parts.append("equations_listed")
     if old_domain != new_domain or before.view.parabolic_tolerance != after.view.parabolic_tolerance:
         parts.append("domain_changed")
-    if before.pins != after.pins:
+    if before.pins != after.pins or before.pins_shown() != after.pins_shown():   # (pins belong to a study)
         parts.append("pins_changed")
     if before.seeds != after.seeds or before.view.characteristic_bounces != after.view.characteristic_bounces:
         parts.append("seeds_changed")

@@ -19,6 +19,7 @@ from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError, check_name
 from core.equations.parser import find_data_names, parse_expression
 from core.project.form_checks import clip, json_path
+from core.project.model import FIELD_KINDS
 from core.project.schema import MAX_EXPRESSION_CHARACTERS
 
 __all__ = ["equation_data_names", "equation_from_dict", "meaning_problems"]
@@ -210,7 +211,39 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             listed = ", ".join(repr(clip(n, 40)) for n in names[:10])
             problems.append((json_path(["shown", field]), (f"there is no {field} named {clip(shown, 40)!r} "
                                                           f"(the project has {listed})")))
+    problems += _pin_study_problems(data)
+    problems += _field_layer_problems(data["view"].get("field"))
     return problems
+
+
+def _pin_study_problems(data: Mapping) -> list[tuple[str, str]]:
+    """Each pin's study names an equation and a domain the project holds."""
+    problems = []
+    names = {"equation": {item["name"] for item in data["equations"]},
+             "domain": {item["name"] for item in data["domains"]}}
+    for index, pin in enumerate(data["pins"]):
+        for field, name in pin.get("study", {}).items():
+            if name not in names[field] and name != data["shown"][field]:   # (a bad shown name is said once)
+                problems.append((json_path(["pins", index, "study", field]),
+                                 f"there is no {field} named {clip(name, 40)!r}"))
+    return problems
+
+
+def _field_layer_problems(raw: Mapping | None) -> list[tuple[str, str]]:
+    """The field layer's quantity is one its kind takes (core.project.model.FIELD_KINDS)."""
+    if raw is None:
+        return []
+    names = FIELD_KINDS[raw["kind"]]
+    quantity = raw["quantity"]
+    if names is not None and quantity not in names:
+        return [(json_path(["view", "field", "quantity"]),
+                 f"a {raw['kind']} field is one of {', '.join(names)}, not {clip(quantity, 40)!r}")]
+    if names is None:
+        try:
+            check_name(quantity, what="field quantity")
+        except ExpressionError as error:
+            return [(json_path(["view", "field", "quantity"]), error.message)]
+    return []
 
 
 def _expression_characters(equations: list) -> int:

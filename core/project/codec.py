@@ -15,7 +15,7 @@ from core.equations.equation import Parameter
 from core.project.checks import equation_from_dict, meaning_problems
 from core.project.form_checks import sanity_problems, schema_problems
 from core.project.migrate import MigrationError, migrate
-from core.project.model import DataSourceRef, Metadata, Pin, Project, Seed, ViewSettings
+from core.project.model import DataSourceRef, FieldLayerSettings, Metadata, Pin, Project, Seed, ViewSettings
 from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
 
 __all__ = ["ProjectError", "project_from_dict", "project_to_dict"]
@@ -93,6 +93,18 @@ def _layers_to_dict(view: ViewSettings) -> dict:
     return layers
 
 
+def _pin_to_dict(pin: Pin) -> dict:
+    result: dict = {"at": [float(pin.x), float(pin.y)], "label": pin.label}
+    if pin.study is not None:
+        result["study"] = {"equation": pin.study[0], "domain": pin.study[1]}
+    return result
+
+
+def _field_to_dict(field: FieldLayerSettings) -> dict:
+    return {"shown": field.shown, "kind": field.kind, "quantity": field.quantity, "colour_map": field.colour_map,
+            "iso_values": [float(v) for v in field.iso_values]}
+
+
 def project_to_dict(project: Project) -> dict:
     """The plain JSON data of a project in the current format, keys in the fixed order files use."""
     view = project.view
@@ -106,12 +118,13 @@ def project_to_dict(project: Project) -> dict:
                      "y_range": [float(d.ymin), float(d.ymax)], "nodes": [d.nx, d.ny]} for d in project.domains],
         "data_sources": [_data_source_to_dict(s) for s in project.data_sources],
         "shown": {"equation": project.shown_equation, "domain": project.shown_domain},
-        "pins": [{"at": [float(p.x), float(p.y)], "label": p.label} for p in project.pins],
+        "pins": [_pin_to_dict(p) for p in project.pins],
         "seeds": [_seed_to_dict(s) for s in project.seeds],
         "view": {
             "layers": _layers_to_dict(view),
             "parabolic_tolerance": float(view.parabolic_tolerance),
             "characteristic_bounces": view.characteristic_bounces,
+            "field": _field_to_dict(view.field),
         },
         "notes": project.notes,
     }
@@ -125,6 +138,20 @@ def _seed(raw: Mapping) -> Seed:
                 label=raw["label"])
 
 
+def _pin(raw: Mapping) -> Pin:
+    study = raw.get("study")
+    return Pin(float(raw["at"][0]), float(raw["at"][1]), raw["label"],
+               None if study is None else (study["equation"], study["domain"]))
+
+
+def _field(raw: Mapping | None) -> FieldLayerSettings:
+    """The field layer; optional in the file (absent: hidden, the normalised discriminant)."""
+    if raw is None:
+        return FieldLayerSettings()
+    return FieldLayerSettings(shown=raw["shown"], kind=raw["kind"], quantity=raw["quantity"],
+                              colour_map=raw["colour_map"], iso_values=tuple(float(v) for v in raw["iso_values"]))
+
+
 def _build(data: Mapping) -> Project:
     view, layers = data["view"], data["view"]["layers"]
     return Project(
@@ -134,7 +161,7 @@ def _build(data: Mapping) -> Project:
                       for d in data["domains"]),
         shown_equation=data["shown"]["equation"],
         shown_domain=data["shown"]["domain"],
-        pins=tuple(Pin(float(p["at"][0]), float(p["at"][1]), p["label"]) for p in data["pins"]),
+        pins=tuple(_pin(raw) for raw in data["pins"]),
         seeds=tuple(_seed(raw) for raw in data["seeds"]),
         view=ViewSettings(show_type_map=layers["type_map"], show_type_change_lines=layers["type_change_lines"],
                           show_characteristics_family_1=layers["characteristics_family_1"],
@@ -142,7 +169,8 @@ def _build(data: Mapping) -> Project:
                           show_pins=layers["pins"], show_legend=layers["legend"],
                           parabolic_tolerance=float(view["parabolic_tolerance"]),
                           show_seed_segments=layers.get("seed_segments", True),
-                          characteristic_bounces=int(view["characteristic_bounces"])),
+                          characteristic_bounces=int(view["characteristic_bounces"]),
+                          field=_field(view.get("field"))),
         notes=data["notes"],
         metadata=Metadata(created=data["metadata"]["created"], modified=data["metadata"]["modified"],
                           written_by=data["metadata"]["written_by"]),

@@ -59,8 +59,27 @@ def _v2_to_v3(data: dict) -> dict:
     return result
 
 
+def _v3_to_v4(data: dict) -> dict:
+    """Version 4 records the study each pin was set in (``pins[k].study``) and adds the field layer
+    (``view.field``). A version-3 file showed every pin in every study; its pins are taken to belong to the
+    equation and domain it showed when saved, and the field layer starts hidden, on the normalised
+    discriminant."""
+    result = dict(data)
+    result["format_version"] = 4
+    shown = result.get("shown")
+    pins = result.get("pins")
+    if isinstance(shown, dict) and isinstance(pins, list):
+        study = {"equation": shown.get("equation"), "domain": shown.get("domain")}
+        result["pins"] = [{**pin, "study": dict(study)} if isinstance(pin, dict) else pin for pin in pins]
+    view = result.get("view")
+    if isinstance(view, dict):
+        result["view"] = {**view, "field": {"shown": False, "kind": "discriminant", "quantity": "normalized",
+                                            "colour_map": "blue_yellow", "iso_values": []}}
+    return result
+
+
 # version n -> function turning version-n data into version n + 1. Version 1 is the first format.
-MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3}
+MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3, 3: _v3_to_v4}
 
 
 class MigrationError(ValueError):

@@ -19,6 +19,7 @@ import numpy as np
 
 import core
 from core.analysis.classify import DEFAULT_TOLERANCE
+from core.analysis.field_values import TRADE_FIELDS
 from core.analysis.tracing import MAX_BOUNCES, seeds_along_segment
 from core.bundled import bundled_path
 from core.data.raw import FORMATS
@@ -29,9 +30,13 @@ from core.equations.language import ExpressionError, check_name
 __all__ = [
     "DATA_FORMATS",
     "FAMILIES",
+    "FIELD_COLOUR_MAPS",
+    "FIELD_KINDS",
+    "MAX_ISO_VALUES",
     "MAX_SEED_CURVES",
     "PROJECT_SUFFIX",
     "DataSourceRef",
+    "FieldLayerSettings",
     "Metadata",
     "Pin",
     "Project",
@@ -64,14 +69,29 @@ def _point(value, what: str) -> tuple[float, float]:
 
 @dataclass(frozen=True)
 class Pin:
-    """A probed point (x, y) of the plane, in the units of the equation's variables, with an optional label."""
+    """A probed point (x, y) of the plane, in the units of the equation's variables, with an optional label.
+
+    ``study`` is the (equation name, domain name) pair the pin was set in: its coordinates mean something only
+    there, so the window shows it only while that pair is shown. None (a pin made by code, or a file that
+    says no study) belongs to every study. It came with format version 4.
+    """
 
     x: float
     y: float
     label: str = ""
+    study: tuple[str, str] | None = None
 
     def __post_init__(self) -> None:
         _point((self.x, self.y), "a pin")
+        if self.study is not None:
+            study = tuple(self.study)
+            if len(study) != 2 or not all(isinstance(name, str) and name for name in study):
+                raise ValueError(f"a pin's study is an (equation name, domain name) pair, got {self.study!r}")
+            object.__setattr__(self, "study", study)
+
+    def belongs_to(self, equation: str, domain: str) -> bool:
+        """True when the pin was set in the study of that equation and domain (or in no particular one)."""
+        return self.study is None or self.study == (equation, domain)
 
 
 @dataclass(frozen=True)
@@ -114,6 +134,55 @@ class Seed:
         return seeds_along_segment(self.start, self.end, self.curves)
 
 
+# The field layer (format version 4): which quantity shades the map. kind -> the names it takes (None: any
+# name the equation knows: a definition, a parameter or a data quantity). Trade names are those of
+# core.analysis.field_values.TRADE_FIELDS.
+FIELD_KINDS: dict[str, tuple[str, ...] | None] = {
+    "discriminant": ("normalized", "D"),
+    "coefficient": COEFFICIENT_NAMES,
+    "value": None,
+    "trade": tuple(TRADE_FIELDS),
+}
+# Colour maps of the field layer: perceptually uniform and readable with the common colour-vision
+# deficiencies. "blue_yellow" is diverging (centred on 0), the others sequential.
+FIELD_COLOUR_MAPS = ("blue_yellow", "cividis", "viridis")
+MAX_ISO_VALUES = 24
+
+
+@dataclass(frozen=True)
+class FieldLayerSettings:
+    """The field layer: a quantity of the study shaded over the map, with iso-lines at ``iso_values``.
+
+    ``kind`` and ``quantity`` name it (FIELD_KINDS; e.g. ("discriminant", "normalized") is D / (b^2 + 4|ac|),
+    ("value", "M") a definition or data quantity M, ("trade", "mach") the local Mach number); ``colour_map``
+    is one of FIELD_COLOUR_MAPS; ``shown`` says whether it is drawn (the type zones stay the default view).
+    """
+
+    shown: bool = False
+    kind: str = "discriminant"
+    quantity: str = "normalized"
+    colour_map: str = "blue_yellow"
+    iso_values: tuple[float, ...] = ()
+
+    def __post_init__(self) -> None:
+        if self.kind not in FIELD_KINDS:
+            raise ValueError(f"unknown field kind {self.kind!r}; expected one of {', '.join(FIELD_KINDS)}")
+        names = FIELD_KINDS[self.kind]
+        if names is None:
+            try:
+                check_name(self.quantity, what="field quantity")
+            except ExpressionError as error:
+                raise ValueError(str(error)) from None
+        elif self.quantity not in names:
+            raise ValueError(f"a {self.kind} field is one of {', '.join(names)}, got {self.quantity!r}")
+        if self.colour_map not in FIELD_COLOUR_MAPS:
+            raise ValueError(f"unknown colour map {self.colour_map!r}; expected one of {', '.join(FIELD_COLOUR_MAPS)}")
+        values = tuple(float(v) for v in self.iso_values)
+        if len(values) > MAX_ISO_VALUES or not all(math.isfinite(v) for v in values):
+            raise ValueError(f"iso values are at most {MAX_ISO_VALUES} finite numbers, got {self.iso_values!r}")
+        object.__setattr__(self, "iso_values", tuple(sorted(set(values))))
+
+
 @dataclass(frozen=True)
 class ViewSettings:
     """What the map shows, kept with the project so a study reopens as it was left.
@@ -122,7 +191,8 @@ class ViewSettings:
     core.analysis.directions). ``show_seed_segments`` draws the segments characteristics start from; it is
     optional in the file (absent means shown). ``characteristic_bounces`` (0 to MAX_BOUNCES) is how many times
     each half of a characteristic goes on as the other family past the domain edge or the type-change line
-    (core.analysis.tracing); it came with format version 3. New fields come last.
+    (core.analysis.tracing); it came with format version 3, ``field`` (the field layer) with version 4. New
+    fields come last.
     """
 
     show_type_map: bool = True
@@ -134,8 +204,11 @@ class ViewSettings:
     parabolic_tolerance: float = DEFAULT_TOLERANCE
     show_seed_segments: bool = True
     characteristic_bounces: int = 0
+    field: FieldLayerSettings = FieldLayerSettings()
 
     def __post_init__(self) -> None:
+        if not isinstance(self.field, FieldLayerSettings):
+            raise TypeError(f"the field layer is a FieldLayerSettings, got {type(self.field).__name__}")
         if not 0.0 <= float(self.parabolic_tolerance) < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {self.parabolic_tolerance!r}")
         bounces = self.characteristic_bounces
@@ -259,6 +332,33 @@ class Project:
         _unique([d.name for d in self.domains], "domain")
         self.equation(self.shown_equation)
         self.domain(self.shown_domain)
+        for pin in self.pins:
+            if pin.study is not None and (pin.study[0] not in self.equation_names
+                                          or pin.study[1] not in self.domain_names):
+                raise ValueError(f"pin {pin.label!r} was set in equation {pin.study[0]!r} on domain {pin.study[1]!r}, "
+                                 "which the project does not hold")
+
+    @property
+    def shown_study(self) -> tuple[str, str]:
+        """The (equation name, domain name) pair shown: the study new pins belong to."""
+        return self.shown_equation, self.shown_domain
+
+    def pins_shown(self) -> tuple[bool, ...]:
+        """For each pin, whether it belongs to the shown study (pins of other studies are not shown)."""
+        return tuple(pin.belongs_to(*self.shown_study) for pin in self.pins)
+
+    def pins_of(self, equation: str, domain: str) -> tuple[Pin, ...]:
+        """The pins set in the study of that equation and domain (and those of no particular study)."""
+        return tuple(pin for pin in self.pins if pin.belongs_to(equation, domain))
+
+    def _pins_renamed(self, position: int, old: str, new: str) -> tuple[Pin, ...]:
+        """The pins with the equation (position 0) or domain (1) name ``old`` in their study changed to ``new``."""
+        def renamed(pin: Pin) -> Pin:
+            if pin.study is None or pin.study[position] != old:
+                return pin
+            study = (new, pin.study[1]) if position == 0 else (pin.study[0], new)
+            return replace(pin, study=study)
+        return tuple(renamed(pin) for pin in self.pins)
 
     @property
     def equation_names(self) -> tuple[str, ...]:
@@ -289,14 +389,15 @@ class Project:
     def with_equation(self, equation: Equation, *, replacing: str | None = None) -> Project:
         """A copy with ``equation`` added, or put in place of the equation named ``replacing``.
 
-        Renaming the shown equation keeps it shown.
+        Renaming the shown equation keeps it shown; the pins set in it follow the new name.
         """
         if replacing is None:
             return replace(self, equations=(*self.equations, equation))
         self.equation(replacing)
         equations = tuple(equation if e.name == replacing else e for e in self.equations)
         shown = equation.name if self.shown_equation == replacing else self.shown_equation
-        return replace(self, equations=equations, shown_equation=shown)
+        return replace(self, equations=equations, shown_equation=shown,
+                       pins=self._pins_renamed(0, replacing, equation.name))
 
     def with_shown(self, *, equation: str | None = None, domain: str | None = None) -> Project:
         """A copy showing the equation and/or domain of those names (KeyError for a name there is not)."""
@@ -324,7 +425,7 @@ class Project:
         self.domain(replacing)
         domains = tuple(domain if d.name == replacing else d for d in self.domains)
         shown = domain.name if self.shown_domain == replacing else self.shown_domain
-        return replace(self, domains=domains, shown_domain=shown)
+        return replace(self, domains=domains, shown_domain=shown, pins=self._pins_renamed(1, replacing, domain.name))
 
     def data_source(self, path: str) -> DataSourceRef:
         """The data source whose recorded ``path`` is ``path``; KeyError listing the paths otherwise."""

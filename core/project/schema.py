@@ -18,7 +18,14 @@ from core.domain import MAX_GRID, MIN_GRID
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
 from core.equations.language import MAX_NAME_LENGTH, MAX_TEXT_LENGTH
 from core.equations.trade import TRADE_INPUTS
-from core.project.model import DATA_FORMATS, FAMILIES, MAX_SEED_CURVES
+from core.project.model import (
+    DATA_FORMATS,
+    FAMILIES,
+    FIELD_COLOUR_MAPS,
+    FIELD_KINDS,
+    MAX_ISO_VALUES,
+    MAX_SEED_CURVES,
+)
 
 __all__ = [
     "CHECKSUM_PATTERN",
@@ -38,7 +45,7 @@ __all__ = [
     "schema_text",
 ]
 
-CURRENT_FORMAT_VERSION = 3
+CURRENT_FORMAT_VERSION = 4
 FORMAT_NAME = "mixtype-project"
 MAX_EQUATIONS = 100
 MAX_DOMAINS = 100
@@ -186,6 +193,21 @@ def _seed_schema() -> dict:
     return seed
 
 
+def _field_schema() -> dict:
+    return _object({
+        "shown": {"type": "boolean", "description": "draw the field over the map (the type zones are the default)"},
+        "kind": {"enum": list(FIELD_KINDS), "description": "what the quantity is: the discriminant, a "
+                 "coefficient, a value the equation knows (definition, parameter, data quantity) or a trade "
+                 "quantity"},
+        "quantity": _identifier("which one: normalized or D; a, b or c; a name the equation knows; or a trade "
+                                "field (" + ", ".join(FIELD_KINDS["trade"] or ()) + ")"),
+        "colour_map": {"enum": list(FIELD_COLOUR_MAPS), "description": "the colour map shading the values"},
+        "iso_values": {"type": "array", "items": {"type": "number"}, "maxItems": MAX_ISO_VALUES,
+                       "description": "values at which iso-lines are drawn (none: no iso-lines)"},
+    }, description="the field layer: one quantity of the study shaded over the map (optional; absent: hidden, "
+       "the normalised discriminant)")
+
+
 def project_schema() -> dict:
     """The JSON Schema of the current project file format, as a dict (keys in a fixed order)."""
     version = CURRENT_FORMAT_VERSION
@@ -229,7 +251,12 @@ def project_schema() -> dict:
             "pins": {"type": "array", "maxItems": MAX_PINS, "items": _object({
                 "at": _point("the pinned point"),
                 "label": _text(MAX_LABEL_LENGTH, "free text"),
-            }, description="a probed point")},
+                "study": _object({
+                    "equation": _title("name of the equation the pin was set in"),
+                    "domain": _title("name of the domain the pin was set in"),
+                }, description="the study the pin belongs to; it is shown only with that equation and domain "
+                   "(optional: absent, it belongs to every study)"),
+            }, required=["at", "label"], description="a probed point")},
             "seeds": {"type": "array", "maxItems": MAX_SEEDS, "items": _seed_schema()},
             "view": _object({
                 "layers": _object(layers, required=[n for n in layers if n != "seed_segments"],
@@ -241,7 +268,9 @@ def project_schema() -> dict:
                     "description": "how many times each half of a characteristic goes on as the other family "
                                    "where it meets the domain edge (reflected) or the type-change line (turned "
                                    "back); 0 stops it there"},
-            }, description="what the map shows and how characteristics are traced"),
+                "field": _field_schema(),
+            }, required=["layers", "parabolic_tolerance", "characteristic_bounces"],
+                description="what the map shows and how characteristics are traced"),
             "notes": _text(MAX_NOTES_LENGTH, "free-text notes"),
         }),
     }

@@ -1,15 +1,22 @@
-"""What the map shows and what the mouse does: layer switches, the seeding tool for characteristics and how far
-characteristics go on past the domain edge and the type-change line (kept in the study)."""
+"""What the map shows and what the mouse does: layer switches, the field layer (which quantity shades the map,
+its colour map and iso-lines), the seeding tool for characteristics and how far characteristics go on past the
+domain edge and the type-change line (all kept in the study)."""
 
 from __future__ import annotations
+
+import math
+from dataclasses import replace
 
 from PySide6.QtCore import Signal
 from PySide6.QtWidgets import (
     QButtonGroup,
     QCheckBox,
+    QComboBox,
+    QFormLayout,
     QGroupBox,
     QHBoxLayout,
     QLabel,
+    QLineEdit,
     QPushButton,
     QRadioButton,
     QSpinBox,
@@ -17,11 +24,31 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.analysis.field_values import field_quantities
 from core.analysis.tracing import MAX_BOUNCES
+from core.project.model import FIELD_COLOUR_MAPS, MAX_ISO_VALUES, FieldLayerSettings
 from gui.document import LAYER_LABELS, Document
+from gui.field_layer import COLOUR_MAP_LABELS
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
 
-__all__ = ["LayersPanel"]
+__all__ = ["LayersPanel", "parse_iso_values"]
+
+
+def parse_iso_values(text: str) -> tuple[float, ...]:
+    """'0, 0.5 1' -> (0.0, 0.5, 1.0); ValueError with a one-line reason for anything else."""
+    parts = [part for part in text.replace(";", ",").replace(",", " ").split() if part]
+    values = []
+    for part in parts:
+        try:
+            value = float(part)
+        except ValueError:
+            raise ValueError(f"{part!r} is not a number") from None
+        if not math.isfinite(value):
+            raise ValueError(f"{part!r} is not a finite number")
+        values.append(value)
+    if len(values) > MAX_ISO_VALUES:
+        raise ValueError(f"at most {MAX_ISO_VALUES} iso values, got {len(values)}")
+    return tuple(values)
 
 _SAMPLE_COLOURS = {
     "type_map": TYPE_COLOURS[1],
@@ -62,6 +89,8 @@ class LayersPanel(QWidget):
             box.toggled.connect(lambda checked, name=name: self.document.set_layer(name, checked))
             layers_layout.addWidget(box)
             self.boxes[name] = box
+
+        field_box = self._field_box()
 
         tool_box = QGroupBox("Mouse tool (left button on the map)")
         self.pin_tool = QRadioButton("Click: pin a point")
@@ -119,11 +148,94 @@ class LayersPanel(QWidget):
 
         layout = QVBoxLayout(self)
         layout.addWidget(layers_box)
+        layout.addWidget(field_box)
         layout.addWidget(tool_box)
         layout.addStretch(1)
         document.layers_changed.connect(self.refresh)
         document.seeds_changed.connect(self.refresh)
+        for signal in (document.equation_changed, document.data_changed, document.project_replaced):
+            signal.connect(self.refresh)
         self.refresh()
+
+    # -- the field layer -----------------------------------------------------------------------------------
+    def _field_box(self) -> QGroupBox:
+        box = QGroupBox("Field layer (shade a quantity)")
+        self.field_shown = QCheckBox("Shade the map by a quantity")
+        self.field_shown.setObjectName("field_shown")
+        self.field_shown.setToolTip("Draw the chosen quantity over the map with a colour bar; the type-change "
+                                    "lines stay on top (undoable, saved with the study)")
+        self.field_shown.toggled.connect(lambda on: self._set_field(shown=on))
+        self.field_quantity = QComboBox()
+        self.field_quantity.setObjectName("field_quantity")
+        self.field_quantity.setToolTip("D / (b² + 4|ac|) says how close to changing type each place is (0 on the "
+                                       "type-change line, −1 and 1 far from it)")
+        self.field_quantity.activated.connect(self._quantity_chosen)
+        self.field_colours = QComboBox()
+        self.field_colours.setObjectName("field_colour_map")
+        for name in FIELD_COLOUR_MAPS:
+            self.field_colours.addItem(COLOUR_MAP_LABELS[name], name)
+        self.field_colours.setToolTip("Perceptually uniform colour maps that stay readable with colour-vision "
+                                      "deficiencies; the diverging one puts 0 in its middle")
+        self.field_colours.activated.connect(lambda index: self._set_field(colour_map=self.field_colours.itemData(index)))
+        self.field_iso = QLineEdit()
+        self.field_iso.setObjectName("field_iso_values")
+        self.field_iso.setPlaceholderText("e.g. -0.5, 0, 0.5")
+        self.field_iso.setToolTip("Values at which iso-lines are drawn, separated by commas or spaces (Enter "
+                                  "applies; empty: none)")
+        self.field_iso.editingFinished.connect(self._iso_edited)
+        self.field_iso_problem = QLabel("")
+        self.field_iso_problem.setStyleSheet("QLabel { color: #B00020; }")
+        self.field_iso_problem.setVisible(False)
+        form = QFormLayout(box)
+        form.addRow(self.field_shown)
+        form.addRow("quantity:", self.field_quantity)
+        form.addRow("colours:", self.field_colours)
+        form.addRow("iso-lines at:", self.field_iso)
+        form.addRow(self.field_iso_problem)
+        return box
+
+    def _set_field(self, **changes) -> bool:
+        view = self.document.project.view
+        field = replace(view.field, **changes)
+        if field == view.field:
+            return False
+        what = ("Show" if field.shown else "Hide") + " the field layer" if "shown" in changes else "Change the field layer"
+        return self.document.edit(replace(self.document.project, view=replace(view, field=field)), what)
+
+    def _quantity_chosen(self, index: int) -> None:
+        kind, name = self.field_quantity.itemData(index)
+        self._set_field(kind=kind, quantity=name)
+
+    def _iso_edited(self) -> None:
+        try:
+            values = parse_iso_values(self.field_iso.text())
+        except ValueError as error:
+            self.field_iso_problem.setText(f"Not applied: {error}")
+            self.field_iso_problem.setVisible(True)
+            return
+        self.field_iso_problem.setVisible(False)
+        self._set_field(iso_values=values)
+
+    def _refresh_field(self, field: FieldLayerSettings) -> None:
+        widgets = (self.field_shown, self.field_quantity, self.field_colours)
+        for widget in widgets:
+            widget.blockSignals(True)
+        self.field_shown.setChecked(field.shown)
+        self.field_quantity.clear()
+        chosen = -1
+        for quantity in field_quantities(self.document.equation, self.document.data_names):
+            self.field_quantity.addItem(quantity.title, (quantity.kind, quantity.name))
+            if (quantity.kind, quantity.name) == (field.kind, field.quantity):
+                chosen = self.field_quantity.count() - 1
+        if chosen < 0:
+            self.field_quantity.addItem(f"{field.quantity} (not in this equation)", (field.kind, field.quantity))
+            chosen = self.field_quantity.count() - 1
+        self.field_quantity.setCurrentIndex(chosen)
+        self.field_colours.setCurrentIndex(max(0, self.field_colours.findData(field.colour_map)))
+        for widget in widgets:
+            widget.blockSignals(False)
+        if not self.field_iso.hasFocus() and not self.field_iso_problem.isVisible():
+            self.field_iso.setText(", ".join(f"{v:g}" for v in field.iso_values))
 
     def families(self) -> tuple[int, ...]:
         chosen = tuple(f for f, box in self.family_boxes.items() if box.isChecked())
@@ -137,3 +249,4 @@ class LayersPanel(QWidget):
         self.bounces.blockSignals(True)
         self.bounces.setValue(self.document.bounces)
         self.bounces.blockSignals(False)
+        self._refresh_field(self.document.project.view.field)

@@ -254,7 +254,9 @@ class PinsPanel(QWidget):
         self._updating = True
         try:
             self.table.setRowCount(len(pins))
+            shown = self.document.project.pins_shown()
             for row, pin in enumerate(pins):
+                self.table.setRowHidden(row, not shown[row])     # a pin of another study
                 result = self.results[row] if row < len(self.results) else None
                 matches = result is not None and np.allclose(getattr(result, "point", (np.nan, np.nan)),
                                                              (pin.x, pin.y))
@@ -267,10 +269,12 @@ class PinsPanel(QWidget):
                     self.table.setItem(row, column, item)
         finally:
             self._updating = False
-        if 0 <= selected < len(pins):
+        if 0 <= selected < len(pins) and shown[selected]:
             self.table.selectRow(selected)
-        elif pins:
-            self.table.selectRow(len(pins) - 1)
+        elif any(shown):
+            self.table.selectRow(len(shown) - 1 - shown[::-1].index(True))
+        else:
+            self.table.clearSelection()
         self._show_details()
 
     def selected_index(self) -> int:

@@ -151,7 +151,7 @@ def test_missing_and_extra_fields():
         "$: the field 'view' is missing",
         "$.equations[0].coefficients: the field 'b' is missing",
         "$.domains[1]: unknown field 'colour' (fields allowed: name, nodes, x_range, y_range)",
-        "$.pins[0]: unknown field 'note' (fields allowed: at, label)",
+        "$.pins[0]: unknown field 'note' (fields allowed: at, label, study)",
     ])
 
 
