@@ -44,7 +44,7 @@ from gui.panels.layers import LayersPanel
 from gui.panels.notes import NotesPanel
 from gui.panels.pins import PinsPanel
 from gui.panels.pockets import PocketsPanel
-from gui.panels.template_dialog import TemplateChoice, TemplateDialog
+from gui.panels.template_dialog import TemplateChoice, TemplateDialog, template_equation
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
 from gui.status_words import ScreenWords, grid_words, parameter_words
@@ -315,12 +315,14 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
             choice = TemplateChoice(choice)
         try:
             template = load_template(choice.name)
-            equation = template.equation
-            usable = [name for name in template.quantities if name in self.document.data_names]
-            if choice.use_data and usable:
-                equation = template.equation_with_data(usable)
+            equation, hidden = template_equation(template, self.document.data_names, choice.use_data,
+                                                 choice.clash)
         except TemplateError as error:
             self.report_error("Could not use the template", str(error))
+            return False
+        if hidden:
+            self.report_error("Did not add the template", f"its formulas for {', '.join(hidden)} would hide the "
+                              "loaded data of the same names; choose which to use in the template dialog")
             return False
         equation = replace(equation, name=template.title)
         domain = None if template.domain is None else replace(template.domain, name=f"{template.name} region")
