@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import pytest
-
 from core.domain import Domain
 from core.results.readable import (
     NO_REAL_DIRECTION,
