@@ -45,7 +45,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                 _trade_reading(study, compiled, x, y)) for x, y, label in located]
     if args.json:
         if args.at is not None:
-            document = probe_document(results[0][0], results[0][2], study.domain)
+            document = probe_document(results[0][0], results[0][2])        # --at X Y echoed as typed
         else:
             located_pins = zip(study.project.pins, results, strict=True)
             document = {"pins": [pin_document(pin, result, trade, study.domain)
@@ -60,7 +60,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     for index, (result, label, trade) in enumerate(results):
         if label is not None:
             out.write(("\n" if index else "") + f"pin {index + 1}" + (f": {label}" if label else "") + "\n")
-        _write_probe(result, trade, compiled.variables, study.domain, out)
+        # a pin's stored point (a click on the map) is cleaned of rounding noise; --at X Y is shown as typed
+        _write_probe(result, trade, compiled.variables, study.domain if label is not None else None, out)
     return EXIT_OK
 
 

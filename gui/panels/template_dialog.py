@@ -58,7 +58,8 @@ class TemplateChoice:
 def template_equation(template: Template, data_names, use_data: bool, clash: str = ""):
     """(equation, unsettled): the template's equation as it would be added beside the loaded ``data_names``,
     and the loaded names its own definitions or parameters would hide without a ``clash`` answer (empty
-    once ``clash`` is "data" or "formulas")."""
+    once ``clash`` is "data" or "formulas"). Quantities the template declares are settled by ``use_data``
+    (the dialog's check box asks about exactly those)."""
     data_names = tuple(data_names)
     equation = template.equation
     declared = [name for name in template.quantities if name in data_names]
@@ -69,7 +70,8 @@ def template_equation(template: Template, data_names, use_data: bool, clash: str
         definitions = {k: v for k, v in equation.definitions.items() if k not in clashing}
         parameters = {k: v for k, v in equation.parameters.items() if k not in clashing}
         equation = replace(equation, definitions=definitions, parameters=parameters)
-    return equation, () if clash in ("data", "formulas") else clashing
+    unsettled = tuple(name for name in clashing if name not in template.quantities)
+    return equation, () if clash in ("data", "formulas") else unsettled
 
 
 def available_templates() -> tuple[tuple[Template | None, str], ...]:

@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from core.domain import Domain
+from core.equations.equation import Equation
+from core.project.io import save_project
+from core.project.model import Pin, new_project
 from core.results.readable import (
     NO_REAL_DIRECTION,
     VERTICAL_SLOPE,
@@ -33,17 +38,24 @@ def test_one_wording_for_directions():
     assert directions_text([90.0], ".6f", " deg", "x") == "90.000000 deg from the x axis"
 
 
-def test_cli_probe_point_and_directions_without_noise_or_other_words():
-    # a = b = 0, c = 1: parabolic, the one direction along the second axis (slope dz/dx does not exist)
-    args = ("--a", "0", "--b", "0", "--c", "1", "--vars", "x", "z", *SQUARE, "--at", "1.1102e-16", "0.5")
-    status, out, _ = run("probe", *args)
+def test_cli_probe_pin_and_directions_without_noise_or_other_words(tmp_path):
+    # a = b = 0, c = 1: parabolic, the one direction along the second axis (slope dz/dx does not exist);
+    # the pin as a click on the map stores it, 1.1102e-16 from 0
+    equation = Equation("0", "0", "1", variables=("x", "z"), name="vertical")
+    project = replace(new_project(equation, Domain(-1, 1, -1, 1, 5, 5, name="box")),
+                      pins=(Pin(1.1102e-16, 0.5, "clicked"),))
+    path = tmp_path / "study.mixtype.json"
+    save_project(project, path)
+    status, out, _ = run("probe", str(path))
     assert status == 0
-    lines = dict(line.split("  ", 1) for line in out.splitlines())
+    lines = dict(line.split("  ", 1) for line in out.splitlines()[1:])
     assert lines["point"].strip() == "x = 0, z = 0.5"
     assert lines["characteristic directions"].strip() == "90.000000 deg from the x axis"
     assert lines["slopes dz/dx"].strip() == "vertical"
-    document = run_json("probe", *args)
-    assert document["point"] == [0.0, 0.5] and document["slopes"] == [None]
+    (pin,) = run_json("probe", str(path))["pins"]
+    assert pin["point"] == [0.0, 0.5] and pin["slopes"] == [None]
+    # --at X Y is echoed as typed, not cleaned
+    assert run_json("probe", str(path), "--at", "1e-17", "0.5")["point"] == [1e-17, 0.5]
     # a = b = c = 0: parabolic without any direction, worded as the window words it
     status, out, _ = run("probe", "--a", "0", "--b", "0", "--c", "0", *SQUARE, "--at", "0", "0")
     assert "characteristic directions  none (no real direction)" in out
