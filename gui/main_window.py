@@ -23,6 +23,7 @@ from PySide6.QtWidgets import (
     QProgressBar,
     QPushButton,
     QScrollArea,
+    QVBoxLayout,
     QWidget,
 )
 
@@ -42,11 +43,12 @@ from gui.panels.domain import DomainPanel
 from gui.panels.equation import EquationPanel
 from gui.panels.layers import LayersPanel
 from gui.panels.notes import NotesPanel
-from gui.panels.pins import PinsPanel, main_trade_text
+from gui.panels.pins import PinsPanel
 from gui.panels.pockets import PocketsPanel
-from gui.panels.template_dialog import TemplateChoice, TemplateDialog
+from gui.panels.template_dialog import TemplateChoice, TemplateDialog, template_equation
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
+from gui.status_words import ScreenWords, grid_words, parameter_words
 from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
@@ -85,15 +87,22 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.notice.setWordWrap(True)
         self.notice.setStyleSheet("QLabel { color: #B00020; padding: 2px 6px; }")
         self.notice.setVisible(False)
-        self.map_view.layout().insertWidget(2, self.notice)
+        self._error_shown = False
         self.data_notice = QLabel()
         self.data_notice.setObjectName("dataNotice")
         self.data_notice.setWordWrap(True)
         self.data_notice.setStyleSheet("QLabel { color: #5C3B00; background: #FFF1CC; border: 1px solid #E0B85C;"
                                        " padding: 3px 6px; }")
         self.data_notice.setVisible(False)
-        self.map_view.layout().insertWidget(3, self.data_notice)
-        self.setCentralWidget(self.map_view)
+        # Notices sit under the map, outside the map view: they never cover it and never enter its exports.
+        self.map_column = QWidget()
+        column = QVBoxLayout(self.map_column)
+        column.setContentsMargins(0, 0, 0, 0)
+        column.setSpacing(0)
+        column.addWidget(self.map_view, 1)
+        column.addWidget(self.notice)
+        column.addWidget(self.data_notice)
+        self.setCentralWidget(self.map_column)
 
         self.equation_panel = EquationPanel(self.document)
         self.domain_panel = DomainPanel(self.document)
@@ -121,8 +130,9 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.resizeDocks([pockets_dock], [150], Qt.Orientation.Vertical)
         self.resizeDocks([pins_dock], [380], Qt.Orientation.Horizontal)
 
-        self.hover_label = QLabel("Move over the map to read the type and D at a point.")
+        self.hover_label = QLabel()
         self.hover_label.setObjectName("hoverReadout")
+        self.screen_words = ScreenWords(self, self.hover_label)
         self.progress = QProgressBar()
         self.progress.setRange(0, 1000)
         self.progress.setMaximumWidth(220)
@@ -189,7 +199,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.data_panel.add_requested.connect(self.add_data_dialog)
         self.data_panel.reload_requested.connect(self.data_loader.reload)
         d.data_changed.connect(self._equation_shown)
-        a.hover_ready.connect(self._show_hover)
+        self.screen_words.changed.connect(self._update_titles)
+        d.undo_stack.indexChanged.connect(lambda index: self._clear_error())
+        d.project_replaced.connect(self._clear_error)
+        d.dirty_changed.connect(lambda dirty: dirty or self._clear_error())
         a.message.connect(self.show_notice)
         m.clicked.connect(lambda x, y: d.add_pin(x, y))
         m.pin_clicked.connect(self.pins_panel.select)
@@ -225,17 +238,18 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
             self.show_notice("")
 
     def _update_titles(self) -> None:
+        """The header: what the map on screen shows (its grid and parameters; a newer request's state)."""
         equation = self.document.equation
-        values = []
-        for name, parameter in equation.parameters.items():
-            unit = f" {parameter.unit}" if parameter.unit else ""
-            values.append(f"{name} = {parameter.value:.4g}{unit}")
+        shown = self.analysis.type_map
+        values = parameter_words(equation, None if shown is None else shown.parameters)
         domain = self.document.domain
         title = f"Type of “{equation.name}” on “{domain.name}”"
         ratio = (domain.ymax - domain.ymin) / (domain.xmax - domain.xmin)
         scale = "" if 1 / MAX_STRETCH <= ratio <= MAX_STRETCH else \
             "; axes not to scale (angles on screen are stretched, readouts are exact)"
-        subtitle = (f"{domain.nx} × {domain.ny} grid nodes; parabolic when |D|/(b² + 4|ac|) ≤ "
+        grid = grid_words(None if shown is None else shown.domain, domain, computing=self.runner.is_busy("map"),
+                          state=self.screen_words.map_state)
+        subtitle = (f"{grid}; parabolic when |D|/(b² + 4|ac|) ≤ "
                     f"{self.document.tolerance:g}" + (f"; {', '.join(values)}" if values else "") + scale)
         self.map_view.set_titles(title, subtitle)
 
@@ -254,15 +268,6 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
 
     def _map_ready(self, type_map) -> None:
         self.map_view.show_type_map(type_map)
-
-    def _show_hover(self, reading) -> None:
-        x_name, y_name = self.document.equation.variables
-        where = f"{x_name} = {reading.x:.5g}, {y_name} = {reading.y:.5g}"
-        outside = "" if reading.inside else " (outside the domain)"
-        d = "undefined" if reading.discriminant != reading.discriminant else f"{reading.discriminant:.5g}"
-        trade = main_trade_text(reading.trade)
-        trade = f"   |   {trade}" if trade else ""
-        self.hover_label.setText(f"{where}{outside}   |   {reading.type.label}   |   D = {d} (units of b²){trade}")
 
     def _pocket_chosen(self, pocket) -> None:
         report = self.pockets_panel.report
@@ -313,18 +318,21 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
             choice = TemplateChoice(choice)
         try:
             template = load_template(choice.name)
-            equation = template.equation
-            usable = [name for name in template.quantities if name in self.document.data_names]
-            if choice.use_data and usable:
-                equation = template.equation_with_data(usable)
+            equation, hidden = template_equation(template, self.document.data_names, choice.use_data,
+                                                 choice.clash)
         except TemplateError as error:
             self.report_error("Could not use the template", str(error))
+            return False
+        if hidden:
+            self.report_error("Did not add the template", f"its formulas for {', '.join(hidden)} would hide the "
+                              "loaded data of the same names; choose which to use in the template dialog")
             return False
         equation = replace(equation, name=template.title)
         domain = None if template.domain is None else replace(template.domain, name=f"{template.name} region")
         return self.document.add_equation_and_domain(equation, domain, f"Add equation from template {template.name}")
 
     def show_notice(self, text: str) -> None:
+        self._error_shown = False
         self.notice.setText(text)
         self.notice.setVisible(bool(text))
         if text:
@@ -372,9 +380,16 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         event.accept()
 
     def report_error(self, title: str, text: str) -> None:
+        """Say what failed under the map (until the next successful action) and, on a desktop, in a box."""
         self.show_notice(f"{title}: {text}")
+        self._error_shown = True
         if QApplication.platformName() != "offscreen":
             QMessageBox.warning(self, title, text)
+
+    def _clear_error(self) -> None:
+        """A successful action (an edit, undo, save, another study) retires the last failure's notice."""
+        if self._error_shown:
+            self.show_notice("")
 
     def show_about(self) -> None:
         QMessageBox.about(self, "About Mixtype", ABOUT_TEXT)

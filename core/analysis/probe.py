@@ -149,8 +149,9 @@ def probe_point(compiled: CompiledEquation, x: float, y: float, *,
             notes.append(f"definition {name} = {value} is not finite")
     inside = True if domain is None else domain.contains(x, y)
     if not inside:
-        notes.append(f"outside domain {domain.name!r} (x in [{domain.xmin:g}, {domain.xmax:g}], "
-                     f"y in [{domain.ymin:g}, {domain.ymax:g}]); values are computed all the same")
+        x_name, y_name = compiled.variables
+        notes.append(f"outside domain {domain.name!r} ({x_name} in [{domain.xmin:g}, {domain.xmax:g}], "
+                     f"{y_name} in [{domain.ymin:g}, {domain.ymax:g}]); values are computed all the same")
     return ProbeResult(
         point=(x, y), type=type_code, a=a, b=b, c=c, discriminant=d,
         normalized=float(normalized), directions_deg=angles, slopes=slopes, angle_between_deg=angle_between,

@@ -61,7 +61,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                   f"{TypeCode(curve.left_type).label} on the left, {TypeCode(curve.right_type).label} on the right\n")
     for index, region in enumerate(boundaries.parabolic_regions, 1):
         out.write(f"  parabolic region {index}: area {region.area:.6g} (units of {x}*{y})\n")
-    _write_pockets(pockets, x, y, out)
+    _write_pockets(document["pockets"], x, y, out)
     if args.save_project:
         files = len(study.data_files)
         listed = f" (with {files} data file{'s' * (files != 1)})" if files else ""
@@ -69,17 +69,20 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     return EXIT_OK
 
 
-def _write_pockets(pockets, x: str, y: str, out: TextIO) -> None:
-    """The pockets as text lines, largest first, at most MAX_POCKET_ROWS of them."""
+def _write_pockets(pockets: list[dict], x: str, y: str, out: TextIO) -> None:
+    """The pockets (their documents, core.results.document.pocket_document: coordinates without rounding
+    noise) as text lines, largest first, at most MAX_POCKET_ROWS of them."""
     out.write(f"hyperbolic pockets: {len(pockets)} (areas in units of {x}*{y}, largest first)\n")
     for index, pocket in enumerate(pockets[:MAX_POCKET_ROWS], 1):
-        x0, x1, y0, y1 = pocket.bounding_box
-        edge = ", reaches the domain's edge" if pocket.touches_boundary else ""
-        line = (f"  pocket {index}: area {pocket.area:.6g}, centroid ({pocket.centroid[0]:.6g}, "
-                f"{pocket.centroid[1]:.6g}), {x} in [{x0:.6g}, {x1:.6g}], {y} in [{y0:.6g}, {y1:.6g}]{edge}")
-        if pocket.peak is not None:
-            line += (f"; peak {pocket.quantity} = {pocket.peak:.6g} at ({pocket.peak_at[0]:.6g}, "
-                     f"{pocket.peak_at[1]:.6g})")
+        x0, x1, y0, y1 = pocket["bounding_box"]
+        cx, cy = pocket["centroid"]
+        edge = ", reaches the domain's edge" if pocket["touches_boundary"] else ""
+        line = (f"  pocket {index}: area {pocket['area']:.6g}, centroid ({cx:.6g}, {cy:.6g}), "
+                f"{x} in [{x0:.6g}, {x1:.6g}], {y} in [{y0:.6g}, {y1:.6g}]{edge}")
+        peak = pocket["peak"]
+        if peak is not None:
+            value = "undefined" if peak["value"] is None else f"{peak['value']:.6g}"
+            line += f"; peak {peak['quantity']} = {value} at ({peak['at'][0]:.6g}, {peak['at'][1]:.6g})"
         out.write(line + "\n")
     if len(pockets) > MAX_POCKET_ROWS:
         out.write(f"  ... and {len(pockets) - MAX_POCKET_ROWS} smaller pockets (see --json)\n")

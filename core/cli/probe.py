@@ -14,6 +14,7 @@ from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
 from core.equations.trade import READOUT_UNITS
 from core.results.document import data_files_document, pin_document, probe_document, study_fields
+from core.results.readable import direction_rows, point_without_noise
 from core.results.readouts import TradeReading, read_trade
 
 __all__ = ["run"]
@@ -44,10 +45,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                 _trade_reading(study, compiled, x, y)) for x, y, label in located]
     if args.json:
         if args.at is not None:
-            document = probe_document(results[0][0], results[0][2])
+            document = probe_document(results[0][0], results[0][2])        # --at X Y echoed as typed
         else:
             located_pins = zip(study.project.pins, results, strict=True)
-            document = {"pins": [pin_document(pin, result, trade) for pin, (result, _, trade) in located_pins]}
+            document = {"pins": [pin_document(pin, result, trade, study.domain)
+                                 for pin, (result, _, trade) in located_pins]}
         document.update(study_fields(study.equation, study.parameters, tolerance=study.tolerance))
         if study.data is not None:
             document["data"] = data_files_document(study.data)
@@ -58,19 +60,20 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     for index, (result, label, trade) in enumerate(results):
         if label is not None:
             out.write(("\n" if index else "") + f"pin {index + 1}" + (f": {label}" if label else "") + "\n")
-        _write_probe(result, trade, out)
+        # a pin's stored point (a click on the map) is cleaned of rounding noise; --at X Y is shown as typed
+        _write_probe(result, trade, compiled.variables, study.domain if label is not None else None, out)
     return EXIT_OK
 
 
-def _write_probe(result, trade: TradeReading, out: TextIO) -> None:
-    rows = [("point", f"({result.point[0]:.9g}, {result.point[1]:.9g})"),
+def _write_probe(result, trade: TradeReading, variables, domain, out: TextIO) -> None:
+    x_name, y_name = variables
+    px, py = point_without_noise(result.point, domain)
+    rows = [("point", f"{x_name} = {px:.9g}, {y_name} = {py:.9g}"),
             ("type", TypeCode(result.type).label),
             ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
             ("D = b^2 - 4ac", f"{result.discriminant:.9g}"),
             ("D / (b^2 + 4|ac|)", f"{result.normalized:.6g}")]
-    if result.directions_deg:
-        rows.append(("characteristic directions", ", ".join(f"{d:.6f} deg" for d in result.directions_deg)))
-        rows.append(("slopes dy/dx", ", ".join("vertical" if s is None else f"{s:.9g}" for s in result.slopes)))
+    rows += direction_rows(result, variables, spec=".6f")
     if result.angle_between_deg is not None:
         rows.append(("angle between", f"{result.angle_between_deg:.6f} deg"))
     if result.principal_axes_deg is not None:

@@ -15,6 +15,7 @@ from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
 from core.results.document import curve_document, seed_document, study_fields
+from core.results.readable import point_without_noise
 
 __all__ = ["MAX_CURVES", "run"]
 
@@ -40,14 +41,14 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(f"--from ({args.seed[0]:g}, {args.seed[1]:g}) lies outside the domain")
     curves = trace_characteristics(compiled, study.domain, [args.seed], parameters=study.parameters,
                                    data=study.data, bounces=_bounces_used(study, args))
-    document = {"seed": list(args.seed), "curves": [curve_document(curve) for curve in curves],
+    document = {"seed": list(args.seed), "curves": [curve_document(curve, study.domain) for curve in curves],
                 **study_fields(study.equation, study.parameters)}
     document.update(source_fields(study))
     if args.json:
         json.dump(document, out)
         out.write("\n")
         return EXIT_OK
-    _write_curves(curves, out)
+    _write_curves(curves, study.domain, out)
     return EXIT_OK
 
 
@@ -72,30 +73,31 @@ def _trace_project_seeds(study: Study, compiled, args: argparse.Namespace, out: 
     if args.json:
         rest = {**study_fields(study.equation, study.parameters), "source": study.source, **source_fields(study)}
         out.write('{"seeds": [')
-        out.writelines((", " if index else "") + json.dumps(seed_document(seed, seed_points, curves)) for index, (seed, seed_points, curves) in enumerate(traced()))
+        out.writelines((", " if index else "") + json.dumps(seed_document(seed, seed_points, curves, study.domain)) for index, (seed, seed_points, curves) in enumerate(traced()))
         out.write("], " + json.dumps(rest)[1:] + "\n")       # the same document as one json.dump of it all
         return EXIT_OK
     for index, (seed, seed_points, curves) in enumerate(traced(), 1):
         kind = f"{len(seed_points)} points along a segment" if seed.is_segment else "one point"
         out.write(f"seed {index}" + (f" ({seed.label})" if seed.label else "") + f": {kind}, families "
                   f"{', '.join(map(str, seed.families))}\n")
-        _write_curves(curves, out)
+        _write_curves(curves, study.domain, out)
     return EXIT_OK
 
 
 _EVENT_WORDS = {"edge": "reflected at the edge", "type_change": "turned back at the type-change line"}
 
 
-def _write_curves(curves, out: TextIO) -> None:
+def _write_curves(curves, domain, out: TextIO) -> None:
+    """Each curve's ends and events, coordinates without rounding noise (core.results.readable)."""
     for curve in curves:
-        first, last = curve.points[0], curve.points[-1]
+        first, last = point_without_noise(curve.points[0], domain), point_without_noise(curve.points[-1], domain)
         out.write(f"family {int(curve.family)}: {len(curve.points)} points from ({first[0]:.6g}, {first[1]:.6g})"
                   f" [{curve.end_reasons[0]}] to ({last[0]:.6g}, {last[1]:.6g}) [{curve.end_reasons[1]}]\n")
         if curve.events:
             kinds = [event.kind for event in curve.events]
             out.write(f"  went on as the other family {len(kinds)} times ({kinds.count('edge')} at the edge, "
                       f"{kinds.count('type_change')} at the type-change line):\n")
-            out.writelines(f"    {_EVENT_WORDS[event.kind]} at ({event.at[0]:.6g}, {event.at[1]:.6g})\n"
-                           for event in curve.events)
+            out.writelines(f"    {_EVENT_WORDS[event.kind]} at ({at[0]:.6g}, {at[1]:.6g})\n"
+                           for event in curve.events for at in [point_without_noise(event.at, domain)])
     if all(len(c.points) <= 1 for c in curves):
         out.write("no real characteristics through this point (the equation is not hyperbolic there)\n")

@@ -7,7 +7,9 @@ build their output here, so a field has one name and one meaning everywhere. The
 public interface: fields are only ever added (tests/core/test_cli_json_fields.py pins them).
 
 Conventions: points are [x, y] pairs in the study's variables; types by name (TypeCode labels); numbers
-that are missing or not finite are null; angles in degrees end in ``_deg``.
+that are missing or not finite are null; angles in degrees end in ``_deg``. Builders given the study's
+``domain`` write coordinates (points, centroids, boxes, curve points) with rounding noise read as exactly 0
+(core.results.readable), as the window and the command line's text show them.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ import core
 from core.analysis.classify import TypeCode
 from core.analysis.probe import ProbeResult
 from core.data.raw import DataError
+from core.results.readable import point_without_noise, points_without_noise
 from core.results.readouts import TradeReading
 
 __all__ = [
@@ -56,9 +59,14 @@ def json_number(value: float | None) -> float | None:
     return None if value is None or not math.isfinite(value) else float(value)
 
 
-def point_list(array) -> list[list[float]]:
-    """An (n, 2) array of points as JSON pairs."""
-    return [[float(x), float(y)] for x, y in np.asarray(array, dtype=np.float64).reshape(-1, 2)]
+def point_list(array, domain=None) -> list[list[float]]:
+    """An (n, 2) array of points as JSON pairs (rounding noise read as 0 against ``domain``'s extents)."""
+    return [[float(x), float(y)] for x, y in points_without_noise(array, domain)]
+
+
+def _pair(point, domain) -> list[float]:
+    """One [x, y] pair with rounding noise read as 0 against ``domain``'s extents."""
+    return list(point_without_noise(point, domain))
 
 
 def type_labels() -> dict[str, str]:
@@ -119,24 +127,27 @@ def type_map_document(type_map) -> dict:
     return {"codes": np.asarray(type_map.codes).tolist(), "labels": type_labels()}
 
 
-def boundary_document(curve) -> dict:
+def boundary_document(curve, domain=None) -> dict:
     """One type-change line: its points, whether it closes, the type on its left and on its right."""
-    return {"points": point_list(curve.points), "closed": bool(curve.closed),
+    return {"points": point_list(curve.points, domain), "closed": bool(curve.closed),
             "left": TypeCode(curve.left_type).label, "right": TypeCode(curve.right_type).label}
 
 
-def parabolic_region_document(region) -> dict:
+def parabolic_region_document(region, domain=None) -> dict:
     """A zone where D vanishes on an area: outer outline, holes, area (variables' units squared), cells."""
-    return {"outline": point_list(region.outline), "area": float(region.area),
-            "holes": [point_list(hole) for hole in region.holes], "cells": int(region.cells)}
+    return {"outline": point_list(region.outline, domain), "area": float(region.area),
+            "holes": [point_list(hole, domain) for hole in region.holes], "cells": int(region.cells)}
 
 
-def pocket_document(pocket) -> dict:
+def pocket_document(pocket, domain=None) -> dict:
     """A connected zone of one type with its area, centre, box, node count and the peak of a quantity."""
     peak = None
     if pocket.peak is not None:
-        peak = {"quantity": pocket.quantity, "value": json_number(pocket.peak), "at": list(pocket.peak_at)}
-    return {"area": float(pocket.area), "centroid": list(pocket.centroid), "bounding_box": list(pocket.bounding_box),
+        peak = {"quantity": pocket.quantity, "value": json_number(pocket.peak), "at": _pair(pocket.peak_at, domain)}
+    x0, x1, y0, y1 = pocket.bounding_box
+    box = [*_pair((x0, y0), domain), *_pair((x1, y1), domain)]
+    return {"area": float(pocket.area), "centroid": _pair(pocket.centroid, domain),
+            "bounding_box": [box[0], box[2], box[1], box[3]],
             "nodes": int(pocket.node_count), "touches_boundary": bool(pocket.touches_boundary), "peak": peak}
 
 
@@ -152,18 +163,19 @@ def map_fields(variables: Sequence[str], domain, tolerance: float, *, type_map=N
     if boundaries is None:
         fields.update(boundaries=None, parabolic_regions=None, refined=None)
     else:
-        fields.update(boundaries=[boundary_document(curve) for curve in boundaries.curves],
-                      parabolic_regions=[parabolic_region_document(r) for r in boundaries.parabolic_regions],
+        fields.update(boundaries=[boundary_document(curve, domain) for curve in boundaries.curves],
+                      parabolic_regions=[parabolic_region_document(r, domain)
+                                         for r in boundaries.parabolic_regions],
                       refined=bool(boundaries.refined))
-    fields["pockets"] = None if pockets is None else [pocket_document(pocket) for pocket in pockets]
+    fields["pockets"] = None if pockets is None else [pocket_document(pocket, domain) for pocket in pockets]
     return fields
 
 
 # -- points and curves ----------------------------------------------------------------------------------
-def probe_to_dict(result: ProbeResult) -> dict:
+def probe_to_dict(result: ProbeResult, domain=None) -> dict:
     """A JSON-ready dict of ``result``: plain floats, lists, type by name; None for absent or non-finite."""
     return {
-        "point": [result.point[0], result.point[1]],
+        "point": _pair(result.point, domain),
         "type": result.type.label,
         "coefficients": {"a": json_number(result.a), "b": json_number(result.b),
                          "c": json_number(result.c)},
@@ -180,10 +192,10 @@ def probe_to_dict(result: ProbeResult) -> dict:
     }
 
 
-def probe_document(result, trade: TradeReading | None = None) -> dict:
+def probe_document(result, trade: TradeReading | None = None, domain=None) -> dict:
     """Everything known at one point (``probe_to_dict``), with the trade readout, its
     units and, where values are missing, a note saying why."""
-    document = probe_to_dict(result)
+    document = probe_to_dict(result, domain)
     if trade is not None and (trade.values or trade.error):
         document["trade"] = {name: json_number(value) for name, value in trade.values.items()}
         document["trade_units"] = trade.units
@@ -192,26 +204,27 @@ def probe_document(result, trade: TradeReading | None = None) -> dict:
     return document
 
 
-def pin_document(pin, result=None, trade: TradeReading | None = None) -> dict:
+def pin_document(pin, result=None, trade: TradeReading | None = None, domain=None) -> dict:
     """A pin: its label and its probe document (only its point while it has not been probed)."""
     if result is None:
-        return {"label": pin.label, "point": [float(pin.x), float(pin.y)]}
-    return {"label": pin.label, **probe_document(result, trade)}
+        return {"label": pin.label, "point": _pair((pin.x, pin.y), domain)}
+    return {"label": pin.label, **probe_document(result, trade, domain)}
 
 
-def curve_document(curve) -> dict:
+def curve_document(curve, domain=None) -> dict:
     """A characteristic curve: its family (1 or 2) at the seed, points, why each end stopped (backward,
     forward), and the events where it went on as the other family, in path order: kind ("edge" or
     "type_change"), the point, and its index in ``points`` (empty when traced without bounces)."""
-    return {"family": int(curve.family), "points": point_list(curve.points), "ends": list(curve.end_reasons),
-            "events": [{"kind": event.kind, "at": [float(event.at[0]), float(event.at[1])],
+    return {"family": int(curve.family), "points": point_list(curve.points, domain),
+            "ends": list(curve.end_reasons),
+            "events": [{"kind": event.kind, "at": _pair(event.at, domain),
                         "index": int(event.index)} for event in curve.events]}
 
 
-def seed_document(seed, seed_points, curves: Iterable) -> dict:
+def seed_document(seed, seed_points, curves: Iterable, domain=None) -> dict:
     """A seed of a study: label, the points traced from, the families asked for and the curves found."""
-    return {"label": seed.label, "points": point_list(seed_points), "families": list(seed.families),
-            "curves": [curve_document(curve) for curve in curves]}
+    return {"label": seed.label, "points": point_list(seed_points, domain), "families": list(seed.families),
+            "curves": [curve_document(curve, domain) for curve in curves]}
 
 
 # -- everything -----------------------------------------------------------------------------------------
@@ -234,8 +247,8 @@ def results_document(*, equation, domain, parameters: Mapping[str, float], toler
         document["type_map"] = type_map_document(type_map)
     probes, trades = list(probes), list(trades)
     document["pins"] = [pin_document(pin, probes[i] if i < len(probes) else None,
-                                     trades[i] if i < len(trades) else None) for i, pin in enumerate(pins)]
-    document["seeds"] = [seed_document(seed, seed.points(), curves) for seed, curves in traced]
+                                     trades[i] if i < len(trades) else None, domain) for i, pin in enumerate(pins)]
+    document["seeds"] = [seed_document(seed, seed.points(), curves, domain) for seed, curves in traced]
     document["data"] = data_files_document(data)
     document["source"] = {"file": None if project_file is None else os.fspath(project_file),
                           "equation": equation.name, "domain": domain.name}

@@ -19,6 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from core.results.document import boundary_document
+from core.results.readable import point_without_noise, points_without_noise
 
 __all__ = [
     "BOUNDARY_COLUMNS",
@@ -55,27 +56,29 @@ BOUNDARY_COLUMNS = boundary_columns()
 CHARACTERISTIC_COLUMNS = characteristic_columns()
 
 
-def boundary_rows(boundaries, variables: Variables = ("x", "y")) -> list[dict]:
-    """One row per point of every type-change curve (``boundaries.curves[k].points`` (n, 2))."""
+def boundary_rows(boundaries, variables: Variables = ("x", "y"), domain=None) -> list[dict]:
+    """One row per point of every type-change curve (``boundaries.curves[k].points`` (n, 2)); with
+    ``domain``, coordinates within rounding noise of 0 read 0 (core.results.readable)."""
     x, y = variables
     rows = []
     for number, curve in enumerate(getattr(boundaries, "curves", ()) or ()):
-        line = boundary_document(curve)
+        line = boundary_document(curve, domain)
         for index, (px, py) in enumerate(line["points"]):
             rows.append({"curve": number, "point": index, x: px, y: py, "closed": line["closed"],
                          "left_type": line["left"], "right_type": line["right"]})
     return rows
 
 
-def characteristic_rows(curves: Iterable, variables: Variables = ("x", "y")) -> list[dict]:
+def characteristic_rows(curves: Iterable, variables: Variables = ("x", "y"), domain=None) -> list[dict]:
     """One row per point of every characteristic curve (``.family``, ``.seed`` (2,), ``.points`` (n, 2),
-    ``.end_reasons`` when known); the end reasons repeat on every row of a curve."""
+    ``.end_reasons`` when known); the end reasons repeat on every row of a curve. With ``domain``,
+    coordinates within rounding noise of 0 read 0 (core.results.readable)."""
     x, y = variables
     rows = []
     for number, curve in enumerate(curves):
-        seed = np.asarray(curve.seed, dtype=np.float64).reshape(2)
+        seed = point_without_noise(np.asarray(curve.seed, dtype=np.float64).reshape(2), domain)
         ends = list(getattr(curve, "end_reasons", (None, None)))
-        for index, (px, py) in enumerate(np.asarray(curve.points, dtype=np.float64).reshape(-1, 2)):
+        for index, (px, py) in enumerate(points_without_noise(curve.points, domain)):
             rows.append({"curve": number, "family": int(curve.family), f"seed_{x}": float(seed[0]),
                          f"seed_{y}": float(seed[1]), "point": index, x: float(px), y: float(py),
                          "end_backward": ends[0], "end_forward": ends[1]})

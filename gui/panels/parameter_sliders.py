@@ -13,7 +13,7 @@ from PySide6.QtWidgets import QGridLayout, QLabel, QSlider, QWidget
 from core.equations.equation import Equation, Parameter
 from gui.document import Document
 
-__all__ = ["SLIDER_STEPS", "ParameterSliders", "slider_position", "value_text"]
+__all__ = ["SLIDER_STEPS", "ParameterSliders", "range_note", "slider_position", "value_text"]
 
 SLIDER_STEPS = 1000
 
@@ -22,6 +22,24 @@ def value_text(parameter: Parameter) -> str:
     """The value beside a slider, with its unit or "dimensionless"."""
     unit = parameter.unit or "dimensionless"
     return f"{parameter.value:.4g} ({unit})"
+
+
+def range_note(parameter: Parameter) -> str:
+    """'' inside the slider's range; else a note that the value (accepted as typed) lies outside it and the
+    slider sits at its end."""
+    if not _has_range(parameter) or parameter.minimum <= parameter.value <= parameter.maximum:
+        return ""
+    side = "below" if parameter.value < parameter.minimum else "above"
+    return f"{side} the slider's range {parameter.minimum:g} to {parameter.maximum:g}"
+
+
+def _show_value(label: QLabel, parameter: Parameter) -> None:
+    """The value beside a slider, with the out-of-range note on a second line, in a warning colour."""
+    note = range_note(parameter)
+    label.setText(value_text(parameter) + (f"\n{note}" if note else ""))
+    label.setStyleSheet("QLabel { color: #8A4B00; }" if note else "")
+    label.setToolTip(f"The value is used as it is; the slider only spans {parameter.minimum:g} to "
+                     f"{parameter.maximum:g}" if note else "")
 
 
 def slider_position(parameter: Parameter) -> int:
@@ -73,8 +91,10 @@ class ParameterSliders(QWidget):
             slider.sliderPressed.connect(lambda name=name: self._pressed(name))
             slider.sliderReleased.connect(self._released)
             slider.valueChanged.connect(lambda position, name=name: self._moved(name, position))
-            value = QLabel(value_text(parameter))
+            value = QLabel()
+            value.setObjectName(f"sliderValue_{name}")
             value.setMinimumWidth(120)
+            _show_value(value, parameter)
             self.grid.addWidget(QLabel(name), row, 0)
             self.grid.addWidget(slider, row, 1)
             self.grid.addWidget(value, row, 2)
@@ -91,7 +111,7 @@ class ParameterSliders(QWidget):
                 slider.setValue(slider_position(parameter))
                 slider.blockSignals(False)
             if name in self.slider_values:
-                self.slider_values[name].setText(value_text(parameter))
+                _show_value(self.slider_values[name], parameter)
 
     def _pressed(self, name: str) -> None:
         self._drag_key = self.document.new_merge_key(f"slider {name}")

@@ -27,6 +27,7 @@ from PySide6.QtWidgets import (
 
 from core.equations.trade import READOUT_UNITS
 from core.project.model import Seed
+from core.results.readable import direction_rows, point_without_noise
 from gui.document import Document
 from gui.widgets import button_row, push_button
 
@@ -60,10 +61,11 @@ def _type_label(result) -> str:
     return getattr(kind, "label", str(kind)) if kind is not None else "?"
 
 
-def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[str, str]]:
-    """(quantity, value with unit) rows for one core.analysis.probe result, in reading order."""
+def probe_rows(result, variables: tuple[str, str] = ("x", "y"), domain=None) -> list[tuple[str, str]]:
+    """(quantity, value with unit) rows for one core.analysis.probe result, in reading order (coordinates
+    within rounding noise of 0 against ``domain`` read 0; directions worded by core.results.readable)."""
     x_name, y_name = variables
-    point = getattr(result, "point", (math.nan, math.nan))
+    point = point_without_noise(getattr(result, "point", (math.nan, math.nan)), domain)
     rows = [
         ("point", f"{x_name} = {_number(point[0])}, {y_name} = {_number(point[1])} (equation length units)"),
         ("type", _type_label(result)),
@@ -72,11 +74,10 @@ def probe_rows(result, variables: tuple[str, str] = ("x", "y")) -> list[tuple[st
     ]
     for name in ("a", "b", "c"):
         rows.append((name, _number(getattr(result, name, math.nan))))
-    directions = getattr(result, "directions_deg", None)
-    if directions is not None and np.any(np.isfinite(np.asarray(directions, dtype=np.float64))):
-        rows.append(("characteristic directions", _numbers(directions, 5, "° from the " + x_name + " axis")))
-        rows.append((f"slopes d{y_name}/d{x_name}", _numbers(getattr(result, "slopes", None), 5)
-                     + f" ({y_name} units per {x_name} unit)"))
+    for name, value in direction_rows(result, variables, spec=".5g", unit="°", slope_digits=5):
+        units = f" ({y_name} units per {x_name} unit)" if name.startswith("slopes") else ""
+        rows.append((name, value + units))
+    if getattr(result, "directions_deg", None):
         angle = getattr(result, "angle_between_deg", None)
         if angle is not None and not (isinstance(angle, float) and math.isnan(angle)):
             rows.append(("angle between them", f"{_number(angle, 5)}°"))
@@ -170,17 +171,19 @@ def main_trade_text(readout) -> str:
     return ""
 
 
-def pins_as_text(pins, results, variables: tuple[str, str] = ("x", "y"), trades=(), trade=None) -> str:
+def pins_as_text(pins, results, variables: tuple[str, str] = ("x", "y"), trades=(), trade=None,
+                 domain=None) -> str:
     """Plain text for the clipboard: one block per pin, one 'quantity: value' line each."""
     blocks = []
     for index, pin in enumerate(pins):
         lines = [f"Pin {pin.label or index + 1}"]
         if index < len(results) and results[index] is not None:
-            lines += [f"  {name}: {value}" for name, value in probe_rows(results[index], variables)]
+            lines += [f"  {name}: {value}" for name, value in probe_rows(results[index], variables, domain)]
             if index < len(trades):
                 lines += [f"  {name}: {value}" for name, value in trade_rows(trades[index], trade, variables)]
         else:
-            lines.append(f"  point: {variables[0]} = {pin.x:.6g}, {variables[1]} = {pin.y:.6g} (not probed yet)")
+            x, y = point_without_noise((pin.x, pin.y), domain)
+            lines.append(f"  point: {variables[0]} = {x:.6g}, {variables[1]} = {y:.6g} (not probed yet)")
         blocks.append("\n".join(lines))
     return "\n\n".join(blocks) + ("\n" if blocks else "")
 
@@ -202,8 +205,7 @@ class PinsPanel(QWidget):
         purpose.setObjectName("panelPurpose")
 
         self.table = QTableWidget(0, len(_COLUMNS))
-        self.table.setHorizontalHeaderLabels(["label", "x", "y", "type", "D"])
-        self.table.horizontalHeaderItem(4).setToolTip("D = b² − 4ac, in the units of b²")
+        self._label_columns()
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
@@ -232,6 +234,7 @@ class PinsPanel(QWidget):
         layout.addLayout(buttons)
         layout.addWidget(self.details, 2)
         document.pins_changed.connect(self.refresh)
+        document.equation_changed.connect(self._label_columns)
         document.equation_changed.connect(self._show_details)
         self.refresh()
 
@@ -248,9 +251,17 @@ class PinsPanel(QWidget):
     def _variables(self) -> tuple[str, str]:
         return tuple(self.document.equation.variables)  # type: ignore[return-value]
 
+    def _label_columns(self) -> None:
+        """Column titles: the coordinates are named after the study's variables."""
+        x_name, y_name = self._variables()
+        self.table.setHorizontalHeaderLabels(["label", x_name, y_name, "type", "D"])
+        self.table.horizontalHeaderItem(4).setToolTip("D = b² − 4ac, in the units of b²")
+
     def refresh(self) -> None:
         pins = self.document.project.pins
         selected = self.selected_index()
+        self._label_columns()
+        domain = self.document.domain
         self._updating = True
         try:
             self.table.setRowCount(len(pins))
@@ -262,7 +273,8 @@ class PinsPanel(QWidget):
                                                              (pin.x, pin.y))
                 kind = _type_label(result) if matches else "…"
                 d = _number(getattr(result, "discriminant", math.nan)) if matches else "…"
-                for column, text in enumerate((pin.label, f"{pin.x:.6g}", f"{pin.y:.6g}", kind, d)):
+                x, y = point_without_noise((pin.x, pin.y), domain)
+                for column, text in enumerate((pin.label, f"{x:.6g}", f"{y:.6g}", kind, d)):
                     item = QTableWidgetItem(text)
                     if column >= 3:
                         item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
@@ -305,7 +317,7 @@ class PinsPanel(QWidget):
                            f"<td>{html.escape(value)}</td></tr>" for name, value in rows)
 
         # Where the point is and its type first, then what the trade reads there, then the equation's details.
-        rows = probe_rows(result, self._variables())
+        rows = probe_rows(result, self._variables(), self.document.domain)
         body = f"<p><b>{html.escape(pin.label)}</b></p><table>{table(rows[:4])}</table>"
         trade = self.document.equation.trade
         readout = self.trades[index] if index < len(self.trades) else None
@@ -354,6 +366,6 @@ class PinsPanel(QWidget):
 
     def copy_text(self) -> str:
         text = pins_as_text(self.document.project.pins, self.results, self._variables(), self.trades,
-                            self.document.equation.trade)
+                            self.document.equation.trade, self.document.domain)
         QGuiApplication.clipboard().setText(text)
         return text

@@ -21,30 +21,30 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from core.results.readable import point_without_noise
 from gui.document import Document
 
 __all__ = ["PocketsPanel", "pocket_row"]
 
 
-def _number(value, digits: int = 4, *, resolution: float = 0.0) -> str:
-    """``value`` to ``digits`` significant digits; magnitudes below ``resolution`` are rounding noise: 0."""
+def _number(value, digits: int = 4) -> str:
+    """``value`` to ``digits`` significant digits."""
     if value is None or not math.isfinite(float(value)):
         return "—"
-    value = float(value)
-    return f"{0.0 if abs(value) < resolution else value + 0.0:.{digits}g}"
+    return f"{float(value) + 0.0:.{digits}g}"
 
 
-def pocket_row(pocket) -> tuple[str, ...]:
-    """The table cells of one core.analysis.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge."""
-    cx, cy = pocket.centroid
-    xmin, xmax, ymin, ymax = pocket.bounding_box
-    noise = 1e-9 * max(xmax - xmin, ymax - ymin, abs(xmin), abs(xmax), abs(ymin), abs(ymax))
+def pocket_row(pocket, domain=None) -> tuple[str, ...]:
+    """The table cells of one core.analysis.pockets.Pocket: number, area, nodes, centroid, peak, peak at, edge;
+    coordinates within rounding noise of 0 (against ``domain``, core.results.readable) read 0."""
+    cx, cy = point_without_noise(pocket.centroid, domain)
     if pocket.peak is None:
         peak, where = "—", "—"
     else:
         peak = _number(pocket.peak)
-        where = f"({_number(pocket.peak_at[0])}, {_number(pocket.peak_at[1])})"
-    return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx, resolution=noise)}, {_number(cy, resolution=noise)})",
+        px, py = point_without_noise(pocket.peak_at, domain)
+        where = f"({_number(px)}, {_number(py)})"
+    return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx)}, {_number(cy)})",
             peak, where, "yes" if pocket.touches_boundary else "no")
 
 
@@ -115,7 +115,7 @@ class PocketsPanel(QWidget):
             self.table.clearSelection()
             self.table.setRowCount(len(pockets))
             for row, pocket in enumerate(pockets):
-                for column, text in enumerate(pocket_row(pocket)):
+                for column, text in enumerate(pocket_row(pocket, report.type_map.domain)):
                     item = QTableWidgetItem(text)
                     if column in (0, 1, 2, 4):
                         item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)

@@ -3,13 +3,16 @@
 The dialog lists the templates by title; the one selected is described below the list (what it models, its
 equation in mathematical form, its parameters with units, the trade quantities a pin reads, the data
 quantities it can take and its suggested region). When the study's loaded data provide quantities the template
-declares, a check box substitutes them for the template's own formulas.
+declares, a check box substitutes them for the template's own formulas. A template that would define a name
+the loaded data already provide (and so hide the data silently) is never added without a question:
+``template_equation`` finds such clashes, the dialog asks on "Add equation", and the window refuses a clash
+nobody answered.
 """
 
 from __future__ import annotations
 
 import html
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
@@ -19,6 +22,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QListWidget,
     QListWidgetItem,
+    QMessageBox,
     QSplitter,
     QTextBrowser,
     QVBoxLayout,
@@ -30,7 +34,7 @@ from core.equations.language import ExpressionError
 from core.equations.templates import Template, TemplateError, list_templates, load_template
 from gui.math_render import equation_html
 
-__all__ = ["TemplateChoice", "TemplateDialog", "available_templates", "template_html"]
+__all__ = ["TemplateChoice", "TemplateDialog", "available_templates", "template_equation", "template_html"]
 
 _TRADE_WORDS = {"mach": "local Mach number, flow angle, Mach angle, characteristic directions θ ± μ, "
                         "isentropic ratios",
@@ -41,10 +45,33 @@ _TRADE_WORDS = {"mach": "local Mach number, flow angle, Mach angle, characterist
 
 @dataclass(frozen=True)
 class TemplateChoice:
-    """What the user picked: the template's name and whether loaded data replace its formulas."""
+    """What the user picked: the template's name, whether loaded data replace the formulas the template
+    declares they may (``use_data``), and how a remaining clash was settled (``clash``): "data" (the loaded
+    quantity is read, the template's formula or parameter of that name dropped), "formulas" (the template's
+    own stand, hiding those data) or "" (nobody was asked)."""
 
     name: str
     use_data: bool = True
+    clash: str = ""
+
+
+def template_equation(template: Template, data_names, use_data: bool, clash: str = ""):
+    """(equation, unsettled): the template's equation as it would be added beside the loaded ``data_names``,
+    and the loaded names its own definitions or parameters would hide without a ``clash`` answer (empty
+    once ``clash`` is "data" or "formulas"). Quantities the template declares are settled by ``use_data``
+    (the dialog's check box asks about exactly those)."""
+    data_names = tuple(data_names)
+    equation = template.equation
+    declared = [name for name in template.quantities if name in data_names]
+    if use_data and declared:
+        equation = template.equation_with_data(declared)
+    clashing = tuple(name for name in data_names if name in equation.definitions or name in equation.parameters)
+    if clash == "data" and clashing:
+        definitions = {k: v for k, v in equation.definitions.items() if k not in clashing}
+        parameters = {k: v for k, v in equation.parameters.items() if k not in clashing}
+        equation = replace(equation, definitions=definitions, parameters=parameters)
+    unsettled = tuple(name for name in clashing if name not in template.quantities)
+    return equation, () if clash in ("data", "formulas") else unsettled
 
 
 def available_templates() -> tuple[tuple[Template | None, str], ...]:
@@ -153,4 +180,35 @@ class TemplateDialog(QDialog):
         row = self.listing.currentRow()
         if not 0 <= row < len(self.templates):
             return None
-        return TemplateChoice(self.templates[row].name, self.use_data.isChecked() and self._usable)
+        use_data = self.use_data.isChecked() and self._usable
+        return TemplateChoice(self.templates[row].name, use_data, getattr(self, "_clash", ""))
+
+    def accept(self) -> None:
+        """Add the chosen template, asking first when its formulas would hide loaded data of the same name."""
+        row = self.listing.currentRow()
+        self._clash = ""
+        if 0 <= row < len(self.templates):
+            template = self.templates[row]
+            use_data = self.use_data.isChecked() and self._usable
+            _, unsettled = template_equation(template, self.data_names, use_data)
+            if unsettled:
+                answer = self.ask_clash(template, unsettled)
+                if answer == "cancel":
+                    return
+                self._clash = answer
+        super().accept()
+
+    def ask_clash(self, template: Template, hidden: tuple[str, ...]) -> str:
+        """'data', 'formulas' or 'cancel': which of two things named alike the new equation should read."""
+        names = ", ".join(hidden)
+        box = QMessageBox(QMessageBox.Icon.Question, "Loaded data and template formulas share names",
+                          f"The study's loaded data provide {names}, and the template “{template.title}” defines "
+                          f"{names} itself. Its equation can read either, not both.", parent=self)
+        box.setObjectName("templateClash")
+        data = box.addButton("Use the loaded data", QMessageBox.ButtonRole.AcceptRole)
+        formulas = box.addButton("Use the template's formulas", QMessageBox.ButtonRole.ActionRole)
+        box.addButton(QMessageBox.StandardButton.Cancel)
+        box.setDefaultButton(data)
+        box.exec()
+        clicked = box.clickedButton()
+        return "data" if clicked is data else "formulas" if clicked is formulas else "cancel"

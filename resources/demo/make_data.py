@@ -68,12 +68,22 @@ def bump_mesh(coarse: float = 0.1, fine: float = 0.04) -> tuple[np.ndarray, np.n
     count = int(np.ceil(np.pi * RADIUS / fine))
     angle = np.linspace(0, np.pi, count + 1)
     arc = np.column_stack([RADIUS * np.cos(angle), RADIUS * np.sin(angle)])
+    # On the wall, not a rounding error inside it: bump_velocity is NaN where x^2 + y^2 < R^2, and a NaN
+    # corner would leave every triangle on the wall undefined.
+    for _ in range(4):
+        low = np.sum(arc**2, axis=1) < RADIUS**2
+        arc[low] *= 1 + 2.0**-52
     points = np.vstack([arc, grid])
     triangles = Delaunay(points).simplices
     corners = points[triangles]
     midpoints = np.concatenate([(corners + np.roll(corners, 1, axis=1)) / 2, corners.mean(axis=1)[:, None]],
                                axis=1)
-    outside = np.all(np.hypot(midpoints[..., 0], midpoints[..., 1]) > RADIUS * (1 - 1e-9), axis=1)
+    # The midpoint of a chord between neighbouring arc nodes lies inside the circle by the chord's sagitta,
+    # R (1 - cos(step / 2)) (about 2e-4 m here): a test against R itself would drop every triangle resting on
+    # the wall and leave the flow's fastest layer, at the crest, outside the mesh. Chords that skip an arc node
+    # (triangles across the solid) lie deeper and are still dropped.
+    chord = RADIUS * np.cos(0.5 * np.pi / count)
+    outside = np.all(np.hypot(midpoints[..., 0], midpoints[..., 1]) > chord * (1 - 1e-9), axis=1)
     return points, triangles[outside]
 
 

@@ -140,14 +140,15 @@ def test_classify_reports_the_supersonic_pocket_and_its_peak_mach_number():
     pocket = document["pockets"][0]                                  # largest first
     assert len(document["pockets"]) <= 3 and all(p["area"] < 0.01 for p in document["pockets"][1:])
     assert pocket["centroid"][0] == pytest.approx(0.0, abs=0.01) and 1.0 < pocket["centroid"][1] < 1.19
-    assert not pocket["touches_boundary"] and pocket["peak"]["quantity"] == "M"
+    # the pocket rests on the wall, which crosses the box's lower edge y = 0.9 (as the formula's does)
+    assert pocket["touches_boundary"] and pocket["peak"]["quantity"] == "M"
     # peak at the crest: q = 2 U for the flow past a circle (potential flow, common practice, no source) with the
     # isentropic sound speed c^2 = c0^2 - (gamma - 1)/2 q^2 (energy equation behind NACA Report 1135, 1953)
     gamma, c0, mach = 1.4, 340.3, 0.55
     free = mach * c0 / math.sqrt(1 + (gamma - 1) / 2 * mach**2)
     crest = 2 * free / math.sqrt(c0**2 - (gamma - 1) / 2 * (2 * free) ** 2)
     assert 1.0 < pocket["peak"]["value"] <= crest + 1e-9 and math.isfinite(pocket["peak"]["value"])
-    assert pocket["peak"]["value"] == pytest.approx(crest, abs=0.05)
+    assert pocket["peak"]["value"] == pytest.approx(crest, rel=1e-3)        # the mesh has nodes on the wall
     formula = run_json("classify", "--template", "full_potential", *box)
     assert formula["pockets"][0]["peak"]["value"] == pytest.approx(crest, rel=1e-9)   # the crest is a node
     assert formula["pockets"][0]["peak"]["at"] == pytest.approx([0.0, 1.0], abs=1e-12)
