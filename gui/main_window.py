@@ -46,6 +46,7 @@ from gui.panels.pockets import PocketsPanel
 from gui.panels.template_dialog import TemplateChoice, TemplateDialog
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
+from gui.settled_edits import UnappliedNote
 from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
@@ -92,6 +93,8 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
                                        " padding: 3px 6px; }")
         self.data_notice.setVisible(False)
         self.map_view.layout().insertWidget(3, self.data_notice)
+        self.unapplied_note = UnappliedNote(self.document)
+        self.map_view.layout().insertWidget(4, self.unapplied_note)
         self.setCentralWidget(self.map_view)
 
         self.equation_panel = EquationPanel(self.document)

@@ -1,15 +1,33 @@
 """Small widget helpers shared by the panels: buttons with tooltips, button rows, purpose and error labels,
-the row that chooses one of the study's equations or domains."""
+the row that chooses one of the study's equations or domains, value widgets the mouse wheel moves only once
+focused, and shortcuts that act only inside the widgets they belong to.
+
+A slider, spin box or combo box under the pointer of a scrolling panel must not change the study: the
+``Steady*`` classes take wheel events only with keyboard focus (a click or Tab gives it; the wheel never
+does) and otherwise leave the event to their parent, so the scroll area around them scrolls. Every such
+widget of the window is made from these classes (tests/gui/test_edits_when_meant.py checks it).
+"""
 
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 
-from PySide6.QtCore import SignalInstance
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QPushButton
+from PySide6.QtCore import Qt, SignalInstance
+from PySide6.QtGui import QAction, QWheelEvent
+from PySide6.QtWidgets import (
+    QComboBox,
+    QDoubleSpinBox,
+    QHBoxLayout,
+    QLabel,
+    QPushButton,
+    QSlider,
+    QSpinBox,
+    QWidget,
+)
 
-__all__ = ["ERROR_STYLE", "button_row", "chooser_row", "error_label", "purpose_label", "push_button",
-           "show_choices", "show_error"]
+__all__ = ["ERROR_STYLE", "STEADY_WIDGETS", "SteadyComboBox", "SteadyDoubleSpinBox", "SteadySlider",
+           "SteadySpinBox", "button_row", "chooser_row", "error_label", "purpose_label", "push_button",
+           "scope_shortcut", "show_choices", "show_error"]
 
 ERROR_STYLE = "color: #B00020;"
 
@@ -71,3 +89,67 @@ def show_error(label: QLabel, text: str) -> None:
     """Show ``text`` in ``label``, or hide the label when ``text`` is empty."""
     label.setText(text)
     label.setVisible(bool(text))
+
+
+class _WheelNeedsFocus:
+    """Mixin of the Steady* widgets: focus by click or Tab only, and the wheel acts only with focus.
+
+    An ignored wheel event goes on to the parent widget (QApplication delivers it upwards), so an unfocused
+    widget inside a QScrollArea lets the area scroll.
+    """
+
+    def _steady(self) -> None:
+        self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
+
+    def wheelEvent(self, event: QWheelEvent) -> None:
+        if self.hasFocus():
+            super().wheelEvent(event)
+        else:
+            event.ignore()
+
+
+class SteadySlider(_WheelNeedsFocus, QSlider):
+    """A QSlider the wheel moves only while it has keyboard focus."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self._steady()
+
+
+class SteadySpinBox(_WheelNeedsFocus, QSpinBox):
+    """A QSpinBox the wheel steps only while it has keyboard focus."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self._steady()
+
+
+class SteadyDoubleSpinBox(_WheelNeedsFocus, QDoubleSpinBox):
+    """A QDoubleSpinBox the wheel steps only while it has keyboard focus."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self._steady()
+
+
+class SteadyComboBox(_WheelNeedsFocus, QComboBox):
+    """A QComboBox the wheel changes only while it has keyboard focus."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self._steady()
+
+
+STEADY_WIDGETS = (SteadySlider, SteadySpinBox, SteadyDoubleSpinBox, SteadyComboBox)
+
+
+def scope_shortcut(action: QAction, *widgets: QWidget) -> QAction:
+    """Let ``action``'s shortcut act only while the keyboard focus is inside one of ``widgets``.
+
+    The action stays in its menu (listed with its shortcut, triggered by a click there); a key press elsewhere
+    in the window (say Delete in a table being edited) is left to the widget that has the focus.
+    """
+    action.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
+    for widget in widgets:
+        widget.addAction(action)
+    return action

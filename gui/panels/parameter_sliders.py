@@ -1,17 +1,19 @@
 """One slider per ranged parameter of the shown equation: dragging one moves the zones on the map live.
 
 A parameter with a minimum below its maximum gets a slider of ``SLIDER_STEPS`` steps across that range and a
-label with its value and unit. A whole drag is one undo step (one merge key from press to release); the
-drag signals let the map switch to its faster drag mode.
+label with its value and unit. A whole drag is one undo step (one merge key from press to release), named by
+the value it ends at; the drag signals let the map switch to its faster drag mode. The wheel moves a slider
+only once it has keyboard focus (gui.widgets.SteadySlider): scrolling the panel past one changes nothing.
 """
 
 from __future__ import annotations
 
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import QGridLayout, QLabel, QSlider, QWidget
+from PySide6.QtWidgets import QGridLayout, QLabel, QWidget
 
 from core.equations.equation import Equation, Parameter
 from gui.document import Document
+from gui.widgets import SteadySlider
 
 __all__ = ["SLIDER_STEPS", "ParameterSliders", "slider_position", "value_text"]
 
@@ -48,7 +50,7 @@ class ParameterSliders(QWidget):
         self._drag_key = ""
         self.grid = QGridLayout(self)
         self.grid.setContentsMargins(0, 0, 0, 0)
-        self.sliders: dict[str, QSlider] = {}
+        self.sliders: dict[str, SteadySlider] = {}
         self.slider_values: dict[str, QLabel] = {}
 
     def rebuild(self, equation: Equation) -> None:
@@ -63,7 +65,7 @@ class ParameterSliders(QWidget):
         for name, parameter in equation.parameters.items():
             if not _has_range(parameter):
                 continue
-            slider = QSlider(Qt.Orientation.Horizontal)
+            slider = SteadySlider(Qt.Orientation.Horizontal)
             slider.setObjectName(f"slider_{name}")
             slider.setRange(0, SLIDER_STEPS)
             slider.setValue(slider_position(parameter))
