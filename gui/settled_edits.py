@@ -82,6 +82,10 @@ class SettledText(QObject):
             self.edit.setText(text)
         return True
 
+    def forget_draft(self) -> None:
+        """Let the next ``show`` replace whatever the field holds (another study or equation is shown)."""
+        self._shown = None
+
     def adopt(self) -> None:
         """The field's text is what the study now holds (in another spelling, such as 1.50 for 1.5)."""
         self._shown = self.edit.text()

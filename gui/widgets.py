@@ -4,7 +4,7 @@ focused, and shortcuts that act only inside the widgets they belong to.
 
 A slider, spin box or combo box under the pointer of a scrolling panel must not change the study: the
 ``Steady*`` classes take wheel events only with keyboard focus (a click or Tab gives it; the wheel never
-does) and otherwise leave the event to their parent, so the scroll area around them scrolls. Every such
+does) and otherwise hand the event to the scroll area around them, which scrolls. Every such
 widget of the window is made from these classes (tests/gui/test_edits_when_meant.py checks it).
 """
 
@@ -12,9 +12,11 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 
-from PySide6.QtCore import Qt, SignalInstance
+from PySide6.QtCore import QPointF, Qt, SignalInstance
 from PySide6.QtGui import QAction, QWheelEvent
 from PySide6.QtWidgets import (
+    QAbstractScrollArea,
+    QApplication,
     QComboBox,
     QDoubleSpinBox,
     QHBoxLayout,
@@ -91,11 +93,22 @@ def show_error(label: QLabel, text: str) -> None:
     label.setVisible(bool(text))
 
 
+def _scroll_area_around(widget: QWidget) -> QAbstractScrollArea | None:
+    """The nearest scroll area ``widget`` sits in (inside its viewport), or None."""
+    parent = widget.parentWidget()
+    while parent is not None:
+        if isinstance(parent, QAbstractScrollArea) and parent.viewport().isAncestorOf(widget):
+            return parent
+        parent = parent.parentWidget()
+    return None
+
+
 class _WheelNeedsFocus:
     """Mixin of the Steady* widgets: focus by click or Tab only, and the wheel acts only with focus.
 
-    An ignored wheel event goes on to the parent widget (QApplication delivers it upwards), so an unfocused
-    widget inside a QScrollArea lets the area scroll.
+    Without focus the wheel event goes to the viewport of the scroll area around the widget, which scrolls.
+    It is sent there rather than left to propagate because Qt passes only spontaneous wheel events on to
+    parents: this way synthesised events (tests, accessibility tools) scroll the same way.
     """
 
     def _steady(self) -> None:
@@ -104,8 +117,17 @@ class _WheelNeedsFocus:
     def wheelEvent(self, event: QWheelEvent) -> None:
         if self.hasFocus():
             super().wheelEvent(event)
-        else:
+            return
+        area = _scroll_area_around(self)
+        if area is None:
             event.ignore()
+            return
+        viewport = area.viewport()
+        where = QPointF(viewport.mapFromGlobal(event.globalPosition().toPoint()))
+        QApplication.sendEvent(viewport, QWheelEvent(
+            where, event.globalPosition(), event.pixelDelta(), event.angleDelta(), event.buttons(),
+            event.modifiers(), event.phase(), event.inverted(), event.source()))
+        event.accept()
 
 
 class SteadySlider(_WheelNeedsFocus, QSlider):

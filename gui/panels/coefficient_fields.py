@@ -31,6 +31,7 @@ class CoefficientFields(QGroupBox):
         super().__init__("Second-order coefficients")
         self.document = document
         self._merge_keys: dict[str, str] = {}
+        self._equation_name: str | None = None
         self.edits: dict[str, QLineEdit] = {}
         self.errors: dict[str, QLabel] = {}
         self.settling: dict[str, SettledText] = {}
@@ -56,13 +57,22 @@ class CoefficientFields(QGroupBox):
 
     def refresh(self, equation: Equation) -> None:
         """Show the coefficients of ``equation`` (a field already showing its text keeps its cursor; one holding
-        a draft typed over the same coefficient keeps the draft and says again what is wrong with it)."""
+        a draft typed over the same coefficient of the same equation keeps the draft and says again what is
+        wrong with it)."""
+        if equation.name != self._equation_name:
+            self.forget_drafts()
+            self._equation_name = equation.name
         for which, settling in self.settling.items():
             if settling.show(equation.coefficient_text(which)):
                 self._show_error(which, "")
                 self.document.set_unapplied(which, "")
             else:
                 self._typed(which, self.edits[which].text())
+
+    def forget_drafts(self) -> None:
+        """The next refresh shows the document's texts whatever was typed (another study or equation)."""
+        for settling in self.settling.values():
+            settling.forget_draft()
 
     def _show_error(self, which: str, text: str) -> None:
         show_error(self.errors[which], text)

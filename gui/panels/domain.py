@@ -91,6 +91,8 @@ class DomainPanel(QWidget):
         layout.addWidget(self.error)
         layout.addStretch(1)
         self._updating = False
+        self._domain_name: str | None = None
+        document.project_replaced.connect(self._forget_drafts)
         document.domain_changed.connect(self.refresh)
         document.equations_listed.connect(self.refresh)
         document.equation_changed.connect(self._name_axes)
@@ -99,6 +101,9 @@ class DomainPanel(QWidget):
     def refresh(self) -> None:
         project = self.document.project
         domain = self.document.domain
+        if domain.name != self._domain_name:
+            self._forget_drafts()
+            self._domain_name = domain.name
         self._updating = True
         try:
             show_choices(self.choice, project.domain_names, project.shown_domain_index)
@@ -114,6 +119,10 @@ class DomainPanel(QWidget):
         finally:
             self._updating = False
         self._name_axes()
+
+    def _forget_drafts(self) -> None:
+        for settling in (*self.settling.values(), self.tolerance_settling):
+            settling.forget_draft()
 
     def _name_axes(self) -> None:
         first, second = self.document.equation.variables

@@ -79,6 +79,7 @@ class EquationPanel(QWidget):
         main.addWidget(self.parameter_box)
         main.addStretch(1)
 
+        document.project_replaced.connect(self._forget_drafts)
         document.equation_changed.connect(self.refresh)
         document.parameters_changed.connect(lambda: self.parameter_box.show_values(self.document.equation))
         document.equations_listed.connect(self._refresh_choice)
@@ -94,6 +95,10 @@ class EquationPanel(QWidget):
         self.parameter_box.refresh(equation)
         self._render(equation)
         self.equation_choice.setCurrentIndex(self.document.project.shown_equation_index)
+
+    def _forget_drafts(self) -> None:
+        for editor in (self.coefficient_box, self.definition_box, self.parameter_box):
+            editor.forget_drafts()
 
     def _refresh_choice(self) -> None:
         project = self.document.project

@@ -68,6 +68,7 @@ class _NamedRowsTable(QGroupBox):
         self._updating = False
         self._merge_key = ""
         self._draft_over: dict | None = None     # the document's rows a table with an error was typed over
+        self._equation_name: str | None = None
         self.table = QTableWidget(0, len(headers))
         self.table.setItemDelegate(SettlingDelegate(self.table))
         self.table.setHorizontalHeaderLabels(headers)
@@ -106,8 +107,10 @@ class _NamedRowsTable(QGroupBox):
     def refresh(self, equation: Equation) -> None:
         """Show the rows of ``equation``; clears a stale error. Rows with an error typed over rows the
         document still has stay as typed (an edit elsewhere does not wipe them)."""
-        if self._draft_over is not None and getattr(equation, self.field) == self._draft_over:
+        if self._draft_over is not None and getattr(equation, self.field) == self._draft_over \
+                and equation.name == self._equation_name:
             return
+        self._equation_name = equation.name
         self._fill_quietly(equation)
         self.error.setVisible(False)
         self._forget_draft()
@@ -118,6 +121,10 @@ class _NamedRowsTable(QGroupBox):
             self._fill(equation)
         finally:
             self._updating = False
+
+    def forget_drafts(self) -> None:
+        """The next refresh shows the document's rows whatever was typed (another study is shown)."""
+        self._draft_over = None
 
     def _forget_draft(self) -> None:
         self._draft_over = None
