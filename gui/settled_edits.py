@@ -131,8 +131,7 @@ def unapplied_text(unapplied: Mapping[str, str]) -> str:
         return ""
     names = [UNAPPLIED_WHAT.get(where, where) for where in unapplied]
     listed = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
-    return (f"Showing the last valid {listed}: what is typed there has an error (see the field). "
-            "The map and readouts are those of the last valid text.")
+    return f"Showing the last valid {listed}: the text typed there has an error."
 
 
 class UnappliedNote(QLabel):

@@ -108,7 +108,7 @@ class DomainPanel(QWidget):
         try:
             show_choices(self.choice, project.domain_names, project.shown_domain_index)
             self.name.setText(domain.name)
-            kept = [_show_number(self.settling[key], getattr(domain, key), "10g") for key in self.bounds]
+            kept = [_show_number(self.settling[key], getattr(domain, key), ".10g") for key in self.bounds]
             self.nodes["nx"].setValue(domain.nx)
             self.nodes["ny"].setValue(domain.ny)
             kept.append(_show_number(self.tolerance_settling, self.document.tolerance, "g"))

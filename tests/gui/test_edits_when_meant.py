@@ -284,13 +284,16 @@ def test_a_domain_bound_applies_after_the_pause_and_an_error_is_noted(make_windo
         pass
     assert window.document.domain.xmax == 2.5 and window.document.undo_stack.count() == 1
     assert panel.error.isVisibleTo(window) and "'2.50e' is not a number" in panel.error.text()
-    assert window.unapplied_note.text().startswith("Showing the last valid domain")
+    assert window.unapplied_note.text() == "Showing the last valid domain: the text typed there has an error."
+    window.undo_action.trigger()               # the domain changes: its text replaces the draft
+    assert window.document.domain.xmax == 3.0 and edit.text() == "3" and panel.bounds["xmin"].text() == "-3"
+    assert window.document.unapplied == {} and not panel.error.isVisibleTo(window)
 
 
 def test_the_note_lists_every_place_held_back():
     assert unapplied_text({}) == ""
     assert unapplied_text({"a": "x", "definitions": "y", "domain": "z"}).startswith(
-        "Showing the last valid formula for a, definitions and domain:")
+        "Showing the last valid formula for a, definitions and domain: ")
 
 
 # -- Delete and Copy ------------------------------------------------------------------------------------------
