@@ -12,8 +12,8 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 
-from PySide6.QtCore import QPointF, Qt, SignalInstance
-from PySide6.QtGui import QAction, QWheelEvent
+from PySide6.QtCore import QPointF, Qt, Signal, SignalInstance
+from PySide6.QtGui import QAction, QFocusEvent, QWheelEvent
 from PySide6.QtWidgets import (
     QAbstractScrollArea,
     QApplication,
@@ -131,11 +131,18 @@ class _WheelNeedsFocus:
 
 
 class SteadySlider(_WheelNeedsFocus, QSlider):
-    """A QSlider the wheel moves only while it has keyboard focus."""
+    """A QSlider the wheel moves only while it has keyboard focus; ``focus_left`` when it loses the focus
+    (the wheel and key steps of one visit can then be one undo step)."""
+
+    focus_left = Signal()
 
     def __init__(self, *args, **kwargs) -> None:
         super().__init__(*args, **kwargs)
         self._steady()
+
+    def focusOutEvent(self, event: QFocusEvent) -> None:
+        super().focusOutEvent(event)
+        self.focus_left.emit()
 
 
 class SteadySpinBox(_WheelNeedsFocus, QSpinBox):

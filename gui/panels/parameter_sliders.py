@@ -3,7 +3,8 @@
 A parameter with a minimum below its maximum gets a slider of ``SLIDER_STEPS`` steps across that range and a
 label with its value and unit. A whole drag is one undo step (one merge key from press to release), named by
 the value it ends at; the drag signals let the map switch to its faster drag mode. The wheel moves a slider
-only once it has keyboard focus (gui.widgets.SteadySlider): scrolling the panel past one changes nothing.
+only once it has keyboard focus (gui.widgets.SteadySlider): scrolling the panel past one changes nothing. The
+wheel and arrow-key steps of one visit to a slider (until it loses focus) are one undo step too.
 """
 
 from __future__ import annotations
@@ -48,6 +49,7 @@ class ParameterSliders(QWidget):
         super().__init__(parent)
         self.document = document
         self._drag_key = ""
+        self._step_keys: dict[str, str] = {}
         self.grid = QGridLayout(self)
         self.grid.setContentsMargins(0, 0, 0, 0)
         self.sliders: dict[str, SteadySlider] = {}
@@ -61,6 +63,7 @@ class ParameterSliders(QWidget):
                 widget.deleteLater()
         self.sliders.clear()
         self.slider_values.clear()
+        self._step_keys.clear()
         row = 0
         for name, parameter in equation.parameters.items():
             if not _has_range(parameter):
@@ -75,6 +78,7 @@ class ParameterSliders(QWidget):
             slider.sliderPressed.connect(lambda name=name: self._pressed(name))
             slider.sliderReleased.connect(self._released)
             slider.valueChanged.connect(lambda position, name=name: self._moved(name, position))
+            slider.focus_left.connect(lambda name=name: self._step_keys.pop(name, None))
             value = QLabel(value_text(parameter))
             value.setMinimumWidth(120)
             self.grid.addWidget(QLabel(name), row, 0)
@@ -108,5 +112,7 @@ class ParameterSliders(QWidget):
         if parameter is None or parameter.minimum is None or parameter.maximum is None:
             return
         value = parameter.minimum + (parameter.maximum - parameter.minimum) * position / SLIDER_STEPS
-        key = self._drag_key or self.document.new_merge_key(f"slider {name}")
+        if not self._drag_key and name not in self._step_keys:
+            self._step_keys[name] = self.document.new_merge_key(f"slider {name}")
+        key = self._drag_key or self._step_keys[name]
         self.document.set_parameter_value(name, value, merge_key=key)

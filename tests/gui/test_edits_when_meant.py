@@ -105,13 +105,18 @@ def test_wheel_over_an_unfocused_slider_scrolls_the_panel(make_window, qtbot):
     assert scroll_bar.value() > 0                                          # the panel scrolled instead
 
     _focus(qtbot, slider)
-    _wheel(slider)
+    for _ in range(3):
+        _wheel(slider)
     window.analysis.flush()
     assert slider.value() != position
     moved = window.document.equation.parameters["M_inf"].value
-    assert moved != 0.8 and window.document.undo_stack.count() == 1
+    assert moved != 0.8 and window.document.undo_stack.count() == 1       # the visit's steps are one undo step
     assert window.document.undo_stack.undoText() == f"Set M_inf = {moved:.6g}"
     assert window.runner.latest("map") > map_job
+    _focus(qtbot, window.pins_panel.table)
+    _focus(qtbot, slider)
+    qtbot.keyClick(slider, Qt.Key.Key_Right)                              # a new visit: a new step
+    assert window.document.undo_stack.count() == 2
 
 
 def test_wheel_over_unfocused_spin_and_combo_boxes_changes_nothing(make_window, qtbot):
