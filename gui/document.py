@@ -66,6 +66,7 @@ class Document(QObject):
     data_sources_changed = Signal()    # the study's list of data files (paths, renames, checksums) changed
     dirty_changed = Signal(bool)
     path_changed = Signal(str)
+    unapplied_changed = Signal()       # typed text held back because it has an error (see ``unapplied``)
 
     def __init__(self, project: Project, parent: QObject | None = None) -> None:
         super().__init__(parent)
@@ -78,6 +79,7 @@ class Document(QObject):
         self._data_pending = False
         self._compile_error = ""
         self._sessions = itertools.count(1)
+        self._unapplied: dict[str, str] = {}
         self.undo_stack = QUndoStack(self)
         self.undo_stack.setUndoLimit(UNDO_LIMIT)
         self.undo_stack.cleanChanged.connect(self._clean_changed)
@@ -178,6 +180,22 @@ class Document(QObject):
         _ = self.compiled
         return self._compile_error
 
+    @property
+    def unapplied(self) -> dict[str, str]:
+        """Why the text typed for each place ("a", "definitions", "domain", ...) was not applied: the study, and
+        so the map, keeps the last valid text of those places (gui.settled_edits)."""
+        return dict(self._unapplied)
+
+    def set_unapplied(self, where: str, reason: str) -> None:
+        """Record that the text typed for ``where`` has an error (``reason``), or clear it (empty ``reason``)."""
+        if self._unapplied.get(where, "") == reason:
+            return
+        if reason:
+            self._unapplied[where] = reason
+        else:
+            del self._unapplied[where]
+        self.unapplied_changed.emit()
+
     def new_merge_key(self, what: str) -> str:
         """A fresh key for one drag or one burst of typing: edits carrying it become one undo step."""
         return f"{what}#{next(self._sessions)}"
@@ -188,6 +206,9 @@ class Document(QObject):
         self.undo_stack.clear()
         self._project = project
         self._compiled_for = None
+        if self._unapplied:
+            self._unapplied.clear()
+            self.unapplied_changed.emit()
         self.set_path(path)
         self.project_replaced.emit()
         self.equation_changed.emit()

@@ -49,6 +49,7 @@ from gui.panels.template_dialog import TemplateChoice, TemplateDialog, template_
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
 from gui.status_words import ScreenWords, grid_words, parameter_words
+from gui.settled_edits import UnappliedNote
 from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
@@ -99,7 +100,9 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         column = QVBoxLayout(self.map_column)
         column.setContentsMargins(0, 0, 0, 0)
         column.setSpacing(0)
+        self.unapplied_note = UnappliedNote(self.document)
         column.addWidget(self.map_view, 1)
+        column.addWidget(self.unapplied_note)
         column.addWidget(self.notice)
         column.addWidget(self.data_notice)
         self.setCentralWidget(self.map_column)

@@ -1,7 +1,8 @@
 """One edit of the open study: the undo command holding the project before and after, and what it changed.
 
 The document pushes a ``ProjectEdit`` for every edit; edits that share a merge key (one slider drag, one burst
-of typing in one field) merge into one undo step. ``changed_parts`` compares two projects and names the
+of typing in one field) merge into one undo step, named by the last of them ("Set mach = 0.8" after a drag
+to 0.8: the state that redo restores). ``changed_parts`` compares two projects and names the
 document signals the change calls for, in the order they are emitted, so each is emitted once and only on
 real change.
 """
@@ -42,6 +43,7 @@ class ProjectEdit(QUndoCommand):
         if not isinstance(other, ProjectEdit) or other.merge_key != self.merge_key:
             return False
         self.after = other.after
+        self.setText(other.text())
         return True
 
     def redo(self) -> None:

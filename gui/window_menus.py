@@ -10,6 +10,7 @@ from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import QDockWidget
 
 from gui.export_commands import TABLES
+from gui.widgets import scope_shortcut
 
 __all__ = ["WindowMenus"]
 
@@ -65,10 +66,12 @@ class WindowMenus:
         self.redo_action.setShortcut(QKeySequence(keys.Redo))
         edit.addActions([self.undo_action, self.redo_action])
         edit.addSeparator()
-        edit.addAction(self._action("&Copy pin readouts", self.pins_panel.copy_text, shortcut=keys.Copy,
-                                    tip="Copy every pin's readout as text"))
-        edit.addAction(self._action("&Delete selected pin", self.pins_panel.delete_selected,
-                                    shortcut=keys.Delete))
+        # Copy and Delete act on pins only from the pins panel or the map; elsewhere the keys are the widget's.
+        edit.addAction(scope_shortcut(self._action("&Copy pin readouts", self.pins_panel.copy_text,
+                                                   shortcut=keys.Copy, tip="Copy every pin's readout as text"),
+                                      self.pins_panel, self.map_view))
+        edit.addAction(scope_shortcut(self._action("&Delete selected pin", self.pins_panel.delete_selected,
+                                                   shortcut=keys.Delete), self.pins_panel, self.map_view))
         edit.addAction(self._action("&Trace through selected pin", self.pins_panel.trace_selected,
                                     shortcut="Ctrl+T", tip="Draw both characteristics through the pin"))
         edit.addAction(self._action("Remove all characteristics", self.document.clear_seeds))

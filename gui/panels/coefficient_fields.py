@@ -1,9 +1,10 @@
 """The fields of the second-order coefficients a, b and c, each checked as the user types.
 
-Every keystroke compiles a candidate equation through core (the whitelist parser). A candidate that compiles
-becomes an edit of the document (a burst of typing in one field, until it loses focus, is one undo step); one
-that does not leaves the document, and so the map, as it was and shows the error under the field at fault,
-with its column.
+Every keystroke compiles a candidate equation through core (the whitelist parser) and shows what is wrong
+under the field at fault, with its column. The text reaches the document only once it settles (a pause,
+Enter or leaving the field: gui.settled_edits) and compiles; the settled texts of one visit to a field are one
+undo step. A text that settles with an error leaves the document, and so the map, as it was, and the
+document records it so the window can say that the map shows the last valid formula.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit, QVBoxLa
 
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from gui.document import Document
+from gui.settled_edits import SettledText
 from gui.widgets import error_label, show_error
 
 __all__ = ["CoefficientFields"]
@@ -29,16 +31,20 @@ class CoefficientFields(QGroupBox):
         super().__init__("Second-order coefficients")
         self.document = document
         self._merge_keys: dict[str, str] = {}
+        self._equation_name: str | None = None
         self.edits: dict[str, QLineEdit] = {}
         self.errors: dict[str, QLabel] = {}
+        self.settling: dict[str, SettledText] = {}
         form = QFormLayout(self)
         for which in COEFFICIENT_NAMES:
             edit = QLineEdit()
             edit.setObjectName(f"coefficient_{which}")
             edit.setToolTip(f"Coefficient {which}: {_MULTIPLIES[which]}; an expression in the variables, "
                             "parameters and definitions")
-            edit.textEdited.connect(lambda text, which=which: self._typed(which, text))
-            edit.editingFinished.connect(lambda which=which: self._merge_keys.pop(which, None))
+            settling = SettledText(edit)
+            settling.typed.connect(lambda text, which=which: self._typed(which, text))
+            settling.settled.connect(lambda text, which=which: self._settled(which, text))
+            settling.finished.connect(lambda which=which: self._merge_keys.pop(which, None))
             error = error_label()
             column = QVBoxLayout()
             column.setSpacing(1)
@@ -47,28 +53,50 @@ class CoefficientFields(QGroupBox):
             form.addRow(f"{which} =", column)
             self.edits[which] = edit
             self.errors[which] = error
+            self.settling[which] = settling
 
     def refresh(self, equation: Equation) -> None:
-        """Show the coefficients of ``equation`` (a field already showing its text keeps its cursor)."""
-        for which, edit in self.edits.items():
-            text = equation.coefficient_text(which)
-            if edit.text() != text:
-                edit.setText(text)
-            self._show_error(which, "")
+        """Show the coefficients of ``equation`` (a field already showing its text keeps its cursor; one holding
+        a draft typed over the same coefficient of the same equation keeps the draft and says again what is
+        wrong with it)."""
+        if equation.name != self._equation_name:
+            self.forget_drafts()
+            self._equation_name = equation.name
+        for which, settling in self.settling.items():
+            if settling.show(equation.coefficient_text(which)):
+                self._show_error(which, "")
+                self.document.set_unapplied(which, "")
+            else:
+                self._typed(which, self.edits[which].text())
+
+    def forget_drafts(self) -> None:
+        """The next refresh shows the document's texts whatever was typed (another study or equation)."""
+        for settling in self.settling.values():
+            settling.forget_draft()
 
     def _show_error(self, which: str, text: str) -> None:
         show_error(self.errors[which], text)
         self.edits[which].setStyleSheet(_BAD_FIELD if text else "")
 
-    def _typed(self, which: str, text: str) -> None:
+    def _problem(self, which: str, text: str) -> str:
+        """What is wrong with the equation if coefficient ``which`` read ``text``; empty when it compiles."""
         error = self.document.check_equation(replace(self.document.equation, **{which: text}))
-        if error is not None:
-            where = f"column {error.column}: " if error.column is not None else ""
-            if error.field in self.errors and error.field != which:
-                where = f"{error.field}, " + where
-            self._show_error(which, f"{where}{error.message}")
+        if error is None:
+            return ""
+        where = f"column {error.column}: " if error.column is not None else ""
+        if error.field in self.errors and error.field != which:
+            where = f"{error.field}, " + where
+        return f"{where}{error.message}"
+
+    def _typed(self, which: str, text: str) -> None:
+        self._show_error(which, self._problem(which, text))
+
+    def _settled(self, which: str, text: str) -> None:
+        problem = self._problem(which, text)
+        self._show_error(which, problem)
+        self.document.set_unapplied(which, problem)
+        if problem or text == self.document.equation.coefficient_text(which):
             return
-        self._show_error(which, "")
         if which not in self._merge_keys:
             self._merge_keys[which] = self.document.new_merge_key(which)
         self.document.set_coefficient(which, text, merge_key=self._merge_keys[which])

@@ -9,7 +9,7 @@ and edits the document only with an equation that compiles.
 from __future__ import annotations
 
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import QComboBox, QFrame, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QFrame, QLabel, QVBoxLayout, QWidget
 
 from core.equations.equation import Equation
 from gui.document import Document
@@ -17,7 +17,7 @@ from gui.math_render import equation_html
 from gui.panels.coefficient_fields import CoefficientFields
 from gui.panels.equation_tables import DefinitionTable, ParameterTable
 from gui.panels.parameter_sliders import SLIDER_STEPS
-from gui.widgets import ERROR_STYLE, chooser_row, purpose_label, push_button, show_choices
+from gui.widgets import ERROR_STYLE, SteadyComboBox, chooser_row, purpose_label, push_button, show_choices
 
 __all__ = ["SLIDER_STEPS", "EquationPanel"]
 
@@ -36,7 +36,7 @@ class EquationPanel(QWidget):
                               "Functions: sin, cos, exp, log, sqrt, abs, min, max, "
                               "piecewise(cond, value, ..., else).")
 
-        self.equation_choice = QComboBox()
+        self.equation_choice = SteadyComboBox()
         self.equation_choice.setToolTip("Which of the study's equations is shown and edited")
         self.equation_choice.activated.connect(self.document.show_equation)
         self.duplicate_button = push_button("Duplicate", "Add a copy of this equation to the study and show it",
@@ -79,6 +79,7 @@ class EquationPanel(QWidget):
         main.addWidget(self.parameter_box)
         main.addStretch(1)
 
+        document.project_replaced.connect(self._forget_drafts)
         document.equation_changed.connect(self.refresh)
         document.parameters_changed.connect(lambda: self.parameter_box.show_values(self.document.equation))
         document.equations_listed.connect(self._refresh_choice)
@@ -94,6 +95,10 @@ class EquationPanel(QWidget):
         self.parameter_box.refresh(equation)
         self._render(equation)
         self.equation_choice.setCurrentIndex(self.document.project.shown_equation_index)
+
+    def _forget_drafts(self) -> None:
+        for editor in (self.coefficient_box, self.definition_box, self.parameter_box):
+            editor.forget_drafts()
 
     def _refresh_choice(self) -> None:
         project = self.document.project

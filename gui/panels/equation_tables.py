@@ -1,9 +1,11 @@
 """The shown equation's definitions and parameters as editable tables, checked as the user types.
 
-Each table lists named rows of the equation. An edit that leaves an equation that compiles becomes an edit of
-the document (all edits of one table merge into one undo step until another edit comes between); one that
-does not leaves the document as it was and says why under the table. Removing a row that others still use is
-refused the same way. The parameters' box also holds their sliders (gui.panels.parameter_sliders).
+Each table lists named rows of the equation. A cell's text is committed on Enter, on leaving the cell or after
+a typing pause (gui.settled_edits.SettlingDelegate). A commit that leaves an equation that compiles becomes an
+edit of the document (all edits of one table merge into one undo step until another edit comes between); one
+that does not leaves the document as it was, says why under the table and is recorded in the document so the
+window says the map shows the last valid rows. Removing a row that others still use is refused the same way.
+The parameters' box also holds their sliders (gui.panels.parameter_sliders).
 """
 
 from __future__ import annotations
@@ -25,6 +27,7 @@ from core.equations.equation import Equation, Parameter
 from core.project.names import numbered_name
 from gui.document import Document
 from gui.panels.parameter_sliders import ParameterSliders
+from gui.settled_edits import SettlingDelegate
 from gui.widgets import button_row, error_label, push_button, show_error
 
 __all__ = ["DefinitionTable", "ParameterTable", "format_number", "parse_optional_number"]
@@ -64,7 +67,10 @@ class _NamedRowsTable(QGroupBox):
         self.document = document
         self._updating = False
         self._merge_key = ""
+        self._draft_over: dict | None = None     # the document's rows a table with an error was typed over
+        self._equation_name: str | None = None
         self.table = QTableWidget(0, len(headers))
+        self.table.setItemDelegate(SettlingDelegate(self.table))
         self.table.setHorizontalHeaderLabels(headers)
         self.table.verticalHeader().setVisible(False)
         self.table.setToolTip(tooltip)
@@ -99,13 +105,43 @@ class _NamedRowsTable(QGroupBox):
 
     # -- shared ---------------------------------------------------------------------------------------------
     def refresh(self, equation: Equation) -> None:
-        """Show the rows of ``equation``; clears a stale error."""
+        """Show the rows of ``equation``; clears a stale error. Rows with an error typed over rows the
+        document still has stay as typed (an edit elsewhere does not wipe them)."""
+        if self._draft_over is not None and getattr(equation, self.field) == self._draft_over \
+                and equation.name == self._equation_name:
+            return
+        self._equation_name = equation.name
+        self._fill_quietly(equation)
+        self.error.setVisible(False)
+        self._forget_draft()
+
+    def _fill_quietly(self, equation: Equation) -> None:
         self._updating = True
         try:
             self._fill(equation)
-            self.error.setVisible(False)
         finally:
             self._updating = False
+
+    def forget_drafts(self) -> None:
+        """The next refresh shows the document's rows whatever was typed (another study is shown)."""
+        self._draft_over = None
+
+    def _forget_draft(self) -> None:
+        self._draft_over = None
+        self.document.set_unapplied(self.field, "")
+
+    def _put(self, row: int, column: int, text: str) -> None:
+        """Show ``text`` in a cell, changing the item in place; the cell being edited is left alone."""
+        item = self.table.item(row, column)
+        if item is None:
+            self.table.setItem(row, column, QTableWidgetItem(text))
+        elif item.text() != text and not self._is_being_edited(row, column):
+            item.setText(text)
+
+    def _is_being_edited(self, row: int, column: int) -> bool:
+        current = self.table.currentIndex()
+        return self.table.state() == QAbstractItemView.State.EditingState \
+            and (current.row(), current.column()) == (row, column)
 
     def _rows(self) -> dict:
         return getattr(self.document.equation, self.field)
@@ -115,14 +151,16 @@ class _NamedRowsTable(QGroupBox):
             return
         try:
             rows = self._read()
+            error = self.document.check_equation(replace(self.document.equation, **{self.field: rows}))
+            if error is not None:
+                raise ValueError(str(error))
         except ValueError as error:
             show_error(self.error, str(error))
-            return
-        error = self.document.check_equation(replace(self.document.equation, **{self.field: rows}))
-        if error is not None:
-            show_error(self.error, str(error))
+            self._draft_over = dict(self._rows())
+            self.document.set_unapplied(self.field, str(error))
             return
         self.error.setVisible(False)
+        self._forget_draft()
         if not self._merge_key:
             self._merge_key = self.document.new_merge_key(self.field)
         self._store(rows, self._undo_text("edit", ""), merge_key=self._merge_key)
@@ -166,8 +204,8 @@ class DefinitionTable(_NamedRowsTable):
     def _fill(self, equation: Equation) -> None:
         self.table.setRowCount(len(equation.definitions))
         for row, (name, text) in enumerate(equation.definitions.items()):
-            self.table.setItem(row, 0, QTableWidgetItem(name))
-            self.table.setItem(row, 1, QTableWidgetItem(text))
+            self._put(row, 0, name)
+            self._put(row, 1, text)
 
     def _read(self) -> dict[str, str]:
         definitions: dict[str, str] = {}
@@ -209,11 +247,10 @@ class ParameterTable(_NamedRowsTable):
 
     def show_values(self, equation: Equation) -> None:
         """Only parameter values changed: update the cells, sliders and value labels in place."""
-        self._updating = True
-        try:
-            self._fill(equation)
-        finally:
-            self._updating = False
+        self._fill_quietly(equation)
+        if self._draft_over is not None:
+            self.error.setVisible(False)
+            self._forget_draft()
         self.slider_area.show_values(equation)
 
     def _fill(self, equation: Equation) -> None:
@@ -221,11 +258,7 @@ class ParameterTable(_NamedRowsTable):
         for row, (name, p) in enumerate(equation.parameters.items()):
             for column, text in enumerate((name, format_number(p.value), format_number(p.minimum),
                                            format_number(p.maximum), p.unit)):
-                item = self.table.item(row, column)
-                if item is None:
-                    self.table.setItem(row, column, QTableWidgetItem(text))
-                elif item.text() != text:
-                    item.setText(text)
+                self._put(row, column, text)
 
     def _read(self) -> dict[str, Parameter]:
         old = self.document.equation.parameters

@@ -19,7 +19,6 @@ from PySide6.QtWidgets import (
     QLineEdit,
     QPushButton,
     QRadioButton,
-    QSpinBox,
     QVBoxLayout,
     QWidget,
 )
@@ -30,6 +29,7 @@ from core.project.model import FIELD_COLOUR_MAPS, MAX_ISO_VALUES, FieldLayerSett
 from gui.document import LAYER_LABELS, Document
 from gui.field_layer import COLOUR_MAP_LABELS
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
+from gui.widgets import SteadySpinBox
 
 __all__ = ["LayersPanel", "parse_iso_values"]
 
@@ -103,7 +103,7 @@ class LayersPanel(QWidget):
         group.addButton(self.pin_tool)
         group.addButton(self.segment_tool)
         self.pin_tool.toggled.connect(lambda on: self.mode_changed.emit("pin" if on else "segment"))
-        self.seed_count = QSpinBox()
+        self.seed_count = SteadySpinBox()
         self.seed_count.setRange(1, 200)
         self.seed_count.setValue(12)
         self.seed_count.setToolTip("How many seed points along a dragged segment (ends included)")
@@ -122,7 +122,7 @@ class LayersPanel(QWidget):
         count_row.addWidget(QLabel("seeds per segment:"))
         count_row.addWidget(self.seed_count)
         count_row.addStretch(1)
-        self.bounces = QSpinBox()
+        self.bounces = SteadySpinBox()
         self.bounces.setObjectName("characteristic_bounces")
         self.bounces.setRange(0, MAX_BOUNCES)
         self.bounces.setKeyboardTracking(False)      # typed numbers apply on Enter or leaving the box

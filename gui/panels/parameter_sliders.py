@@ -1,17 +1,20 @@
 """One slider per ranged parameter of the shown equation: dragging one moves the zones on the map live.
 
 A parameter with a minimum below its maximum gets a slider of ``SLIDER_STEPS`` steps across that range and a
-label with its value and unit. A whole drag is one undo step (one merge key from press to release); the
-drag signals let the map switch to its faster drag mode.
+label with its value and unit. A whole drag is one undo step (one merge key from press to release), named by
+the value it ends at; the drag signals let the map switch to its faster drag mode. The wheel moves a slider
+only once it has keyboard focus (gui.widgets.SteadySlider): scrolling the panel past one changes nothing. The
+wheel and arrow-key steps of one visit to a slider (until it loses focus) are one undo step too.
 """
 
 from __future__ import annotations
 
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtWidgets import QGridLayout, QLabel, QSlider, QWidget
+from PySide6.QtWidgets import QGridLayout, QLabel, QWidget
 
 from core.equations.equation import Equation, Parameter
 from gui.document import Document
+from gui.widgets import SteadySlider
 
 __all__ = ["SLIDER_STEPS", "ParameterSliders", "range_note", "slider_position", "value_text"]
 
@@ -64,9 +67,10 @@ class ParameterSliders(QWidget):
         super().__init__(parent)
         self.document = document
         self._drag_key = ""
+        self._step_keys: dict[str, str] = {}
         self.grid = QGridLayout(self)
         self.grid.setContentsMargins(0, 0, 0, 0)
-        self.sliders: dict[str, QSlider] = {}
+        self.sliders: dict[str, SteadySlider] = {}
         self.slider_values: dict[str, QLabel] = {}
 
     def rebuild(self, equation: Equation) -> None:
@@ -77,11 +81,12 @@ class ParameterSliders(QWidget):
                 widget.deleteLater()
         self.sliders.clear()
         self.slider_values.clear()
+        self._step_keys.clear()
         row = 0
         for name, parameter in equation.parameters.items():
             if not _has_range(parameter):
                 continue
-            slider = QSlider(Qt.Orientation.Horizontal)
+            slider = SteadySlider(Qt.Orientation.Horizontal)
             slider.setObjectName(f"slider_{name}")
             slider.setRange(0, SLIDER_STEPS)
             slider.setValue(slider_position(parameter))
@@ -91,6 +96,7 @@ class ParameterSliders(QWidget):
             slider.sliderPressed.connect(lambda name=name: self._pressed(name))
             slider.sliderReleased.connect(self._released)
             slider.valueChanged.connect(lambda position, name=name: self._moved(name, position))
+            slider.focus_left.connect(lambda name=name: self._step_keys.pop(name, None))
             value = QLabel()
             value.setObjectName(f"sliderValue_{name}")
             value.setMinimumWidth(120)
@@ -126,5 +132,7 @@ class ParameterSliders(QWidget):
         if parameter is None or parameter.minimum is None or parameter.maximum is None:
             return
         value = parameter.minimum + (parameter.maximum - parameter.minimum) * position / SLIDER_STEPS
-        key = self._drag_key or self.document.new_merge_key(f"slider {name}")
+        if not self._drag_key and name not in self._step_keys:
+            self._step_keys[name] = self.document.new_merge_key(f"slider {name}")
+        key = self._drag_key or self._step_keys[name]
         self.document.set_parameter_value(name, value, merge_key=key)

@@ -60,6 +60,8 @@ def test_valid_expression_updates_document_and_map(make_window, qtbot):
     edit = window.equation_panel.coefficient_edits["a"]
     edit.clear()
     qtbot.keyClicks(edit, "-y")
+    assert window.document.equation.a == "y"             # typed, not yet settled
+    qtbot.keyClick(edit, Qt.Key.Key_Return)              # Enter applies it
     window.analysis.flush()
     after = window.analysis.type_map
     assert window.document.equation.a == "-y"
