@@ -48,8 +48,8 @@ from gui.panels.pockets import PocketsPanel
 from gui.panels.template_dialog import TemplateChoice, TemplateDialog, template_equation
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
-from gui.status_words import ScreenWords, grid_words, parameter_words
 from gui.settled_edits import UnappliedNote
+from gui.status_words import ScreenWords, grid_words, parameter_words
 from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]

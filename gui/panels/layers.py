@@ -11,7 +11,6 @@ from PySide6.QtCore import Signal
 from PySide6.QtWidgets import (
     QButtonGroup,
     QCheckBox,
-    QComboBox,
     QFormLayout,
     QGroupBox,
     QHBoxLayout,
@@ -29,7 +28,7 @@ from core.project.model import FIELD_COLOUR_MAPS, MAX_ISO_VALUES, FieldLayerSett
 from gui.document import LAYER_LABELS, Document
 from gui.field_layer import COLOUR_MAP_LABELS
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
-from gui.widgets import SteadySpinBox
+from gui.widgets import SteadyComboBox, SteadySpinBox
 
 __all__ = ["LayersPanel", "parse_iso_values"]
 
@@ -165,12 +164,12 @@ class LayersPanel(QWidget):
         self.field_shown.setToolTip("Draw the chosen quantity over the map with a colour bar; the type-change "
                                     "lines stay on top (undoable, saved with the study)")
         self.field_shown.toggled.connect(lambda on: self._set_field(shown=on))
-        self.field_quantity = QComboBox()
+        self.field_quantity = SteadyComboBox()
         self.field_quantity.setObjectName("field_quantity")
         self.field_quantity.setToolTip("D / (b² + 4|ac|) says how close to changing type each place is (0 on the "
                                        "type-change line, −1 and 1 far from it)")
         self.field_quantity.activated.connect(self._quantity_chosen)
-        self.field_colours = QComboBox()
+        self.field_colours = SteadyComboBox()
         self.field_colours.setObjectName("field_colour_map")
         for name in FIELD_COLOUR_MAPS:
             self.field_colours.addItem(COLOUR_MAP_LABELS[name], name)
