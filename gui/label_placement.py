@@ -56,7 +56,7 @@ class Box:
 
 def _candidate(pin: tuple[float, float], size: tuple[float, float], anchor: tuple[float, float],
                gap: float) -> Box:
-    """The label box at ``anchor`` around ``pin``, kept ``gap`` pixels clear of the pin's centre."""
+    """The label box at ``anchor`` around ``pin``, ``gap`` pixels from the pin's centre each way it is moved."""
     width, height = size
     ax, ay = anchor
     shift_x = gap if ax == 0.0 else -gap if ax == 1.0 else 0.0
@@ -65,12 +65,13 @@ def _candidate(pin: tuple[float, float], size: tuple[float, float], anchor: tupl
 
 
 def place_labels(pins: list[tuple[float, float]], sizes: list[tuple[float, float]], plot: Box, *,
-                 marker_radius: float = 6.0, gap: float = 4.0) -> list[Box | None]:
+                 marker_radius: float = 6.0, gap: float = 2.0) -> list[Box | None]:
     """One box per label (None for a pin outside ``plot``, whose label is not shown).
 
     ``pins`` are the pins' centres and ``sizes`` the labels' (width, height), all in pixels; labels are placed
     in the order given, so earlier pins get their preferred places. A box is free when it lies inside
-    ``plot`` and overlaps no earlier box and no pin's marker (a square of ``marker_radius`` around each pin).
+    ``plot`` and overlaps no earlier box and no pin's marker (a square of ``marker_radius`` around each pin);
+    boxes keep ``gap`` pixels from their own pin's marker.
     """
     markers = [Box(x - marker_radius, y - marker_radius, 2 * marker_radius, 2 * marker_radius) for x, y in pins]
     placed: list[Box | None] = []
@@ -82,7 +83,7 @@ def place_labels(pins: list[tuple[float, float]], sizes: list[tuple[float, float
         obstacles += [marker for other, marker in enumerate(markers) if other != index]
         best, best_cost = None, float("inf")
         for anchor in ANCHORS:
-            box = _candidate(pin, size, anchor, gap)
+            box = _candidate(pin, size, anchor, marker_radius + gap)
             if not box.inside(plot):
                 box = _pushed_inside(box, plot)
             cost = sum(box.overlap(obstacle) for obstacle in obstacles)

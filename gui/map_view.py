@@ -234,7 +234,7 @@ class MapView(QWidget):
         if self._domain is None:
             return
         d = self._domain
-        rect = self.view_box.boundingRect()
+        rect = self.view_box.rect()          # the size pyqtgraph's aspect lock uses
         x_range, y_range = fitted_ranges((d.xmin, d.xmax, d.ymin, d.ymax), (rect.width(), rect.height()),
                                          to_scale=self.to_scale)
         self.view_box.setRange(xRange=x_range, yRange=y_range, padding=0)

@@ -37,6 +37,7 @@ __all__ = ["OUTSIDE_MARK", "TRADE_LABELS", "PinsPanel", "main_trade_text", "pins
 _COLUMNS = ("label", "x", "y", "type", "D")
 OUTSIDE_MARK = "(outside)"     # follows the type of a pin outside the current domain (greyed, with a tooltip)
 _OUTSIDE_COLOUR = QColor("#8A8A8A")
+LABEL_COLUMN_PIXELS = 200
 
 
 def _number(value, digits: int = 6) -> str:
@@ -211,7 +212,9 @@ class PinsPanel(QWidget):
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)   # sized to what they hold
         header.setStretchLastSection(True)
+        header.setMaximumSectionSize(LABEL_COLUMN_PIXELS)       # a long label is elided; its tooltip holds it
         self.table.setWordWrap(False)
+        self.table.setSizeAdjustPolicy(QAbstractItemView.SizeAdjustPolicy.AdjustToContents)   # wide enough for them
         self.table.verticalHeader().setVisible(False)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
@@ -259,8 +262,9 @@ class PinsPanel(QWidget):
         self.body.setDirection(QBoxLayout.Direction.LeftToRight if side_by_side
                                else QBoxLayout.Direction.TopToBottom)
         self.details.setMinimumHeight(0 if side_by_side else 180)
-        self.body.setStretch(0, 3 if side_by_side else 1)
-        self.body.setStretch(1, 2)
+        self.body.setStretch(0, 0 if side_by_side else 1)     # side by side: the table as wide as its columns
+        self.body.setStretch(1, 1 if side_by_side else 2)
+        self.details.setMinimumWidth(200 if side_by_side else 0)
 
     def is_outside(self, index: int) -> bool:
         """Whether pin ``index`` lies outside the current domain (its readout extrapolates the equation)."""
@@ -288,6 +292,8 @@ class PinsPanel(QWidget):
                     item = QTableWidgetItem(text)
                     if column >= 3:
                         item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
+                    if column == 0:
+                        item.setToolTip(pin.label)
                     if outside:
                         item.setForeground(QBrush(_OUTSIDE_COLOUR))
                         item.setToolTip(f"{pin.label} lies outside the domain “{self.document.domain.name}”: "
