@@ -79,8 +79,12 @@ def place_labels(pins: list[tuple[float, float]], sizes: list[tuple[float, float
         if not (plot.left <= pin[0] <= plot.right and plot.top <= pin[1] <= plot.bottom):
             placed.append(None)
             continue
-        obstacles = [box for box in placed if box is not None]
-        obstacles += [marker for other, marker in enumerate(markers) if other != index]
+        # Only what lies within reach of this label's candidates can be in the way (keeps many pins cheap).
+        reach = Box(pin[0] - size[0] - marker_radius - gap, pin[1] - size[1] - marker_radius - gap,
+                    2 * (size[0] + marker_radius + gap), 2 * (size[1] + marker_radius + gap))
+        obstacles = [box for box in placed if box is not None and box.overlap(reach) > 0.0]
+        obstacles += [marker for other, marker in enumerate(markers)
+                      if other != index and marker.overlap(reach) > 0.0]
         best, best_cost = None, float("inf")
         for anchor in ANCHORS:
             box = _candidate(pin, size, anchor, marker_radius + gap)

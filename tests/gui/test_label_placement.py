@@ -57,3 +57,16 @@ def test_pins_outside_the_plot_have_no_label_and_a_full_plot_gives_the_least_ove
     tiny = Box(0.0, 0.0, 130.0, 30.0)                       # room for one label only
     first, second = place_labels([(60.0, 15.0), (70.0, 15.0)], [SIZE] * 2, tiny, marker_radius=2.0)
     assert first.inside(tiny) and second.inside(tiny)       # squeezed in, overlapping as little as it can
+
+
+def test_many_pins_on_a_grid_get_clear_labels_where_there_is_room():
+    # 60 pins 100 px apart: every label fits beside its pin, none overlapping (the obstacle filter misses none).
+    pins = [(50.0 + 100.0 * i, 40.0 + 50.0 * j) for i in range(10) for j in range(6)]
+    plot = Box(0.0, 0.0, 1000.0, 300.0)
+    boxes = place_labels(pins, [(60.0, 16.0)] * len(pins), plot, marker_radius=5.0)
+    for first, second in itertools.combinations(boxes, 2):
+        assert first.overlap(second) == 0.0
+    for box in boxes:
+        assert box.inside(plot)
+        for x, y in pins:
+            assert box.overlap(Box(x - 5.0, y - 5.0, 10.0, 10.0)) == 0.0

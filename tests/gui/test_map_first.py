@@ -252,3 +252,17 @@ def test_progress_text_is_one_line_shown_whole(window_at):
     assert window.progress_text.text() == text and not window.progress_text.wordWrap()
     assert window.progress_text.width() >= window.progress_text.sizeHint().width()
     assert window.progress.value() == 420 and window.progress.text() == "42%"
+
+
+def test_only_layouts_saved_for_this_arrangement_are_restored(window_at):
+    from gui.main_window import LAYOUT_VERSION
+
+    window = window_at(tricomi_project())
+    older = window.saveState(LAYOUT_VERSION - 1)                # a layout saved by an earlier arrangement
+    window.pins_dock.close()
+    saved = window.saveState(LAYOUT_VERSION)
+    window.pins_dock.show()
+    assert not window.restoreState(older)
+    assert window.pins_dock.isVisible()
+    assert window.restoreState(saved)
+    assert not window.pins_dock.isVisible()
