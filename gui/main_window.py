@@ -1,4 +1,4 @@
-"""Mixtype's main window: the map in the middle, the equation and domain on the left, pins and layers right.
+"""Mixtype's main window: the map takes most of it; the study's panels on the left, pins and pockets below it.
 
 Lays out the widgets and wires the document (edits, undo), the analysis (background results) and the widgets
 together. Its commands live beside it: gui.file_commands (new, open, recent, save, autosave, recovery),
@@ -24,6 +24,7 @@ from PySide6.QtWidgets import (
     QPushButton,
     QScrollArea,
     QVBoxLayout,
+    QStyle,
     QWidget,
 )
 
@@ -52,7 +53,9 @@ from gui.settled_edits import UnappliedNote
 from gui.status_words import ScreenWords, grid_words, parameter_words
 from gui.window_menus import WindowMenus
 
-__all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
+__all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
+
+LAYOUT_VERSION = 2     # saved panel layouts of other versions are not restored (version 2: the map comes first)
 
 CAUTION = ("Mixtype is an aid for analysing model equations; it validates no design. For engineering "
            "decisions, rely on validated solvers, the applicable codes and standards, and licensed "
@@ -114,31 +117,38 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.pockets_panel = PocketsPanel(self.document)
         self.notes_panel = NotesPanel(self.document)
         self.data_panel = DataPanel(self.document)
-        left, right = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.RightDockWidgetArea
-        self._dock("Equation: coefficients, definitions, parameters", self.equation_panel, left, "equationDock",
-                   scroll=True)
-        domain_dock = self._dock("Domain and grid", self.domain_panel, left, "domainDock")
-        self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock")
-        notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock")
-        self.tabifyDockWidget(domain_dock, self.data_dock)
-        self.tabifyDockWidget(domain_dock, notes_dock)
+        # One column of the study's panels on the left (the equation above, the rest as tabs below it); pins
+        # and pockets as tabs under the map. Every panel can be closed and reopened from the View menu.
+        left, bottom = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.BottomDockWidgetArea
+        self.equation_dock = self._dock("Equation: coefficients, definitions, parameters", self.equation_panel,
+                                        left, "equationDock", scroll=True)
+        domain_dock = self._dock("Domain and grid", self.domain_panel, left, "domainDock", scroll=True)
+        self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock", scroll=True)
+        notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock", scroll=True)
+        self.layers_dock = self._dock("Layers and mouse tool", self.layers_panel, left, "layersDock", scroll=True)
+        for dock in (self.data_dock, notes_dock, self.layers_dock):
+            self.tabifyDockWidget(domain_dock, dock)
         domain_dock.raise_()
-        pins_dock = self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
-        self._dock("Layers and mouse tool", self.layers_panel, right, "layersDock", scroll=True)
-        # The side columns run the full height; the pockets table sits under the map only.
+        # The left column runs the full height; the pins and pockets sit under the map only.
         self.setCorner(Qt.Corner.BottomLeftCorner, left)
-        self.setCorner(Qt.Corner.BottomRightCorner, right)
-        pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel,
-                                  Qt.DockWidgetArea.BottomDockWidgetArea, "pocketsDock")
-        self.resizeDocks([pockets_dock], [150], Qt.Orientation.Vertical)
-        self.resizeDocks([pins_dock], [380], Qt.Orientation.Horizontal)
+        self.setCorner(Qt.Corner.BottomRightCorner, Qt.DockWidgetArea.RightDockWidgetArea)
+        self.pins_dock = self._dock("Pins: readouts at points", self.pins_panel, bottom, "pinsDock")
+        self.pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel, bottom, "pocketsDock")
+        self.pins_dock.dockLocationChanged.connect(
+            lambda area: self.pins_panel.set_side_by_side(area in (bottom, Qt.DockWidgetArea.TopDockWidgetArea)))
+        self.pins_panel.set_side_by_side(True)
+        self._default_layout_pending = True
 
         self.hover_label = QLabel()
         self.hover_label.setObjectName("hoverReadout")
         self.screen_words = ScreenWords(self, self.hover_label)
+        self.progress_text = QLabel()      # what is being computed: its own label, never wrapped or cut
+        self.progress_text.setObjectName("progressText")
+        self.progress_text.setVisible(False)
         self.progress = QProgressBar()
         self.progress.setRange(0, 1000)
-        self.progress.setMaximumWidth(220)
+        self.progress.setFormat("%p%")
+        self.progress.setFixedWidth(120)
         self.progress.setVisible(False)
         self.cancel_button = QPushButton("Cancel")
         self.cancel_button.setToolTip("Stop the computation in progress (Esc)")
@@ -147,6 +157,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.field_layer = FieldLayer(self.map_view, self.document, self.analysis, self.runner, self)
         self.statusBar().addWidget(self.hover_label, 1)
         self.statusBar().addWidget(self.field_layer.readout)
+        self.statusBar().addPermanentWidget(self.progress_text)
         self.statusBar().addPermanentWidget(self.progress)
         self.statusBar().addPermanentWidget(self.cancel_button)
 
@@ -172,9 +183,38 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
             widget = holder
         dock.setWidget(widget)
         dock.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable
-                         | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
+                         | QDockWidget.DockWidgetFeature.DockWidgetFloatable
+                         | QDockWidget.DockWidgetFeature.DockWidgetClosable)
         self.addDockWidget(area, dock)
         return dock
+
+    def showEvent(self, event) -> None:
+        super().showEvent(event)
+        if self._default_layout_pending:
+            self._default_layout_pending = False
+            self.apply_default_layout()
+
+    def restoreState(self, state, version: int = LAYOUT_VERSION) -> bool:
+        """Restore a saved panel layout of this LAYOUT_VERSION (others are ignored: the default layout stays)."""
+        restored = super().restoreState(state, version)
+        if restored:
+            self._default_layout_pending = False
+        return restored
+
+    def apply_default_layout(self) -> None:
+        """Give the map most of the window: the left column just wide enough for its panels (at most 42 % of
+        the width), the pins and pockets about a quarter of the height."""
+        # Tabified only once the window is shown: tabs made before in the bottom area leave a stray tab bar.
+        self.tabifyDockWidget(self.pins_dock, self.pockets_dock)
+        self.pins_dock.raise_()
+        width, height = self.width(), self.height()
+        scroll_bar = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
+        needed = max(panel.minimumSizeHint().width() for panel in
+                     (self.equation_panel, self.domain_panel, self.data_panel, self.notes_panel, self.layers_panel))
+        left = min(round(0.42 * width), max(round(0.3 * width), needed + scroll_bar + 8))
+        self.resizeDocks([self.equation_dock], [left], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.equation_dock], [round(0.5 * height)], Qt.Orientation.Vertical)
+        self.resizeDocks([self.pins_dock], [max(190, min(320, round(0.27 * height)))], Qt.Orientation.Vertical)
 
     def _connect(self) -> None:
         d, a, m = self.document, self.analysis, self.map_view
@@ -207,8 +247,8 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         d.project_replaced.connect(self._clear_error)
         d.dirty_changed.connect(lambda dirty: dirty or self._clear_error())
         a.message.connect(self.show_notice)
-        m.clicked.connect(lambda x, y: d.add_pin(x, y))
-        m.pin_clicked.connect(self.pins_panel.select)
+        m.clicked.connect(self._pin_clicked_in)
+        m.pin_clicked.connect(self._pin_chosen)
         m.pin_moved.connect(self._pin_dragged)
         m.segment_drawn.connect(self._segment_drawn)
         m.hovered.connect(a.request_hover)
@@ -341,6 +381,16 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         if text:
             self.statusBar().showMessage(text, 8000)
 
+    def _pin_clicked_in(self, x: float, y: float) -> None:
+        """A click on the map pins the point; the new pin is selected, shown in its table and read out."""
+        if self.document.add_pin(x, y):
+            self._pin_chosen(len(self.document.project.pins) - 1)
+
+    def _pin_chosen(self, index: int) -> None:
+        self.pins_panel.select(index)
+        if self.pins_dock.isVisible() or self.pins_dock.isFloating():
+            self.pins_dock.raise_()
+
     def _pin_dragged(self, index: int, x: float, y: float, finished: bool) -> None:
         if not self._pin_drag_key:
             self._pin_drag_key = self.document.new_merge_key("pin drag")
@@ -358,12 +408,13 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
     def _progress(self, channel: str, fraction: float, label: str) -> None:
         if channel not in CHANNEL_NAMES:
             return
-        self.progress.setFormat(f"{label} %p%")
+        self.progress_text.setText(label)
         self.progress.setValue(round(1000 * fraction))
 
     def _busy(self, busy: bool) -> None:
         shown = busy and any(self.runner.is_busy(c) for c in CHANNEL_NAMES)
         self.progress.setVisible(shown)
+        self.progress_text.setVisible(shown)
         self.cancel_button.setVisible(shown)
 
     def cancel_work(self) -> None:
@@ -379,7 +430,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
             return
         self.runner.cancel()
         self.remove_recovery()
-        self.preferences.set_window_state(self.saveGeometry(), self.saveState())
+        self.preferences.set_window_state(self.saveGeometry(), self.saveState(LAYOUT_VERSION))
         event.accept()
 
     def report_error(self, title: str, text: str) -> None:

@@ -17,6 +17,7 @@ from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
 from core.analysis.classify import TypeCode
 from core.analysis.pockets import pocket_outline
 from core.project.model import Pin, Seed, ViewSettings
+from gui.label_placement import Box, place_labels
 from gui.palette import (
     FAMILY_COLOURS,
     HIGHLIGHT_COLOUR,
@@ -28,10 +29,30 @@ from gui.palette import (
 )
 from gui.qt_setup import configure_plotting
 
-__all__ = ["MapView", "MapViewBox", "polyline_with_breaks"]
+__all__ = ["FIT_MARGIN", "MapView", "MapViewBox", "fitted_ranges", "polyline_with_breaks"]
 
 PIN_GRAB_PIXELS = 9.0
 MAX_STRETCH = 4.0
+FIT_MARGIN = 0.03              # fitting leaves this share of the domain's width and height free on each side
+PIN_MARKER_PIXELS = 11
+TICK_OVERHANG_PIXELS = 40      # how far the end tick labels may reach past the axis (the plot keeps room for it)
+
+
+def fitted_ranges(box: tuple[float, float, float, float], pixels: tuple[float, float], *, to_scale: bool,
+                  margin: float = FIT_MARGIN) -> tuple[tuple[float, float], tuple[float, float]]:
+    """The (x, y) view ranges that show ``box`` (xmin, xmax, ymin, ymax) with ``margin`` on each side.
+
+    Stretched axes: exactly the box plus its margins. To scale (one length unit the same number of pixels both
+    ways, on a plot of ``pixels`` (width, height)): the direction that limits is the box plus its margins, and
+    the other is widened about the box's centre to keep the scale.
+    """
+    xmin, xmax, ymin, ymax = box
+    x_span, y_span = (xmax - xmin) * (1 + 2 * margin), (ymax - ymin) * (1 + 2 * margin)
+    if to_scale and pixels[0] > 0 and pixels[1] > 0:
+        per_pixel = max(x_span / pixels[0], y_span / pixels[1])
+        x_span, y_span = per_pixel * pixels[0], per_pixel * pixels[1]
+    cx, cy = (xmin + xmax) / 2, (ymin + ymax) / 2
+    return (cx - x_span / 2, cx + x_span / 2), (cy - y_span / 2, cy + y_span / 2)
 
 
 def polyline_with_breaks(polylines) -> tuple[np.ndarray, np.ndarray]:
@@ -94,10 +115,12 @@ class MapView(QWidget):
         configure_plotting()
         self.mode = "pin"
         self._drag_pin: int | None = None
-        self._pins: tuple[Pin, ...] = ()
+        self._pins: tuple[Pin | None, ...] = ()     # as in the project; None where of another study
+        self._given_pins: tuple[tuple[Pin, ...], tuple[bool, ...] | None] = ((), None)
         self._layers = ViewSettings()
         self._domain = None
         self.to_scale = True
+        self.fitted = False            # the view shows the fitted domain: it is fitted again when the plot resizes
 
         self.title = QLabel("Type of the equation over the domain")
         self.title.setObjectName("mapTitle")
@@ -119,6 +142,9 @@ class MapView(QWidget):
             axis.setPen(pg.mkPen("#333333"))
             axis.setTextPen(pg.mkPen("#222222"))
         self.plot.getAxis("left").setWidth(56)
+        # The end tick labels may reach past the axis; the plot keeps room on the right and top for them.
+        self.plot.getAxis("bottom").setStyle(hideOverlappingLabels=TICK_OVERHANG_PIXELS)
+        self.plot.layout.setContentsMargins(2, 8, TICK_OVERHANG_PIXELS // 2 + 4, 2)
         self.set_variables("x", "y")
 
         self.image = pg.ImageItem()
@@ -140,9 +166,13 @@ class MapView(QWidget):
         self.seed_lines.setZValue(25)
         self.preview = pg.PlotCurveItem(pen=pg.mkPen(SEGMENT_COLOUR, width=2, style=Qt.PenStyle.DashDotLine))
         self.preview.setZValue(40)
-        self.pin_markers = pg.ScatterPlotItem(size=11, symbol="o", pen=pg.mkPen("w", width=1.5),
+        self.pin_markers = pg.ScatterPlotItem(size=PIN_MARKER_PIXELS, symbol="o", pen=pg.mkPen("w", width=1.5),
                                               brush=pg.mkBrush(PIN_COLOUR))
         self.pin_markers.setZValue(30)
+        # Pins outside the current domain: a hollow ring (the readouts there extrapolate the equation).
+        self.outside_pin_markers = pg.ScatterPlotItem(size=PIN_MARKER_PIXELS, symbol="o",
+                                                      pen=pg.mkPen(PIN_COLOUR, width=2.0), brush=pg.mkBrush("w"))
+        self.outside_pin_markers.setZValue(30)
         # The chosen pocket: a broad halo under its edge (the type-change line stays drawn on top).
         self.pocket_outline = pg.PlotCurveItem(pen=pg.mkPen(HIGHLIGHT_COLOUR, width=7.0), connect="finite")
         self.pocket_outline.setZValue(9)
@@ -150,7 +180,7 @@ class MapView(QWidget):
                                               brush=pg.mkBrush(HIGHLIGHT_COLOUR))
         self.pocket_peak.setZValue(36)
         for item in (self.lines, *self.family_curves.values(), self.seed_lines, self.preview, self.pin_markers,
-                     self.pocket_outline, self.pocket_peak):
+                     self.outside_pin_markers, self.pocket_outline, self.pocket_peak):
             self.plot.addItem(item)
         self._pin_labels: list[pg.TextItem] = []
 
@@ -173,6 +203,9 @@ class MapView(QWidget):
         scene = self.plot_widget.scene()
         self._hover_proxy = pg.SignalProxy(scene.sigMouseMoved, rateLimit=30, slot=self._on_mouse_moved)
         scene.sigMouseClicked.connect(self._on_mouse_clicked)
+        self.view_box.sigResized.connect(self._plot_resized)
+        self.view_box.sigRangeChangedManually.connect(lambda *args: setattr(self, "fitted", False))
+        self.view_box.sigRangeChanged.connect(lambda *args: self.place_pin_labels())
 
     # -- what to draw ---------------------------------------------------------------------------------------
     def set_variables(self, first: str, second: str) -> None:
@@ -194,11 +227,24 @@ class MapView(QWidget):
         self.view_box.setAspectLocked(self.to_scale, ratio=1.0)
         if fit:
             self.fit_domain()
+        self.show_pins(*self._given_pins)     # which pins are outside may have changed
 
     def fit_domain(self) -> None:
-        if self._domain is not None:
-            d = self._domain
-            self.view_box.setRange(xRange=(d.xmin, d.xmax), yRange=(d.ymin, d.ymax), padding=0.02)
+        """Fill the plot with the domain and a margin of FIT_MARGIN (see fitted_ranges); the view is fitted
+        again whenever the plot changes size, until the user pans or zooms."""
+        if self._domain is None:
+            return
+        d = self._domain
+        rect = self.view_box.rect()          # the size pyqtgraph's aspect lock uses
+        x_range, y_range = fitted_ranges((d.xmin, d.xmax, d.ymin, d.ymax), (rect.width(), rect.height()),
+                                         to_scale=self.to_scale)
+        self.view_box.setRange(xRange=x_range, yRange=y_range, padding=0)
+        self.fitted = True
+
+    def _plot_resized(self, *args) -> None:
+        if self.fitted:
+            self.fit_domain()
+        self.place_pin_labels()
 
     def show_type_map(self, type_map) -> None:
         """Draw the (ny, nx) int8 codes of a core TypeMap, each pixel centred on its node."""
@@ -238,6 +284,7 @@ class MapView(QWidget):
         scale = max(min(1.0, 3.0 * max(reach_x / (vx1 - vx0), reach_y / (vy1 - vy0))),
                     1.1 * reach_x / (vx1 - vx0), 1.1 * reach_y / (vy1 - vy0))
         width, height = scale * (vx1 - vx0), scale * (vy1 - vy0)
+        self.fitted = False
         self.view_box.setRange(xRange=(point[0] - width / 2, point[0] + width / 2),
                                yRange=(point[1] - height / 2, point[1] + height / 2), padding=0)
 
@@ -267,21 +314,63 @@ class MapView(QWidget):
         x, y = polyline_with_breaks(segments)
         self.seed_lines.setData(x, y, connect="finite")
 
+    def pin_is_outside(self, pin: Pin) -> bool:
+        """Whether ``pin`` lies outside the shown domain (its readout extrapolates the equation)."""
+        d = self._domain
+        return d is not None and not (d.xmin <= pin.x <= d.xmax and d.ymin <= pin.y <= d.ymax)
+
     def show_pins(self, pins: tuple[Pin, ...], shown: tuple[bool, ...] | None = None) -> None:
-        """Draw ``pins`` (indices as in the project); ``shown`` False for pins of another study (not drawn)."""
+        """Draw ``pins`` (indices as in the project); ``shown`` False for pins of another study (not drawn).
+        Pins inside the domain are filled dots, outside it rings marked "(outside)", labels placed clear of
+        each other and of the plot's edges (gui.label_placement)."""
+        self._given_pins = (tuple(pins), shown)
         self._pins = tuple(pin if shown is None or shown[k] else None for k, pin in enumerate(pins))
         pins = [pin for pin in self._pins if pin is not None]
-        self.pin_markers.setData([p.x for p in pins], [p.y for p in pins])
+        outside = [self.pin_is_outside(pin) for pin in pins]
+        self.pin_markers.setData([p.x for p, out in zip(pins, outside) if not out],
+                                 [p.y for p, out in zip(pins, outside) if not out])
+        self.outside_pin_markers.setData([p.x for p, out in zip(pins, outside) if out],
+                                         [p.y for p, out in zip(pins, outside) if out])
         for label in self._pin_labels:
             self.plot.removeItem(label)
         self._pin_labels = []
-        for pin in pins:
-            text = pg.TextItem(pin.label, color="#222222", anchor=(-0.15, 1.1), fill=pg.mkBrush(255, 255, 255, 190))
+        for pin, out in zip(pins, outside):
+            text = pg.TextItem(f"{pin.label} (outside)" if out else pin.label, color="#222222", anchor=(0, 1),
+                               fill=pg.mkBrush(255, 255, 255, 200))
             text.setPos(pin.x, pin.y)
             text.setZValue(31)
             text.setVisible(self._layers.show_pins)
             self.plot.addItem(text)
             self._pin_labels.append(text)
+        self.place_pin_labels()
+
+    def place_pin_labels(self) -> None:
+        """Anchor each pin's label where it stays inside the plot and clear of the other labels and pins."""
+        if not self._pin_labels:
+            return
+        plot_rect = self.view_box.sceneBoundingRect()
+        if plot_rect.width() <= 0 or plot_rect.height() <= 0:
+            return
+        centres, sizes = [], []
+        for pin, label in zip((pin for pin in self._pins if pin is not None), self._pin_labels):
+            where = self.view_box.mapViewToScene(QPointF(pin.x, pin.y))
+            centres.append((where.x(), where.y()))
+            bounds = label.boundingRect()
+            sizes.append((bounds.width(), bounds.height()))
+        boxes = place_labels(centres, sizes, Box(plot_rect.left(), plot_rect.top(), plot_rect.width(),
+                                                 plot_rect.height()), marker_radius=PIN_MARKER_PIXELS / 2)
+        for label, centre, size, box in zip(self._pin_labels, centres, sizes, boxes):
+            if box is None:
+                label.setAnchor((0, 1))
+                continue
+            label.setAnchor(((centre[0] - box.left) / size[0], (centre[1] - box.top) / size[1]))
+
+    def pin_label_boxes(self) -> list[QRectF | None]:
+        """Each shown pin label's rectangle in scene pixels (None where hidden), as drawn."""
+        boxes = []
+        for label in self._pin_labels:
+            boxes.append(label.sceneBoundingRect() if label.isVisible() else None)
+        return boxes
 
     def set_layers(self, view: ViewSettings) -> None:
         self._layers = view
@@ -290,6 +379,7 @@ class MapView(QWidget):
         self.family_curves[1].setVisible(view.show_characteristics_family_1)
         self.family_curves[2].setVisible(view.show_characteristics_family_2)
         self.pin_markers.setVisible(view.show_pins)
+        self.outside_pin_markers.setVisible(view.show_pins)
         for label in self._pin_labels:
             label.setVisible(view.show_pins)
         self.seed_lines.setVisible(view.show_seed_segments)
@@ -315,7 +405,9 @@ class MapView(QWidget):
                        "&nbsp;characteristics&nbsp;1")
         entries.append(f"<span style='color:{FAMILY_COLOURS[2]}'><b>&#9476;&#9476;</b></span>"
                        "&nbsp;characteristics&nbsp;2")
-        entries.append(f"<span style='color:{PIN_COLOUR}; font-size:13pt'>&#9679;</span>&nbsp;pin")
+        entries.append(f"<span style='color:{PIN_COLOUR}; font-size:13pt'>&#9679;</span>&nbsp;pin"
+                       f"&nbsp;<span style='color:{PIN_COLOUR}; font-size:13pt'>&#9675;</span>&nbsp;outside&nbsp;"
+                       "the&nbsp;domain")
         note = " &nbsp;<span style='color:#555'>(% = share of grid nodes)</span>" if fractions is not None else ""
         self.legend.setText("&nbsp;&nbsp; ".join(entries) + note)
 

@@ -55,6 +55,8 @@ def chooser_row(label: str, choice: QComboBox, *buttons: QPushButton) -> QHBoxLa
     """``label``, the combo box taking the spare width, then the buttons: picks one item of the study."""
     row = QHBoxLayout()
     row.addWidget(QLabel(label))
+    choice.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
+    choice.setMinimumContentsLength(10)     # long names are elided, so the side panels can stay narrow
     row.addWidget(choice, 1)
     for button in buttons:
         row.addWidget(button)

@@ -118,11 +118,14 @@ class DataPanel(QWidget):
         self.reload_button = QPushButton("Reload")
         self.reload_button.setToolTip("Read the data files again (files changed on disk are read anew)")
         self.reload_button.clicked.connect(self.reload_requested)
-        buttons = QHBoxLayout()
-        for button in (self.add_button, self.remove_button, self.rename_button, self.accept_button,
-                       self.reload_button):
-            buttons.addWidget(button)
-        buttons.addStretch(1)
+        buttons = QVBoxLayout()       # two rows, so that the panel fits a narrow side column
+        for row_buttons in ((self.add_button, self.remove_button, self.reload_button),
+                            (self.rename_button, self.accept_button)):
+            row = QHBoxLayout()
+            for button in row_buttons:
+                row.addWidget(button)
+            row.addStretch(1)
+            buttons.addLayout(row)
 
         layout = QVBoxLayout(self)
         layout.addWidget(purpose)

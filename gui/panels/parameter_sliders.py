@@ -1,10 +1,11 @@
 """One slider per ranged parameter of the shown equation: dragging one moves the zones on the map live.
 
 A parameter with a minimum below its maximum gets a slider of ``SLIDER_STEPS`` steps across that range and a
-label with its value and unit. A whole drag is one undo step (one merge key from press to release), named by
-the value it ends at; the drag signals let the map switch to its faster drag mode. The wheel moves a slider
-only once it has keyboard focus (gui.widgets.SteadySlider): scrolling the panel past one changes nothing. The
-wheel and arrow-key steps of one visit to a slider (until it loses focus) are one undo step too.
+label with its value and unit; a range spanning decades gets a logarithmic slider (gui.slider_scale). A whole
+drag is one undo step (one merge key from press to release), named by the value it ends at; the drag signals
+let the map switch to its faster drag mode. The wheel moves a slider only once it has keyboard focus
+(gui.widgets.SteadySlider): scrolling the panel past one changes nothing. The wheel and arrow-key steps of one
+visit to a slider (until it loses focus) are one undo step too.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from PySide6.QtWidgets import QGridLayout, QLabel, QWidget
 
 from core.equations.equation import Equation, Parameter
 from gui.document import Document
+from gui.slider_scale import slider_scale
 from gui.widgets import SteadySlider
 
 __all__ = ["SLIDER_STEPS", "ParameterSliders", "range_note", "slider_position", "value_text"]
@@ -46,10 +48,10 @@ def _show_value(label: QLabel, parameter: Parameter) -> None:
 
 
 def slider_position(parameter: Parameter) -> int:
-    """Where the value sits on its slider, 0 to SLIDER_STEPS (clamped to the range)."""
-    span = parameter.maximum - parameter.minimum
-    fraction = (parameter.value - parameter.minimum) / span if span > 0 else 0.0
-    return round(min(1.0, max(0.0, fraction)) * SLIDER_STEPS)
+    """Where the value sits on its slider, 0 to SLIDER_STEPS (clamped to the range; logarithmic for decades)."""
+    if not parameter.maximum > parameter.minimum:
+        return 0
+    return slider_scale(parameter.minimum, parameter.maximum, SLIDER_STEPS).position_of(parameter.value)
 
 
 def _has_range(parameter: Parameter) -> bool:
@@ -90,8 +92,11 @@ class ParameterSliders(QWidget):
             slider.setObjectName(f"slider_{name}")
             slider.setRange(0, SLIDER_STEPS)
             slider.setValue(slider_position(parameter))
+            scale = slider_scale(parameter.minimum, parameter.maximum, SLIDER_STEPS)
+            slider.setProperty("logarithmic", scale.logarithmic)
             slider.setToolTip(f"{name} from {parameter.minimum:g} to {parameter.maximum:g}"
                               f"{' ' + parameter.unit if parameter.unit else ' (dimensionless)'}"
+                              f"{', logarithmic slider' if scale.logarithmic else ''}"
                               f"{': ' + parameter.description if parameter.description else ''}")
             slider.sliderPressed.connect(lambda name=name: self._pressed(name))
             slider.sliderReleased.connect(self._released)
@@ -131,7 +136,7 @@ class ParameterSliders(QWidget):
         parameter = self.document.equation.parameters.get(name)
         if parameter is None or parameter.minimum is None or parameter.maximum is None:
             return
-        value = parameter.minimum + (parameter.maximum - parameter.minimum) * position / SLIDER_STEPS
+        value = slider_scale(parameter.minimum, parameter.maximum, SLIDER_STEPS).value_at(position)
         if not self._drag_key and name not in self._step_keys:
             self._step_keys[name] = self.document.new_merge_key(f"slider {name}")
         key = self._drag_key or self._step_keys[name]

@@ -13,9 +13,10 @@ import math
 
 import numpy as np
 from PySide6.QtCore import Qt, Signal
-from PySide6.QtGui import QGuiApplication
+from PySide6.QtGui import QBrush, QColor, QGuiApplication
 from PySide6.QtWidgets import (
     QAbstractItemView,
+    QBoxLayout,
     QHeaderView,
     QLabel,
     QTableWidget,
@@ -31,9 +32,13 @@ from core.results.readable import direction_rows, point_without_noise
 from gui.document import Document
 from gui.widgets import button_row, push_button
 
-__all__ = ["TRADE_LABELS", "PinsPanel", "main_trade_text", "pins_as_text", "probe_rows", "trade_rows"]
+__all__ = ["OUTSIDE_MARK", "TRADE_LABELS", "PinsPanel", "main_trade_text", "pins_as_text", "probe_rows",
+           "trade_rows"]
 
 _COLUMNS = ("label", "x", "y", "type", "D")
+OUTSIDE_MARK = "(outside)"     # follows the type of a pin outside the current domain (greyed, with a tooltip)
+_OUTSIDE_COLOUR = QColor("#8A8A8A")
+LABEL_COLUMN_PIXELS = 200
 
 
 def _number(value, digits: int = 6) -> str:
@@ -207,8 +212,11 @@ class PinsPanel(QWidget):
         self.table = QTableWidget(0, len(_COLUMNS))
         self._label_columns()
         header = self.table.horizontalHeader()
-        header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)   # sized to what they hold
+        header.setStretchLastSection(True)
+        header.setMaximumSectionSize(LABEL_COLUMN_PIXELS)       # a long label is elided; its tooltip holds it
+        self.table.setWordWrap(False)
+        self.table.setSizeAdjustPolicy(QAbstractItemView.SizeAdjustPolicy.AdjustToContents)   # wide enough for them
         self.table.verticalHeader().setVisible(False)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
@@ -228,13 +236,17 @@ class PinsPanel(QWidget):
                                        self.copy_text)
         buttons = button_row(self.trace_button, self.delete_button, self.copy_button)
 
-        layout = QVBoxLayout(self)
-        layout.addWidget(purpose)
-        layout.addWidget(self.table, 1)
-        layout.addLayout(buttons)
-        layout.addWidget(self.details, 2)
+        listing = QVBoxLayout()
+        listing.setContentsMargins(0, 0, 0, 0)
+        listing.addWidget(purpose)
+        listing.addWidget(self.table, 1)
+        listing.addLayout(buttons)
+        self.body = QBoxLayout(QBoxLayout.Direction.TopToBottom, self)
+        self.body.addLayout(listing, 1)
+        self.body.addWidget(self.details, 2)
         document.pins_changed.connect(self.refresh)
         document.equation_changed.connect(self._label_columns)
+        document.domain_changed.connect(self.refresh)
         document.equation_changed.connect(self._show_details)
         self.refresh()
 
@@ -247,6 +259,20 @@ class PinsPanel(QWidget):
     def set_trade_readouts(self, readouts) -> None:
         """Trade readouts (core.equations.trade dicts, or a reason as text), one per pin; shown with the next results."""
         self.trades = tuple(readouts or ())
+
+    def set_side_by_side(self, side_by_side: bool) -> None:
+        """The readout beside the table (a wide, low panel under the map) or under it (a tall side panel)."""
+        self.body.setDirection(QBoxLayout.Direction.LeftToRight if side_by_side
+                               else QBoxLayout.Direction.TopToBottom)
+        self.details.setMinimumHeight(0 if side_by_side else 180)
+        self.body.setStretch(0, 0 if side_by_side else 1)     # side by side: the table as wide as its columns
+        self.body.setStretch(1, 1 if side_by_side else 2)
+        self.details.setMinimumWidth(200 if side_by_side else 0)
+
+    def is_outside(self, index: int) -> bool:
+        """Whether pin ``index`` lies outside the current domain (its readout extrapolates the equation)."""
+        pin, d = self.document.project.pins[index], self.document.domain
+        return not (d.xmin <= pin.x <= d.xmax and d.ymin <= pin.y <= d.ymax)
 
     def _variables(self) -> tuple[str, str]:
         return tuple(self.document.equation.variables)  # type: ignore[return-value]
@@ -271,13 +297,21 @@ class PinsPanel(QWidget):
                 result = self.results[row] if row < len(self.results) else None
                 matches = result is not None and np.allclose(getattr(result, "point", (np.nan, np.nan)),
                                                              (pin.x, pin.y))
+                outside = self.is_outside(row)
                 kind = _type_label(result) if matches else "…"
+                kind = f"{kind} {OUTSIDE_MARK}" if outside else kind
                 d = _number(getattr(result, "discriminant", math.nan)) if matches else "…"
                 x, y = point_without_noise((pin.x, pin.y), domain)
                 for column, text in enumerate((pin.label, f"{x:.6g}", f"{y:.6g}", kind, d)):
                     item = QTableWidgetItem(text)
                     if column >= 3:
                         item.setFlags(item.flags() & ~Qt.ItemFlag.ItemIsEditable)
+                    if column == 0:
+                        item.setToolTip(pin.label)
+                    if outside:
+                        item.setForeground(QBrush(_OUTSIDE_COLOUR))
+                        item.setToolTip(f"{pin.label} lies outside the domain “{self.document.domain.name}”: "
+                                        "its readout extrapolates the equation")
                     self.table.setItem(row, column, item)
         finally:
             self._updating = False
@@ -294,8 +328,10 @@ class PinsPanel(QWidget):
         return rows[0].row() if rows else -1
 
     def select(self, index: int) -> None:
+        """Select pin ``index``, scroll its row into view and show its readout."""
         if 0 <= index < self.table.rowCount():
             self.table.selectRow(index)
+            self.table.scrollToItem(self.table.item(index, 0), QAbstractItemView.ScrollHint.EnsureVisible)
 
     def _selected(self) -> None:
         self._show_details()
