@@ -26,20 +26,22 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-import core
 from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
+from gui.computation_log import ComputationLog
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.document import Document
 from gui.export_commands import ExportCommands
 from gui.file_commands import FileCommands
+from gui.help import ABOUT_TEXT, CAUTION
 from gui.jobs import JobRunner
 from gui.map_view import MAX_STRETCH, MapView
 from gui.panels.data import DataPanel
 from gui.panels.domain import DomainPanel
 from gui.panels.equation import EquationPanel
 from gui.panels.layers import LayersPanel
+from gui.panels.log import LogPanel
 from gui.panels.notes import NotesPanel
 from gui.panels.pins import PinsPanel, main_trade_text
 from gui.panels.pockets import PocketsPanel
@@ -50,14 +52,6 @@ from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "MainWindow"]
 
-CAUTION = ("Mixtype is an aid for analysing model equations; it validates no design. For engineering "
-           "decisions, rely on validated solvers, the applicable codes and standards, and licensed "
-           "professional judgement.")
-ABOUT_TEXT = (f"<h3>Mixtype</h3><p>Version {core.__version__}</p>"
-              "<p>Maps where a second-order equation a u<sub>xx</sub> + b u<sub>xy</sub> + "
-              "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
-              "changes, reads single points and traces characteristic curves.</p>"
-              f"<p><b>Caution.</b> {CAUTION}</p>")
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add")
 
 
@@ -73,8 +67,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         if path is not None:
             self.document.set_path(path)
         self.runner = JobRunner(self, synchronous=synchronous)
+        self.computation_log = ComputationLog(self.document, self.runner, self)
         self.analysis = StudyAnalysis(self.document, self.runner, self)
         self.data_loader = DataLoader(self.document, self.runner, self)
+        self.computation_log.follow(self.analysis, self.data_loader)
         self._pin_drag_key = ""
 
         self.map_view = MapView()
@@ -117,6 +113,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.setCorner(Qt.Corner.BottomRightCorner, right)
         pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel,
                                   Qt.DockWidgetArea.BottomDockWidgetArea, "pocketsDock")
+        log_dock = self._dock("Log of computations", LogPanel(self.computation_log),
+                              Qt.DockWidgetArea.BottomDockWidgetArea, "logDock")
+        self.tabifyDockWidget(pockets_dock, log_dock)
+        pockets_dock.raise_()
         self.resizeDocks([pockets_dock], [150], Qt.Orientation.Vertical)
         self.resizeDocks([pins_dock], [380], Qt.Orientation.Horizontal)
 
@@ -355,6 +355,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
     def cancel_work(self) -> None:
         """Stop every background computation; what is on screen stays."""
         if self.runner.is_busy():
+            self.computation_log.note_user_cancel()
             self.runner.cancel()
             self.statusBar().showMessage("Computation cancelled; the map shows the last finished result.", 6000)
 
@@ -373,5 +374,3 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         if QApplication.platformName() != "offscreen":
             QMessageBox.warning(self, title, text)
 
-    def show_about(self) -> None:
-        QMessageBox.about(self, "About Mixtype", ABOUT_TEXT)
