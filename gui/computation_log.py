@@ -272,7 +272,9 @@ def _now() -> str:
 def _result_text(channel: str, result: object, *, dragging: bool) -> str:
     """A few words on what a finished job found."""
     if channel == "map":
-        shares = ", ".join(f"{name} {100 * share:.1f} %" for name, share in result.fractions.items() if share > 0)
+        order = {name: place for place, name in enumerate(("elliptic", "hyperbolic", "parabolic", "undefined"))}
+        named = sorted(result.fractions.items(), key=lambda item: order.get(item[0], len(order)))
+        shares = ", ".join(f"{name} {100 * share:.1f} %" for name, share in named if share > 0)
         return shares + ("; during a slider drag" if dragging else "")
     if channel == "lines":
         if result is None:

@@ -105,6 +105,8 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock")
         self.tabifyDockWidget(domain_dock, self.data_dock)
         self.tabifyDockWidget(domain_dock, notes_dock)
+        log_dock = self._dock("Log of computations", LogPanel(self.computation_log), left, "logDock")
+        self.tabifyDockWidget(domain_dock, log_dock)
         domain_dock.raise_()
         pins_dock = self._dock("Pins: readouts at points", self.pins_panel, right, "pinsDock")
         self._dock("Layers and mouse tool", self.layers_panel, right, "layersDock", scroll=True)
@@ -113,10 +115,6 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.setCorner(Qt.Corner.BottomRightCorner, right)
         pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel,
                                   Qt.DockWidgetArea.BottomDockWidgetArea, "pocketsDock")
-        log_dock = self._dock("Log of computations", LogPanel(self.computation_log),
-                              Qt.DockWidgetArea.BottomDockWidgetArea, "logDock")
-        self.tabifyDockWidget(pockets_dock, log_dock)
-        pockets_dock.raise_()
         self.resizeDocks([pockets_dock], [150], Qt.Orientation.Vertical)
         self.resizeDocks([pins_dock], [380], Qt.Orientation.Horizontal)
 
