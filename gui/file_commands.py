@@ -13,6 +13,7 @@ from PySide6.QtGui import QAction
 from PySide6.QtWidgets import QFileDialog, QMessageBox
 
 from core.project.data_files import outside_data_paths
+from gui.computation_log import recovery_log_path
 from gui.project_bridge import (
     PROJECT_FILTER,
     ProjectFileError,
@@ -165,18 +166,19 @@ class FileCommands:
 
     # -- autosave and recovery ------------------------------------------------------------------------------
     def autosave(self) -> bool:
-        """Write unsaved edits to the recovery file (never to the study's own file)."""
+        """Write unsaved edits to the recovery file (never to the study's own file), the log beside it."""
         if not self.document.is_dirty:
             return False
         try:
             save_project_file(self.document.project, self.preferences.recovery_path)
-        except ProjectFileError as error:
+            self.computation_log.write(recovery_log_path(self.preferences.recovery_path))
+        except (ProjectFileError, OSError) as error:
             self.statusBar().showMessage(f"Autosave failed: {error}", 8000)
             return False
         return True
 
     def remove_recovery(self) -> None:
-        for path in (self.preferences.recovery_path,
+        for path in (self.preferences.recovery_path, recovery_log_path(self.preferences.recovery_path),
                      self.preferences.recovery_path.with_name(self.preferences.recovery_path.name + ".backup")):
             path.unlink(missing_ok=True)
 
@@ -194,5 +196,6 @@ class FileCommands:
             self.remove_recovery()
             return False
         self.document.replace_project(project, None, dirty=True)
+        self.computation_log.restore(recovery_log_path(path))
         self._after_replace()
         return True

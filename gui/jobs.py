@@ -57,6 +57,7 @@ class _Job:
 class JobRunner(QObject):
     """Runs numbered jobs per channel in worker threads; see the module docstring for the policies."""
 
+    started = Signal(str, int, str)         # channel, job number, label: the job begins to run
     finished = Signal(str, int, object)     # channel, job number, result
     failed = Signal(str, int, str)          # channel, job number, message
     cancelled = Signal(str, int)            # channel, job number
@@ -173,6 +174,7 @@ class JobRunner(QObject):
         self._active[job.number] = job
         thread = threading.Thread(target=self._execute, args=(job,), name=f"mixtype-{job.channel}",
                                   daemon=True)
+        self.started.emit(job.channel, job.number, job.label)
         thread.start()
         if not was_busy:
             self.busy_changed.emit(True)
@@ -206,6 +208,7 @@ class JobRunner(QObject):
 
     def _run_now(self, job: _Job) -> None:
         self._labels[job.channel] = job.label
+        self.started.emit(job.channel, job.number, job.label)
 
         def progress(fraction: float) -> None:
             self.progressed.emit(job.channel, float(fraction), job.label)

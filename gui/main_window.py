@@ -23,26 +23,28 @@ from PySide6.QtWidgets import (
     QProgressBar,
     QPushButton,
     QScrollArea,
-    QVBoxLayout,
     QStyle,
+    QVBoxLayout,
     QWidget,
 )
 
-import core
 from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
+from gui.computation_log import ComputationLog
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.document import Document
 from gui.export_commands import ExportCommands
 from gui.field_layer import FieldLayer
 from gui.file_commands import FileCommands
+from gui.help import ABOUT_TEXT, CAUTION
 from gui.jobs import JobRunner
 from gui.map_view import MAX_STRETCH, MapView
 from gui.panels.data import DataPanel
 from gui.panels.domain import DomainPanel
 from gui.panels.equation import EquationPanel
 from gui.panels.layers import LayersPanel
+from gui.panels.log import LogPanel
 from gui.panels.notes import NotesPanel
 from gui.panels.pins import PinsPanel
 from gui.panels.pockets import PocketsPanel
@@ -57,14 +59,6 @@ __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
 LAYOUT_VERSION = 2     # saved panel layouts of other versions are not restored (version 2: the map comes first)
 
-CAUTION = ("Mixtype is an aid for analysing model equations; it validates no design. For engineering "
-           "decisions, rely on validated solvers, the applicable codes and standards, and licensed "
-           "professional judgement.")
-ABOUT_TEXT = (f"<h3>Mixtype</h3><p>Version {core.__version__}</p>"
-              "<p>Maps where a second-order equation a u<sub>xx</sub> + b u<sub>xy</sub> + "
-              "c u<sub>yy</sub> = 0 is elliptic, parabolic or hyperbolic, finds the lines where its type "
-              "changes, reads single points and traces characteristic curves.</p>"
-              f"<p><b>Caution.</b> {CAUTION}</p>")
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add")
 
 
@@ -80,8 +74,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         if path is not None:
             self.document.set_path(path)
         self.runner = JobRunner(self, synchronous=synchronous)
+        self.computation_log = ComputationLog(self.document, self.runner, self)
         self.analysis = StudyAnalysis(self.document, self.runner, self)
         self.data_loader = DataLoader(self.document, self.runner, self)
+        self.computation_log.follow(self.analysis, self.data_loader)
         self._pin_drag_key = ""
 
         self.map_view = MapView()
@@ -126,7 +122,9 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock", scroll=True)
         notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock", scroll=True)
         self.layers_dock = self._dock("Layers and mouse tool", self.layers_panel, left, "layersDock", scroll=True)
-        for dock in (self.data_dock, notes_dock, self.layers_dock):
+        log_dock = self._dock("Log of computations", LogPanel(self.computation_log), left, "logDock",
+                              scroll=True)
+        for dock in (self.data_dock, notes_dock, self.layers_dock, log_dock):
             self.tabifyDockWidget(domain_dock, dock)
         domain_dock.raise_()
         # The left column runs the full height; the pins and pockets sit under the map only.
@@ -420,6 +418,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
     def cancel_work(self) -> None:
         """Stop every background computation; what is on screen stays."""
         if self.runner.is_busy():
+            self.computation_log.note_user_cancel()
             self.runner.cancel()
             self.statusBar().showMessage("Computation cancelled; the map shows the last finished result.", 6000)
 
@@ -444,6 +443,3 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         """A successful action (an edit, undo, save, another study) retires the last failure's notice."""
         if self._error_shown:
             self.show_notice("")
-
-    def show_about(self) -> None:
-        QMessageBox.about(self, "About Mixtype", ABOUT_TEXT)

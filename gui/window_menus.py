@@ -1,7 +1,9 @@
 """The window's menus and shortcuts: File, Edit, View and Help, built from the window's commands.
 
 A mixin of gui.main_window.MainWindow: ``_build_actions`` runs once in its constructor, after the panels
-exist (several actions act on them); ``_action`` makes one QAction for any slot.
+exist (several actions act on them); ``_action`` makes one QAction for any slot. The View menu shows or hides
+every panel (each can be closed, and its entry is ticked while it is shown); the Help menu's windows are
+gui.help's; gui.window_shortcuts keeps Ctrl+E working whatever widget has focus.
 """
 
 from __future__ import annotations
@@ -9,8 +11,11 @@ from __future__ import annotations
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import QDockWidget
 
+import core
 from gui.export_commands import TABLES
+from gui.help import WindowHelp
 from gui.widgets import scope_shortcut
+from gui.window_shortcuts import WindowWideShortcuts
 
 __all__ = ["WindowMenus"]
 
@@ -88,9 +93,27 @@ class WindowMenus:
         view.addAction(self.cancel_action)
         self.addAction(self.cancel_action)
         view.addSeparator()
+        self.panel_actions = {}
         for dock in self.findChildren(QDockWidget):
-            view.addAction(dock.toggleViewAction())
+            # A panel that cannot be closed has its View entry greyed out: closable, the entry shows or hides it.
+            dock.setFeatures(dock.features() | QDockWidget.DockWidgetFeature.DockWidgetClosable)
+            toggle = dock.toggleViewAction()
+            toggle.setStatusTip(f"Show or hide the panel “{dock.windowTitle()}”")
+            self.panel_actions[dock.objectName()] = toggle
+            view.addAction(toggle)
 
+        self.help = WindowHelp(self)
         help_menu = self.menuBar().addMenu("&Help")
-        help_menu.addAction(self._action("&About Mixtype", self.show_about, shortcut=keys.HelpContents))
+        self.guide_action = self._action("User &guide", self.help.show_guide, shortcut=keys.HelpContents,
+                                         tip="What Mixtype answers and how to use the window (works offline)")
+        help_menu.addAction(self.guide_action)
+        help_menu.addAction(self._action("&Keyboard shortcuts", self.help.show_shortcuts,
+                                         tip="Every key the window answers to"))
+        help_menu.addSeparator()
+        help_menu.addAction(self._action("What the results are &for (caution)", self.help.show_caution))
+        help_menu.addAction(self._action(f"Copy &version details (Mixtype {core.__version__})",
+                                         self.help.copy_version,
+                                         tip="Mixtype's version and its libraries', for a bug report"))
+        help_menu.addAction(self._action("&About Mixtype", self.help.show_about))
+        self.window_wide_shortcuts = WindowWideShortcuts(self, [self.export_picture_action])
         self._refresh_recent_menu()
