@@ -122,8 +122,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock", scroll=True)
         notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock", scroll=True)
         self.layers_dock = self._dock("Layers and mouse tool", self.layers_panel, left, "layersDock", scroll=True)
-        log_dock = self._dock("Log of computations", LogPanel(self.computation_log), left, "logDock",
-                              scroll=True)
+        log_dock = self._dock("Log of computations", LogPanel(self.computation_log), left, "logDock")
         for dock in (self.data_dock, notes_dock, self.layers_dock, log_dock):
             self.tabifyDockWidget(domain_dock, dock)
         domain_dock.raise_()
