@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import csv
 import math
+from collections import Counter
 from collections.abc import Iterator
 
 import numpy as np
@@ -128,7 +129,7 @@ def _check_header(path: str, header: list[str], line: int) -> None:
     empty = [k + 1 for k, name in enumerate(header) if not name]
     if empty:
         raise DataError(f"{path}: the header (line {line}) has an empty column name (column {empty[0]})")
-    duplicates = sorted({name for name in header if header.count(name) > 1})
+    duplicates = sorted(name for name, times in Counter(header).items() if times > 1)   # linear in columns
     if duplicates:
         raise DataError(f"{path}: the header names column(s) {', '.join(duplicates)} more than once")
 
