@@ -118,11 +118,11 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         left, bottom = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.BottomDockWidgetArea
         self.equation_dock = self._dock("Equation: coefficients, definitions, parameters", self.equation_panel,
                                         left, "equationDock", scroll=True)
-        domain_dock = self._dock("Domain and grid", self.domain_panel, left, "domainDock", scroll=True)
-        self.data_dock = self._dock("Data files", self.data_panel, left, "dataDock", scroll=True)
+        domain_dock = self._dock("Domain", self.domain_panel, left, "domainDock", scroll=True)
+        self.data_dock = self._dock("Data", self.data_panel, left, "dataDock", scroll=True)
         notes_dock = self._dock("Notes", self.notes_panel, left, "notesDock", scroll=True)
-        self.layers_dock = self._dock("Layers and mouse tool", self.layers_panel, left, "layersDock", scroll=True)
-        log_dock = self._dock("Log of computations", LogPanel(self.computation_log), left, "logDock")
+        self.layers_dock = self._dock("Layers", self.layers_panel, left, "layersDock", scroll=True)
+        log_dock = self._dock("Log", LogPanel(self.computation_log), left, "logDock")
         for dock in (self.data_dock, notes_dock, self.layers_dock, log_dock):
             self.tabifyDockWidget(domain_dock, dock)
         domain_dock.raise_()
@@ -337,7 +337,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.data_notice.setVisible(bool(text))
         if text:
             self.statusBar().showMessage(text, 8000)
-        self.data_dock.setWindowTitle(f"Data files ({len(loaded.statuses)})" if loaded.statuses else "Data files")
+        self.data_dock.setWindowTitle(f"Data ({len(loaded.statuses)})" if loaded.statuses else "Data")
 
     # -- templates ------------------------------------------------------------------------------------------
     def choose_template(self) -> TemplateChoice | None:
