@@ -1,0 +1,234 @@
+"""Adaptive refinement of a certified type map: a quadtree over the domain, refined only where undecided.
+
+The domain is cut into about 16 square-ish cells along its shorter side; at each level every cell of the
+frontier is enclosed at once (core.certify.discriminant_bounds, in batches that bound the memory), cells that
+hold one type for certain are kept as proven, and the undecided ones are split in four until they are decided,
+reach the minimum size (``min_cell``, by default 1e-4 of the shorter side) or the cell budget (``max_cells``
+cells enclosed in all) is spent. Cell edges are computed from integer positions (x_min + width * i / N), so
+neighbouring cells share their edges to the bit and the cells tile the domain.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, TypeMap
+from core.certify.discriminant_bounds import DiscriminantEncloser, possible_types
+from core.certify.enclosure import Boxes, DataRange
+from core.certify.intervals import Interval
+from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies
+from core.domain import Domain
+from core.equations.compiled import CompiledEquation
+from core.progress import CancelCheck, Cancelled, ProgressReport
+
+__all__ = ["DEFAULT_MAX_CELLS", "DEFAULT_MIN_CELL_FRACTION", "CertifiedCells", "CertifiedMap", "LevelReport",
+           "certify_map"]
+
+DEFAULT_MIN_CELL_FRACTION = 1e-4     # of the domain's shorter side
+DEFAULT_MAX_CELLS = 4_000_000        # cells enclosed in all
+_BASE_CELLS = 16                     # along the shorter side at level 0
+_MAX_BASE_CELLS = 1024               # along the longer side at level 0
+_MAX_POSITION_BITS = 30              # integer positions stay below 2**30 (pairs of them fit in int64)
+_BATCH = 1 << 15                     # cells enclosed at once (memory: about 2 kB a cell for the formula flow)
+
+
+@dataclass(frozen=True)
+class LevelReport:
+    """One level of the quadtree: its cell size (in the variables' units), how many cells it enclosed and the
+    undecided area left after it (cells not yet split, plus those left undecided for good)."""
+
+    level: int
+    cell_width: float
+    cell_height: float
+    cells: int
+    undecided_area: float
+
+
+@dataclass(frozen=True, eq=False)
+class CertifiedCells:
+    """The leaves of the quadtree: edges (n,) each, the types each may hold (uint8 bit mask, bit 1 << TypeCode)
+    and integer positions [i0, i1) x [j0, j1) on the finest level's lattice (for adjacency)."""
+
+    x0: np.ndarray
+    x1: np.ndarray
+    y0: np.ndarray
+    y1: np.ndarray
+    types: np.ndarray
+    i0: np.ndarray
+    i1: np.ndarray
+    j0: np.ndarray
+    j1: np.ndarray
+
+    @property
+    def areas(self) -> np.ndarray:
+        return (self.x1 - self.x0) * (self.y1 - self.y0)
+
+    @property
+    def decided(self) -> np.ndarray:
+        """Cells holding exactly one type for certain."""
+        return (self.types & (self.types - 1)) == 0
+
+
+@dataclass(frozen=True, eq=False)
+class CertifiedMap:
+    """The certified type map of one study.
+
+    ``area`` maps each type name to [proven area, proven plus undecided area] (units of the variables'
+    product); ``undecided_area`` is the area of cells holding more than one possible type; ``cells`` the
+    number of cells enclosed in all (what ``max_cells`` limits); ``budget_reached`` whether it stopped the
+    refinement; ``dependency_form`` which enclosure of D was used.
+    """
+
+    domain: Domain
+    tolerance: float
+    min_cell: float
+    max_cells: int
+    leaves: CertifiedCells
+    area: Mapping[str, tuple[float, float]]
+    undecided_area: float
+    cells: int
+    budget_reached: bool
+    levels: tuple[LevelReport, ...]
+    pockets: tuple[CertifiedPocket, ...]
+    tangencies: tuple[Tangency, ...]
+    dependency_form: str
+
+
+def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mapping[str, float] | None = None,
+                data_range: DataRange | None = None, tolerance: float = DEFAULT_TOLERANCE,
+                min_cell: float | None = None, max_cells: int = DEFAULT_MAX_CELLS,
+                sampled: TypeMap | None = None, cancel: CancelCheck | None = None,
+                progress: ProgressReport | None = None) -> CertifiedMap:
+    """Certify where each type can and cannot be over ``domain`` (its rectangle; its grid is not used).
+
+    ``min_cell`` is the smallest cell side refined (default DEFAULT_MIN_CELL_FRACTION of the shorter side);
+    ``max_cells`` bounds the cells enclosed in all; ``sampled`` (the sampled map of the same study) marks the
+    pockets it misses. ``data_range`` gives the range of a data quantity over cells (core.data.sources
+    DataSources.value_range). ``cancel`` is polled between batches; ``progress`` gets the fraction of levels done.
+    """
+    if not 0.0 <= float(tolerance) < 1.0:
+        raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance}")
+    width, height = domain.xmax - domain.xmin, domain.ymax - domain.ymin
+    shorter = min(width, height)
+    if min_cell is None:
+        min_cell = DEFAULT_MIN_CELL_FRACTION * shorter
+    if not (math.isfinite(min_cell) and min_cell > 0):
+        raise ValueError(f"minimum cell size must be a positive number, got {min_cell}")
+    if isinstance(max_cells, bool) or not isinstance(max_cells, int) or max_cells < 1:
+        raise ValueError(f"cell budget must be a positive integer, got {max_cells!r}")
+    encloser = DiscriminantEncloser(compiled, parameters=parameters, data_range=data_range)
+    nx = int(min(_MAX_BASE_CELLS, max(1, round(_BASE_CELLS * width / shorter))))
+    ny = int(min(_MAX_BASE_CELLS, max(1, round(_BASE_CELLS * height / shorter))))
+    base_size = max(width / nx, height / ny)
+    deepest = max(0, math.ceil(math.log2(base_size / min_cell))) if base_size > min_cell else 0
+    deepest = min(deepest, _MAX_POSITION_BITS - max(nx, ny).bit_length())
+    ix, iy = np.meshgrid(np.arange(nx, dtype=np.int64), np.arange(ny, dtype=np.int64))
+    ix, iy = ix.ravel(), iy.ravel()
+    leaves: list[tuple[int, np.ndarray, np.ndarray, np.ndarray]] = []
+    levels: list[LevelReport] = []
+    enclosed = 0
+    budget_reached = False
+    total_area = width * height
+    decided_area = 0.0
+    for level in range(deepest + 1):
+        if cancel is not None and cancel():
+            raise Cancelled("certification cancelled")
+        scale_x, scale_y = nx << level, ny << level
+        types = _enclose_level(encloser, domain, ix, iy, scale_x, scale_y, tolerance, cancel)
+        enclosed += ix.size
+        decided = (types & (types - 1)) == 0
+        cell_area = total_area / (scale_x * scale_y)
+        decided_area += float(np.count_nonzero(decided)) * cell_area
+        leaves.append((level, ix[decided], iy[decided], types[decided]))
+        ix, iy, types = ix[~decided], iy[~decided], types[~decided]
+        levels.append(LevelReport(level=level, cell_width=width / scale_x, cell_height=height / scale_y,
+                                  cells=int(decided.size), undecided_area=max(0.0, total_area - decided_area)))
+        if progress is not None:
+            progress((level + 1) / (deepest + 1))
+        if not ix.size or level == deepest:
+            leaves.append((level, ix, iy, types))
+            break
+        affordable = max(0, (max_cells - enclosed) // 4)
+        if affordable < ix.size:
+            budget_reached = True
+            leaves.append((level, ix[affordable:], iy[affordable:], types[affordable:]))
+            ix, iy = ix[:affordable], iy[:affordable]
+            if not ix.size:
+                break
+        ix = (2 * ix[:, None] + np.array([0, 1, 0, 1])).ravel()
+        iy = (2 * iy[:, None] + np.array([0, 0, 1, 1])).ravel()
+    cells = _leaves(domain, nx, ny, leaves)
+    area = _areas(cells)
+    undecided = float(cells.areas[~cells.decided].sum())
+    return CertifiedMap(domain=domain, tolerance=float(tolerance), min_cell=float(min_cell), max_cells=max_cells,
+                        leaves=cells, area=area, undecided_area=undecided, cells=enclosed,
+                        budget_reached=budget_reached, levels=tuple(levels),
+                        pockets=find_pockets(cells, sampled), tangencies=find_tangencies(cells),
+                        dependency_form=encloser.dependency_form)
+
+
+def _edges(low: float, high: float, index: np.ndarray, count: int) -> np.ndarray:
+    """low + (high - low) * index / count, exactly ``high`` at index == count (shared by neighbours)."""
+    return np.where(index == count, high, low + (high - low) * (index / count))
+
+
+def _boxes(domain: Domain, ix: np.ndarray, iy: np.ndarray, scale_x: int, scale_y: int) -> Boxes:
+    return Boxes(_edges(domain.xmin, domain.xmax, ix, scale_x), _edges(domain.xmin, domain.xmax, ix + 1, scale_x),
+                 _edges(domain.ymin, domain.ymax, iy, scale_y), _edges(domain.ymin, domain.ymax, iy + 1, scale_y))
+
+
+def _enclose_level(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray,
+                   scale_x: int, scale_y: int, tolerance: float, cancel: CancelCheck | None) -> np.ndarray:
+    """The possible-type masks of the cells (ix, iy) of one level, in batches; the mean-value form only for
+    cells the natural enclosure leaves undecided."""
+    types = np.empty(ix.size, dtype=np.uint8)
+    for start in range(0, ix.size, _BATCH):
+        if cancel is not None and cancel():
+            raise Cancelled("certification cancelled")
+        part = slice(start, min(ix.size, start + _BATCH))
+        boxes = _boxes(domain, ix[part], iy[part], scale_x, scale_y)
+        d, s = encloser.natural(boxes)
+        mask = possible_types(d, s, tolerance)
+        if encloser.sharpened:
+            open_cells = np.flatnonzero(((mask & (mask - 1)) != 0) & ~np.broadcast_to(d.maybe_undefined, mask.shape))
+            if open_cells.size:
+                sub = Boxes(boxes.x0[open_cells], boxes.x1[open_cells], boxes.y0[open_cells], boxes.y1[open_cells])
+                d_sub, s_sub = (_taken(v, open_cells, mask.size) for v in (d, s))
+                mask[open_cells] = possible_types(encloser.sharpen(sub, d_sub), s_sub, tolerance)
+        types[part] = mask
+    return types
+
+
+def _taken(value: Interval, index: np.ndarray, size: int) -> Interval:
+    """The cells ``index`` of an Interval over ``size`` cells (constants broadcast first)."""
+    return Interval(*(np.broadcast_to(part, (size,))[index] for part in (value.lo, value.hi, value.maybe_undefined,
+                                                                        value.surely_undefined)))
+
+
+def _leaves(domain: Domain, nx: int, ny: int, leaves) -> CertifiedCells:
+    finest = max(level for level, *_ in leaves)
+    parts = {key: [] for key in ("x0", "x1", "y0", "y1", "types", "i0", "i1", "j0", "j1")}
+    for level, ix, iy, types in leaves:
+        shift = finest - level
+        scale_x, scale_y = nx << level, ny << level
+        boxes = _boxes(domain, ix, iy, scale_x, scale_y)
+        for key, value in (("x0", boxes.x0), ("x1", boxes.x1), ("y0", boxes.y0), ("y1", boxes.y1),
+                           ("types", types), ("i0", ix << shift), ("i1", (ix + 1) << shift),
+                           ("j0", iy << shift), ("j1", (iy + 1) << shift)):
+            parts[key].append(np.asarray(value))
+    return CertifiedCells(**{key: np.concatenate(value) for key, value in parts.items()})
+
+
+def _areas(cells: CertifiedCells) -> dict[str, tuple[float, float]]:
+    areas = cells.areas
+    result = {}
+    for code in (TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED):
+        bit = 1 << int(code)
+        proven = float(areas[cells.types == bit].sum())
+        possible = float(areas[(cells.types & bit) != 0].sum())
+        result[code.label] = (proven, possible)
+    return result
