@@ -6,8 +6,9 @@ two flags: ``maybe_undefined`` (somewhere in the cell a step of the typed text m
 by 0, a logarithm of a negative number, an overflow) and ``surely_undefined`` (undefined at every point of
 the cell; then lo = -inf and hi = +inf). Constants are 0-d arrays, so parameter-only parts cost nothing per
 cell. Every computed bound is rounded outward: sums and products through error-free transformations
-(TwoSum, Dekker's TwoProduct), so a result that is exact stays exact (0 + 0 is [0, 0], which keeps proofs
-of D = 0), other results one step of ``np.nextafter`` outward. Bounds beyond ``LARGEST_SAFE`` mark the
+(TwoSum; Dekker's TwoProduct for constants), so a result that is exact stays exact (0 + 0 is [0, 0], which
+keeps proofs of D = 0), products with a zero or power-of-two factor too, other results one step of
+``np.nextafter`` outward. Bounds beyond ``LARGEST_SAFE`` mark the
 value maybe undefined: double-precision evaluation overflows there.
 Method: R. E. Moore, "Interval Analysis" (1966); Moore, Kearfott and Cloud, "Introduction to Interval
 Analysis" (SIAM 2009), chapters 2 to 5.
@@ -98,25 +99,38 @@ def _sum_bounds(p, q) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _product_bounds(p, q) -> tuple[np.ndarray, np.ndarray]:
-    """(lower, upper) bounds of the exact p * q (Dekker's TwoProduct where it is exact, else one step
-    outward); a product with a zero factor is exactly 0, even with an infinite other factor (the bounds of
-    a set of finite values)."""
+    """(lower, upper) bounds of the exact p * q: one step outward from the rounded product, except where it is
+    exact: a zero factor (exactly 0, even beside an infinite factor: the bounds of a set of finite values),
+    a power-of-two factor (only the exponent changes), and Dekker's TwoProduct for constants."""
     with np.errstate(all="ignore"):
         product = np.multiply(p, q)
+        if np.ndim(p) == 0 and np.ndim(q) == 0:
+            return _exact_product_bounds(p, q, product)
+        lower, upper = down(product), up(product)
+        for factor in (p, q):
+            if np.ndim(factor) == 0 and np.isfinite(factor) and np.frexp(factor)[0] in (0.5, -0.5):
+                exact = np.abs(product) >= 2.0 ** -1021       # no underflow: exact
+                lower, upper = np.where(exact, product, lower), np.where(exact, product, upper)
         zero = (p == 0) | (q == 0)
-        c = _SPLIT * p
-        p_high = c - (c - p)
-        p_low = p - p_high
-        c = _SPLIT * q
-        q_high = c - (c - q)
-        q_low = q - q_high
-        error = ((p_high * q_high - product) + p_high * q_low + p_low * q_high) + p_low * q_low
-        safe = (np.abs(p) < _SPLIT_SAFE) & (np.abs(q) < _SPLIT_SAFE) & (np.abs(product) > _TINY_PRODUCT)
-        lower = np.where(safe & (error >= 0), product, down(product))
-        upper = np.where(safe & (error <= 0), product, up(product))
-        lower = np.where(zero, 0.0, lower)
-        upper = np.where(zero, 0.0, upper)
+        if np.any(zero):
+            lower, upper = np.where(zero, 0.0, lower), np.where(zero, 0.0, upper)
     return lower, upper
+
+
+def _exact_product_bounds(p, q, product) -> tuple[np.ndarray, np.ndarray]:
+    """Bounds of p * q from Dekker's TwoProduct (its error term says which way the rounding went)."""
+    c = _SPLIT * p
+    p_high = c - (c - p)
+    p_low = p - p_high
+    c = _SPLIT * q
+    q_high = c - (c - q)
+    q_low = q - q_high
+    error = ((p_high * q_high - product) + p_high * q_low + p_low * q_high) + p_low * q_low
+    safe = (np.abs(p) < _SPLIT_SAFE) & (np.abs(q) < _SPLIT_SAFE) & (np.abs(product) > _TINY_PRODUCT)
+    lower = np.where(safe & (error >= 0), product, down(product))
+    upper = np.where(safe & (error <= 0), product, up(product))
+    zero = (p == 0) | (q == 0)
+    return np.where(zero, 0.0, lower), np.where(zero, 0.0, upper)
 
 
 def negate(a: Interval) -> Interval:
@@ -137,6 +151,11 @@ def multiply(a: Interval, b: Interval) -> Interval:
     """The product: the smallest and largest of the four corner products, each rounded outward."""
     if a is b:
         return power_integer(a, 2)
+    for scalar, other in ((a, b), (b, a)):
+        if np.ndim(scalar.lo) == 0 and scalar.lo == scalar.hi and np.isfinite(scalar.lo):   # a constant factor
+            first, second = _product_bounds(scalar.lo, other.lo), _product_bounds(scalar.lo, other.hi)
+            lo, hi = np.minimum(first[0], second[0]), np.maximum(first[1], second[1])
+            return finished(lo, hi, *_flags(a, b))
     bounds = [_product_bounds(p, q) for p, q in ((a.lo, b.lo), (a.lo, b.hi), (a.hi, b.lo), (a.hi, b.hi))]
     lo = np.minimum(np.minimum(bounds[0][0], bounds[1][0]), np.minimum(bounds[2][0], bounds[3][0]))
     hi = np.maximum(np.maximum(bounds[0][1], bounds[1][1]), np.maximum(bounds[2][1], bounds[3][1]))

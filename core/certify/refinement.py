@@ -4,7 +4,7 @@ The domain is cut into about 16 square-ish cells along its shorter side; at each
 frontier is enclosed at once (core.certify.discriminant_bounds, in batches that bound the memory), cells that
 hold one type for certain are kept as proven, and the undecided ones are split in four until they are decided,
 reach the minimum size (``min_cell``, by default 1e-4 of the shorter side) or the cell budget (``max_cells``
-cells enclosed in all) is spent. Cell edges are computed from integer positions (x_min + width * i / N), so
+cells examined in all) is spent. Cell edges are computed from integer positions (x_min + width * i / N), so
 neighbouring cells share their edges to the bit and the cells tile the domain.
 """
 
@@ -16,11 +16,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, TypeMap
+from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, TypeMap, classify_points
 from core.certify.discriminant_bounds import DiscriminantEncloser, possible_types
-from core.certify.enclosure import Boxes, DataRange
+from core.certify.enclosure import Boxes
 from core.certify.intervals import Interval
-from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies
+from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies, touching_pairs
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -29,11 +29,13 @@ __all__ = ["DEFAULT_MAX_CELLS", "DEFAULT_MIN_CELL_FRACTION", "CertifiedCells", "
            "certify_map"]
 
 DEFAULT_MIN_CELL_FRACTION = 1e-4     # of the domain's shorter side
-DEFAULT_MAX_CELLS = 4_000_000        # cells enclosed in all
+DEFAULT_MAX_CELLS = 4_000_000        # cells examined in all
 _BASE_CELLS = 16                     # along the shorter side at level 0
 _MAX_BASE_CELLS = 1024               # along the longer side at level 0
 _MAX_POSITION_BITS = 30              # integer positions stay below 2**30 (pairs of them fit in int64)
-_BATCH = 1 << 15                     # cells enclosed at once (memory: about 2 kB a cell for the formula flow)
+_BATCH = 1 << 15                     # cells enclosed at once (memory: about 2 kB a cell for the formula flow; two
+#                                      threads over batches of 2**13 measured no faster on a loaded two-core machine)
+_NOT_ENCLOSED = 0xFF                 # the mask of a cell split without an enclosure (every type possible)
 
 
 @dataclass(frozen=True)
@@ -79,7 +81,7 @@ class CertifiedMap:
 
     ``area`` maps each type name to [proven area, proven plus undecided area] (units of the variables'
     product); ``undecided_area`` is the area of cells holding more than one possible type; ``cells`` the
-    number of cells enclosed in all (what ``max_cells`` limits); ``budget_reached`` whether it stopped the
+    number of cells examined in all (what ``max_cells`` limits); ``budget_reached`` whether it stopped the
     refinement; ``dependency_form`` which enclosure of D was used.
     """
 
@@ -99,16 +101,16 @@ class CertifiedMap:
 
 
 def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mapping[str, float] | None = None,
-                data_range: DataRange | None = None, tolerance: float = DEFAULT_TOLERANCE,
+                data=None, tolerance: float = DEFAULT_TOLERANCE,
                 min_cell: float | None = None, max_cells: int = DEFAULT_MAX_CELLS,
                 sampled: TypeMap | None = None, cancel: CancelCheck | None = None,
                 progress: ProgressReport | None = None) -> CertifiedMap:
     """Certify where each type can and cannot be over ``domain`` (its rectangle; its grid is not used).
 
     ``min_cell`` is the smallest cell side refined (default DEFAULT_MIN_CELL_FRACTION of the shorter side);
-    ``max_cells`` bounds the cells enclosed in all; ``sampled`` (the sampled map of the same study) marks the
-    pockets it misses. ``data_range`` gives the range of a data quantity over cells (core.data.sources
-    DataSources.value_range). ``cancel`` is polled between batches; ``progress`` gets the fraction of levels done.
+    ``max_cells`` bounds the cells examined in all; ``sampled`` (the sampled map of the same study) marks the
+    pockets it misses. ``data`` (core.data.sources DataSources) samples data quantities and gives their
+    ranges over cells (``value_range``). ``cancel`` is polled between batches; ``progress`` gets the fraction of levels done.
     """
     if not 0.0 <= float(tolerance) < 1.0:
         raise ValueError(f"parabolic tolerance must be in [0, 1), got {tolerance}")
@@ -120,12 +122,9 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         raise ValueError(f"minimum cell size must be a positive number, got {min_cell}")
     if isinstance(max_cells, bool) or not isinstance(max_cells, int) or max_cells < 1:
         raise ValueError(f"cell budget must be a positive integer, got {max_cells!r}")
-    encloser = DiscriminantEncloser(compiled, parameters=parameters, data_range=data_range)
-    nx = int(min(_MAX_BASE_CELLS, max(1, round(_BASE_CELLS * width / shorter))))
-    ny = int(min(_MAX_BASE_CELLS, max(1, round(_BASE_CELLS * height / shorter))))
-    base_size = max(width / nx, height / ny)
-    deepest = max(0, math.ceil(math.log2(base_size / min_cell))) if base_size > min_cell else 0
-    deepest = min(deepest, _MAX_POSITION_BITS - max(nx, ny).bit_length())
+    encloser = DiscriminantEncloser(compiled, parameters=parameters,
+                                    data_range=None if data is None else data.value_range)
+    nx, ny, deepest = _base_grid(width, height, min_cell)
     ix, iy = np.meshgrid(np.arange(nx, dtype=np.int64), np.arange(ny, dtype=np.int64))
     ix, iy = ix.ravel(), iy.ravel()
     leaves: list[tuple[int, np.ndarray, np.ndarray, np.ndarray]] = []
@@ -138,37 +137,69 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         if cancel is not None and cancel():
             raise Cancelled("certification cancelled")
         scale_x, scale_y = nx << level, ny << level
-        types = _enclose_level(encloser, domain, ix, iy, scale_x, scale_y, tolerance, cancel)
+        boxes = _boxes(domain, ix, iy, scale_x, scale_y)
+        # Cells whose corners are of both types cannot be decided: above the deepest level they are split
+        # without an enclosure (splitting is always sound); the others are enclosed.
+        straddling = _changes_type(encloser, boxes, tolerance, data) if level < deepest \
+            else np.zeros(ix.size, dtype=bool)
+        types = np.full(ix.size, _NOT_ENCLOSED, dtype=np.uint8)
+        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, data, cancel)
         enclosed += ix.size
         decided = (types & (types - 1)) == 0
         cell_area = total_area / (scale_x * scale_y)
         decided_area += float(np.count_nonzero(decided)) * cell_area
         leaves.append((level, ix[decided], iy[decided], types[decided]))
-        ix, iy, types = ix[~decided], iy[~decided], types[~decided]
+        ix, iy, types, straddling = ix[~decided], iy[~decided], types[~decided], straddling[~decided]
         levels.append(LevelReport(level=level, cell_width=width / scale_x, cell_height=height / scale_y,
                                   cells=int(decided.size), undecided_area=max(0.0, total_area - decided_area)))
         if progress is not None:
             progress((level + 1) / (deepest + 1))
-        if not ix.size or level == deepest:
-            leaves.append((level, ix, iy, types))
+        if not ix.size:
             break
-        affordable = max(0, (max_cells - enclosed) // 4)
-        if affordable < ix.size:
+        affordable = ix.size if level < deepest else 0
+        if level < deepest and max_cells - enclosed < 4 * ix.size:
             budget_reached = True
-            leaves.append((level, ix[affordable:], iy[affordable:], types[affordable:]))
-            ix, iy = ix[:affordable], iy[:affordable]
-            if not ix.size:
-                break
-        ix = (2 * ix[:, None] + np.array([0, 1, 0, 1])).ravel()
-        iy = (2 * iy[:, None] + np.array([0, 0, 1, 1])).ravel()
+            affordable = max(0, (max_cells - enclosed) // 4)
+        order = np.argsort(~straddling, kind="stable")     # straddling cells first: they surely need it
+        kept = order[affordable:]
+        if kept.size:   # left undecided for good: straddling ones are enclosed now, for their flags
+            late = kept[straddling[kept]]
+            if late.size:
+                types[late] = _enclose_cells(encloser, _boxes(domain, ix[late], iy[late], scale_x, scale_y),
+                                             tolerance, data, cancel)
+            leaves.append((level, ix[kept], iy[kept], types[kept]))
+        split = order[:affordable]
+        if not split.size:
+            break
+        ix = (2 * ix[split, None] + np.array([0, 1, 0, 1])).ravel()
+        iy = (2 * iy[split, None] + np.array([0, 0, 1, 1])).ravel()
     cells = _leaves(domain, nx, ny, leaves)
+    pairs = touching_pairs(cells)
     area = _areas(cells)
     undecided = float(cells.areas[~cells.decided].sum())
     return CertifiedMap(domain=domain, tolerance=float(tolerance), min_cell=float(min_cell), max_cells=max_cells,
                         leaves=cells, area=area, undecided_area=undecided, cells=enclosed,
                         budget_reached=budget_reached, levels=tuple(levels),
-                        pockets=find_pockets(cells, sampled), tangencies=find_tangencies(cells),
+                        pockets=find_pockets(cells, sampled, pairs), tangencies=find_tangencies(cells, pairs),
                         dependency_form=encloser.dependency_form)
+
+
+def _base_grid(width: float, height: float, min_cell: float) -> tuple[int, int, int]:
+    """Cells along x and y at level 0 (about _BASE_CELLS to twice that along the shorter side) and the deepest
+    level, chosen so that the deepest level's cells are just below ``min_cell`` (not up to half of it)."""
+    shorter = min(width, height)
+    levels = max(0, math.floor(math.log2(shorter / (_BASE_CELLS * min_cell)))) if shorter > min_cell else 0
+    along_shorter = max(1, math.ceil(shorter / (min_cell * 2 ** levels)))
+    if along_shorter > 2 * _BASE_CELLS:
+        along_shorter = _BASE_CELLS
+    nx = int(min(_MAX_BASE_CELLS, max(1, round(along_shorter * width / shorter))))
+    ny = int(min(_MAX_BASE_CELLS, max(1, round(along_shorter * height / shorter))))
+    while levels > 0 and max(width / nx, height / ny) / 2 ** (levels - 1) <= min_cell:
+        levels -= 1
+    while max(width / nx, height / ny) / 2 ** levels > min_cell and levels < 40:
+        levels += 1
+    levels = min(levels, _MAX_POSITION_BITS - max(nx, ny).bit_length())
+    return nx, ny, levels
 
 
 def _edges(low: float, high: float, index: np.ndarray, count: int) -> np.ndarray:
@@ -181,26 +212,48 @@ def _boxes(domain: Domain, ix: np.ndarray, iy: np.ndarray, scale_x: int, scale_y
                  _edges(domain.ymin, domain.ymax, iy, scale_y), _edges(domain.ymin, domain.ymax, iy + 1, scale_y))
 
 
-def _enclose_level(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray,
-                   scale_x: int, scale_y: int, tolerance: float, cancel: CancelCheck | None) -> np.ndarray:
-    """The possible-type masks of the cells (ix, iy) of one level, in batches; the mean-value form only for
-    cells the natural enclosure leaves undecided."""
-    types = np.empty(ix.size, dtype=np.uint8)
-    for start in range(0, ix.size, _BATCH):
+def _subset(boxes: Boxes, chosen: np.ndarray) -> Boxes:
+    return Boxes(boxes.x0[chosen], boxes.x1[chosen], boxes.y0[chosen], boxes.y1[chosen])
+
+
+def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, data,
+                   cancel: CancelCheck | None) -> np.ndarray:
+    """The possible-type masks of the cells, in batches; the mean-value form only for cells the natural
+    enclosure leaves undecided and whose corners are not of both types."""
+    types = np.empty(boxes.size, dtype=np.uint8)
+
+    def batch(start: int) -> None:
         if cancel is not None and cancel():
             raise Cancelled("certification cancelled")
-        part = slice(start, min(ix.size, start + _BATCH))
-        boxes = _boxes(domain, ix[part], iy[part], scale_x, scale_y)
-        d, s = encloser.natural(boxes)
+        part = _subset(boxes, slice(start, min(boxes.size, start + _BATCH)))
+        d, s = encloser.natural(part)
         mask = possible_types(d, s, tolerance)
         if encloser.sharpened:
             open_cells = np.flatnonzero(((mask & (mask - 1)) != 0) & ~np.broadcast_to(d.maybe_undefined, mask.shape))
+            open_cells = open_cells[~_changes_type(encloser, _subset(part, open_cells), tolerance, data)]
             if open_cells.size:
-                sub = Boxes(boxes.x0[open_cells], boxes.x1[open_cells], boxes.y0[open_cells], boxes.y1[open_cells])
                 d_sub, s_sub = (_taken(v, open_cells, mask.size) for v in (d, s))
-                mask[open_cells] = possible_types(encloser.sharpen(sub, d_sub), s_sub, tolerance)
-        types[part] = mask
+                mask[open_cells] = possible_types(encloser.sharpen(_subset(part, open_cells), d_sub), s_sub,
+                                                  tolerance)
+        types[start:start + part.size] = mask
+
+    for start in range(0, boxes.size, _BATCH):
+        batch(start)
     return types
+
+
+def _changes_type(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, data) -> np.ndarray:
+    """Cells whose corners, evaluated in double precision, are of both types (elliptic and hyperbolic): no
+    enclosure can decide them. Only a saving (such cells are split, or skip the costly mean-value form): a
+    cell wrongly taken for one is split or keeps its natural enclosure, both sound."""
+    if not boxes.size:
+        return np.zeros(0, dtype=bool)
+    x = np.stack([boxes.x0, boxes.x1, boxes.x0, boxes.x1])
+    y = np.stack([boxes.y0, boxes.y0, boxes.y1, boxes.y1])
+    _, normalized = classify_points(encloser.compiled, x, y, parameters=encloser.parameters, data=data,
+                                    tolerance=tolerance)
+    with np.errstate(invalid="ignore"):
+        return (np.min(normalized, axis=0) < -tolerance) & (np.max(normalized, axis=0) > tolerance)
 
 
 def _taken(value: Interval, index: np.ndarray, size: int) -> Interval:

@@ -18,7 +18,7 @@ import numpy as np
 from core.analysis.classify import TypeCode, TypeMap
 
 __all__ = ["MAX_TANGENCY_POINTS", "CertifiedPocket", "Tangency", "connected_groups", "find_pockets",
-           "find_tangencies"]
+           "find_tangencies", "touching_pairs"]
 
 MAX_TANGENCY_POINTS = 200
 _ELLIPTIC, _PARABOLIC, _HYPERBOLIC, _UNDEFINED = (1 << int(code) for code in (
@@ -51,32 +51,44 @@ class Tangency:
     bbox: tuple[float, float, float, float]
 
 
-def connected_groups(cells, selected: np.ndarray) -> tuple[np.ndarray, int]:
-    """Labels (0..count-1) of the touching groups among the cells where ``selected`` (bool (n,)); -1 elsewhere."""
+def touching_pairs(cells) -> tuple[np.ndarray, np.ndarray]:
+    """Every pair (p, q) of cells whose closed rectangles touch, each pair once (arrays of cell indices)."""
+    i0, i1, j0, j1 = (np.asarray(v) for v in (cells.i0, cells.i1, cells.j0, cells.j1))
+    if not i0.size:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    pairs = [_contacts(i0, i1, j0, j1), _contacts(j0, j1, i0, i1)]
+    return np.concatenate([p[0] for p in pairs]), np.concatenate([p[1] for p in pairs])
+
+
+def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None
+                     ) -> tuple[np.ndarray, int]:
+    """Labels (0..count-1) of the touching groups among the cells where ``selected`` (bool (n,)); -1 elsewhere.
+    ``pairs`` (from touching_pairs) spares finding the contacts again."""
     # Here, not at the top: scipy.sparse takes about 0.2 s to import and only a certified map needs it.
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 
-    index = np.flatnonzero(selected)
     labels = np.full(selected.size, -1, dtype=np.int64)
-    if not index.size:
+    if not selected.any():
         return labels, 0
-    i0, i1, j0, j1 = (np.asarray(v)[index] for v in (cells.i0, cells.i1, cells.j0, cells.j1))
-    pairs = [_contacts(i0, i1, j0, j1), _contacts(j0, j1, i0, i1)]
-    first = np.concatenate([p[0] for p in pairs])
-    second = np.concatenate([p[1] for p in pairs])
-    graph = coo_matrix((np.ones(first.size, dtype=np.int8), (first, second)), shape=(index.size, index.size))
-    count, group = connected_components(graph, directed=False)
-    labels[index] = group
-    return labels, int(count)
+    first, second = touching_pairs(cells) if pairs is None else pairs
+    keep = selected[first] & selected[second]
+    graph = coo_matrix((np.ones(int(keep.sum()), dtype=np.int8), (first[keep], second[keep])),
+                       shape=(selected.size, selected.size))
+    _, group = connected_components(graph, directed=False)
+    chosen = group[selected]
+    _, renumbered = np.unique(chosen, return_inverse=True)
+    labels[selected] = renumbered
+    return labels, int(renumbered.max()) + 1
 
 
 def _contacts(a0, a1, b0, b1) -> tuple[np.ndarray, np.ndarray]:
     """Pairs (p, q) of cells where q starts on the line where p ends along the first axis (q.a0 == p.a1) and
     their closed extents along the second axis meet: every touching pair is found once along one axis."""
     span = int(max(a1.max(), b1.max())) + 2
-    order = np.lexsort((b0, a0))
-    start_key = a0[order] * span + b0[order]
+    start_key = a0 * span + b0
+    order = np.argsort(start_key)
+    start_key = start_key[order]
     end_key = a0[order] * span + b1[order]      # cells on one line are disjoint: sorted by b1 as well
     first = np.searchsorted(end_key, a1 * span + b0, side="left")
     last = np.searchsorted(start_key, a1 * span + b1, side="right")
@@ -114,13 +126,15 @@ def _missed(sampled: TypeMap | None, code: TypeCode, bbox) -> bool | None:
     return not bool(np.any(window == int(code)))
 
 
-def find_pockets(cells, sampled: TypeMap | None = None) -> tuple[CertifiedPocket, ...]:
+def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None
+                 ) -> tuple[CertifiedPocket, ...]:
     """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first."""
     areas = cells.areas
     pockets: list[CertifiedPocket] = []
+    pairs = touching_pairs(cells) if pairs is None else pairs
     for code, bit in ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC),
                       (TypeCode.HYPERBOLIC, _HYPERBOLIC)):
-        labels, count = connected_groups(cells, (cells.types & bit) != 0)
+        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs)
         if not count:
             continue
         proven_cells = cells.types == bit
@@ -139,11 +153,11 @@ def find_pockets(cells, sampled: TypeMap | None = None) -> tuple[CertifiedPocket
     return tuple(pockets)
 
 
-def find_tangencies(cells) -> tuple[Tangency, ...]:
+def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[Tangency, ...]:
     """Groups of cells that may be parabolic where D keeps one sign (see the module docstring)."""
     types = cells.types
     candidates = ((types & _PARABOLIC) != 0) & ((types & _UNDEFINED) == 0)
-    labels, count = connected_groups(cells, candidates)
+    labels, count = connected_groups(cells, candidates, pairs)
     found = []
     for members in _members(labels, count):
         held = np.bitwise_or.reduce(types[members])

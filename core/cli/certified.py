@@ -21,10 +21,9 @@ def certify_study(args: argparse.Namespace, study: Study, compiled: CompiledEqua
                   sampled: TypeMap) -> CertifiedMap:
     """The certified map of the study's domain (``--min-cell``, ``--max-cells``), pockets checked against the
     sampled map ``sampled``."""
-    data_range = study.data.value_range if study.data is not None else None
     max_cells = args.max_cells if args.max_cells is not None else DEFAULT_MAX_CELLS
     try:
-        return certify_map(compiled, study.domain, parameters=study.parameters, data_range=data_range,
+        return certify_map(compiled, study.domain, parameters=study.parameters, data=study.data,
                            tolerance=study.tolerance, min_cell=args.min_cell, max_cells=max_cells, sampled=sampled)
     except ValueError as error:
         raise UsageError(f"--certify: {error}") from None
