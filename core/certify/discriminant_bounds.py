@@ -3,7 +3,7 @@
 D is first enclosed naturally from the enclosures of a, b, c (b^2 is non-negative, |ac| too). The natural
 form suffers from the dependency problem (a and c share sub-expressions, so their product is overestimated
 by O(h) on a cell of size h), which would leave a band of undecided cells along every type-change line. Where
-the equation is smooth (no piecewise, min, max, abs, sign, heaviside or data quantity) and D is defined on the
+the equation is smooth (no piecewise, min, max, abs, sign, heaviside, atan2 or data quantity) and D is defined on the
 whole cell, D is also enclosed by the mean-value form
     D(cell) in D(centre) + dD/dx(cell) (x - x_c) + dD/dy(cell) (y - y_c)
 (Moore, Kearfott and Cloud 2009, section 6.4), its interval gradient enclosed from sympy's derivatives of D
@@ -33,7 +33,9 @@ __all__ = ["ELLIPTIC_BIT", "HYPERBOLIC_BIT", "PARABOLIC_BIT", "UNDEFINED_BIT", "
 
 UNDEFINED_BIT, ELLIPTIC_BIT, PARABOLIC_BIT, HYPERBOLIC_BIT = (1 << int(code) for code in (
     TypeCode.UNDEFINED, TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC))
-_NON_SMOOTH = (sympy.Piecewise, sympy.Min, sympy.Max, sympy.Abs, sympy.sign, sympy.Heaviside)
+# not differentiable everywhere they are defined (atan2 at the origin: sympy tidies atan2(x, x) to pi/4, the typed
+# value there is 0)
+_NON_SMOOTH = (sympy.Piecewise, sympy.Min, sympy.Max, sympy.Abs, sympy.sign, sympy.Heaviside, sympy.atan2)
 
 
 def normalized_bounds(d: Interval, s: Interval) -> tuple[np.ndarray, np.ndarray]:
@@ -54,7 +56,9 @@ def possible_types(d: Interval, s: Interval, tolerance: float) -> np.ndarray:
     +tolerance, parabolic if it may lie within; only undefined where the coefficients are undefined
     everywhere. One bit set means the type is proven throughout the cell."""
     lower, upper = normalized_bounds(d, s)
-    mask = np.where(d.maybe_undefined, UNDEFINED_BIT, 0).astype(np.uint8)
+    shape = np.broadcast_shapes(*(np.shape(v) for v in (lower, upper, d.maybe_undefined, d.surely_undefined)))
+    lower, upper = np.broadcast_to(lower, shape), np.broadcast_to(upper, shape)
+    mask = np.where(np.broadcast_to(d.maybe_undefined, shape), UNDEFINED_BIT, 0).astype(np.uint8)
     mask |= np.where(lower < -tolerance, ELLIPTIC_BIT, 0).astype(np.uint8)
     mask |= np.where(upper > tolerance, HYPERBOLIC_BIT, 0).astype(np.uint8)
     mask |= np.where((lower <= tolerance) & (upper >= -tolerance), PARABOLIC_BIT, 0).astype(np.uint8)

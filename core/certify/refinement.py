@@ -227,7 +227,7 @@ def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: floa
             raise Cancelled("certification cancelled")
         part = _subset(boxes, slice(start, min(boxes.size, start + _BATCH)))
         d, s = encloser.natural(part)
-        mask = possible_types(d, s, tolerance)
+        mask = np.array(np.broadcast_to(possible_types(d, s, tolerance), (part.size,)))
         if encloser.sharpened:
             open_cells = np.flatnonzero(((mask & (mask - 1)) != 0) & ~np.broadcast_to(d.maybe_undefined, mask.shape))
             open_cells = open_cells[~_changes_type(encloser, _subset(part, open_cells), tolerance, data)]
