@@ -6,9 +6,9 @@ two flags: ``maybe_undefined`` (somewhere in the cell a step of the typed text m
 by 0, a logarithm of a negative number, an overflow) and ``surely_undefined`` (undefined at every point of
 the cell; then lo = -inf and hi = +inf). Constants are 0-d arrays, so parameter-only parts cost nothing per
 cell. Every computed bound is rounded outward: sums and products through error-free transformations
-(TwoSum; Dekker's TwoProduct for constants), so a result that is exact stays exact (0 + 0 is [0, 0], which
-keeps proofs of D = 0), products with a zero or power-of-two factor too, other results one step of
-``np.nextafter`` outward. Bounds beyond ``LARGEST_SAFE`` mark the
+(TwoSum; Dekker's TwoProduct for squares and constants), so a result that is exact stays exact (0 + 0 is
+[0, 0], which keeps proofs of D = 0; [-1, 2] ** 2 is [0, 4]), products with a zero or power-of-two factor too;
+other results (other products, quotients) go one step of ``np.nextafter`` outward. Bounds beyond ``LARGEST_SAFE`` mark the
 value maybe undefined: double-precision evaluation overflows there.
 Method: R. E. Moore, "Interval Analysis" (1966); Moore, Kearfott and Cloud, "Introduction to Interval
 Analysis" (SIAM 2009), chapters 2 to 5.
@@ -212,9 +212,10 @@ def power_integer(a: Interval, n: int) -> Interval:
         low_end, high_end = magnitude_lo, magnitude_hi
     else:
         low_end, high_end = a.lo, a.hi
-    if n == 2:
-        lo, _ = _product_bounds(low_end, low_end)
-        _, hi = _product_bounds(high_end, high_end)
+    if n == 2:   # squares through TwoProduct, so [-1, 2] ** 2 is exactly [0, 4]
+        with np.errstate(all="ignore"):
+            lo, _ = _exact_product_bounds(low_end, low_end, np.multiply(low_end, low_end))
+            _, hi = _exact_product_bounds(high_end, high_end, np.multiply(high_end, high_end))
     else:
         with np.errstate(all="ignore"):
             # pow is within one unit in the last place in glibc: two steps outward cover it

@@ -108,7 +108,8 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
     """Certify where each type can and cannot be over ``domain`` (its rectangle; its grid is not used).
 
     ``min_cell`` is the smallest cell side refined (default DEFAULT_MIN_CELL_FRACTION of the shorter side);
-    ``max_cells`` bounds the cells examined in all; ``sampled`` (the sampled map of the same study) marks the
+    ``max_cells`` bounds the cells examined in all (the first level, 16 to 32 cells along the shorter side, is
+    always examined); ``sampled`` (the sampled map of the same study) marks the
     pockets it misses. ``data`` (core.data.sources DataSources) samples data quantities and gives their
     ranges over cells (``value_range``). ``cancel`` is polled between batches; ``progress`` gets the fraction of levels done.
     """
