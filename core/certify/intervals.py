@@ -67,8 +67,8 @@ def constant(value: float) -> Interval:
 def finished(lo, hi, maybe, surely) -> Interval:
     """An Interval from bounds already rounded outward: NaN bounds widened to infinity, bounds beyond
     LARGEST_SAFE flagged maybe undefined, surely undefined cells given the whole line."""
-    lo = np.where(np.isnan(lo), -np.inf, lo)
-    hi = np.where(np.isnan(hi), np.inf, hi)
+    lo = np.fmax(lo, -np.inf)        # NaN -> -inf (fmax ignores NaN)
+    hi = np.fmin(hi, np.inf)
     surely = np.asarray(surely, dtype=bool)
     maybe = np.asarray(maybe, dtype=bool) | surely | (lo < -LARGEST_SAFE) | (hi > LARGEST_SAFE)
     if surely.any():

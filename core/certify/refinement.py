@@ -17,7 +17,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from core.analysis.classify import DEFAULT_TOLERANCE, TypeCode, TypeMap, classify_points
-from core.certify.discriminant_bounds import DiscriminantEncloser, possible_types
+from core.certify.discriminant_bounds import (
+    ELLIPTIC_BIT,
+    HYPERBOLIC_BIT,
+    PARABOLIC_BIT,
+    DiscriminantEncloser,
+    possible_types,
+)
 from core.certify.enclosure import Boxes
 from core.certify.intervals import Interval
 from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies, touching_pairs
@@ -36,6 +42,7 @@ _MAX_POSITION_BITS = 30              # integer positions stay below 2**30 (pairs
 _BATCH = 1 << 15                     # cells enclosed at once (memory: about 2 kB a cell for the formula flow; two
 #                                      threads over batches of 2**13 measured no faster on a loaded two-core machine)
 _NOT_ENCLOSED = 0xFF                 # the mask of a cell split without an enclosure (every type possible)
+_ANCESTOR_LEVELS = 3                 # undecided straddling cells learn whether they may be undefined from here up
 
 
 @dataclass(frozen=True)
@@ -141,10 +148,15 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         boxes = _boxes(domain, ix, iy, scale_x, scale_y)
         # Cells whose corners are of both types cannot be decided: above the deepest level they are split
         # without an enclosure (splitting is always sound); the others are enclosed.
-        straddling = _changes_type(encloser, boxes, tolerance, data) if level < deepest \
-            else np.zeros(ix.size, dtype=bool)
+        straddling = _changes_type(encloser, boxes, tolerance, data)
         types = np.full(ix.size, _NOT_ENCLOSED, dtype=np.uint8)
-        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, data, cancel)
+        # the mean-value form only where cells will not be split again (at the deepest level): above it an
+        # undecided cell is split anyway, and the form's fixed cost (hundreds of gradient steps) outweighs it
+        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, data, cancel,
+                                            sharpen=level == deepest)
+        if level == deepest and straddling.any():
+            types[straddling] = _straddling_types(encloser, domain, ix[straddling], iy[straddling], level, (nx, ny),
+                                                  tolerance, data, cancel)
         enclosed += ix.size
         decided = (types & (types - 1)) == 0
         cell_area = total_area / (scale_x * scale_y)
@@ -164,10 +176,10 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         order = np.argsort(~straddling, kind="stable")     # straddling cells first: they surely need it
         kept = order[affordable:]
         if kept.size:   # left undecided for good: straddling ones are enclosed now, for their flags
-            late = kept[straddling[kept]]
+            late = kept[straddling[kept] & (types[kept] == _NOT_ENCLOSED)]
             if late.size:
-                types[late] = _enclose_cells(encloser, _boxes(domain, ix[late], iy[late], scale_x, scale_y),
-                                             tolerance, data, cancel)
+                types[late] = _straddling_types(encloser, domain, ix[late], iy[late], level, (nx, ny), tolerance,
+                                                data, cancel)
             leaves.append((level, ix[kept], iy[kept], types[kept]))
         split = order[:affordable]
         if not split.size:
@@ -218,7 +230,7 @@ def _subset(boxes: Boxes, chosen: np.ndarray) -> Boxes:
 
 
 def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, data,
-                   cancel: CancelCheck | None) -> np.ndarray:
+                   cancel: CancelCheck | None, *, sharpen: bool) -> np.ndarray:
     """The possible-type masks of the cells, in batches; the mean-value form only for cells the natural
     enclosure leaves undecided and whose corners are not of both types."""
     types = np.empty(boxes.size, dtype=np.uint8)
@@ -229,7 +241,7 @@ def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: floa
         part = _subset(boxes, slice(start, min(boxes.size, start + _BATCH)))
         d, s = encloser.natural(part)
         mask = np.array(np.broadcast_to(possible_types(d, s, tolerance), (part.size,)))
-        if encloser.sharpened:
+        if sharpen and encloser.sharpened:
             open_cells = np.flatnonzero(((mask & (mask - 1)) != 0) & ~np.broadcast_to(d.maybe_undefined, mask.shape))
             open_cells = open_cells[~_changes_type(encloser, _subset(part, open_cells), tolerance, data)]
             if open_cells.size:
@@ -240,6 +252,31 @@ def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: floa
 
     for start in range(0, boxes.size, _BATCH):
         batch(start)
+    return types
+
+
+def _straddling_types(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray, level: int,
+                      base: tuple[int, int], tolerance: float, data, cancel: CancelCheck | None) -> np.ndarray:
+    """Masks of cells left undecided whose corners are of both types: elliptic, parabolic and hyperbolic (a
+    superset, always sound), and undefined where they may be. Whether they may be undefined is read from
+    the enclosure of their ancestors _ANCESTOR_LEVELS up (a cell inside a box defined throughout is defined
+    throughout), one for each eighth as many cells; cells under a maybe-undefined ancestor are enclosed."""
+    up = min(level, _ANCESTOR_LEVELS)
+    key = (ix >> up) * ((base[1] << level) + 1) + (iy >> up)
+    unique, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+    ancestors = _boxes(domain, ix[first] >> up, iy[first] >> up, base[0] << (level - up), base[1] << (level - up))
+    maybe = np.zeros(unique.size, dtype=bool)
+    for start in range(0, unique.size, _BATCH):
+        if cancel is not None and cancel():
+            raise Cancelled("certification cancelled")
+        part = slice(start, min(unique.size, start + _BATCH))
+        d, _ = encloser.natural(_subset(ancestors, part))
+        maybe[part] = np.broadcast_to(d.maybe_undefined, (part.stop - part.start,))
+    types = np.full(ix.size, ELLIPTIC_BIT | PARABOLIC_BIT | HYPERBOLIC_BIT, dtype=np.uint8)
+    doubtful = np.flatnonzero(maybe[inverse.ravel()])
+    if doubtful.size:
+        types[doubtful] = _enclose_cells(encloser, _boxes(domain, ix[doubtful], iy[doubtful], base[0] << level,
+                                                          base[1] << level), tolerance, data, cancel, sharpen=True)
     return types
 
 

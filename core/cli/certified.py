@@ -33,7 +33,7 @@ def write_certified(certified: CertifiedMap, x: str, y: str, out: TextIO) -> Non
     """The certified map in words: area bounds per type, what is left undecided, pockets and tangencies."""
     domain = certified.domain
     total = (domain.xmax - domain.xmin) * (domain.ymax - domain.ymin)
-    out.write(f"certified map: {certified.cells} cells enclosed, down to {certified.min_cell:.6g} "
+    out.write(f"certified map: {certified.cells} cells examined, down to {certified.min_cell:.6g} "
               f"(D enclosed by the {certified.dependency_form})\n")
     out.write(f"type         certified area (units of {x}*{y}): proven .. at most\n")
     for label in CERTIFIED_AREA_ORDER:
