@@ -1,11 +1,15 @@
 """Adaptive refinement of a certified type map: a quadtree over the domain, refined only where undecided.
 
-The domain is cut into about 16 square-ish cells along its shorter side; at each level every cell of the
-frontier is enclosed at once (core.certify.discriminant_bounds, in batches that bound the memory), cells that
-hold one type for certain are kept as proven, and the undecided ones are split in four until they are decided,
-reach the minimum size (``min_cell``, by default 1e-4 of the shorter side) or the cell budget (``max_cells``
-cells examined in all) is spent. Cell edges are computed from integer positions (x_min + width * i / N), so
-neighbouring cells share their edges to the bit and the cells tile the domain.
+The domain is cut into 16 to 32 square-ish cells along its shorter side (so that the deepest cells land just
+below ``min_cell``, by default 1e-4 of the shorter side); at each level the whole frontier is handled at
+once. Cells whose corners, evaluated in double precision, are of both types cannot be decided and are split
+without an enclosure (splitting is always sound); the others are enclosed (core.certify.discriminant_bounds,
+in batches that bound the memory; the mean-value form at the deepest level only), cells holding one type for
+certain are kept as proven and the undecided ones split in four until they reach the deepest level or the
+cell budget (``max_cells`` cells examined in all) is spent. Undecided leaves whose corners change type may
+hold every type, and are undefined only where the enclosure of their ancestor three levels up says they may
+be. Cell edges are computed from integer positions (x_min + width * i / N), so neighbouring cells share their
+edges to the bit and the cells tile the domain.
 """
 
 from __future__ import annotations
