@@ -10,9 +10,11 @@ from typing import TextIO
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
+from core.cli.certified import certify_study, write_certified
 from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
+from core.results.certified import certified_document
 from core.results.document import data_files_document, map_fields, study_fields
 from core.results.readouts import peak_quantity
 
@@ -32,6 +34,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     quantity = peak_quantity(study.equation, compiled, study.data.names if study.data else ())
     pockets = pocket_statistics(compiled, type_map, quantity=quantity, parameters=study.parameters,
                                 data=study.data)
+    certified = None
+    if args.certify:
+        certified = certify_study(args, study, compiled, type_map)
     if args.save_project:
         _save_study(study, args.save_project)
     document = {**map_fields(compiled.variables, study.domain, study.tolerance, type_map=type_map,
@@ -40,6 +45,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if study.data is not None:
         document["data"] = data_files_document(study.data)
     document.update(source_fields(study))
+    if certified is not None:
+        document["certified"] = certified_document(certified)
     if args.json:
         json.dump(document, out)
         out.write("\n")
@@ -62,6 +69,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     for index, region in enumerate(boundaries.parabolic_regions, 1):
         out.write(f"  parabolic region {index}: area {region.area:.6g} (units of {x}*{y})\n")
     _write_pockets(document["pockets"], x, y, out)
+    if certified is not None:
+        write_certified(certified, x, y, out)
     if args.save_project:
         files = len(study.data_files)
         listed = f" (with {files} data file{'s' * (files != 1)})" if files else ""

@@ -22,7 +22,9 @@ from core.cli.options import (
     finite,
 )
 
-__all__ = ["HEADLESS_COMMANDS"]
+__all__ = ["HEADLESS_COMMANDS", "MAX_CELL_BUDGET"]
+
+MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
 
 
 def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO], int]:
@@ -41,6 +43,32 @@ def _add_classify_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--raw", action="store_true", help="skip refining lines onto D = 0")
     parser.add_argument("--save-project", metavar="FILE", help="also write a project file holding the "
                         "equation, domain and data files used (data paths recorded relative to FILE)")
+    parser.add_argument("--certify", action="store_true", help="also prove, cell by cell with interval bounds, "
+                        "where each type can and cannot be (refining only undecided cells)")
+    parser.add_argument("--min-cell", type=positive_number, default=None, metavar="H",
+                        help="with --certify: smallest cell side refined (default 1e-4 of the domain's shorter side)")
+    parser.add_argument("--max-cells", type=cell_budget, default=None, metavar="N",
+                        help=f"with --certify: at most N cells enclosed in all (1 to {MAX_CELL_BUDGET}; "
+                             "default 4000000)")
+
+
+def positive_number(text: str) -> float:
+    """--min-cell H: a finite number above 0."""
+    value = finite(text)
+    if value <= 0:
+        raise argparse.ArgumentTypeError(f"expected a number above 0, got {text!r}")
+    return value
+
+
+def cell_budget(text: str) -> int:
+    """--max-cells N: a whole number from 1 to MAX_CELL_BUDGET."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 1 to {MAX_CELL_BUDGET}, got {text!r}") from None
+    if not 1 <= value <= MAX_CELL_BUDGET:
+        raise argparse.ArgumentTypeError(f"expected a whole number from 1 to {MAX_CELL_BUDGET}, got {value}")
+    return value
 
 
 def _add_probe_arguments(parser: argparse.ArgumentParser) -> None:

@@ -25,6 +25,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from core.data.mesh_location import LocationCache, PointLocations, TriangleLocator, grid_axes, points_key
+from core.data.ranges import MeshRanges, MinMaxPyramid, ValueRange, index_span
 from core.data.raw import DataError
 
 __all__ = ["GridField", "MeshField", "ProfileField", "triangulate_points"]
@@ -83,6 +84,7 @@ class GridField:
         self.extent = (float(self.x[0]), float(self.x[-1]), float(self.y[0]), float(self.y[-1]))
         self.size = (self.y.size, self.x.size)
         self._gradients = _LazyCache()
+        self._pyramids = _LazyCache()      # per (quantity, derivative axis): ranges over boxes
 
     def sample(self, name: str, x, y) -> np.ndarray:
         return self._bilinear(self.arrays[name], x, y)
@@ -90,6 +92,20 @@ class GridField:
     def sample_derivative(self, name: str, axis: int, x, y) -> np.ndarray:
         """d(name)/d(variable ``axis``): 0 is the first variable (x), 1 the second (y)."""
         return self._bilinear(self._gradients.get(name, lambda: self._gradient(name))[axis], x, y)
+
+    def value_range(self, name: str, axis: int | None, x0, x1, y0, y1) -> ValueRange:
+        """Range over boxes [x0, x1] x [y0, y1] of the quantity (``axis`` None) or of its derivative along
+        ``axis``: the nodal values (or nodal gradients, which are what is interpolated) the boxes touch."""
+        def pyramid():
+            if axis is None:
+                return MinMaxPyramid(self.arrays[name])
+            return MinMaxPyramid(self._gradients.get(name, lambda: self._gradient(name))[axis])
+
+        found = self._pyramids.get((name, axis), pyramid)
+        c0, c1, outside_x, missed_x = index_span(self.x, np.asarray(x0), np.asarray(x1))
+        r0, r1, outside_y, missed_y = index_span(self.y, np.asarray(y0), np.asarray(y1))
+        low, high, maybe, surely = found.query(r0, r1, c0, c1)
+        return ValueRange(low, high, maybe | outside_x | outside_y, surely | missed_x | missed_y)
 
     def _gradient(self, name: str) -> tuple[np.ndarray, np.ndarray]:
         values = self.arrays[name]
@@ -140,6 +156,7 @@ class ProfileField:
         self.extent = (*span, -math.inf, math.inf) if axis == 0 else (-math.inf, math.inf, *span)
         self.size = (self.s.size,)
         self._gradients = _LazyCache()
+        self._pyramids = _LazyCache()
 
     def sample(self, name: str, x, y) -> np.ndarray:
         return self._linear(self.arrays[name], x, y)
@@ -149,6 +166,23 @@ class ProfileField:
             return self._linear(self._gradients.get(name, lambda: self._gradient(name)), x, y)
         # Constant along the other variable: the derivative is 0 where the profile is defined.
         return self._linear(self.arrays[name], x, y) * 0.0
+
+    def value_range(self, name: str, axis: int | None, x0, x1, y0, y1) -> ValueRange:
+        """Range over boxes of the quantity (``axis`` None) or its derivative along ``axis`` (0 along the
+        other variable, where the profile is defined)."""
+        along = axis if axis == self.axis else None
+        def pyramid():
+            values = self.arrays[name] if along is None else self._gradients.get(name, lambda: self._gradient(name))
+            return MinMaxPyramid(values[np.newaxis, :])
+
+        found = self._pyramids.get((name, along), pyramid)
+        low, high = (x0, x1) if self.axis == 0 else (y0, y1)
+        first, last, outside, missed = index_span(self.s, np.asarray(low), np.asarray(high))
+        zeros = np.zeros_like(first)
+        low, high, maybe, surely = found.query(zeros, zeros, first, last)
+        if axis is not None and axis != self.axis:
+            low, high = np.zeros_like(low), np.zeros_like(high)
+        return ValueRange(low, high, maybe | outside, surely | missed)
 
     def _gradient(self, name: str) -> np.ndarray:
         values = self.arrays[name]
@@ -199,6 +233,7 @@ class MeshField:
         self._gradients = _LazyCache()
         self._corner_values = _LazyCache()      # per quantity (and derivative): values at triangles' corners
         self._locations = LocationCache(LOCATION_CACHE_BYTES)
+        self._pyramids = _LazyCache()           # ranges over boxes: the vertex buckets, then per quantity
 
     def clear_location_cache(self) -> None:
         """Forget every cached point location (benchmarks start from a cold cache)."""
@@ -214,6 +249,20 @@ class MeshField:
             return self._locator.corner_values(gradient)
 
         return self._interpolate(self._corner_values.get((name, axis), table), x, y)
+
+    def value_range(self, name: str, axis: int | None, x0, x1, y0, y1) -> ValueRange:
+        """Range over boxes of the quantity (``axis`` None) or its recovered derivative along ``axis``: the
+        vertex values (per-vertex gradients) of every triangle that may meet a box (core.data.ranges)."""
+        ranges = self._pyramids.get("buckets", lambda: MeshRanges(
+            self.points, self._locator.triangles,
+            lambda x, y: self._locator.locate(np.asarray(x, dtype=np.float64).ravel(),
+                                              np.asarray(y, dtype=np.float64).ravel()).triangle >= 0))
+        def pyramid():
+            values = self.arrays[name] if axis is None else \
+                self._gradients.get(name, lambda: self._vertex_gradient(name))[axis]
+            return ranges.pyramid(values)
+
+        return ranges.query(self._pyramids.get((name, axis), pyramid), x0, x1, y0, y1)
 
     def _vertex_gradient(self, name: str) -> tuple[np.ndarray, np.ndarray]:
         """Per-vertex gradient: the area-weighted mean of the constant gradients of adjacent triangles."""

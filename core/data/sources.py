@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from core.data.fields import GridField, MeshField, ProfileField, triangulate_points
+from core.data.ranges import ValueRange
 from core.data.raw import FORMATS, DataError, RawData, format_for_path
 from core.data.readers import read_raw
 from core.equations.language import ExpressionError, check_name, data_derivative_key
@@ -96,6 +97,14 @@ class DataSet:
             raise DataError(f"{self.path}: {key!r} differentiates along {variable!r}, which is not a variable "
                             f"({self.variables[0]!r} or {self.variables[1]!r})")
         return self.interpolator.sample_derivative(name, self.variables.index(variable), x, y)
+
+    def value_range(self, key: str, x0, x1, y0, y1) -> ValueRange:
+        """The range of ``key`` (as in ``sample``) over boxes [x0, x1] x [y0, y1] (arrays (n,)): a conservative
+        (low, high, maybe undefined, surely undefined) from the nodal values the boxes touch."""
+        quantity, variable = parse_quantity_key(key)
+        name = self.source_names[quantity]
+        axis = None if variable is None else self.variables.index(variable)
+        return self.interpolator.value_range(name, axis, x0, x1, y0, y1)
 
     def keys(self) -> tuple[str, ...]:
         """Every key ``sample`` accepts: the quantities and their first derivatives."""
@@ -245,6 +254,10 @@ class DataSources:
     def sample(self, key: str, x, y) -> np.ndarray:
         """``key`` (NAME or diff(NAME,VAR)) at the points; float64 of the broadcast shape, NaN outside."""
         return self.dataset_for(key).sample(key, x, y)
+
+    def value_range(self, key: str, x0, x1, y0, y1) -> ValueRange:
+        """``key``'s range over boxes (DataSet.value_range): how certified maps enclose data quantities."""
+        return self.dataset_for(key).value_range(key, x0, x1, y0, y1)
 
     def checksums(self) -> dict[str, str]:
         """{path: sha256} of every file, to detect data changed since a study was saved."""

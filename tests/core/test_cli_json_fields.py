@@ -35,6 +35,9 @@ CASES = {
     "classify_inline": ("classify", "--a", "max(x,0)", "--b", "0", "--c", "-1", "--domain", "-1", "1", "-1", "1",
                         "--grid", "21"),
     "classify_file_data": ("classify", BUMP_DATA, "--grid", "21"),
+    "classify_certified": ("classify", "--a", "1", "--b", "0", "--c",
+                           "piecewise(y < 0, (x - 0.3)**2 + (y + 0.5)**2, -1)", "--domain", "-1", "1", "-1", "1",
+                           "--grid", "21", "--certify", "--min-cell", "0.05"),
     "probe_inline": ("probe", *TRICOMI_INLINE, "--at", "0", "-0.5"),
     "probe_file_trade": ("probe", BUMP, "--at", "0", "0.5"),
     "probe_pins_data": ("probe", BUMP_DATA),
@@ -43,7 +46,14 @@ CASES = {
     "trace_seeds": ("trace", TRICOMI),
 }
 
+CLASSIFY_FIELDS = {
+    "boundaries", "boundaries[].closed", "boundaries[].left", "boundaries[].points", "boundaries[].right", "domain",
+    "fractions", "fractions.elliptic", "fractions.hyperbolic", "fractions.parabolic", "fractions.undefined", "grid",
+    "parabolic_regions", "pockets", "pockets[].area", "pockets[].bounding_box", "pockets[].centroid",
+    "pockets[].nodes", "pockets[].peak", "pockets[].touches_boundary", "refined", "tolerance", "variables",
+}
 TODAY = {
+    "classify_certified": CLASSIFY_FIELDS,
     "classify_inline": {
         "boundaries", "boundaries[].closed", "boundaries[].left", "boundaries[].points",
         "boundaries[].right", "domain", "fractions", "fractions.elliptic", "fractions.hyperbolic",
@@ -115,7 +125,14 @@ TODAY = {
 # holes, and the events where a characteristic went on as the other family (empty unless traced with bounces).
 STUDY = {"mixtype_version", "equation", "equation.name", "equation.variables", "equation.a", "equation.b",
          "equation.c", "equation.definitions", "equation.parameters", "parameters"}
+# --certify adds the certified map (issue 12): area bounds per type, pockets and tangencies.
+CERTIFIED = {"certified", "certified.min_cell", "certified.area", "certified.area.elliptic",
+             "certified.area.hyperbolic", "certified.area.parabolic", "certified.area.undefined",
+             "certified.undecided_area", "certified.cells", "certified.pockets", "certified.pockets[].type",
+             "certified.pockets[].bbox", "certified.pockets[].area", "certified.pockets[].proven",
+             "certified.pockets[].missed_by_grid", "certified.tangencies", "certified.tangencies[].points"}
 ADDED: dict[str, set[str]] = {
+    "classify_certified": STUDY | CERTIFIED,
     "classify_inline": STUDY | {"parabolic_regions[].holes", "parabolic_regions[].cells"},
     "classify_file_data": STUDY | {"project_checksum"},
     "probe_inline": STUDY | {"tolerance"},

@@ -124,7 +124,7 @@ CORE_LAYERS = (
     ("core", "core.domain", "core.progress", "core.bundled"),
     ("core.equations",),
     ("core.data",),
-    ("core.analysis",),
+    ("core.analysis", "core.certify"),
     ("core.project",),
     ("core.results",),
     ("core.cli",),
