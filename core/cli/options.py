@@ -29,6 +29,7 @@ __all__ = [
     "data_cap_gib",
     "finite",
     "parse_data_option",
+    "whole_number",
 ]
 
 EXIT_OK = 0
@@ -137,15 +138,20 @@ def add_equation_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
 
-def bounces(text: str) -> int:
-    """--bounces N: a whole number from 0 to MAX_BOUNCES."""
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {text!r}") from None
-    if not 0 <= value <= MAX_BOUNCES:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 0 to {MAX_BOUNCES}, got {value}")
-    return value
+def whole_number(low: int, high: int) -> Callable[[str], int]:
+    """An argparse type: a whole number from ``low`` to ``high``."""
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected a whole number from {low} to {high}, got {text!r}") from None
+        if not low <= value <= high:
+            raise argparse.ArgumentTypeError(f"expected a whole number from {low} to {high}, got {value}")
+        return value
+    return parse
+
+
+bounces = whole_number(0, MAX_BOUNCES)    # --bounces N
 
 
 def data_cap_gib(text: str) -> int:

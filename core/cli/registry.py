@@ -20,6 +20,7 @@ from core.cli.options import (
     add_equation_options,
     bounces,
     finite,
+    whole_number,
 )
 
 __all__ = ["HEADLESS_COMMANDS", "MAX_CELL_BUDGET"]
@@ -60,15 +61,7 @@ def positive_number(text: str) -> float:
     return value
 
 
-def cell_budget(text: str) -> int:
-    """--max-cells N: a whole number from 1 to MAX_CELL_BUDGET."""
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 1 to {MAX_CELL_BUDGET}, got {text!r}") from None
-    if not 1 <= value <= MAX_CELL_BUDGET:
-        raise argparse.ArgumentTypeError(f"expected a whole number from 1 to {MAX_CELL_BUDGET}, got {value}")
-    return value
+cell_budget = whole_number(1, MAX_CELL_BUDGET)     # --max-cells N
 
 
 def _add_probe_arguments(parser: argparse.ArgumentParser) -> None:
