@@ -3,8 +3,9 @@
 Three things go on top of the map view (gui.map_view) without changing how it draws the rest:
 
 * proven zones, lightly tinted in the type colours (gui.palette), and undecided cells hatched in dark grey,
-  both painted into one raster image laid on the domain. Cells smaller than a raster pixel still paint their
-  pixel, so a proven pocket far below the grid spacing stays visible;
+  both painted into one raster image of the part of the domain in view (painted again after a zoom or pan).
+  Cells smaller than a raster pixel still paint their pixel, so a proven pocket far below the grid spacing
+  stays visible;
 * a ring around every certified pocket that the sampled map missed (no grid node of its type inside its
   bounding box), in the pocket's type colour over a dark halo, a fixed size on screen so it is seen at any zoom.
 
@@ -13,6 +14,8 @@ The certified map itself (core.certify.refinement.CertifiedMap) is computed by g
 """
 
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 import numpy as np
 import pyqtgraph as pg
@@ -32,6 +35,19 @@ _IMAGE_Z, _RING_Z = 2.5, 35.0        # above the zones (0.5) and the field (2), 
 _PROVEN = (TypeCode.ELLIPTIC, TypeCode.HYPERBOLIC, TypeCode.PARABOLIC, TypeCode.UNDEFINED)
 
 
+@dataclass(frozen=True)
+class _Cells:
+    x0: np.ndarray
+    x1: np.ndarray
+    y0: np.ndarray
+    y1: np.ndarray
+    types: np.ndarray
+
+    @property
+    def decided(self) -> np.ndarray:
+        return (self.types & (self.types - 1)) == 0
+
+
 def _coverage(columns: tuple[np.ndarray, np.ndarray], rows: tuple[np.ndarray, np.ndarray],
               shape: tuple[int, int]) -> np.ndarray:
     """(ny, nx) bool: pixels covered by any of the rectangles [c0, c1) x [r0, r1) (a 2-D difference array,
@@ -46,21 +62,26 @@ def _coverage(columns: tuple[np.ndarray, np.ndarray], rows: tuple[np.ndarray, np
     return count.cumsum(axis=0).cumsum(axis=1)[:ny, :nx] > 0
 
 
-def certified_raster(certified, pixels: int = RASTER_PIXELS) -> np.ndarray:
-    """(ny, nx, 4) uint8 RGBA image of ``certified`` (a CertifiedMap) over its domain, row j from the bottom:
-    proven cells lightly in their type colour, undecided cells hatched on top."""
-    domain, cells = certified.domain, certified.leaves
-    width, height = domain.xmax - domain.xmin, domain.ymax - domain.ymin
+def certified_raster(certified, box: tuple[float, float, float, float] | None = None,
+                     pixels: int = RASTER_PIXELS) -> np.ndarray:
+    """(ny, nx, 4) uint8 RGBA image of ``certified`` (a CertifiedMap) over ``box`` (x0, x1, y0, y1; default its
+    domain), row j from the bottom: proven cells lightly in their type colour, undecided cells hatched on top."""
+    domain = certified.domain
+    x0, x1, y0, y1 = box or (domain.xmin, domain.xmax, domain.ymin, domain.ymax)
+    width, height = x1 - x0, y1 - y0
     scale = pixels / max(width, height)
     nx, ny = max(1, round(width * scale)), max(1, round(height * scale))
+    leaves = certified.leaves
+    inside = (leaves.x1 >= x0) & (leaves.x0 <= x1) & (leaves.y1 >= y0) & (leaves.y0 <= y1)
+    cells = _Cells(leaves.x0[inside], leaves.x1[inside], leaves.y0[inside], leaves.y1[inside], leaves.types[inside])
 
     def span(low, high, start, size, count):
         first = np.clip(np.floor((low - start) / size * count), 0, count - 1).astype(np.int64)
         last = np.clip(np.ceil((high - start) / size * count), 1, count).astype(np.int64)
         return first, np.maximum(last, first + 1)
 
-    columns = span(cells.x0, cells.x1, domain.xmin, width, nx)
-    rows = span(cells.y0, cells.y1, domain.ymin, height, ny)
+    columns = span(cells.x0, cells.x1, x0, width, nx)
+    rows = span(cells.y0, cells.y1, y0, height, ny)
     image = np.zeros((ny, nx, 4), dtype=np.uint8)
     for code in _PROVEN:
         chosen = cells.types == (1 << int(code))
@@ -104,6 +125,25 @@ class CertifiedLayer(QObject):
             item.setVisible(False)
             plot.addItem(item)
         analysis.certified_ready.connect(self.show)
+        plot.getViewBox().sigRangeChanged.connect(self._paint)
+
+    def _view_box(self) -> tuple[float, float, float, float] | None:
+        """The part of the domain in view (None when none of it is)."""
+        domain = self.certified.domain
+        (vx0, vx1), (vy0, vy1) = self.map_view.plot.getViewBox().viewRange()
+        x0, x1 = max(vx0, domain.xmin), min(vx1, domain.xmax)
+        y0, y1 = max(vy0, domain.ymin), min(vy1, domain.ymax)
+        return (x0, x1, y0, y1) if x1 > x0 and y1 > y0 else None
+
+    def _paint(self, *args) -> None:
+        if self.certified is None:
+            return
+        box = self._view_box()
+        self.image.setVisible(box is not None)
+        if box is None:
+            return
+        self.image.setImage(certified_raster(self.certified, box), autoLevels=False)
+        self.image.setRect(QRectF(box[0], box[2], box[1] - box[0], box[3] - box[2]))
 
     def ring_centres(self) -> np.ndarray:
         """(k, 2) centres of the rings drawn (the missed pockets' bounding-box centres)."""
@@ -121,14 +161,12 @@ class CertifiedLayer(QObject):
             self.halo.setData([], [])
             self.rings.setData([], [])
             return
-        domain = certified.domain
-        self.image.setImage(certified_raster(certified), autoLevels=False)
-        self.image.setRect(QRectF(domain.xmin, domain.ymin, domain.xmax - domain.xmin, domain.ymax - domain.ymin))
         missed = missed_pockets(certified)
         x = np.array([(p.bbox[0] + p.bbox[1]) / 2 for p in missed])
         y = np.array([(p.bbox[2] + p.bbox[3]) / 2 for p in missed])
         pens = [pg.mkPen(TYPE_COLOURS[TypeCode[p.type.upper()]], width=2.5) for p in missed]
         self.halo.setData(x, y)
         self.rings.setData(x, y, pen=pens)
-        for item in (self.image, self.halo, self.rings):
+        for item in (self.halo, self.rings):
             item.setVisible(True)
+        self._paint()

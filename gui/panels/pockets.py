@@ -57,7 +57,7 @@ def certified_pocket_row(pocket) -> tuple[str, ...]:
     missed by the grid."""
     x0, x1, y0, y1 = pocket.bbox
     missed = "—" if pocket.missed_by_grid is None else ("yes" if pocket.missed_by_grid else "no")
-    return (pocket.type, f"{_number(pocket.area[0])} .. {_number(pocket.area[1])}",
+    return (pocket.type, f"{_number(pocket.area[0], 6)} .. {_number(pocket.area[1], 6)}",
             f"[{_number(x0, 6)}, {_number(x1, 6)}]", f"[{_number(y0, 6)}, {_number(y1, 6)}]",
             "proven" if pocket.proven else "possible", missed)
 
@@ -166,7 +166,8 @@ class PocketsPanel(QWidget):
     def set_certified(self, certified) -> None:
         """Show the pockets of a core.certify.refinement.CertifiedMap (None hides the certified section)."""
         self.certified = certified
-        pockets = () if certified is None else certified.pockets
+        # the pockets the grid missed first: they are what the certified map adds
+        pockets = () if certified is None else tuple(sorted(certified.pockets, key=lambda p: not p.missed_by_grid))
         self.certified_table.setRowCount(len(pockets))
         for row, pocket in enumerate(pockets):
             for column, text in enumerate(certified_pocket_row(pocket)):
