@@ -5,7 +5,7 @@ a new type map (then its type-change lines and its hyperbolic pockets), characte
 (with the trade quantities of the equation) for the pins, and the hover readout. Every computation uses the
 document's background data. Requests made in one pass of the event loop are coalesced. Every number comes
 from core (classify_grid, find_type_boundaries, pockets_and_labels, trace_characteristics, probe_point,
-read_trade, peak_quantity); this module only schedules.
+read_trade, peak_quantity, certify_map); this module only schedules.
 """
 
 from __future__ import annotations
@@ -21,6 +21,7 @@ from core.analysis.pockets import pockets_and_labels
 from core.analysis.probe import probe_point
 from core.analysis.tracing import trace_characteristics
 from core.analysis.type_change_lines import find_type_boundaries
+from core.certify.refinement import certify_map
 from core.progress import Cancelled
 from core.project.model import Seed
 from core.results.readouts import TradeReading, peak_quantity, read_trade
@@ -74,7 +75,7 @@ def trade_at(equation, compiled, x: float, y: float, *, parameters, data) -> dic
 
 _LABELS = {"map": "Classifying the grid", "lines": "Finding type-change lines",
            "characteristics": "Tracing characteristics", "probes": "Probing pins", "hover": "Reading point",
-           "pockets": "Measuring hyperbolic pockets"}
+           "pockets": "Measuring hyperbolic pockets", "certified": "Certifying the map"}
 
 
 class StudyAnalysis(QObject):
@@ -87,6 +88,7 @@ class StudyAnalysis(QObject):
     trade_ready = Signal(object)            # tuple[dict | str, ...], one trade readout per pin (see shown_trade)
     pockets_ready = Signal(object)          # PocketReport, or None while none is known
     hover_ready = Signal(object)            # HoverReading
+    certified_ready = Signal(object)        # core.certify.refinement.CertifiedMap, or None (layer off or stale)
     message = Signal(str)                   # something the user should read (errors, missing parts)
 
     def __init__(self, document: Document, runner: JobRunner, parent: QObject | None = None) -> None:
@@ -101,6 +103,8 @@ class StudyAnalysis(QObject):
         self.trade_readouts: tuple = ()
         self.trade_readings: tuple[TradeReading, ...] = ()
         self.pockets: PocketReport | None = None
+        self.certified = None                 # CertifiedMap of the newest map, when the certified layer is on
+        self._certified_for: tuple | None = None
         self._wanted: set[str] = set()
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
@@ -112,6 +116,7 @@ class StudyAnalysis(QObject):
         document.pins_changed.connect(lambda: self.schedule("probes"))
         document.seeds_changed.connect(lambda: self.schedule("characteristics"))
         document.data_changed.connect(self.refresh_all)
+        document.layers_changed.connect(self._certified_settings_changed)
         runner.finished.connect(self._on_finished)
         runner.failed.connect(self._on_failed)
 
@@ -144,6 +149,7 @@ class StudyAnalysis(QObject):
         if self.type_map is not None and not self.runner.is_busy("map"):
             self._request_lines(self.type_map)
             self._request_pockets(self.type_map)
+            self._request_certified(self.type_map)
 
     def _inputs(self):
         document = self.document
@@ -201,6 +207,38 @@ class StudyAnalysis(QObject):
             return PocketReport(type_map=type_map, pockets=pockets, labels=labels, quantity=quantity)
 
         self.runner.request("pockets", work, label=_LABELS["pockets"])
+
+    def _certified_settings_changed(self) -> None:
+        """The layers changed: (re)certify when the certified layer's settings did."""
+        settings = self.document.project.view.certified
+        if self.type_map is not None and self._certified_for != (settings, id(self.type_map)):
+            self._request_certified(self.type_map)
+
+    def _request_certified(self, type_map) -> None:
+        """The certified map of ``type_map``'s study (core.certify), when the certified layer is on; pockets
+        are checked against ``type_map``. Off (or during a slider drag) the layer is cleared."""
+        settings = self.document.project.view.certified
+        compiled = self.document.compiled
+        if not settings.shown or compiled is None or self.dragging:
+            self.runner.cancel("certified")
+            self._certified_for = None
+            if self.certified is not None:
+                self.certified = None
+                self.certified_ready.emit(None)
+            return
+        self._certified_for = (settings, id(type_map))
+        domain = type_map.domain
+        min_cell = settings.min_cell * min(domain.xmax - domain.xmin, domain.ymax - domain.ymin)
+        parameters = dict(type_map.parameters)
+        data, tolerance, max_cells = self.document.data, type_map.tolerance, settings.max_cells
+
+        def work(cancel, progress):
+            with np.errstate(all="ignore"):
+                return certify_map(compiled, domain, parameters=parameters, data=data, tolerance=tolerance,
+                                   min_cell=min_cell, max_cells=max_cells, sampled=type_map, cancel=cancel,
+                                   progress=progress)
+
+        self.runner.request("certified", work, label=_LABELS["certified"])
 
     def _request_characteristics(self, compiled) -> None:
         seeds = self.document.project.seeds
@@ -283,6 +321,10 @@ class StudyAnalysis(QObject):
             self.map_ready.emit(result)
             self._request_lines(result)
             self._request_pockets(result)
+            self._request_certified(result)
+        elif channel == "certified":
+            self.certified = result
+            self.certified_ready.emit(result)
         elif channel == "lines":
             self.boundaries = result
             self.lines_ready.emit(result)

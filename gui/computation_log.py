@@ -44,7 +44,8 @@ MAX_ENTRIES = 1000
 
 # job channel -> what the log calls it
 LOGGED_CHANNELS = {"map": "Type map", "lines": "Type-change lines", "pockets": "Hyperbolic pockets",
-                   "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file"}
+                   "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file",
+                   "certified": "Certified map"}
 
 
 @dataclass(frozen=True)
@@ -223,6 +224,8 @@ class ComputationLog(QObject):
             return _grid_text(self.analysis.type_map.codes.shape)
         if channel == "characteristics":
             return _plural(len(self.document.project.seeds), "seed line")
+        if channel == "certified":
+            return f"cells down to {self.document.project.view.certified.min_cell:g} of the shorter side"
         if channel == "data":
             return _plural(len(self.document.project.data_sources), "file")
         return ""
@@ -285,6 +288,11 @@ def _result_text(channel: str, result: object, *, dragging: bool) -> str:
         return text + ("" if result.refined else ", not refined")
     if channel == "pockets":
         return _plural(len(result.pockets), "pocket")
+    if channel == "certified":
+        missed = sum(bool(pocket.missed_by_grid) for pocket in result.pockets)
+        return (f"{_plural(result.cells, 'cell')} examined, {_plural(len(result.pockets), 'pocket')} "
+                f"({missed} missed by the grid), undecided area {result.undecided_area:.3g}"
+                + ("; the cell budget ran out" if result.budget_reached else ""))
     if channel == "characteristics":
         return _plural(sum(len(traced.curves) for traced in result), "curve")
     if channel == "data":

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from core.results.certified import certified_document
 from core.results.document import results_document
 from core.results.tables import (
     boundary_columns,
@@ -51,18 +52,21 @@ class ExportCommands:
 
     def results_document(self, *, include_codes: bool = True) -> dict:
         """core.results.document.results_document of what the window holds now (results not yet computed
-        are null)."""
+        are null), with the ``certified`` object (core.results.certified) when the certified layer is on."""
         document, analysis = self.document, self.analysis
         equation = document.equation
         pockets = None if analysis.pockets is None else analysis.pockets.pockets
         data = document.data
-        return results_document(
+        result = results_document(
             equation=equation, domain=document.domain, parameters=equation.parameter_values(),
             tolerance=document.tolerance, type_map=analysis.type_map, boundaries=analysis.boundaries,
             pockets=pockets, pins=document.project.pins, probes=analysis.probes, trades=analysis.trade_readings,
             traced=[(traced.seed, traced.curves) for traced in analysis.traced],
             data=getattr(data, "sources", data), project_file=document.path, unsaved_changes=document.is_dirty,
             include_codes=include_codes)
+        if document.project.view.certified.shown:
+            result["certified"] = None if analysis.certified is None else certified_document(analysis.certified)
+        return result
 
     def export_table(self, what: str, path: str | Path) -> int:
         """Write one CSV table (a key of TABLES); returns the number of rows."""

@@ -31,6 +31,7 @@ from PySide6.QtWidgets import (
 from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
+from gui.certified_layer import CertifiedLayer
 from gui.computation_log import ComputationLog
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
 from gui.document import Document
@@ -59,7 +60,7 @@ __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
 LAYOUT_VERSION = 2     # saved panel layouts of other versions are not restored (version 2: the map comes first)
 
-CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add")
+CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified")
 
 
 class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
@@ -152,6 +153,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.cancel_button.clicked.connect(self.cancel_work)
         self.cancel_button.setVisible(False)
         self.field_layer = FieldLayer(self.map_view, self.document, self.analysis, self.runner, self)
+        self.certified_layer = CertifiedLayer(self.map_view, self.analysis, self)
         self.statusBar().addWidget(self.hover_label, 1)
         self.statusBar().addWidget(self.field_layer.readout)
         self.statusBar().addPermanentWidget(self.progress_text)
@@ -230,6 +232,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         a.probes_ready.connect(self.pins_panel.set_results)
         a.map_ready.connect(self.pockets_panel.mark_stale)
         a.pockets_ready.connect(self.pockets_panel.set_report)
+        a.certified_ready.connect(self.pockets_panel.set_certified)
         self.pockets_panel.pocket_chosen.connect(self._pocket_chosen)
         self.equation_panel.template_requested.connect(self.template_dialog)
         self.data_loader.loaded.connect(self.data_panel.set_loaded)

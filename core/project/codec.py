@@ -15,7 +15,16 @@ from core.equations.equation import Parameter
 from core.project.checks import equation_from_dict, meaning_problems
 from core.project.form_checks import sanity_problems, schema_problems
 from core.project.migrate import MigrationError, migrate
-from core.project.model import DataSourceRef, FieldLayerSettings, Metadata, Pin, Project, Seed, ViewSettings
+from core.project.model import (
+    CertifiedLayerSettings,
+    DataSourceRef,
+    FieldLayerSettings,
+    Metadata,
+    Pin,
+    Project,
+    Seed,
+    ViewSettings,
+)
 from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
 
 __all__ = ["ProjectError", "project_from_dict", "project_to_dict"]
@@ -105,6 +114,10 @@ def _field_to_dict(field: FieldLayerSettings) -> dict:
             "iso_values": [float(v) for v in field.iso_values]}
 
 
+def _certified_to_dict(certified: CertifiedLayerSettings) -> dict:
+    return {"shown": certified.shown, "min_cell": float(certified.min_cell), "max_cells": certified.max_cells}
+
+
 def project_to_dict(project: Project) -> dict:
     """The plain JSON data of a project in the current format, keys in the fixed order files use."""
     view = project.view
@@ -125,6 +138,7 @@ def project_to_dict(project: Project) -> dict:
             "parabolic_tolerance": float(view.parabolic_tolerance),
             "characteristic_bounces": view.characteristic_bounces,
             "field": _field_to_dict(view.field),
+            "certified": _certified_to_dict(view.certified),
         },
         "notes": project.notes,
     }
@@ -152,6 +166,13 @@ def _field(raw: Mapping | None) -> FieldLayerSettings:
                               colour_map=raw["colour_map"], iso_values=tuple(float(v) for v in raw["iso_values"]))
 
 
+def _certified(raw: Mapping | None) -> CertifiedLayerSettings:
+    """The certified layer; optional in the file (absent: hidden, with the default cell size and budget)."""
+    if raw is None:
+        return CertifiedLayerSettings()
+    return CertifiedLayerSettings(shown=raw["shown"], min_cell=float(raw["min_cell"]), max_cells=int(raw["max_cells"]))
+
+
 def _build(data: Mapping) -> Project:
     view, layers = data["view"], data["view"]["layers"]
     return Project(
@@ -170,7 +191,7 @@ def _build(data: Mapping) -> Project:
                           parabolic_tolerance=float(view["parabolic_tolerance"]),
                           show_seed_segments=layers.get("seed_segments", True),
                           characteristic_bounces=int(view["characteristic_bounces"]),
-                          field=_field(view.get("field"))),
+                          field=_field(view.get("field")), certified=_certified(view.get("certified"))),
         notes=data["notes"],
         metadata=Metadata(created=data["metadata"]["created"], modified=data["metadata"]["modified"],
                           written_by=data["metadata"]["written_by"]),

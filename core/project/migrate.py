@@ -78,8 +78,20 @@ def _v3_to_v4(data: dict) -> dict:
     return result
 
 
+def _v4_to_v5(data: dict) -> dict:
+    """Version 5 adds the certified layer (``view.certified``): hidden in a version-4 file, with the default
+    minimum cell (1e-4 of the domain's shorter side) and cell budget (4,000,000 cells): the values of
+    core.certify.refinement when format 5 came, written out so that this step never changes."""
+    result = dict(data)
+    result["format_version"] = 5
+    view = result.get("view")
+    if isinstance(view, dict):
+        result["view"] = {**view, "certified": {"shown": False, "min_cell": 1e-4, "max_cells": 4_000_000}}
+    return result
+
+
 # version n -> function turning version-n data into version n + 1. Version 1 is the first format.
-MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3, 3: _v3_to_v4}
+MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3, 3: _v3_to_v4, 4: _v4_to_v5}
 
 
 class MigrationError(ValueError):

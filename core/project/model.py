@@ -22,6 +22,7 @@ from core.analysis.classify import DEFAULT_TOLERANCE
 from core.analysis.field_values import TRADE_FIELDS
 from core.analysis.tracing import MAX_BOUNCES, seeds_along_segment
 from core.bundled import bundled_path
+from core.certify.refinement import DEFAULT_MAX_CELLS, DEFAULT_MIN_CELL_FRACTION
 from core.data.raw import FORMATS
 from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, Equation
@@ -32,9 +33,12 @@ __all__ = [
     "FAMILIES",
     "FIELD_COLOUR_MAPS",
     "FIELD_KINDS",
+    "MAX_CELLS_RANGE",
     "MAX_ISO_VALUES",
     "MAX_SEED_CURVES",
+    "MIN_CELL_FRACTION_RANGE",
     "PROJECT_SUFFIX",
+    "CertifiedLayerSettings",
     "DataSourceRef",
     "FieldLayerSettings",
     "Metadata",
@@ -53,6 +57,8 @@ MAX_SEED_CURVES = 1000
 PROJECT_SUFFIX = ".mixtype.json"
 DEFAULT_DEMO = "transonic_bump"
 DATA_FORMATS = tuple(sorted(set(FORMATS.values())))
+MIN_CELL_FRACTION_RANGE = (1e-7, 0.5)     # the certified layer's minimum cell, of the domain's shorter side
+MAX_CELLS_RANGE = (1_000, 100_000_000)   # the certified layer's cell budget
 _CHECKSUM = re.compile(r"^[0-9a-fA-F]{64}$")
 _FILE_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 
@@ -184,6 +190,30 @@ class FieldLayerSettings:
 
 
 @dataclass(frozen=True)
+class CertifiedLayerSettings:
+    """The certified layer (core.certify): proven zones, undecided cells and the pockets the sampled map misses.
+
+    ``min_cell`` is the smallest cell side refined, as a fraction of the domain's shorter side (dimensionless);
+    ``max_cells`` bounds the cells examined in all; ``shown`` says whether it is computed and drawn.
+    """
+
+    shown: bool = False
+    min_cell: float = DEFAULT_MIN_CELL_FRACTION
+    max_cells: int = DEFAULT_MAX_CELLS
+
+    def __post_init__(self) -> None:
+        fraction = float(self.min_cell)
+        if not (math.isfinite(fraction) and MIN_CELL_FRACTION_RANGE[0] <= fraction <= MIN_CELL_FRACTION_RANGE[1]):
+            raise ValueError(f"the certified layer's minimum cell is a fraction of the shorter side in "
+                             f"[{MIN_CELL_FRACTION_RANGE[0]:g}, {MIN_CELL_FRACTION_RANGE[1]:g}], got {self.min_cell!r}")
+        object.__setattr__(self, "min_cell", fraction)
+        cells = self.max_cells
+        if isinstance(cells, bool) or not isinstance(cells, int) or not MAX_CELLS_RANGE[0] <= cells <= MAX_CELLS_RANGE[1]:
+            raise ValueError(f"the certified layer's cell budget is a whole number in [{MAX_CELLS_RANGE[0]}, "
+                             f"{MAX_CELLS_RANGE[1]}], got {cells!r}")
+
+
+@dataclass(frozen=True)
 class ViewSettings:
     """What the map shows, kept with the project so a study reopens as it was left.
 
@@ -191,8 +221,8 @@ class ViewSettings:
     core.analysis.directions). ``show_seed_segments`` draws the segments characteristics start from; it is
     optional in the file (absent means shown). ``characteristic_bounces`` (0 to MAX_BOUNCES) is how many times
     each half of a characteristic goes on as the other family past the domain edge or the type-change line
-    (core.analysis.tracing); it came with format version 3, ``field`` (the field layer) with version 4. New
-    fields come last.
+    (core.analysis.tracing); it came with format version 3, ``field`` (the field layer) with version 4,
+    ``certified`` (the certified layer) with version 5. New fields come last.
     """
 
     show_type_map: bool = True
@@ -205,10 +235,13 @@ class ViewSettings:
     show_seed_segments: bool = True
     characteristic_bounces: int = 0
     field: FieldLayerSettings = FieldLayerSettings()
+    certified: CertifiedLayerSettings = CertifiedLayerSettings()
 
     def __post_init__(self) -> None:
         if not isinstance(self.field, FieldLayerSettings):
             raise TypeError(f"the field layer is a FieldLayerSettings, got {type(self.field).__name__}")
+        if not isinstance(self.certified, CertifiedLayerSettings):
+            raise TypeError(f"the certified layer is a CertifiedLayerSettings, got {type(self.certified).__name__}")
         if not 0.0 <= float(self.parabolic_tolerance) < 1.0:
             raise ValueError(f"parabolic tolerance must be in [0, 1), got {self.parabolic_tolerance!r}")
         bounces = self.characteristic_bounces

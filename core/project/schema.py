@@ -23,8 +23,10 @@ from core.project.model import (
     FAMILIES,
     FIELD_COLOUR_MAPS,
     FIELD_KINDS,
+    MAX_CELLS_RANGE,
     MAX_ISO_VALUES,
     MAX_SEED_CURVES,
+    MIN_CELL_FRACTION_RANGE,
 )
 
 __all__ = [
@@ -45,7 +47,7 @@ __all__ = [
     "schema_text",
 ]
 
-CURRENT_FORMAT_VERSION = 4
+CURRENT_FORMAT_VERSION = 5
 FORMAT_NAME = "mixtype-project"
 MAX_EQUATIONS = 100
 MAX_DOMAINS = 100
@@ -208,6 +210,18 @@ def _field_schema() -> dict:
        "the normalised discriminant)")
 
 
+def _certified_schema() -> dict:
+    return _object({
+        "shown": {"type": "boolean", "description": "compute and draw the certified layer: zones proven by "
+                  "interval bounds, undecided cells, and pockets the sampled map misses"},
+        "min_cell": _number("smallest cell side refined, as a fraction of the domain's shorter side "
+                            "(dimensionless)", minimum=MIN_CELL_FRACTION_RANGE[0], maximum=MIN_CELL_FRACTION_RANGE[1]),
+        "max_cells": {"type": "integer", "minimum": MAX_CELLS_RANGE[0], "maximum": MAX_CELLS_RANGE[1],
+                      "description": "how many cells the refinement may examine in all"},
+    }, required=["shown", "min_cell", "max_cells"], description="the certified layer (optional; absent: hidden, "
+       "minimum cell 1e-4 of the shorter side)")
+
+
 def project_schema() -> dict:
     """The JSON Schema of the current project file format, as a dict (keys in a fixed order)."""
     version = CURRENT_FORMAT_VERSION
@@ -269,6 +283,7 @@ def project_schema() -> dict:
                                    "where it meets the domain edge (reflected) or the type-change line (turned "
                                    "back); 0 stops it there"},
                 "field": _field_schema(),
+                "certified": _certified_schema(),
             }, required=["layers", "parabolic_tolerance", "characteristic_bounces"],
                 description="what the map shows and how characteristics are traced"),
             "notes": _text(MAX_NOTES_LENGTH, "free-text notes"),

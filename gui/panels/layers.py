@@ -1,5 +1,5 @@
 """What the map shows and what the mouse does: layer switches, the field layer (which quantity shades the map,
-its colour map and iso-lines), the seeding tool for characteristics and how far characteristics go on past the
+its colour map and iso-lines), the certified layer (its minimum cell and cell budget), the seeding tool for characteristics and how far characteristics go on past the
 domain edge and the type-change line (all kept in the study)."""
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from PySide6.QtWidgets import (
 
 from core.analysis.field_values import field_quantities
 from core.analysis.tracing import MAX_BOUNCES
-from core.project.model import FIELD_COLOUR_MAPS, MAX_ISO_VALUES, FieldLayerSettings
+from core.project.model import FIELD_COLOUR_MAPS, MAX_ISO_VALUES, CertifiedLayerSettings, FieldLayerSettings
 from gui.document import LAYER_LABELS, Document
 from gui.field_layer import COLOUR_MAP_LABELS
 from gui.palette import FAMILY_COLOURS, PIN_COLOUR, SEGMENT_COLOUR, TYPE_COLOURS, TYPE_LINE_COLOUR
@@ -48,6 +48,9 @@ def parse_iso_values(text: str) -> tuple[float, ...]:
     if len(values) > MAX_ISO_VALUES:
         raise ValueError(f"at most {MAX_ISO_VALUES} iso values, got {len(values)}")
     return tuple(values)
+
+MIN_CELL_CHOICES = (1e-2, 1e-3, 1e-4, 1e-5, 1e-6)          # of the domain's shorter side
+CELL_BUDGET_CHOICES = (100_000, 1_000_000, 4_000_000, 16_000_000, 64_000_000)
 
 _SAMPLE_COLOURS = {
     "type_map": TYPE_COLOURS[1],
@@ -90,6 +93,7 @@ class LayersPanel(QWidget):
             self.boxes[name] = box
 
         field_box = self._field_box()
+        certified_box = self._certified_box()
 
         tool_box = QGroupBox("Mouse tool (left button on the map)")
         self.pin_tool = QRadioButton("Click: pin a point")
@@ -148,6 +152,7 @@ class LayersPanel(QWidget):
         layout = QVBoxLayout(self)
         layout.addWidget(layers_box)
         layout.addWidget(field_box)
+        layout.addWidget(certified_box)
         layout.addWidget(tool_box)
         layout.addStretch(1)
         document.layers_changed.connect(self.refresh)
@@ -236,6 +241,56 @@ class LayersPanel(QWidget):
         if not self.field_iso.hasFocus() and not self.field_iso_problem.isVisible():
             self.field_iso.setText(", ".join(f"{v:g}" for v in field.iso_values))
 
+    # -- the certified layer -------------------------------------------------------------------------------
+    def _certified_box(self) -> QGroupBox:
+        box = QGroupBox("Certified layer (proven by interval bounds)")
+        self.certified_shown = QCheckBox("Prove the types cell by cell")
+        self.certified_shown.setObjectName("certified_shown")
+        self.certified_shown.setToolTip("Bound D over cells and refine where the bounds cannot tell: proven zones "
+                                        "are tinted, undecided cells hatched, and pockets the grid missed ringed "
+                                        "(runs in the background; undoable, saved with the study)")
+        self.certified_shown.toggled.connect(lambda on: self._set_certified(shown=on))
+        self.certified_min_cell = SteadyComboBox()
+        self.certified_min_cell.setObjectName("certified_min_cell")
+        self.certified_min_cell.setToolTip("The smallest cell side refined, as a fraction of the domain's shorter "
+                                           "side (dimensionless): smaller cells find smaller pockets, at a cost")
+        self.certified_min_cell.activated.connect(
+            lambda index: self._set_certified(min_cell=self.certified_min_cell.itemData(index)))
+        self.certified_budget = SteadyComboBox()
+        self.certified_budget.setObjectName("certified_max_cells")
+        self.certified_budget.setToolTip("How many cells the refinement may examine in all; what is still "
+                                         "undecided when it runs out stays hatched")
+        self.certified_budget.activated.connect(
+            lambda index: self._set_certified(max_cells=self.certified_budget.itemData(index)))
+        form = QFormLayout(box)
+        form.addRow(self.certified_shown)
+        form.addRow("smallest cell (of shorter side):", self.certified_min_cell)
+        form.addRow("cell budget:", self.certified_budget)
+        return box
+
+    def _set_certified(self, **changes) -> bool:
+        view = self.document.project.view
+        certified = replace(view.certified, **changes)
+        if certified == view.certified:
+            return False
+        what = (("Show" if certified.shown else "Hide") + " the certified layer" if "shown" in changes
+                else "Change the certified layer")
+        return self.document.edit(replace(self.document.project, view=replace(view, certified=certified)), what)
+
+    def _refresh_certified(self, certified: CertifiedLayerSettings) -> None:
+        for combo, choices, value, text in (
+                (self.certified_min_cell, MIN_CELL_CHOICES, certified.min_cell, "{:g}"),
+                (self.certified_budget, CELL_BUDGET_CHOICES, certified.max_cells, "{:,}")):
+            combo.blockSignals(True)
+            combo.clear()
+            for choice in sorted({*choices, value}, reverse=combo is self.certified_min_cell):
+                combo.addItem(text.format(choice), choice)
+            combo.setCurrentIndex(combo.findData(value))
+            combo.blockSignals(False)
+        self.certified_shown.blockSignals(True)
+        self.certified_shown.setChecked(certified.shown)
+        self.certified_shown.blockSignals(False)
+
     def families(self) -> tuple[int, ...]:
         chosen = tuple(f for f, box in self.family_boxes.items() if box.isChecked())
         return chosen or (1, 2)
@@ -249,3 +304,4 @@ class LayersPanel(QWidget):
         self.bounces.setValue(self.document.bounces)
         self.bounces.blockSignals(False)
         self._refresh_field(self.document.project.view.field)
+        self._refresh_certified(self.document.project.view.certified)

@@ -4,6 +4,10 @@ A pocket is a connected region of hyperbolic grid nodes (a supersonic zone over 
 of a river, the depth band where internal waves propagate). core.analysis.pockets measures them in the background after
 each map; this panel lists them, largest first, and asks the map to centre on and highlight the one clicked.
 Areas are in (first variable's unit) × (second variable's unit); positions in the equation's length units.
+
+With the certified layer on, a second table lists the certified pockets (core.certify.regions): groups of cells
+that may hold a type, with their area bounds, bounding box, whether they are proven to exist and whether the
+sampled map missed them.
 """
 
 from __future__ import annotations
@@ -24,7 +28,7 @@ from PySide6.QtWidgets import (
 from core.results.readable import point_without_noise
 from gui.document import Document
 
-__all__ = ["PocketsPanel", "pocket_row"]
+__all__ = ["PocketsPanel", "certified_pocket_row", "pocket_row"]
 
 
 def _number(value, digits: int = 4) -> str:
@@ -46,6 +50,16 @@ def pocket_row(pocket, domain=None) -> tuple[str, ...]:
         where = f"({_number(px)}, {_number(py)})"
     return (str(pocket.label), _number(pocket.area), str(pocket.node_count), f"({_number(cx)}, {_number(cy)})",
             peak, where, "yes" if pocket.touches_boundary else "no")
+
+
+def certified_pocket_row(pocket) -> tuple[str, ...]:
+    """The table cells of one core.certify.regions.CertifiedPocket: type, area bounds, x and y ranges, proven,
+    missed by the grid."""
+    x0, x1, y0, y1 = pocket.bbox
+    missed = "—" if pocket.missed_by_grid is None else ("yes" if pocket.missed_by_grid else "no")
+    return (pocket.type, f"{_number(pocket.area[0], 6)} .. {_number(pocket.area[1], 6)}",
+            f"[{_number(x0, 6)}, {_number(x1, 6)}]", f"[{_number(y0, 6)}, {_number(y1, 6)}]",
+            "proven" if pocket.proven else "possible", missed)
 
 
 class PocketsPanel(QWidget):
@@ -75,10 +89,25 @@ class PocketsPanel(QWidget):
         self.table.itemSelectionChanged.connect(self._selected)
         self.table.setMinimumHeight(60)
 
+        self.certified = None
+        self.certified_summary = QLabel("")
+        self.certified_summary.setObjectName("certifiedPocketSummary")
+        self.certified_summary.setWordWrap(True)
+        self.certified_table = QTableWidget(0, 6)
+        self.certified_table.setObjectName("certifiedPocketTable")
+        self.certified_table.verticalHeader().setVisible(False)
+        self.certified_table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.certified_table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.certified_table.setMinimumHeight(60)
+        for widget in (self.certified_summary, self.certified_table):
+            widget.setVisible(False)
+
         layout = QVBoxLayout(self)
         layout.addWidget(purpose)
         layout.addWidget(self.summary)
         layout.addWidget(self.table, 1)
+        layout.addWidget(self.certified_summary)
+        layout.addWidget(self.certified_table, 1)
         document.equation_changed.connect(self._label_columns)
         self._label_columns()
 
@@ -100,6 +129,15 @@ class PocketsPanel(QWidget):
         self.table.setHorizontalHeaderLabels(headers)
         for column, tip in enumerate(tips):
             self.table.horizontalHeaderItem(column).setToolTip(tip)
+        certified = [("type", "The type the pocket's cells may hold"),
+                     (f"area ({first} unit × {second} unit)", "Proven area .. at most (proven plus undecided cells)"),
+                     (f"{first} range", "Bounding box of the pocket's cells along the first variable"),
+                     (f"{second} range", "Bounding box of the pocket's cells along the second variable"),
+                     ("exists", "proven: a cell surely holds the type; possible: only undecided cells may"),
+                     ("missed by the grid", "yes: no grid node of the sampled map has this type inside the box")]
+        self.certified_table.setHorizontalHeaderLabels([header for header, _ in certified])
+        for column, (_, tip) in enumerate(certified):
+            self.certified_table.horizontalHeaderItem(column).setToolTip(tip)
 
     def mark_stale(self, *args) -> None:
         """A new map arrived: the listed pockets are about to be replaced."""
@@ -124,6 +162,25 @@ class PocketsPanel(QWidget):
             self.table.blockSignals(False)
         self.summary.setText(self._summary_text(report))
         self.pocket_chosen.emit(None)
+
+    def set_certified(self, certified) -> None:
+        """Show the pockets of a core.certify.refinement.CertifiedMap (None hides the certified section)."""
+        self.certified = certified
+        # the pockets the grid missed first: they are what the certified map adds
+        pockets = () if certified is None else tuple(sorted(certified.pockets, key=lambda p: not p.missed_by_grid))
+        self.certified_table.setRowCount(len(pockets))
+        for row, pocket in enumerate(pockets):
+            for column, text in enumerate(certified_pocket_row(pocket)):
+                self.certified_table.setItem(row, column, QTableWidgetItem(text))
+        for widget in (self.certified_summary, self.certified_table):
+            widget.setVisible(certified is not None)
+        if certified is not None:
+            first, second = self.document.equation.variables
+            missed = sum(bool(pocket.missed_by_grid) for pocket in pockets)
+            self.certified_summary.setText(
+                f"Certified pockets: {len(pockets)} ({missed} missed by the grid, ringed on the map); undecided "
+                f"area {_number(certified.undecided_area)} ({first} unit × {second} unit)"
+                + ("; the cell budget ran out." if certified.budget_reached else "."))
 
     def _summary_text(self, report) -> str:
         if report is None:
