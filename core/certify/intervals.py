@@ -63,8 +63,8 @@ def _step(value, toward: float, move=None) -> np.ndarray:
         outward *= move
     outward += bits
     stepped = outward.view(np.float64)
-    irregular = np.flatnonzero(~np.isfinite(v) | (v == 0))
-    if irregular.size:
+    irregular = ~np.isfinite(v) | (v == 0)
+    if irregular.any():
         special = np.nextafter(v[irregular], toward)
         stepped[irregular] = special if move is None else np.where(move[irregular], special, v[irregular])
     return stepped

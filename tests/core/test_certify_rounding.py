@@ -48,6 +48,12 @@ def test_step_where_moves_only_the_chosen(toward):
         assert _same_bits(_step(values, toward, move), expected)
 
 
+def test_step_on_a_table_of_cells():
+    values = _values()[:900].reshape(30, 30)
+    with np.errstate(over="ignore"):
+        assert _same_bits(_step(values, np.inf), np.nextafter(values, np.inf))
+
+
 def test_up_and_down_two_steps():
     values = _values()
     with np.errstate(over="ignore"):
