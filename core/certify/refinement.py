@@ -197,12 +197,14 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         iy = (2 * iy[split, None] + np.array([0, 0, 1, 1])).ravel()
     cells = _leaves(domain, nx, ny, leaves)
     pairs = touching_pairs(cells)
+    groups: dict = {}         # labelled selections, shared by the pockets and the tangencies
     area = _areas(cells)
     undecided = float(cells.areas[~cells.decided].sum())
     return CertifiedMap(domain=domain, tolerance=float(tolerance), min_cell=float(min_cell), max_cells=max_cells,
                         leaves=cells, area=area, undecided_area=undecided, cells=enclosed,
                         budget_reached=budget_reached, levels=tuple(levels),
-                        pockets=find_pockets(cells, sampled, pairs), tangencies=find_tangencies(cells, pairs),
+                        pockets=find_pockets(cells, sampled, pairs, groups),
+                        tangencies=find_tangencies(cells, pairs, groups),
                         dependency_form=encloser.dependency_form)
 
 

@@ -60,10 +60,23 @@ def touching_pairs(cells) -> tuple[np.ndarray, np.ndarray]:
     return np.concatenate([p[0] for p in pairs]), np.concatenate([p[1] for p in pairs])
 
 
-def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None
-                     ) -> tuple[np.ndarray, int]:
+def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None,
+                     cache: dict | None = None) -> tuple[np.ndarray, int]:
     """Labels (0..count-1) of the touching groups among the cells where ``selected`` (bool (n,)); -1 elsewhere.
-    ``pairs`` (from touching_pairs) spares finding the contacts again."""
+    ``pairs`` (from touching_pairs) spares finding the contacts again; ``cache`` (a dict kept for one set of
+    cells and pairs) spares labelling the same selection twice (the parabolic pockets and the tangencies
+    select the same cells where no cell may be undefined)."""
+    key = selected.tobytes()
+    if cache is not None and key in cache:
+        return cache[key]
+    result = _connected_groups(cells, selected, pairs)
+    if cache is not None:
+        cache[key] = result
+    return result
+
+
+def _connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None
+                      ) -> tuple[np.ndarray, int]:
     # Here, not at the top: scipy.sparse takes about 0.2 s to import and only a certified map needs it.
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
@@ -77,9 +90,11 @@ def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.nd
                        shape=(selected.size, selected.size))
     _, group = connected_components(graph, directed=False)
     chosen = group[selected]
-    _, renumbered = np.unique(chosen, return_inverse=True)
-    labels[selected] = renumbered
-    return labels, int(renumbered.max()) + 1
+    present = np.zeros(int(group.max()) + 1, dtype=bool)
+    present[chosen] = True
+    rank = np.cumsum(present) - 1            # the groups renumbered in increasing order (as np.unique would)
+    labels[selected] = rank[chosen]
+    return labels, int(rank[-1]) + 1
 
 
 def _contacts(a0, a1, b0, b1) -> tuple[np.ndarray, np.ndarray]:
@@ -126,15 +141,16 @@ def _missed(sampled: TypeMap | None, code: TypeCode, bbox) -> bool | None:
     return not bool(np.any(window == int(code)))
 
 
-def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None
-                 ) -> tuple[CertifiedPocket, ...]:
-    """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first."""
+def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None,
+                 cache: dict | None = None) -> tuple[CertifiedPocket, ...]:
+    """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first
+    (``cache``: see connected_groups)."""
     areas = cells.areas
     pockets: list[CertifiedPocket] = []
     pairs = touching_pairs(cells) if pairs is None else pairs
     for code, bit in ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC),
                       (TypeCode.HYPERBOLIC, _HYPERBOLIC)):
-        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs)
+        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs, cache)
         if not count:
             continue
         proven_cells = cells.types == bit
@@ -153,11 +169,13 @@ def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray,
     return tuple(pockets)
 
 
-def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[Tangency, ...]:
-    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring)."""
+def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None, cache: dict | None = None
+                    ) -> tuple[Tangency, ...]:
+    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring; ``cache``: see
+    connected_groups)."""
     types = cells.types
     candidates = ((types & _PARABOLIC) != 0) & ((types & _UNDEFINED) == 0)
-    labels, count = connected_groups(cells, candidates, pairs)
+    labels, count = connected_groups(cells, candidates, pairs, cache)
     found = []
     for members in _members(labels, count):
         held = np.bitwise_or.reduce(types[members])
