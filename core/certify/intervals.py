@@ -27,7 +27,7 @@ LARGEST_SAFE = 1e300        # a bound beyond this may overflow somewhere in doub
 _SPLIT = 134217729.0        # 2**27 + 1, Veltkamp's splitter
 _SPLIT_SAFE = 2.0 ** 995    # TwoProduct is exact for factors below this and products above _TINY_PRODUCT
 _TINY_PRODUCT = 2.0 ** -960
-_FAST_STEP_SIZE = 64      # below this many values np.nextafter itself is as quick
+_FAST_STEP_SIZE = 1024    # below this many values np.nextafter itself is quicker (measured)
 
 
 @dataclass(frozen=True, eq=False)

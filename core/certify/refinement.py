@@ -154,7 +154,9 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         # Cells whose corners are of both types cannot be decided: above the deepest level they are split
         # without an enclosure (splitting is always sound); the others are enclosed.
         with np.errstate(invalid="ignore"):
-            straddling = (np.min(corners, axis=1) < -tolerance) & (np.max(corners, axis=1) > tolerance)
+            lowest = np.minimum(np.minimum(corners[0], corners[1]), np.minimum(corners[2], corners[3]))
+            highest = np.maximum(np.maximum(corners[0], corners[1]), np.maximum(corners[2], corners[3]))
+            straddling = (lowest < -tolerance) & (highest > tolerance)
         types = np.full(ix.size, _NOT_ENCLOSED, dtype=np.uint8)
         # the mean-value form only where cells will not be split again (at the deepest level): above it an
         # undecided cell is split anyway, and the form's fixed cost (hundreds of gradient steps) outweighs it
@@ -169,7 +171,7 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         decided_area += float(np.count_nonzero(decided)) * cell_area
         leaves.append((level, ix[decided], iy[decided], types[decided]))
         ix, iy, types, straddling, corners = (ix[~decided], iy[~decided], types[~decided], straddling[~decided],
-                                              corners[~decided])
+                                              corners[:, ~decided])
         levels.append(LevelReport(level=level, cell_width=width / scale_x, cell_height=height / scale_y,
                                   cells=int(decided.size), undecided_area=max(0.0, total_area - decided_area)))
         if progress is not None:
@@ -191,7 +193,7 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         split = order[:affordable]
         if not split.size:
             break
-        corners = _child_corners(encloser, domain, ix[split], iy[split], corners[split], (scale_x, scale_y),
+        corners = _child_corners(encloser, domain, ix[split], iy[split], corners[:, split], (scale_x, scale_y),
                                  tolerance, data)
         ix = (2 * ix[split, None] + np.array([0, 1, 0, 1])).ravel()
         iy = (2 * iy[split, None] + np.array([0, 0, 1, 1])).ravel()
@@ -301,7 +303,7 @@ def _normalized_at(encloser: DiscriminantEncloser, x: np.ndarray, y: np.ndarray,
 
 def _base_corners(encloser: DiscriminantEncloser, domain: Domain, nx: int, ny: int, tolerance: float,
                   data) -> np.ndarray:
-    """D/S in double precision at the four corners of every level-0 cell, (nx * ny, 4) in the order
+    """D/S in double precision at the four corners of every level-0 cell, (4, nx * ny) in the order
     (x0, y0), (x1, y0), (x0, y1), (x1, y1): each lattice node evaluated once. Cells whose corners are of both
     types (elliptic and hyperbolic) cannot be decided by any enclosure; the corners only save work (such cells
     are split, or skip the costly mean-value form): a cell wrongly taken for one is split or keeps its natural
@@ -310,24 +312,26 @@ def _base_corners(encloser: DiscriminantEncloser, domain: Domain, nx: int, ny: i
     ys = _edges(domain.ymin, domain.ymax, np.arange(ny + 1, dtype=np.int64), ny)
     nodes = _normalized_at(encloser, xs[None, :], ys[:, None], tolerance, data)     # (ny + 1, nx + 1)
     return np.stack([nodes[:-1, :-1].ravel(), nodes[:-1, 1:].ravel(), nodes[1:, :-1].ravel(),
-                     nodes[1:, 1:].ravel()], axis=1)
+                     nodes[1:, 1:].ravel()])
 
 
 def _child_corners(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray,
                    corners: np.ndarray, scale: tuple[int, int], tolerance: float, data) -> np.ndarray:
     """The corners of the four children of each cell (ix, iy) at ``scale`` (children in the order of the
-    split: (0, 0), (1, 0), (0, 1), (1, 1)), (4 n, 4): the parents' corners reused, five new nodes per parent
+    split: (0, 0), (1, 0), (0, 1), (1, 1)), (4, 4 n) like ``corners`` (4, n): the parents' corners reused, five new nodes per parent
     (the midpoints of its sides and its centre, at the same coordinates as the children's edges)."""
     sx, sy = 2 * scale[0], 2 * scale[1]
     x0, xm, x1 = (_edges(domain.xmin, domain.xmax, 2 * ix + k, sx) for k in (0, 1, 2))
     y0, ym, y1 = (_edges(domain.ymin, domain.ymax, 2 * iy + k, sy) for k in (0, 1, 2))
     bottom, left, centre, right, top = _normalized_at(
         encloser, np.stack([xm, x0, xm, x1, xm]), np.stack([y0, ym, ym, ym, y1]), tolerance, data)
-    c00, c10, c01, c11 = corners.T
-    children = np.stack([np.stack([c00, bottom, left, centre], axis=1), np.stack([bottom, c10, centre, right], axis=1),
-                         np.stack([left, centre, c01, top], axis=1), np.stack([centre, right, top, c11], axis=1)],
-                        axis=1)
-    return children.reshape(-1, 4)
+    c00, c10, c01, c11 = corners
+    children = np.empty((4, ix.size, 4), dtype=np.float64)      # corner, parent, child
+    for child, values in enumerate(((c00, bottom, left, centre), (bottom, c10, centre, right),
+                                    (left, centre, c01, top), (centre, right, top, c11))):
+        for corner, value in enumerate(values):
+            children[corner, :, child] = value
+    return children.reshape(4, -1)
 
 
 def _taken(value: Interval, index: np.ndarray, size: int) -> Interval:

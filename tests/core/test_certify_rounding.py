@@ -70,13 +70,13 @@ def test_child_corners_are_the_corners_of_the_children():
     parents = _boxes(domain, ix, iy, *scale)
 
     def corners(boxes):
-        x = np.stack([boxes.x0, boxes.x1, boxes.x0, boxes.x1], axis=1)
-        y = np.stack([boxes.y0, boxes.y0, boxes.y1, boxes.y1], axis=1)
+        x = np.stack([boxes.x0, boxes.x1, boxes.x0, boxes.x1])
+        y = np.stack([boxes.y0, boxes.y0, boxes.y1, boxes.y1])
         return classify_points(compiled, x, y)[1]
 
     children = _child_corners(encloser, domain, ix, iy, corners(parents), scale, 1e-6, None)
     cx = (2 * ix[:, None] + np.array([0, 1, 0, 1])).ravel()
     cy = (2 * iy[:, None] + np.array([0, 0, 1, 1])).ravel()
     expected = corners(_boxes(domain, cx, cy, 2 * scale[0], 2 * scale[1]))
-    assert children.shape == (16, 4)
+    assert children.shape == (4, 16)
     assert np.array_equal(children, expected)
