@@ -113,16 +113,15 @@ def _flags(*parts: Interval) -> tuple[np.ndarray, np.ndarray]:
     return maybe, surely
 
 
-def _sum_bounds(p, q) -> tuple[np.ndarray, np.ndarray]:
-    """(lower, upper) bounds of the exact p + q: TwoSum's error term says which way the rounding went."""
+def _sum_bound(p, q, toward: float) -> np.ndarray:
+    """The lower (``toward`` -inf) or upper (+inf) bound of the exact p + q: TwoSum's error term says which way
+    the rounding went (only the bound asked for is stepped: a sum of intervals needs one side of each)."""
     with np.errstate(all="ignore"):
         s = np.add(p, q)
         virtual = s - p
         error = (p - (s - virtual)) + (q - virtual)
-        exact_finite = np.isfinite(error)
-        lower = _step(s, -np.inf, ~(exact_finite & (error >= 0)))
-        upper = _step(s, np.inf, ~(exact_finite & (error <= 0)))
-    return lower, upper
+        exact = np.isfinite(error) & ((error >= 0) if toward < 0 else (error <= 0))
+        return _step(s, toward, ~exact)
 
 
 def _product_bounds(p, q) -> tuple[np.ndarray, np.ndarray]:
@@ -146,6 +145,11 @@ def _product_bounds(p, q) -> tuple[np.ndarray, np.ndarray]:
 
 def _exact_product_bounds(p, q, product) -> tuple[np.ndarray, np.ndarray]:
     """Bounds of p * q from Dekker's TwoProduct (its error term says which way the rounding went)."""
+    return _exact_product_bound(p, q, product, -np.inf), _exact_product_bound(p, q, product, np.inf)
+
+
+def _exact_product_bound(p, q, product, toward: float) -> np.ndarray:
+    """The lower (``toward`` -inf) or upper (+inf) bound of p * q from Dekker's TwoProduct."""
     c = _SPLIT * p
     p_high = c - (c - p)
     p_low = p - p_high
@@ -154,10 +158,8 @@ def _exact_product_bounds(p, q, product) -> tuple[np.ndarray, np.ndarray]:
     q_low = q - q_high
     error = ((p_high * q_high - product) + p_high * q_low + p_low * q_high) + p_low * q_low
     safe = (np.abs(p) < _SPLIT_SAFE) & (np.abs(q) < _SPLIT_SAFE) & (np.abs(product) > _TINY_PRODUCT)
-    lower = _step(product, -np.inf, ~(safe & (error >= 0)))
-    upper = _step(product, np.inf, ~(safe & (error <= 0)))
-    zero = (p == 0) | (q == 0)
-    return np.where(zero, 0.0, lower), np.where(zero, 0.0, upper)
+    bound = _step(product, toward, ~(safe & ((error >= 0) if toward < 0 else (error <= 0))))
+    return np.where((p == 0) | (q == 0), 0.0, bound)
 
 
 def negate(a: Interval) -> Interval:
@@ -165,8 +167,7 @@ def negate(a: Interval) -> Interval:
 
 
 def add(a: Interval, b: Interval) -> Interval:
-    lo, _ = _sum_bounds(a.lo, b.lo)
-    _, hi = _sum_bounds(a.hi, b.hi)
+    lo, hi = _sum_bound(a.lo, b.lo, -np.inf), _sum_bound(a.hi, b.hi, np.inf)
     return finished(lo, hi, *_flags(a, b))
 
 
@@ -241,8 +242,8 @@ def power_integer(a: Interval, n: int) -> Interval:
         low_end, high_end = a.lo, a.hi
     if n == 2:   # squares through TwoProduct, so [-1, 2] ** 2 is exactly [0, 4]
         with np.errstate(all="ignore"):
-            lo, _ = _exact_product_bounds(low_end, low_end, np.multiply(low_end, low_end))
-            _, hi = _exact_product_bounds(high_end, high_end, np.multiply(high_end, high_end))
+            lo = _exact_product_bound(low_end, low_end, np.multiply(low_end, low_end), -np.inf)
+            hi = _exact_product_bound(high_end, high_end, np.multiply(high_end, high_end), np.inf)
     else:
         with np.errstate(all="ignore"):
             # pow is within one unit in the last place in glibc: two steps outward cover it
