@@ -139,6 +139,7 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
     nx, ny, deepest = _base_grid(width, height, min_cell)
     ix, iy = np.meshgrid(np.arange(nx, dtype=np.int64), np.arange(ny, dtype=np.int64))
     ix, iy = ix.ravel(), iy.ravel()
+    corners = _base_corners(encloser, domain, nx, ny, tolerance, data)
     leaves: list[tuple[int, np.ndarray, np.ndarray, np.ndarray]] = []
     levels: list[LevelReport] = []
     enclosed = 0
@@ -152,11 +153,14 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         boxes = _boxes(domain, ix, iy, scale_x, scale_y)
         # Cells whose corners are of both types cannot be decided: above the deepest level they are split
         # without an enclosure (splitting is always sound); the others are enclosed.
-        straddling = _changes_type(encloser, boxes, tolerance, data)
+        with np.errstate(invalid="ignore"):
+            lowest = np.minimum(np.minimum(corners[0], corners[1]), np.minimum(corners[2], corners[3]))
+            highest = np.maximum(np.maximum(corners[0], corners[1]), np.maximum(corners[2], corners[3]))
+            straddling = (lowest < -tolerance) & (highest > tolerance)
         types = np.full(ix.size, _NOT_ENCLOSED, dtype=np.uint8)
         # the mean-value form only where cells will not be split again (at the deepest level): above it an
         # undecided cell is split anyway, and the form's fixed cost (hundreds of gradient steps) outweighs it
-        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, data, cancel,
+        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, cancel,
                                             sharpen=level == deepest)
         if level == deepest and straddling.any():
             types[straddling] = _straddling_types(encloser, domain, ix[straddling], iy[straddling], level, (nx, ny),
@@ -166,7 +170,8 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         cell_area = total_area / (scale_x * scale_y)
         decided_area += float(np.count_nonzero(decided)) * cell_area
         leaves.append((level, ix[decided], iy[decided], types[decided]))
-        ix, iy, types, straddling = ix[~decided], iy[~decided], types[~decided], straddling[~decided]
+        ix, iy, types, straddling, corners = (ix[~decided], iy[~decided], types[~decided], straddling[~decided],
+                                              corners[:, ~decided])
         levels.append(LevelReport(level=level, cell_width=width / scale_x, cell_height=height / scale_y,
                                   cells=int(decided.size), undecided_area=max(0.0, total_area - decided_area)))
         if progress is not None:
@@ -188,16 +193,20 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         split = order[:affordable]
         if not split.size:
             break
+        corners = _child_corners(encloser, domain, ix[split], iy[split], corners[:, split], (scale_x, scale_y),
+                                 tolerance, data)
         ix = (2 * ix[split, None] + np.array([0, 1, 0, 1])).ravel()
         iy = (2 * iy[split, None] + np.array([0, 0, 1, 1])).ravel()
     cells = _leaves(domain, nx, ny, leaves)
     pairs = touching_pairs(cells)
+    groups: dict = {}         # labelled selections, shared by the pockets and the tangencies
     area = _areas(cells)
     undecided = float(cells.areas[~cells.decided].sum())
     return CertifiedMap(domain=domain, tolerance=float(tolerance), min_cell=float(min_cell), max_cells=max_cells,
                         leaves=cells, area=area, undecided_area=undecided, cells=enclosed,
                         budget_reached=budget_reached, levels=tuple(levels),
-                        pockets=find_pockets(cells, sampled, pairs), tangencies=find_tangencies(cells, pairs),
+                        pockets=find_pockets(cells, sampled, pairs, groups),
+                        tangencies=find_tangencies(cells, pairs, groups),
                         dependency_form=encloser.dependency_form)
 
 
@@ -233,10 +242,10 @@ def _subset(boxes: Boxes, chosen: np.ndarray) -> Boxes:
     return Boxes(boxes.x0[chosen], boxes.x1[chosen], boxes.y0[chosen], boxes.y1[chosen])
 
 
-def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, data,
-                   cancel: CancelCheck | None, *, sharpen: bool) -> np.ndarray:
-    """The possible-type masks of the cells, in batches; the mean-value form only for cells the natural
-    enclosure leaves undecided and whose corners are not of both types."""
+def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, cancel: CancelCheck | None, *,
+                   sharpen: bool) -> np.ndarray:
+    """The possible-type masks of the cells, in batches; with ``sharpen`` (cells whose corners are not of
+    both types) the mean-value form for those the natural enclosure leaves undecided."""
     types = np.empty(boxes.size, dtype=np.uint8)
 
     def batch(start: int) -> None:
@@ -247,7 +256,6 @@ def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: floa
         mask = np.array(np.broadcast_to(possible_types(d, s, tolerance), (part.size,)))
         if sharpen and encloser.sharpened:
             open_cells = np.flatnonzero(((mask & (mask - 1)) != 0) & ~np.broadcast_to(d.maybe_undefined, mask.shape))
-            open_cells = open_cells[~_changes_type(encloser, _subset(part, open_cells), tolerance, data)]
             if open_cells.size:
                 d_sub, s_sub = (_taken(v, open_cells, mask.size) for v in (d, s))
                 mask[open_cells] = possible_types(encloser.sharpen(_subset(part, open_cells), d_sub), s_sub,
@@ -279,23 +287,51 @@ def _straddling_types(encloser: DiscriminantEncloser, domain: Domain, ix: np.nda
     types = np.full(ix.size, ELLIPTIC_BIT | PARABOLIC_BIT | HYPERBOLIC_BIT, dtype=np.uint8)
     doubtful = np.flatnonzero(maybe[inverse.ravel()])
     if doubtful.size:
+        # their corners are of both types: the mean-value form cannot decide them
         types[doubtful] = _enclose_cells(encloser, _boxes(domain, ix[doubtful], iy[doubtful], base[0] << level,
-                                                          base[1] << level), tolerance, data, cancel, sharpen=True)
+                                                          base[1] << level), tolerance, cancel,
+                                         sharpen=False)
     return types
 
 
-def _changes_type(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: float, data) -> np.ndarray:
-    """Cells whose corners, evaluated in double precision, are of both types (elliptic and hyperbolic): no
-    enclosure can decide them. Only a saving (such cells are split, or skip the costly mean-value form): a
-    cell wrongly taken for one is split or keeps its natural enclosure, both sound."""
-    if not boxes.size:
-        return np.zeros(0, dtype=bool)
-    x = np.stack([boxes.x0, boxes.x1, boxes.x0, boxes.x1])
-    y = np.stack([boxes.y0, boxes.y0, boxes.y1, boxes.y1])
+def _normalized_at(encloser: DiscriminantEncloser, x: np.ndarray, y: np.ndarray, tolerance: float,
+                   data) -> np.ndarray:
     _, normalized = classify_points(encloser.compiled, x, y, parameters=encloser.parameters, data=data,
                                     tolerance=tolerance)
-    with np.errstate(invalid="ignore"):
-        return (np.min(normalized, axis=0) < -tolerance) & (np.max(normalized, axis=0) > tolerance)
+    return normalized
+
+
+def _base_corners(encloser: DiscriminantEncloser, domain: Domain, nx: int, ny: int, tolerance: float,
+                  data) -> np.ndarray:
+    """D/S in double precision at the four corners of every level-0 cell, (4, nx * ny) in the order
+    (x0, y0), (x1, y0), (x0, y1), (x1, y1): each lattice node evaluated once. Cells whose corners are of both
+    types (elliptic and hyperbolic) cannot be decided by any enclosure; the corners only save work (such cells
+    are split, or skip the costly mean-value form): a cell wrongly taken for one is split or keeps its natural
+    enclosure, both sound."""
+    xs = _edges(domain.xmin, domain.xmax, np.arange(nx + 1, dtype=np.int64), nx)
+    ys = _edges(domain.ymin, domain.ymax, np.arange(ny + 1, dtype=np.int64), ny)
+    nodes = _normalized_at(encloser, xs[None, :], ys[:, None], tolerance, data)     # (ny + 1, nx + 1)
+    return np.stack([nodes[:-1, :-1].ravel(), nodes[:-1, 1:].ravel(), nodes[1:, :-1].ravel(),
+                     nodes[1:, 1:].ravel()])
+
+
+def _child_corners(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray,
+                   corners: np.ndarray, scale: tuple[int, int], tolerance: float, data) -> np.ndarray:
+    """The corners of the four children of each cell (ix, iy) at ``scale`` (children in the order of the
+    split: (0, 0), (1, 0), (0, 1), (1, 1)), (4, 4 n) like ``corners`` (4, n): the parents' corners reused, five new nodes per parent
+    (the midpoints of its sides and its centre, at the same coordinates as the children's edges)."""
+    sx, sy = 2 * scale[0], 2 * scale[1]
+    x0, xm, x1 = (_edges(domain.xmin, domain.xmax, 2 * ix + k, sx) for k in (0, 1, 2))
+    y0, ym, y1 = (_edges(domain.ymin, domain.ymax, 2 * iy + k, sy) for k in (0, 1, 2))
+    bottom, left, centre, right, top = _normalized_at(
+        encloser, np.stack([xm, x0, xm, x1, xm]), np.stack([y0, ym, ym, ym, y1]), tolerance, data)
+    c00, c10, c01, c11 = corners
+    children = np.empty((4, ix.size, 4), dtype=np.float64)      # corner, parent, child
+    for child, values in enumerate(((c00, bottom, left, centre), (bottom, c10, centre, right),
+                                    (left, centre, c01, top), (centre, right, top, c11))):
+        for corner, value in enumerate(values):
+            children[corner, :, child] = value
+    return children.reshape(4, -1)
 
 
 def _taken(value: Interval, index: np.ndarray, size: int) -> Interval:

@@ -11,6 +11,8 @@ whole may be only one of them): D touches zero without changing sign, e.g. D = -
 
 from __future__ import annotations
 
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,6 +23,8 @@ __all__ = ["MAX_TANGENCY_POINTS", "CertifiedPocket", "Tangency", "connected_grou
            "find_tangencies", "touching_pairs"]
 
 MAX_TANGENCY_POINTS = 200
+_POOL: ThreadPoolExecutor | None = None
+_POOL_LOCK = threading.Lock()
 _ELLIPTIC, _PARABOLIC, _HYPERBOLIC, _UNDEFINED = (1 << int(code) for code in (
     TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED))
 
@@ -51,19 +55,44 @@ class Tangency:
     bbox: tuple[float, float, float, float]
 
 
+def _pool() -> ThreadPoolExecutor:
+    """Two threads for independent whole-array steps (numpy releases the GIL while it sorts and searches): the
+    contacts along x and along y, the groups of each type (bench flow, 62,200 leaves: 31 ms inline, 25 to
+    30 ms on two threads of a shared two-core machine)."""
+    global _POOL
+    with _POOL_LOCK:
+        if _POOL is None:
+            _POOL = ThreadPoolExecutor(max_workers=2, thread_name_prefix="mixtype-regions")
+        return _POOL
+
+
 def touching_pairs(cells) -> tuple[np.ndarray, np.ndarray]:
     """Every pair (p, q) of cells whose closed rectangles touch, each pair once (arrays of cell indices)."""
     i0, i1, j0, j1 = (np.asarray(v) for v in (cells.i0, cells.i1, cells.j0, cells.j1))
     if not i0.size:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    pairs = [_contacts(i0, i1, j0, j1), _contacts(j0, j1, i0, i1)]
+    along_y = _pool().submit(_contacts, j0, j1, i0, i1)
+    pairs = [_contacts(i0, i1, j0, j1), along_y.result()]
     return np.concatenate([p[0] for p in pairs]), np.concatenate([p[1] for p in pairs])
 
 
-def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None
-                     ) -> tuple[np.ndarray, int]:
+def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None,
+                     cache: dict | None = None) -> tuple[np.ndarray, int]:
     """Labels (0..count-1) of the touching groups among the cells where ``selected`` (bool (n,)); -1 elsewhere.
-    ``pairs`` (from touching_pairs) spares finding the contacts again."""
+    ``pairs`` (from touching_pairs) spares finding the contacts again; ``cache`` (a dict kept for one set of
+    cells and pairs) spares labelling the same selection twice (the parabolic pockets and the tangencies
+    select the same cells where no cell may be undefined)."""
+    key = selected.tobytes()
+    if cache is not None and key in cache:
+        return cache[key]
+    result = _connected_groups(cells, selected, pairs)
+    if cache is not None:
+        cache[key] = result
+    return result
+
+
+def _connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None
+                      ) -> tuple[np.ndarray, int]:
     # Here, not at the top: scipy.sparse takes about 0.2 s to import and only a certified map needs it.
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
@@ -77,9 +106,11 @@ def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.nd
                        shape=(selected.size, selected.size))
     _, group = connected_components(graph, directed=False)
     chosen = group[selected]
-    _, renumbered = np.unique(chosen, return_inverse=True)
-    labels[selected] = renumbered
-    return labels, int(renumbered.max()) + 1
+    present = np.zeros(int(group.max()) + 1, dtype=bool)
+    present[chosen] = True
+    rank = np.cumsum(present) - 1            # the groups renumbered in increasing order (as np.unique would)
+    labels[selected] = rank[chosen]
+    return labels, int(rank[-1]) + 1
 
 
 def _contacts(a0, a1, b0, b1) -> tuple[np.ndarray, np.ndarray]:
@@ -126,15 +157,22 @@ def _missed(sampled: TypeMap | None, code: TypeCode, bbox) -> bool | None:
     return not bool(np.any(window == int(code)))
 
 
-def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None
-                 ) -> tuple[CertifiedPocket, ...]:
-    """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first."""
+def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None,
+                 cache: dict | None = None) -> tuple[CertifiedPocket, ...]:
+    """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first
+    (``cache``: see connected_groups)."""
     areas = cells.areas
     pockets: list[CertifiedPocket] = []
     pairs = touching_pairs(cells) if pairs is None else pairs
-    for code, bit in ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC),
-                      (TypeCode.HYPERBOLIC, _HYPERBOLIC)):
-        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs)
+    kinds = ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC), (TypeCode.HYPERBOLIC, _HYPERBOLIC))
+    cache = {} if cache is None else cache
+    selections = {selected.tobytes(): selected for selected in ((cells.types & bit) != 0 for _, bit in kinds)}
+    missing = [key for key in selections if key not in cache]
+    for key, result in zip(missing, _pool().map(lambda key: _connected_groups(cells, selections[key], pairs),
+                                                 missing), strict=True):
+        cache[key] = result
+    for code, bit in kinds:
+        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs, cache)
         if not count:
             continue
         proven_cells = cells.types == bit
@@ -153,11 +191,13 @@ def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray,
     return tuple(pockets)
 
 
-def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None) -> tuple[Tangency, ...]:
-    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring)."""
+def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None, cache: dict | None = None
+                    ) -> tuple[Tangency, ...]:
+    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring; ``cache``: see
+    connected_groups)."""
     types = cells.types
     candidates = ((types & _PARABOLIC) != 0) & ((types & _UNDEFINED) == 0)
-    labels, count = connected_groups(cells, candidates, pairs)
+    labels, count = connected_groups(cells, candidates, pairs, cache)
     found = []
     for members in _members(labels, count):
         held = np.bitwise_or.reduce(types[members])
