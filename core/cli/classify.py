@@ -10,11 +10,9 @@ from typing import TextIO
 from core.analysis.classify import TypeCode, classify_grid
 from core.analysis.pockets import pocket_statistics
 from core.analysis.type_change_lines import find_type_boundaries
-from core.cli.certified import certify_study, write_certified
 from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
-from core.results.certified import certified_document
 from core.results.document import data_files_document, map_fields, study_fields
 from core.results.readouts import peak_quantity
 
@@ -36,6 +34,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
                                 data=study.data)
     certified = None
     if args.certify:
+        # Here, not at the top: the certified-map modules take 10 to 25 ms to import (python -X importtime),
+        # a fifth of what an inline classify may add to numpy and sympy (bench/bench_startup.py).
+        from core.cli.certified import certify_study
+
         certified = certify_study(args, study, compiled, type_map)
     if args.save_project:
         _save_study(study, args.save_project)
@@ -46,6 +48,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         document["data"] = data_files_document(study.data)
     document.update(source_fields(study))
     if certified is not None:
+        from core.results.certified import certified_document  # with --certify only (see above)
+
         document["certified"] = certified_document(certified)
     if args.json:
         json.dump(document, out)
@@ -70,6 +74,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         out.write(f"  parabolic region {index}: area {region.area:.6g} (units of {x}*{y})\n")
     _write_pockets(document["pockets"], x, y, out)
     if certified is not None:
+        from core.cli.certified import write_certified  # with --certify only (see above)
+
         write_certified(certified, x, y, out)
     if args.save_project:
         files = len(study.data_files)

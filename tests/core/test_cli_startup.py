@@ -66,8 +66,9 @@ def test_an_inline_classify_loads_what_it_computes_with_but_no_project_validatio
     assert {"numpy", "sympy", "numexpr", "contourpy"} <= set(report["heavy"])
     assert "jsonschema" not in report["heavy"]
     assert "scipy" not in report["heavy"]                 # pockets and lines are labelled without scipy.ndimage
-    assert not [name for name in report["core"]           # no data readers, templates or project files
-                if name.startswith(("core.project", "core.data.sources", "core.equations.templates"))]
+    assert not [name for name in report["core"]           # no data readers, templates, project files, certify
+                if name.startswith(("core.project", "core.data.sources", "core.equations.templates",
+                                    "core.certify"))]
 
 
 def test_a_classify_of_a_project_file_still_validates_it_with_the_schema():
