@@ -16,6 +16,7 @@ Analysis" (SIAM 2009), chapters 2 to 5.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -181,13 +182,69 @@ def multiply(a: Interval, b: Interval) -> Interval:
         return power_integer(a, 2)
     for scalar, other in ((a, b), (b, a)):
         if np.ndim(scalar.lo) == 0 and scalar.lo == scalar.hi and np.isfinite(scalar.lo):   # a constant factor
+            if np.ndim(other.lo) > 0 and np.ndim(other.hi) > 0 and scalar.lo != 0:
+                return finished(*_scaled_hull(scalar.lo, other), *_flags(a, b))
             first, second = _product_bounds(scalar.lo, other.lo), _product_bounds(scalar.lo, other.hi)
             lo, hi = np.minimum(first[0], second[0]), np.maximum(first[1], second[1])
             return finished(lo, hi, *_flags(a, b))
+    constant_a = [v for v in (a.lo, a.hi) if np.ndim(v) == 0]
+    constant_b = [v for v in (b.lo, b.hi) if np.ndim(v) == 0]
+    if not (constant_a and constant_b) and not any(_power_of_two(v) for v in constant_a + constant_b):
+        lo, hi = _corner_product_hull(a, b)
+        return finished(lo, hi, *_flags(a, b))
     bounds = [_product_bounds(p, q) for p, q in ((a.lo, b.lo), (a.lo, b.hi), (a.hi, b.lo), (a.hi, b.hi))]
     lo = np.minimum(np.minimum(bounds[0][0], bounds[1][0]), np.minimum(bounds[2][0], bounds[3][0]))
     hi = np.maximum(np.maximum(bounds[0][1], bounds[1][1]), np.maximum(bounds[2][1], bounds[3][1]))
     return finished(lo, hi, *_flags(a, b))
+
+
+def _power_of_two(value) -> bool:
+    """Whether a 0-d bound is a finite power of two (a factor _product_bounds multiplies exactly)."""
+    return bool(np.isfinite(value)) and np.frexp(value)[0] in (0.5, -0.5)
+
+
+def _corner_product_hull(a: Interval, b: Interval) -> tuple[np.ndarray, np.ndarray]:
+    """The bounds ``multiply`` takes from its four corner products when no product has two 0-d factors and no
+    0-d bound is a power of two (the cases _product_bounds treats apart)."""
+    zero_a_lo, zero_a_hi, zero_b_lo, zero_b_hi = a.lo == 0, a.hi == 0, b.lo == 0, b.hi == 0
+    with np.errstate(all="ignore"):
+        products = [np.multiply(p, q) for p, q in ((a.lo, b.lo), (a.lo, b.hi), (a.hi, b.lo), (a.hi, b.hi))]
+    return _product_hull(products, [zero_a_lo | zero_b_lo, zero_a_lo | zero_b_hi, zero_a_hi | zero_b_lo,
+                                    zero_a_hi | zero_b_hi], exact_powers=False)
+
+
+def _scaled_hull(factor: np.ndarray, other: Interval) -> tuple[np.ndarray, np.ndarray]:
+    """The bounds ``multiply`` takes for a constant ``factor`` (finite, non-zero) times an interval whose bounds
+    are arrays."""
+    with np.errstate(all="ignore"):
+        products = [np.multiply(factor, other.lo), np.multiply(factor, other.hi)]
+    return _product_hull(products, [other.lo == 0, other.hi == 0], exact_powers=_power_of_two(factor))
+
+
+def _product_hull(products: list[np.ndarray], zeros: list[np.ndarray], *,
+                  exact_powers: bool) -> tuple[np.ndarray, np.ndarray]:
+    """min and max over ``products`` of _product_bounds' lower and upper bounds, to the same values with one
+    step each way instead of one per product: the bound of a product (one step outward, or none where a
+    power-of-two factor makes it exact: ``exact_powers``, beyond the underflow range) is non-decreasing in
+    it, so the smallest bound is the bound of the smallest product. Products with a zero factor (``zeros``)
+    are exactly 0 (and the only NaN ones, 0 * inf) and join unstepped, as +0.0 (maxima taken product by
+    product could give -0.0 beside a product of -2**-1074: equal, as sound)."""
+    any_zero = functools.reduce(np.logical_or, zeros)
+    with np.errstate(all="ignore"):
+        if any_zero.any():
+            products_lo = [np.where(zero, np.inf, p) for zero, p in zip(zeros, products, strict=True)]
+            products_hi = [np.where(zero, -np.inf, p) for zero, p in zip(zeros, products, strict=True)]
+        else:
+            products_lo = products_hi = products
+        smallest = functools.reduce(np.minimum, products_lo)
+        largest = functools.reduce(np.maximum, products_hi)
+        lo, hi = down(smallest), up(largest)
+        if exact_powers:
+            lo = np.where(np.abs(smallest) >= 2.0 ** -1021, smallest, lo)
+            hi = np.where(np.abs(largest) >= 2.0 ** -1021, largest, hi)
+    if not any_zero.any():
+        return lo, hi
+    return np.where(any_zero & (lo >= 0.0), 0.0, lo), np.where(any_zero & (hi <= 0.0), 0.0, hi)
 
 
 def reciprocal(b: Interval) -> Interval:
