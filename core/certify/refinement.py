@@ -31,6 +31,7 @@ from core.certify.discriminant_bounds import (
 from core.certify.enclosure import Boxes
 from core.certify.intervals import Interval
 from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies, touching_pairs
+from core.certify.settings import DEFAULT_MAX_CELLS, DEFAULT_MIN_CELL_FRACTION
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
 from core.progress import CancelCheck, Cancelled, ProgressReport
@@ -38,8 +39,7 @@ from core.progress import CancelCheck, Cancelled, ProgressReport
 __all__ = ["DEFAULT_MAX_CELLS", "DEFAULT_MIN_CELL_FRACTION", "CertifiedCells", "CertifiedMap", "LevelReport",
            "certify_map"]
 
-DEFAULT_MIN_CELL_FRACTION = 1e-4     # of the domain's shorter side
-DEFAULT_MAX_CELLS = 4_000_000        # cells examined in all
+# DEFAULT_MIN_CELL_FRACTION and DEFAULT_MAX_CELLS live in core.certify.settings (read by the project layer too)
 _BASE_CELLS = 16                     # along the shorter side at level 0
 _MAX_BASE_CELLS = 1024               # along the longer side at level 0
 _MAX_POSITION_BITS = 30              # integer positions stay below 2**30 (pairs of them fit in int64)

@@ -22,7 +22,7 @@ from core.analysis.classify import DEFAULT_TOLERANCE
 from core.analysis.field_values import TRADE_FIELDS
 from core.analysis.tracing import MAX_BOUNCES, seeds_along_segment
 from core.bundled import bundled_path
-from core.certify.refinement import DEFAULT_MAX_CELLS, DEFAULT_MIN_CELL_FRACTION
+from core.certify.settings import DEFAULT_MAX_CELLS, DEFAULT_MIN_CELL_FRACTION
 from core.data.raw import FORMATS
 from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, Equation
