@@ -30,7 +30,7 @@ from core.certify.discriminant_bounds import (
 )
 from core.certify.enclosure import Boxes
 from core.certify.intervals import Interval
-from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies, touching_pairs
+from core.certify.regions import CertifiedPocket, Tangency, find_pockets, find_tangencies, region_labels
 from core.certify.settings import DEFAULT_MAX_CELLS, DEFAULT_MIN_CELL_FRACTION
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
@@ -198,15 +198,14 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         ix = (2 * ix[split, None] + np.array([0, 1, 0, 1])).ravel()
         iy = (2 * iy[split, None] + np.array([0, 0, 1, 1])).ravel()
     cells = _leaves(domain, nx, ny, leaves)
-    pairs = touching_pairs(cells)
-    groups: dict = {}         # labelled selections, shared by the pockets and the tangencies
+    labelled = region_labels(cells)      # the touching groups the pockets and the tangencies share
     area = _areas(cells)
     undecided = float(cells.areas[~cells.decided].sum())
     return CertifiedMap(domain=domain, tolerance=float(tolerance), min_cell=float(min_cell), max_cells=max_cells,
                         leaves=cells, area=area, undecided_area=undecided, cells=enclosed,
                         budget_reached=budget_reached, levels=tuple(levels),
-                        pockets=find_pockets(cells, sampled, pairs, groups),
-                        tangencies=find_tangencies(cells, pairs, groups),
+                        pockets=find_pockets(cells, sampled, labelled),
+                        tangencies=find_tangencies(cells, labelled),
                         dependency_form=encloser.dependency_form)
 
 

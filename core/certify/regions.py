@@ -11,20 +11,16 @@ whole may be only one of them): D touches zero without changing sign, e.g. D = -
 
 from __future__ import annotations
 
-import threading
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
 
 from core.analysis.classify import TypeCode, TypeMap
 
-__all__ = ["MAX_TANGENCY_POINTS", "CertifiedPocket", "Tangency", "connected_groups", "find_pockets",
-           "find_tangencies", "touching_pairs"]
+__all__ = ["MAX_TANGENCY_POINTS", "CertifiedPocket", "Selection", "Tangency", "find_pockets", "find_tangencies",
+           "region_labels", "touching_pairs"]
 
 MAX_TANGENCY_POINTS = 200
-_POOL: ThreadPoolExecutor | None = None
-_POOL_LOCK = threading.Lock()
 _ELLIPTIC, _PARABOLIC, _HYPERBOLIC, _UNDEFINED = (1 << int(code) for code in (
     TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED))
 
@@ -55,60 +51,58 @@ class Tangency:
     bbox: tuple[float, float, float, float]
 
 
-def _pool() -> ThreadPoolExecutor:
-    """Two threads for independent whole-array steps (numpy releases the GIL while it sorts and searches): the
-    contacts along x and along y, the groups of each type (bench flow, 62,200 leaves: 31 ms inline, 25 to
-    30 ms on two threads of a shared two-core machine)."""
-    global _POOL
-    with _POOL_LOCK:
-        if _POOL is None:
-            _POOL = ThreadPoolExecutor(max_workers=2, thread_name_prefix="mixtype-regions")
-        return _POOL
-
-
 def touching_pairs(cells) -> tuple[np.ndarray, np.ndarray]:
     """Every pair (p, q) of cells whose closed rectangles touch, each pair once (arrays of cell indices)."""
     i0, i1, j0, j1 = (np.asarray(v) for v in (cells.i0, cells.i1, cells.j0, cells.j1))
     if not i0.size:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    along_y = _pool().submit(_contacts, j0, j1, i0, i1)
-    pairs = [_contacts(i0, i1, j0, j1), along_y.result()]
+    pairs = [_contacts(i0, i1, j0, j1), _contacts(j0, j1, i0, i1)]
     return np.concatenate([p[0] for p in pairs]), np.concatenate([p[1] for p in pairs])
 
 
-def connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None = None,
-                     cache: dict | None = None) -> tuple[np.ndarray, int]:
-    """Labels (0..count-1) of the touching groups among the cells where ``selected`` (bool (n,)); -1 elsewhere.
-    ``pairs`` (from touching_pairs) spares finding the contacts again; ``cache`` (a dict kept for one set of
-    cells and pairs) spares labelling the same selection twice (the parabolic pockets and the tangencies
-    select the same cells where no cell may be undefined)."""
-    key = selected.tobytes()
-    if cache is not None and key in cache:
-        return cache[key]
-    result = _connected_groups(cells, selected, pairs)
-    if cache is not None:
-        cache[key] = result
-    return result
+# A selection of cells: those whose type mask holds the first bit and none of the second's.
+Selection = tuple[int, int]
+_MAY_BE = {code: (bit, 0) for code, bit in ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC),
+                                            (TypeCode.HYPERBOLIC, _HYPERBOLIC))}
+_TANGENCY_CANDIDATES: Selection = (_PARABOLIC, _UNDEFINED)
 
 
-def _connected_groups(cells, selected: np.ndarray, pairs: tuple[np.ndarray, np.ndarray] | None
-                      ) -> tuple[np.ndarray, int]:
+def region_labels(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None
+                  ) -> dict[Selection, tuple[np.ndarray, int]]:
+    """The touching groups of every selection find_pockets and find_tangencies use (the cells that may hold
+    each type; the tangency candidates): labels (n,) 0..count-1 (-1 outside the selection) and the count.
+    A pair joins two cells of a selection when both are in it, read from the AND and OR of the pair's masks
+    (two gathers in all, not two per selection); one scipy connected_components call per selection."""
     # Here, not at the top: scipy.sparse takes about 0.2 s to import and only a certified map needs it.
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 
+    types = np.asarray(cells.types)
+    first, second = touching_pairs(cells) if pairs is None else pairs
+    both, either = types[first] & types[second], types[first] | types[second]
+    labelled: dict[Selection, tuple[np.ndarray, int]] = {}
+    for required, forbidden in (*_MAY_BE.values(), _TANGENCY_CANDIDATES):
+        selected = ((types & required) != 0) & ((types & forbidden) == 0)
+        if not (types & forbidden).any() and (required, 0) in labelled:     # the same cells as a selection done
+            labelled[(required, forbidden)] = labelled[(required, 0)]
+            continue
+        keep = ((both & required) != 0) & ((either & forbidden) == 0)
+        graph = coo_matrix((np.ones(int(keep.sum()), dtype=np.int8), (first[keep], second[keep])),
+                           shape=(types.size,) * 2)
+        labelled[(required, forbidden)] = _ranked(connected_components(graph, directed=False)[1], selected)
+    return labelled
+
+
+def _ranked(group: np.ndarray, selected: np.ndarray) -> tuple[np.ndarray, int]:
+    """Labels 0..count-1 of the groups holding selected cells, renumbered in increasing order of ``group`` (as
+    np.unique would); -1 for the cells not selected."""
     labels = np.full(selected.size, -1, dtype=np.int64)
     if not selected.any():
         return labels, 0
-    first, second = touching_pairs(cells) if pairs is None else pairs
-    keep = selected[first] & selected[second]
-    graph = coo_matrix((np.ones(int(keep.sum()), dtype=np.int8), (first[keep], second[keep])),
-                       shape=(selected.size, selected.size))
-    _, group = connected_components(graph, directed=False)
     chosen = group[selected]
     present = np.zeros(int(group.max()) + 1, dtype=bool)
     present[chosen] = True
-    rank = np.cumsum(present) - 1            # the groups renumbered in increasing order (as np.unique would)
+    rank = np.cumsum(present) - 1
     labels[selected] = rank[chosen]
     return labels, int(rank[-1]) + 1
 
@@ -157,24 +151,18 @@ def _missed(sampled: TypeMap | None, code: TypeCode, bbox) -> bool | None:
     return not bool(np.any(window == int(code)))
 
 
-def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray, np.ndarray] | None = None,
-                 cache: dict | None = None) -> tuple[CertifiedPocket, ...]:
+def find_pockets(cells, sampled: TypeMap | None = None,
+                 labelled: dict[Selection, tuple[np.ndarray, int]] | None = None) -> tuple[CertifiedPocket, ...]:
     """The certified pockets of every type, by type (elliptic, parabolic, hyperbolic), largest upper area first
-    (``cache``: see connected_groups)."""
+    (``labelled``: region_labels of the same cells, computed here when not given)."""
     areas = cells.areas
     pockets: list[CertifiedPocket] = []
-    pairs = touching_pairs(cells) if pairs is None else pairs
-    kinds = ((TypeCode.ELLIPTIC, _ELLIPTIC), (TypeCode.PARABOLIC, _PARABOLIC), (TypeCode.HYPERBOLIC, _HYPERBOLIC))
-    cache = {} if cache is None else cache
-    selections = {selected.tobytes(): selected for selected in ((cells.types & bit) != 0 for _, bit in kinds)}
-    missing = [key for key in selections if key not in cache]
-    for key, result in zip(missing, _pool().map(lambda key: _connected_groups(cells, selections[key], pairs),
-                                                 missing), strict=True):
-        cache[key] = result
-    for code, bit in kinds:
-        labels, count = connected_groups(cells, (cells.types & bit) != 0, pairs, cache)
+    labelled = region_labels(cells) if labelled is None else labelled
+    for code, selection in _MAY_BE.items():
+        labels, count = labelled[selection]
         if not count:
             continue
+        bit = selection[0]
         proven_cells = cells.types == bit
         found = []
         for members in _members(labels, count):
@@ -191,13 +179,12 @@ def find_pockets(cells, sampled: TypeMap | None = None, pairs: tuple[np.ndarray,
     return tuple(pockets)
 
 
-def find_tangencies(cells, pairs: tuple[np.ndarray, np.ndarray] | None = None, cache: dict | None = None
+def find_tangencies(cells, labelled: dict[Selection, tuple[np.ndarray, int]] | None = None
                     ) -> tuple[Tangency, ...]:
-    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring; ``cache``: see
-    connected_groups)."""
+    """Groups of cells that may be parabolic where D keeps one sign (see the module docstring; ``labelled``:
+    see find_pockets)."""
     types = cells.types
-    candidates = ((types & _PARABOLIC) != 0) & ((types & _UNDEFINED) == 0)
-    labels, count = connected_groups(cells, candidates, pairs, cache)
+    labels, count = (region_labels(cells) if labelled is None else labelled)[_TANGENCY_CANDIDATES]
     found = []
     for members in _members(labels, count):
         held = np.bitwise_or.reduce(types[members])
