@@ -25,6 +25,7 @@ from core.certify.discriminant_bounds import (
     ELLIPTIC_BIT,
     HYPERBOLIC_BIT,
     PARABOLIC_BIT,
+    UNDEFINED_BIT,
     DiscriminantEncloser,
     possible_types,
 )
@@ -160,11 +161,17 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         types = np.full(ix.size, _NOT_ENCLOSED, dtype=np.uint8)
         # the mean-value form only where cells will not be split again (at the deepest level): above it an
         # undecided cell is split anyway, and the form's fixed cost (hundreds of gradient steps) outweighs it
-        types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, cancel,
-                                            sharpen=level == deepest)
+        if level == 0:    # every root enclosed, straddling ones too: where a root is defined throughout, so is
+            #                 every cell in it (enclosures only shrink on sub-boxes), and _straddling_types knows it
+            enclosed_roots = _enclose_cells(encloser, boxes, tolerance, cancel, sharpen=deepest == 0)
+            root_defined = ((enclosed_roots & UNDEFINED_BIT) == 0).reshape(ny, nx)
+            types[~straddling] = enclosed_roots[~straddling]
+        else:
+            types[~straddling] = _enclose_cells(encloser, _subset(boxes, ~straddling), tolerance, cancel,
+                                                sharpen=level == deepest)
         if level == deepest and straddling.any():
             types[straddling] = _straddling_types(encloser, domain, ix[straddling], iy[straddling], level, (nx, ny),
-                                                  tolerance, data, cancel)
+                                                  root_defined, tolerance, data, cancel)
         enclosed += ix.size
         decided = (types & (types - 1)) == 0
         cell_area = total_area / (scale_x * scale_y)
@@ -187,8 +194,8 @@ def certify_map(compiled: CompiledEquation, domain: Domain, *, parameters: Mappi
         if kept.size:   # left undecided for good: straddling ones are enclosed now, for their flags
             late = kept[straddling[kept] & (types[kept] == _NOT_ENCLOSED)]
             if late.size:
-                types[late] = _straddling_types(encloser, domain, ix[late], iy[late], level, (nx, ny), tolerance,
-                                                data, cancel)
+                types[late] = _straddling_types(encloser, domain, ix[late], iy[late], level, (nx, ny),
+                                                root_defined, tolerance, data, cancel)
             leaves.append((level, ix[kept], iy[kept], types[kept]))
         split = order[:affordable]
         if not split.size:
@@ -267,11 +274,18 @@ def _enclose_cells(encloser: DiscriminantEncloser, boxes: Boxes, tolerance: floa
 
 
 def _straddling_types(encloser: DiscriminantEncloser, domain: Domain, ix: np.ndarray, iy: np.ndarray, level: int,
-                      base: tuple[int, int], tolerance: float, data, cancel: CancelCheck | None) -> np.ndarray:
+                      base: tuple[int, int], root_defined: np.ndarray, tolerance: float, data,
+                      cancel: CancelCheck | None) -> np.ndarray:
     """Masks of cells left undecided whose corners are of both types: elliptic, parabolic and hyperbolic (a
-    superset, always sound), and undefined where they may be. Whether they may be undefined is read from
+    superset, always sound), and undefined where they may be. Cells in a level-0 cell defined throughout
+    (``root_defined``, (ny, nx)) are defined; for the others, whether they may be undefined is read from
     the enclosure of their ancestors _ANCESTOR_LEVELS up (a cell inside a box defined throughout is defined
     throughout), one for each eighth as many cells; cells under a maybe-undefined ancestor are enclosed."""
+    types = np.full(ix.size, ELLIPTIC_BIT | PARABOLIC_BIT | HYPERBOLIC_BIT, dtype=np.uint8)
+    unknown = np.flatnonzero(~root_defined[iy >> level, ix >> level])
+    if not unknown.size:
+        return types
+    ix, iy = ix[unknown], iy[unknown]
     up = min(level, _ANCESTOR_LEVELS)
     key = (ix >> up) * ((base[1] << level) + 1) + (iy >> up)
     unique, first, inverse = np.unique(key, return_index=True, return_inverse=True)
@@ -283,13 +297,12 @@ def _straddling_types(encloser: DiscriminantEncloser, domain: Domain, ix: np.nda
         part = slice(start, min(unique.size, start + _BATCH))
         d, _ = encloser.natural(_subset(ancestors, part))
         maybe[part] = np.broadcast_to(d.maybe_undefined, (part.stop - part.start,))
-    types = np.full(ix.size, ELLIPTIC_BIT | PARABOLIC_BIT | HYPERBOLIC_BIT, dtype=np.uint8)
     doubtful = np.flatnonzero(maybe[inverse.ravel()])
     if doubtful.size:
         # their corners are of both types: the mean-value form cannot decide them
-        types[doubtful] = _enclose_cells(encloser, _boxes(domain, ix[doubtful], iy[doubtful], base[0] << level,
-                                                          base[1] << level), tolerance, cancel,
-                                         sharpen=False)
+        types[unknown[doubtful]] = _enclose_cells(encloser, _boxes(domain, ix[doubtful], iy[doubtful],
+                                                                   base[0] << level, base[1] << level),
+                                                  tolerance, cancel, sharpen=False)
     return types
 
 
