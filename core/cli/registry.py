@@ -85,6 +85,23 @@ def _add_check_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
 
 
+def _add_cauchy_arguments(parser: argparse.ArgumentParser) -> None:
+    for key in "abc":
+        parser.add_argument(f"--{key}", required=True, metavar=key.upper(),
+                            help=f"the constant coefficient {key} (a number or constant formula such as 1/3)")
+    parser.add_argument("--line", required=True, metavar="LINE",
+                        help='the data line, e.g. "2*x + y = 1"')
+    parser.add_argument("--u", required=True, metavar="TEXT",
+                        help="u on the line: a formula in s (arc length along the line) or in the variables")
+    parser.add_argument("--du", required=True, metavar="TEXT",
+                        help="the derivative of u along the line's unit normal (ALPHA, BETA)/|(ALPHA, BETA)|, "
+                             "in s or in the variables")
+    parser.add_argument("--at", nargs=2, type=finite, metavar=("X", "Y"),
+                        help="also the value there and the two points of the line it depends on")
+    parser.add_argument("--vars", nargs=2, metavar=("X", "Y"), help="names of the two variables (default x y)")
+    parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+
+
 def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
@@ -103,4 +120,11 @@ CHECK = Command("check", "validate a project file and open its data files", _add
 TEMPLATES = Command("templates", "list the equation templates --template accepts", _add_templates_arguments,
                     _implemented_in("core.cli.templates"))
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, PROBE, TRACE, CHECK, TEMPLATES)
+CAUCHY = Command("cauchy", "the Cauchy problem of a constant-coefficient equation, solved in closed form",
+                 _add_cauchy_arguments, _implemented_in("core.cli.cauchy"),
+                 description="Solve a u_xx + b u_xy + c u_yy = 0 (constant a, b, c) with u and its normal "
+                 "derivative given on a straight line: the solution in closed form (d'Alembert's formula in the "
+                 "characteristic coordinates where hyperbolic), its value at a point and the two points of the "
+                 "line it depends on. Elliptic equations and characteristic data lines are refused (exit 2).")
+
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, PROBE, TRACE, CHECK, TEMPLATES, CAUCHY)
