@@ -167,7 +167,7 @@ def _write_text(document: dict, variables: tuple[str, str], out: TextIO) -> None
     nx, ny = document["grid"]
     out.write(f"grid {nx} x {ny} of the nodes of {ooc['file']} over {x} in [{x0:g}, {x1:g}], {y} in "
               f"[{y0:g}, {y1:g}] (every {ooc['columns']['step']} along {x}, {ooc['rows']['step']} along {y}), "
-              f"classified in {ooc['bands']} band(s) of at most {ooc['band_rows']} data rows\n")
+              f"classified in {ooc['bands']} band(s) of at most {ooc['band_rows']} node rows\n")
     out.write(f"type         share of grid nodes   nodes            area (units of {x}*{y})\n")
     out.writelines(f"{label:<12} {100 * share:8.3f} %            {ooc['node_counts'][label]:<16d} "
                    f"{ooc['areas'][label]:.6g}\n" for label, share in document["fractions"].items())
