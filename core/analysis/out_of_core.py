@@ -164,6 +164,7 @@ def classify_out_of_core(compiled: CompiledEquation, store: GriddedStore, *,
             if writer is not None:
                 writer.write(out[0])
             del source
+            _forget_locations(others)
             bands += 1
             if progress is not None:
                 progress(last / rows.size)
@@ -182,6 +183,15 @@ def classify_out_of_core(compiled: CompiledEquation, store: GriddedStore, *,
         areas={code.label: float(areas[code]) for code in TypeCode},
         tolerance=float(tolerance), parameters=values, bands=bands, band_rows=per_band,
         block_budget=int(block_budget), codes_path=codes_path)
+
+
+def _forget_locations(others: DataSources | None) -> None:
+    """Drop the point locations a mesh read into memory keeps per set of points (up to 256 MiB a mesh): a band's
+    nodes are never sampled again."""
+    for dataset in others.datasets if others is not None else ():
+        clear = getattr(dataset.interpolator, "clear_location_cache", None)
+        if clear is not None:
+            clear()
 
 
 class _CodesWriter:
