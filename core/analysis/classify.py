@@ -32,6 +32,7 @@ __all__ = [
     "TypeCode",
     "TypeMap",
     "classify_grid",
+    "classify_nodes",
     "classify_points",
 ]
 
@@ -172,20 +173,40 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     ``out`` = (codes int8, normalized float32), both (ny, nx), receives the result instead of new arrays:
     batch runs and parameter sweeps reuse their buffers (the TypeMap returned then shares them).
     """
-    _check_tolerance(tolerance)
     values = compiled.parameter_vector(parameters)
-    prepared = compiled.prepare(values)
     x, y = domain.x_nodes, domain.y_nodes
     ny, nx = y.size, x.size
     if out is None:
-        codes = np.empty((ny, nx), dtype=np.int8)
-        normalized = np.empty((ny, nx), dtype=np.float32)
-    else:
-        codes, normalized = out
-        if codes.shape != (ny, nx) or codes.dtype != np.int8 or normalized.shape != (ny, nx) \
-                or normalized.dtype != np.float32:
-            raise ValueError(f"out must be (int8, float32) arrays of shape {(ny, nx)}, got "
-                             f"{codes.dtype}{codes.shape} and {normalized.dtype}{normalized.shape}")
+        out = (np.empty((ny, nx), dtype=np.int8), np.empty((ny, nx), dtype=np.float32))
+    counts = classify_nodes(compiled, x, y, parameters=values, data=data, tolerance=tolerance, cancel=cancel,
+                            progress=progress, out=out)
+    total = float(nx * ny)
+    fractions = {code.label: counts[code] / total for code in TypeCode}
+    return TypeMap(domain=domain, x=x, y=y, codes=out[0], normalized=out[1], fractions=fractions,
+                   tolerance=tolerance, parameters=values)
+
+
+def classify_nodes(compiled: CompiledEquation, x: np.ndarray, y: np.ndarray, *,
+                   parameters: Mapping[str, float] | None = None, data: QuantitySource | None = None,
+                   tolerance: float = DEFAULT_TOLERANCE, cancel: CancelCheck | None = None,
+                   progress: ProgressReport | None = None, out: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
+    """Classify the nodes (x_i, y_j) of the axes x (nx,), y (ny,) into ``out`` = (codes int8, D/S float32),
+    both (ny, nx); returns the count of each TypeCode (int64, indexed by code).
+
+    What classify_grid does on a domain's nodes, for any increasing axes: a window of a data file's own grid
+    (core.analysis.out_of_core) runs the same blocks and so gets the same bits.
+    """
+    _check_tolerance(tolerance)
+    values = compiled.parameter_vector(parameters)
+    prepared = compiled.prepare(values)
+    x = np.asarray(x, dtype=np.float64)
+    y = np.asarray(y, dtype=np.float64)
+    ny, nx = y.size, x.size
+    codes, normalized = out
+    if codes.shape != (ny, nx) or codes.dtype != np.int8 or normalized.shape != (ny, nx) \
+            or normalized.dtype != np.float32:
+        raise ValueError(f"out must be (int8, float32) arrays of shape {(ny, nx)}, got "
+                         f"{codes.dtype}{codes.shape} and {normalized.dtype}{normalized.shape}")
     pool = _grid_pool()
     # Long blocks, but at least two per thread so that mid-size grids use every core too.
     rows = max(1, min(_BLOCK_ELEMENTS // nx, -(-ny // (2 * _WORKERS))))
@@ -233,10 +254,7 @@ def classify_grid(compiled: CompiledEquation, domain: Domain, *,
     counts = np.zeros(len(TypeCode), dtype=np.int64)
     for future in [pool.submit(work) for _ in range(min(_WORKERS, -(-ny // rows)))]:
         counts += future.result()
-    total = float(nx * ny)
-    fractions = {code.label: counts[code] / total for code in TypeCode}
-    return TypeMap(domain=domain, x=x, y=y, codes=codes, normalized=normalized, fractions=fractions,
-                   tolerance=tolerance, parameters=values)
+    return counts
 
 
 class _Workspace:

@@ -23,6 +23,11 @@ MAX_POCKET_ROWS = 20
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Classify the study's grid and report it (options: core.cli.registry); returns the exit status."""
+    if (args.data or args.out_of_core or args.stride or args.block_mib or args.codes_out) and _out_of_core(args):
+        # Here, not at the top: only studies with data can go out of core (see core/cli/study.py)
+        from core.cli.out_of_core import run_out_of_core
+
+        return run_out_of_core(args, out, err)
     study = read_study(args, err)
     compiled = compiled_study(study)
     type_map = classify_grid(compiled, study.domain, parameters=study.parameters, data=study.data,
@@ -82,6 +87,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         listed = f" (with {files} data file{'s' * (files != 1)})" if files else ""
         out.write(f"saved the equation and domain as a project in {args.save_project}{listed}\n")
     return EXIT_OK
+
+
+def _out_of_core(args: argparse.Namespace) -> bool:
+    from core.cli.out_of_core import wants_out_of_core  # with data only (see run)
+
+    return wants_out_of_core(args)
 
 
 def _write_pockets(pockets: list[dict], x: str, y: str, out: TextIO) -> None:

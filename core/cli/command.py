@@ -7,15 +7,17 @@ module is imported by the commands' implementation modules, which load only when
 from __future__ import annotations
 
 import argparse
+from collections.abc import Sequence
 from typing import TextIO
 
 from core.cli.options import UsageError
 from core.cli.study import Study, build_study
 from core.equations.compiled import CompiledEquation, compile_equation
+from core.equations.equation import Equation
 from core.equations.language import ExpressionError
 from core.results.document import project_file_checksum
 
-__all__ = ["compiled_study", "read_study", "source_fields"]
+__all__ = ["compiled_study", "compiled_with_names", "read_study", "source_fields"]
 
 
 def read_study(args: argparse.Namespace, err: TextIO) -> Study:
@@ -27,18 +29,24 @@ def read_study(args: argparse.Namespace, err: TextIO) -> Study:
 
 def compiled_study(study: Study) -> CompiledEquation:
     """The study's equation compiled with its data; an error names the option the user typed."""
+    return compiled_with_names(study.equation, None if study.data is None else study.data.names)
+
+
+def compiled_with_names(equation: Equation, data_names: Sequence[str] | None) -> CompiledEquation:
+    """``equation`` compiled with the data quantities ``data_names`` (None: no data); an error names the
+    option the user typed."""
     try:
-        if study.data is None:
-            return compile_equation(study.equation)
+        if data_names is None:
+            return compile_equation(equation)
         # Here, not at the top: the data machinery loads only for studies with data (see core/cli/study.py)
         from core.project.data_files import compile_with_data
 
-        return compile_with_data(study.equation, study.data)
+        return compile_with_data(equation, data_names)
     except ExpressionError as error:
         option = error.field.replace("definitions.", "--let ").replace("parameters.", "--param ")
         option = {"a": "--a", "b": "--b", "c": "--c", "variables": "--vars"}.get(option, option)
         hint = ""
-        if error.message.startswith("unknown name") and study.data is None:
+        if error.message.startswith("unknown name") and data_names is None:
             hint = " (if it is a data quantity, give its file with --data)"
         raise UsageError(f"{option}: {error.message}" + (f" (column {error.column})" if error.column else "")
                          + hint) from None

@@ -26,6 +26,8 @@ from core.cli.options import (
 __all__ = ["HEADLESS_COMMANDS", "MAX_CELL_BUDGET"]
 
 MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
+MAX_STRIDE = 1_000_000           # --stride K
+MAX_BLOCK_MIB = 1 << 20          # --block-mib: 1 TiB
 
 
 def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO], int]:
@@ -51,6 +53,18 @@ def _add_classify_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--max-cells", type=cell_budget, default=None, metavar="N",
                         help=f"with --certify: at most N cells enclosed in all (1 to {MAX_CELL_BUDGET}; "
                              "default 4000000)")
+    large = parser.add_argument_group("data larger than memory")
+    large.add_argument("--out-of-core", action="store_true",
+                       help="classify the nodes of the NetCDF or zarr --data file's own grid, reading it a band of "
+                            "rows at a time (automatic for a zarr store or a file larger than the data cap); "
+                            "--domain then picks the nodes inside the rectangle")
+    large.add_argument("--stride", nargs="+", type=whole_number(1, MAX_STRIDE), metavar="K",
+                       help="with --out-of-core: every K-th node (or KX KY) of the data's grid (default 1)")
+    large.add_argument("--block-mib", type=whole_number(8, MAX_BLOCK_MIB), default=None, metavar="MIB",
+                       help="with --out-of-core: the most one band of rows may hold, in MiB (default 256)")
+    large.add_argument("--codes-out", metavar="PATH.npy",
+                       help="with --out-of-core: write the type code of every node (int8, rows along the second "
+                            "variable) to a NumPy .npy file")
 
 
 def positive_number(text: str) -> float:

@@ -73,17 +73,24 @@ class _LazyCache:
 
 
 class GridField:
-    """Quantities on a rectilinear grid: x (nx,), y (ny,) strictly increasing, arrays (ny, nx)."""
+    """Quantities on a rectilinear grid: x (nx,), y (ny,) strictly increasing, arrays (ny, nx).
+
+    ``gradients`` {name: (d/dx, d/dy)} gives derivatives computed elsewhere (a window of a larger grid,
+    core.data.band_source) in place of np.gradient on these arrays; an axis never sampled may be None.
+    """
 
     layout = "grid"
 
-    def __init__(self, x: np.ndarray, y: np.ndarray, arrays: Mapping[str, np.ndarray]) -> None:
+    def __init__(self, x: np.ndarray, y: np.ndarray, arrays: Mapping[str, np.ndarray], *,
+                 gradients: Mapping[str, tuple[np.ndarray | None, np.ndarray | None]] | None = None) -> None:
         self.x = np.asarray(x, dtype=np.float64)
         self.y = np.asarray(y, dtype=np.float64)
         self.arrays = {name: np.asarray(a, dtype=np.float64) for name, a in arrays.items()}
         self.extent = (float(self.x[0]), float(self.x[-1]), float(self.y[0]), float(self.y[-1]))
         self.size = (self.y.size, self.x.size)
         self._gradients = _LazyCache()
+        for name, pair in (gradients or {}).items():
+            self._gradients.get(name, lambda pair=pair: pair)
         self._pyramids = _LazyCache()      # per (quantity, derivative axis): ranges over boxes
 
     def sample(self, name: str, x, y) -> np.ndarray:

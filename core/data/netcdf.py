@@ -13,13 +13,14 @@ file declaring huge (or compressed) variables is refused before anything is allo
 from __future__ import annotations
 
 import os
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from core.data.limits import ValueBudget
 from core.data.raw import DataError, RawData, checked_axis, failure_reason, float_array
 
-__all__ = ["read_netcdf"]
+__all__ = ["NetcdfLayout", "NetcdfVariable", "netcdf_layout", "open_netcdf", "read_netcdf"]
 
 # CF axis letters an equation variable of that name may be matched by
 _AXIS_LETTERS = {"x": "X", "y": "Y", "z": "Z", "t": "T"}
@@ -27,6 +28,21 @@ _AXIS_LETTERS = {"x": "X", "y": "Y", "z": "Z", "t": "T"}
 
 def read_netcdf(path: str, variables: tuple[str, str]) -> RawData:
     """Coordinate variables found by name or CF ``axis``; data variables on (y, x) or on one axis."""
+    dataset = open_netcdf(path)
+    try:
+        layout = netcdf_layout(dataset, path, variables)
+        return _netcdf_contents(layout, path)
+    except DataError:
+        raise
+    except (OSError, RuntimeError, ValueError, IndexError) as error:
+        raise DataError(f"{path}: cannot be read as NetCDF ({failure_reason(error)})") from None
+    finally:
+        dataset.close()
+
+
+def open_netcdf(path: str):
+    """The file as an open ``netCDF4.Dataset`` (the caller closes it), after the truncation check; DataError
+    when it cannot be opened."""
     import netCDF4  # here, not at the top: about 0.25 s to import (python -X importtime); only NetCDF files need it
 
     try:
@@ -40,18 +56,10 @@ def read_netcdf(path: str, variables: tuple[str, str]) -> RawData:
         raise DataError(f"{path}: the NetCDF file is truncated: {size} bytes where its header needs at "
                         f"least {data_end}")
     try:
-        dataset = netCDF4.Dataset(path, "r")
+        return netCDF4.Dataset(path, "r")
     except (OSError, RuntimeError, ValueError) as error:
         raise DataError(f"{path}: cannot be read as NetCDF (truncated or another format: "
                         f"{failure_reason(error)})") from None
-    try:
-        return _netcdf_contents(dataset, path, variables)
-    except DataError:
-        raise
-    except (OSError, RuntimeError, ValueError, IndexError) as error:
-        raise DataError(f"{path}: cannot be read as NetCDF ({failure_reason(error)})") from None
-    finally:
-        dataset.close()
 
 
 _CLASSIC_TYPE_SIZES = {1: 1, 2: 1, 3: 2, 4: 4, 5: 4, 6: 8, 7: 1, 8: 2, 9: 4, 10: 8, 11: 8}
@@ -138,7 +146,56 @@ def _netcdf_coordinate(dataset, variable: str, path: str):
     return (matches[0], "axis") if matches else None
 
 
-def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
+@dataclass
+class NetcdfVariable:
+    """How one data variable of the file maps onto (y, x) (or the profile's axis): the file's variable, the
+    transpose that puts the coordinates' dimensions first in (y, x) order, and its unit."""
+
+    variable: object                       # the netCDF4.Variable
+    axes: tuple[int, ...]                  # positions of the (y, x) (or (s,)) dimensions among the file's
+    unit: str
+
+
+@dataclass
+class NetcdfLayout:
+    """What a NetCDF file holds for the equation's variables, before any data variable's values are read.
+
+    ``found`` maps each equation variable found to (netCDF4 variable, increasing coordinate, reversed?);
+    ``order`` are the coordinates' dimension names in (y, x) (or (s,)) order; ``usable`` the data variables
+    on those dimensions; ``budget`` has the coordinates' values counted already.
+    """
+
+    variables: tuple[str, str]
+    found: dict[str, tuple[object, np.ndarray, bool]]
+    order: list[str]
+    usable: dict[str, NetcdfVariable]
+    rejected: dict[str, str]
+    notes: list[str]
+    budget: ValueBudget = field(repr=False)
+
+    @property
+    def grid(self) -> bool:
+        return len(self.found) == 2
+
+    def oriented(self, name: str, values: np.ndarray) -> np.ndarray:
+        """Values read from data variable ``name`` (every file dimension, or with the extra length-1 ones
+        indexed away when ``values`` has only the coordinates' dimensions) put in (y, x) order, each axis
+        increasing: how the whole-file reader and a window of rows see them alike."""
+        axes = self.usable[name].axes
+        if values.ndim == len(axes):                  # the coordinates' dimensions only, in the file's order
+            values = np.transpose(values, [sorted(axes).index(k) for k in axes])
+        else:
+            squeeze = tuple(k for k in range(values.ndim) if k not in axes)
+            values = np.transpose(values, list(axes) + list(squeeze)).reshape([values.shape[k] for k in axes])
+        for k, variable in enumerate(v for v in reversed(self.variables) if v in self.found):
+            if self.found[variable][2]:
+                values = np.flip(values, axis=k)
+        return values
+
+
+def netcdf_layout(dataset, path: str, variables: tuple[str, str]) -> NetcdfLayout:
+    """The coordinates (read and checked) and the data variables on their dimensions; DataError when no
+    coordinate matches."""
     budget = ValueBudget(path)
     notes = []
     found = {}
@@ -168,7 +225,7 @@ def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
                         f"{dims[variables[0]]!r}; scattered NetCDF data are not supported")
     order = [dims[v] for v in reversed(variables) if v in dims]          # (y, x) or (s,)
     coordinate_names = {item[0].name for item in found.values()}
-    arrays, units, rejected = {}, {}, {}
+    usable, rejected = {}, {}
     for name, nc_variable in dataset.variables.items():
         if name in coordinate_names or nc_variable.dimensions == (name,):
             continue                                         # coordinates, of these axes or of others
@@ -181,25 +238,27 @@ def _netcdf_contents(dataset, path: str, variables: tuple[str, str]) -> RawData:
         if not isinstance(nc_variable.dtype, np.dtype) or nc_variable.dtype.kind not in "biuf":
             rejected[name] = f"variable {name!r} does not hold numbers"
             continue
-        budget.take(nc_variable.size, f"variable {name!r}")
-        values = float_array(nc_variable[:], name, path)
         all_dims = list(nc_variable.dimensions)
-        axes = [all_dims.index(d) for d in order]
-        squeeze = tuple(k for k, d in enumerate(all_dims) if d not in order)
-        values = np.transpose(values, axes + list(squeeze)).reshape([values.shape[k] for k in axes])
-        for k, variable in enumerate(v for v in reversed(variables) if v in found):
-            if found[variable][2]:
-                values = np.flip(values, axis=k)
-        arrays[name] = np.ascontiguousarray(values)
-        unit = getattr(nc_variable, "units", "")
-        if unit:
-            units[name] = str(unit)
-    if len(found) == 2:
+        usable[name] = NetcdfVariable(nc_variable, tuple(all_dims.index(d) for d in order),
+                                      str(getattr(nc_variable, "units", "") or ""))
+    return NetcdfLayout(variables, found, order, usable, rejected, notes, budget)
+
+
+def _netcdf_contents(layout: NetcdfLayout, path: str) -> RawData:
+    arrays, units = {}, {}
+    for name, plan in layout.usable.items():
+        layout.budget.take(plan.variable.size, f"variable {name!r}")
+        values = float_array(plan.variable[:], name, path)
+        arrays[name] = np.ascontiguousarray(layout.oriented(name, values))
+        if plan.unit:
+            units[name] = plan.unit
+    found, variables, notes = layout.found, layout.variables, layout.notes
+    if layout.grid:
         raw = RawData("netcdf", "grid", (found[variables[0]][1], found[variables[1]][1]), arrays)
     else:
         (variable,) = found
         raw = RawData("netcdf", "profile", (found[variable][1],), arrays,
                       profile_axis=variables.index(variable))
         notes.append(f"a profile along {variable}, extended over {variables[1 - raw.profile_axis]}")
-    raw.units, raw.rejected, raw.notes = units, rejected, notes
+    raw.units, raw.rejected, raw.notes = units, layout.rejected, notes
     return raw

@@ -124,6 +124,9 @@ def load_data(path: str | os.PathLike, *, variables: Sequence[str] = ("x", "y"),
     path = os.fspath(path)
     variables = _checked_variables(variables, path)
     fmt = format_for_path(path) if format is None else format
+    if os.path.isdir(path):
+        raise DataError(f"{path}: a folder, not a data file (zarr stores are read only by 'mixtype classify', a "
+                        "band of rows at a time)")
     if not os.path.isfile(path):
         raise DataError(f"{path}: no such file")
     checksum = file_checksum(path)
