@@ -44,6 +44,8 @@ CASES = {
     "trace_inline": ("trace", *TRICOMI_INLINE, "--from", "0", "-0.5"),
     "trace_file": ("trace", TRICOMI, "--from", "0", "-0.5"),
     "trace_seeds": ("trace", TRICOMI),
+    "cauchy": ("cauchy", "--a", "1", "--b", "0", "--c", "-1", "--line", "y = 0", "--u", "sin(s)", "--du", "s**2",
+               "--at", "0.3", "0.5"),
 }
 
 CLASSIFY_FIELDS = {
@@ -118,6 +120,13 @@ TODAY = {
         "seeds[].curves[].points", "seeds[].families", "seeds[].label", "seeds[].points", "source",
         "source.domain", "source.equation", "source.file",
     },
+    # mixtype cauchy (issue 14): the four fields the issue names, and what a reader needs to use them
+    "cauchy": {
+        "at", "characteristics", "characteristics[].direction", "characteristics[].family",
+        "characteristics[].invariant", "coefficients", "coefficients.a", "coefficients.b", "coefficients.c",
+        "domain_of_dependence", "general_solution", "line", "line.normal", "line.origin", "line.parameter",
+        "line.tangent", "notes", "solution", "type", "value",
+    },
 }
 
 # Added by the results document: the Mixtype version, the equation as text and the parameter values used
@@ -141,6 +150,7 @@ ADDED: dict[str, set[str]] = {
     "trace_inline": STUDY | {"curves[].events"},
     "trace_file": STUDY | {"project_checksum", "curves[].events"},
     "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
+    "cauchy": set(),
 }
 # Below these fields the keys are the study's own names (definitions, parameters), not field names.
 NAMED_BY_THE_STUDY = ("equation.definitions.", "equation.parameters.", "parameters.")
