@@ -29,7 +29,7 @@ import pyqtgraph as pg
 from PySide6.QtCore import QBuffer, QByteArray, QIODevice, QPoint, QRect
 from PySide6.QtGui import QPainter, QTransform
 from PySide6.QtSvg import QSvgGenerator
-from PySide6.QtWidgets import QGraphicsItem, QWidget
+from PySide6.QtWidgets import QGraphicsItem, QGraphicsView, QWidget
 
 from gui.svg_items import FALLBACK_FAMILIES, WHOLE_ITEMS, item_svg
 
@@ -87,6 +87,12 @@ def _frame_svg(widget: QWidget, boxes: list[pg.ViewBox]) -> str:
     hidden = [box.childGroup for box in boxes if box.childGroup.isVisible()]
     for group in hidden:
         group.setVisible(False)
+    # pyqtgraph caches each view's background as a pixmap, which QSvgGenerator would embed as a picture of
+    # the plot's size: painted uncached, the background is a plain rectangle.
+    cached = [view for view in widget.findChildren(pg.GraphicsView)
+              if view.cacheMode() != QGraphicsView.CacheModeFlag.CacheNone]
+    for view in cached:
+        view.setCacheMode(QGraphicsView.CacheModeFlag.CacheNone)
     try:
         painter = QPainter()
         if not painter.begin(generator):
@@ -96,6 +102,8 @@ def _frame_svg(widget: QWidget, boxes: list[pg.ViewBox]) -> str:
     finally:
         for group in hidden:
             group.setVisible(True)
+        for view in cached:
+            view.setCacheMode(QGraphicsView.CacheModeFlag.CacheBackground)
     buffer.close()
     text = bytes(data).decode("utf-8")
     inner = text[text.index(">", text.index("<svg")) + 1:text.rindex("</svg>")]
