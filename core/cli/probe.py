@@ -4,18 +4,14 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 from typing import TextIO
 
-from core.analysis.classify import TypeCode
 from core.analysis.probe import probe_point
 from core.cli.command import compiled_study, read_study, source_fields
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
-from core.equations.trade import READOUT_UNITS
 from core.results.document import data_files_document, pin_document, probe_document, study_fields
-from core.results.readable import direction_rows, point_without_noise
-from core.results.readouts import TradeReading, read_trade
+from core.results.readouts import TradeReading, probe_rows, read_trade
 
 __all__ = ["run"]
 
@@ -66,29 +62,6 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 
 def _write_probe(result, trade: TradeReading, variables, domain, out: TextIO) -> None:
-    x_name, y_name = variables
-    px, py = point_without_noise(result.point, domain)
-    rows = [("point", f"{x_name} = {px:.9g}, {y_name} = {py:.9g}"),
-            ("type", TypeCode(result.type).label),
-            ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
-            ("D = b^2 - 4ac", f"{result.discriminant:.9g}"),
-            ("D / (b^2 + 4|ac|)", f"{result.normalized:.6g}")]
-    rows += direction_rows(result, variables, spec=".6f")
-    if result.angle_between_deg is not None:
-        rows.append(("angle between", f"{result.angle_between_deg:.6f} deg"))
-    if result.principal_axes_deg is not None:
-        rows.append(("principal axes", ", ".join(f"{d:.6f} deg" for d in result.principal_axes_deg)))
-    if result.anisotropy is not None:
-        rows.append(("anisotropy ratio", f"{result.anisotropy:.6g} (dimensionless)"))
-    for name, value in result.definitions.items():
-        rows.append((name, f"{value:.9g}"))
-    for name, value in trade.values.items():
-        shown = f"{value:.9g}" if math.isfinite(value) else "does not exist here"
-        rows.append((name.replace("_", " ").removesuffix(" deg"), f"{shown} ({READOUT_UNITS.get(name, '')})"))
-    if trade.problem:
-        rows.append(("trade note", trade.problem))
-    if result.message:
-        rows.append(("note", result.message))
+    rows = probe_rows(result, trade, variables, domain)
     width = max(len(r[0]) for r in rows)
-    for label, value in rows:
-        out.write(f"{label:<{width}}  {value}\n")
+    out.writelines(f"{label:<{width}}  {value}\n" for label, value in rows)

@@ -9,6 +9,8 @@ numbers and the same reasons when a number is missing:
   not know, a bad spec) leaves ``values`` empty and says why in ``error``.
 - ``peak_quantity`` is the equation's ``peak_quantity`` when pockets can report it: a definition, a
   coefficient a, b, c or a data quantity; None otherwise (pockets then have no peak).
+- ``probe_rows`` words a probe result and its trade reading as (label, text) rows: ``mixtype probe``'s text
+  and the study report's pin tables.
 """
 
 from __future__ import annotations
@@ -19,9 +21,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from core.analysis.classify import TypeCode
 from core.equations.trade import READOUT_UNITS, point_values, trade_readout
+from core.results.readable import direction_rows, point_without_noise
 
-__all__ = ["TradeReading", "peak_quantity", "read_trade"]
+__all__ = ["TradeReading", "peak_quantity", "probe_rows", "read_trade"]
 
 
 @dataclass(frozen=True)
@@ -82,3 +86,34 @@ def peak_quantity(equation, compiled, data_names: Iterable[str] = ()) -> str | N
     name = getattr(equation, "peak_quantity", None)
     usable = {*compiled.definition_order, "a", "b", "c", *data_names}
     return name if name in usable else None
+
+
+def probe_rows(result, trade: TradeReading, variables, domain=None) -> list[tuple[str, str]]:
+    """Every readout of a probe result (core.analysis.probe.ProbeResult) and its trade reading as (label, text)
+    rows, as ``mixtype probe`` prints them: the point (rounding noise read as 0 against ``domain``; None shows it
+    as given), type, coefficients, D and D/S, directions and slopes, the angle between them, principal axes and
+    anisotropy, every definition, the trade quantities with their units and any note."""
+    x_name, y_name = variables
+    px, py = point_without_noise(result.point, domain)
+    rows = [("point", f"{x_name} = {px:.9g}, {y_name} = {py:.9g}"),
+            ("type", TypeCode(result.type).label),
+            ("a, b, c", f"{result.a:.9g}, {result.b:.9g}, {result.c:.9g}"),
+            ("D = b^2 - 4ac", f"{result.discriminant:.9g}"),
+            ("D / (b^2 + 4|ac|)", f"{result.normalized:.6g}")]
+    rows += direction_rows(result, variables, spec=".6f")
+    if result.angle_between_deg is not None:
+        rows.append(("angle between", f"{result.angle_between_deg:.6f} deg"))
+    if result.principal_axes_deg is not None:
+        rows.append(("principal axes", ", ".join(f"{d:.6f} deg" for d in result.principal_axes_deg)))
+    if result.anisotropy is not None:
+        rows.append(("anisotropy ratio", f"{result.anisotropy:.6g} (dimensionless)"))
+    for name, value in result.definitions.items():
+        rows.append((name, f"{value:.9g}"))
+    for name, value in trade.values.items():
+        shown = f"{value:.9g}" if math.isfinite(value) else "does not exist here"
+        rows.append((name.replace("_", " ").removesuffix(" deg"), f"{shown} ({READOUT_UNITS.get(name, '')})"))
+    if trade.problem:
+        rows.append(("trade note", trade.problem))
+    if result.message:
+        rows.append(("note", result.message))
+    return rows
