@@ -106,9 +106,10 @@ def missed_pockets(certified) -> tuple:
 
 
 class CertifiedLayer(QObject):
-    """Keeps the certified layer of ``map_view`` in step with the analysis' certified map (None: nothing)."""
+    """Keeps the certified layer of ``map_view`` in step with the analysis' certified map (None: nothing).
+    Without an ``analysis`` it draws only what ``show`` is given (the study report's figure)."""
 
-    def __init__(self, map_view, analysis, parent: QObject | None = None) -> None:
+    def __init__(self, map_view, analysis=None, parent: QObject | None = None) -> None:
         super().__init__(parent)
         self.map_view = map_view
         self.certified = None
@@ -124,7 +125,8 @@ class CertifiedLayer(QObject):
         for item in (self.image, self.halo, self.rings):
             item.setVisible(False)
             plot.addItem(item)
-        analysis.certified_ready.connect(self.show)
+        if analysis is not None:
+            analysis.certified_ready.connect(self.show)
         plot.getViewBox().sigRangeChanged.connect(self._paint)
 
     def _view_box(self) -> tuple[float, float, float, float] | None:

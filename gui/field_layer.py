@@ -28,7 +28,7 @@ from core.analysis.zone_polygons import zone_polygons
 from core.project.model import FieldLayerSettings
 from gui.palette import TYPE_COLOURS, type_lookup_table
 
-__all__ = ["COLOUR_MAP_LABELS", "FieldLayer", "colour_map", "zone_path"]
+__all__ = ["COLOUR_MAP_LABELS", "FieldDrawing", "FieldLayer", "colour_map", "zone_path"]
 
 # project name -> (pyqtgraph's bundled map, what the layers panel calls it). CET-CBD1 is Kovesi's
 # colour-blind-safe diverging blue-grey-yellow map (Kovesi 2015, "Good colour maps: how to design them");
@@ -68,12 +68,14 @@ def _undefined_only_table() -> np.ndarray:
     return table
 
 
-class FieldLayer(QObject):
-    """Keeps the zone polygons and the field layer of ``map_view`` in step with the document."""
+class FieldDrawing(QObject):
+    """The zone polygons and the field layer's items on ``map_view``, drawn from core results handed in (no
+    document): the window's FieldLayer keeps them in step with the study, the study report draws its figures
+    with them (gui.report_figures)."""
 
-    def __init__(self, map_view, document, analysis, runner, parent: QObject | None = None) -> None:
+    def __init__(self, map_view, parent: QObject | None = None) -> None:
         super().__init__(parent)
-        self.map_view, self.document, self.analysis, self.runner = map_view, document, analysis, runner
+        self.map_view = map_view
         plot = map_view.plot
         self.zone_items: dict[TypeCode, QGraphicsPathItem] = {}
         for code in (TypeCode.ELLIPTIC, TypeCode.HYPERBOLIC, TypeCode.PARABOLIC):
@@ -101,12 +103,74 @@ class FieldLayer(QObject):
                                           interactive=False, colorMapMenu=False, width=18)
         self.colour_bar.setImageItem(self.image)
         self._bar_in_layout = False
-        self.readout = QLabel("")
-        self.readout.setObjectName("fieldReadout")
-        self.readout.setToolTip("The field layer's quantity at the point under the mouse")
         self.grid = None                # core FieldGrid shown now
         self.lines = ()                 # core IsoLine tuple shown now
         self.quantity = None            # core FieldQuantity shown now
+
+    def show_polygons(self, polygons, *, visible: bool = True) -> None:
+        """Fill the zones of ``polygons`` (core ZonePolygons; ``visible`` False keeps them hidden), the map's image
+        keeping only its undefined (grey) nodes; None shows the zones as the image of node codes again."""
+        self.polygons = polygons
+        image = self.map_view.image
+        if polygons is None:
+            image.setLookupTable(type_lookup_table())
+            for item in self.zone_items.values():
+                item.setVisible(False)
+            return
+        for code, item in self.zone_items.items():
+            item.setPath(zone_path(polygons.of_type(code)))
+            item.setVisible(visible)
+        image.setLookupTable(_undefined_only_table())      # only the undefined (grey) nodes stay drawn
+
+    def show_field(self, grid, lines, quantity, colour_map_name: str = "blue_yellow") -> None:
+        """Shade ``grid`` (core FieldGrid of ``quantity``, a core FieldQuantity) with the colour map of that project
+        name, its colour bar titled by the quantity, and the iso-lines ``lines``; None clears the layer."""
+        self.grid, self.lines, self.quantity = grid, tuple(lines), quantity
+        plot = self.map_view.plot
+        if grid is None:
+            self.image.clear()
+            self.image.setVisible(False)
+            self.iso_curves.setData([], [])
+            if self._bar_in_layout:
+                plot.layout.removeItem(self.colour_bar)
+                self.colour_bar.setVisible(False)
+                self._bar_in_layout = False
+            return
+        low, high = colour_range(grid, diverging=colour_map_name in DIVERGING)
+        cmap = colour_map(colour_map_name)
+        self.image.setImage(grid.values, autoLevels=False, levels=(low, high))
+        self.image.setLookupTable(cmap.getLookupTable(nPts=256, alpha=True))
+        dx = (grid.x[-1] - grid.x[0]) / max(grid.x.size - 1, 1)
+        dy = (grid.y[-1] - grid.y[0]) / max(grid.y.size - 1, 1)
+        self.image.setRect(QRectF(grid.x[0] - dx / 2, grid.y[0] - dy / 2, grid.x.size * dx, grid.y.size * dy))
+        self.image.setVisible(True)
+        self.colour_bar.setColorMap(cmap)
+        self.colour_bar.setLevels((low, high))
+        self.colour_bar.axis.setLabel(quantity.title)
+        if not self._bar_in_layout:
+            plot.layout.addItem(self.colour_bar, 2, 5)
+            self._bar_in_layout = True
+        self.colour_bar.setVisible(True)
+        xs, ys = [], []
+        for line in lines:
+            for points in line.polylines:
+                xs.extend((points[:, 0], [np.nan]))
+                ys.extend((points[:, 1], [np.nan]))
+        if xs:
+            self.iso_curves.setData(np.concatenate(xs), np.concatenate(ys), connect="finite")
+        else:
+            self.iso_curves.setData([], [])
+
+
+class FieldLayer(FieldDrawing):
+    """Keeps the zone polygons and the field layer of ``map_view`` in step with the document."""
+
+    def __init__(self, map_view, document, analysis, runner, parent: QObject | None = None) -> None:
+        super().__init__(map_view, parent)
+        self.document, self.analysis, self.runner = document, analysis, runner
+        self.readout = QLabel("")
+        self.readout.setObjectName("fieldReadout")
+        self.readout.setToolTip("The field layer's quantity at the point under the mouse")
         self.problem = ""               # why the field could not be drawn, or ''
         self._requested: FieldLayerSettings | None = None
 
@@ -152,17 +216,7 @@ class FieldLayer(QObject):
         self.runner.request("zones", work, label="Filling the type zones")
 
     def _show_polygons(self, polygons) -> None:
-        self.polygons = polygons
-        image = self.map_view.image
-        if polygons is None:
-            image.setLookupTable(type_lookup_table())
-            for item in self.zone_items.values():
-                item.setVisible(False)
-            return
-        for code, item in self.zone_items.items():
-            item.setPath(zone_path(polygons.of_type(code)))
-            item.setVisible(self.document.project.view.show_type_map)
-        image.setLookupTable(_undefined_only_table())      # only the undefined (grey) nodes stay drawn
+        self.show_polygons(polygons, visible=self.document.project.view.show_type_map)
 
     # -- the field ---------------------------------------------------------------------------------------
     def refresh(self) -> None:
@@ -199,42 +253,8 @@ class FieldLayer(QObject):
         self.readout.setText(f"Field layer: {text}")
 
     def _show_field(self, grid, lines, quantity, settings: FieldLayerSettings | None = None) -> None:
-        self.grid, self.lines, self.quantity, self.problem = grid, tuple(lines), quantity, ""
-        plot = self.map_view.plot
-        if grid is None:
-            self.image.clear()
-            self.image.setVisible(False)
-            self.iso_curves.setData([], [])
-            if self._bar_in_layout:
-                plot.layout.removeItem(self.colour_bar)
-                self.colour_bar.setVisible(False)
-                self._bar_in_layout = False
-            return
-        settings = settings or self.settings
-        low, high = colour_range(grid, diverging=settings.colour_map in DIVERGING)
-        cmap = colour_map(settings.colour_map)
-        self.image.setImage(grid.values, autoLevels=False, levels=(low, high))
-        self.image.setLookupTable(cmap.getLookupTable(nPts=256, alpha=True))
-        dx = (grid.x[-1] - grid.x[0]) / max(grid.x.size - 1, 1)
-        dy = (grid.y[-1] - grid.y[0]) / max(grid.y.size - 1, 1)
-        self.image.setRect(QRectF(grid.x[0] - dx / 2, grid.y[0] - dy / 2, grid.x.size * dx, grid.y.size * dy))
-        self.image.setVisible(True)
-        self.colour_bar.setColorMap(cmap)
-        self.colour_bar.setLevels((low, high))
-        self.colour_bar.axis.setLabel(quantity.title)
-        if not self._bar_in_layout:
-            plot.layout.addItem(self.colour_bar, 2, 5)
-            self._bar_in_layout = True
-        self.colour_bar.setVisible(True)
-        xs, ys = [], []
-        for line in lines:
-            for points in line.polylines:
-                xs.extend((points[:, 0], [np.nan]))
-                ys.extend((points[:, 1], [np.nan]))
-        if xs:
-            self.iso_curves.setData(np.concatenate(xs), np.concatenate(ys), connect="finite")
-        else:
-            self.iso_curves.setData([], [])
+        self.problem = ""
+        self.show_field(grid, lines, quantity, (settings or self.settings).colour_map)
 
     # -- the value under the mouse ---------------------------------------------------------------------------
     def _hovered(self, x: float, y: float) -> None:
