@@ -69,10 +69,14 @@ class ReportFigures:
             self.field.show_field(None, (), None)
             self.map_view.set_titles(title, subtitle)
         if results.certified is not None:
+            title, subtitle = self.map_view.title.text(), self.map_view.subtitle.text()
+            self.map_view.set_titles(f"Certified layer over the type of “{results.equation.name}” on "
+                                     f"“{results.domain.name}”", subtitle)
             self.certified.show(results.certified)
             self._fit()
             figures["certified"] = self._svg("Certified layer")
             self.certified.show(None)
+            self.map_view.set_titles(title, subtitle)
         return figures
 
     # -- drawing ----------------------------------------------------------------------------------------------

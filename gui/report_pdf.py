@@ -154,6 +154,9 @@ def report_pdf_bytes(report: Mapping, figures: Mapping[str, str]) -> bytes:
     body = writer.pageLayout().paintRectPixels(PDF_RESOLUTION)
     page_width, page_height = float(body.width()), float(body.height()) - _mm(FOOTER_MM)
 
+    placed = {block["figure"] for section in report["sections"] for block in section["blocks"]
+              if block["kind"] == "figure"}
+    figures = {name: svg for name, svg in figures.items() if name in placed}
     renderers, sizes = {}, {}
     for name, svg in figures.items():
         renderer = QSvgRenderer(QByteArray(svg.encode("utf-8")))

@@ -242,7 +242,10 @@ def _certified_section(results: ReportResults) -> dict:
                              "panel, or give mixtype report --certify)")
     certified = results.certified
     min_cell = certified_min_cell(results.certified_settings, results.domain)
-    return _section("certified", title, certified_blocks(certified, results.equation.variables, min_cell))
+    figure = {"kind": "figure", "figure": "certified",
+              "caption": "Certified layer: proven zones lightly tinted in their type's colour, undecided cells "
+                         "hatched, a ring on each pocket the sampled map missed."}
+    return _section("certified", title, [figure, *certified_blocks(certified, results.equation.variables, min_cell)])
 
 
 # -- points and curves ----------------------------------------------------------------------------------------

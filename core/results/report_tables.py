@@ -153,7 +153,7 @@ def certified_blocks(certified, variables: Sequence[str], min_cell: float) -> li
         blocks.append({"kind": "table", "columns": ["pocket", "type", f"{x} range", f"{y} range", "area", "exists",
                                                     "missed by the grid"],
                        "rows": _limited(pockets, "pockets"), "keyed": False,
-                       "caption": "Certified pockets: zones that may hold a type apart from the main zones"})
+                       "caption": "Certified pockets: the connected zones that may hold each type (proven: surely hold it)"})
     else:
         blocks.append({"kind": "paragraph", "text": "No certified pocket apart from the main zones."})
     tangencies = len(certified.tangencies)
