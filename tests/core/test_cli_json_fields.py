@@ -46,6 +46,9 @@ CASES = {
     "trace_seeds": ("trace", TRICOMI),
     "cauchy": ("cauchy", "--a", "1", "--b", "0", "--c", "-1", "--line", "y = 0", "--u", "sin(s)", "--du", "s**2",
                "--at", "0.3", "0.5"),
+    "critical_inline": ("critical", "--a", "1", "--b", "0", "--c", "x**2 + y**2 - p", "--domain", "-1", "1", "-1",
+                        "1", "--grid", "9", "--vary", "p", "--between", "-1", "1"),
+    "critical_file": ("critical", TRICOMI, "--grid", "9", "--vary", "k", "--between", "0", "1", "--no-certify"),
 }
 
 CLASSIFY_FIELDS = {
@@ -152,6 +155,15 @@ ADDED: dict[str, set[str]] = {
     "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
     "cauchy": set(),
 }
+# mixtype critical (issue: critical parameter values): the first event at the top, every event in "events".
+CRITICAL_EVENT = {"parameter", "value", "bracket", "event", "at", "type"}
+CRITICAL = CRITICAL_EVENT | {f"events[].{key}" for key in CRITICAL_EVENT} | {
+    "events", "between", "relative_tolerance", "proven", "notes", "tolerance"}
+TODAY["critical_inline"] = CRITICAL | STUDY
+TODAY["critical_file"] = CRITICAL - {f"events[].{key}" for key in CRITICAL_EVENT} | STUDY | {
+    "source", "source.domain", "source.equation", "source.file", "project_checksum"}
+ADDED["critical_inline"] = set()
+ADDED["critical_file"] = set()
 # Below these fields the keys are the study's own names (definitions, parameters), not field names.
 NAMED_BY_THE_STUDY = ("equation.definitions.", "equation.parameters.", "parameters.")
 
