@@ -2,8 +2,9 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, sweep, probe, trace, check, templates: each has ``run(args, out, err) -> exit status``) is
-imported only when that command runs; that is the one lazy import of the command line, in ``_implemented_in``.
+(core.cli.classify, sweep, probe, trace, critical, check, templates: each has ``run(args, out, err) -> exit
+status``) is imported only when that command runs; that is the one lazy import of the command line, in
+``_implemented_in``.
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from core.cli.options import (
     whole_number,
 )
 
-__all__ = ["HEADLESS_COMMANDS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
+__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
 
 MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
 # core.analysis.sweep.MAX_SWEEP_VALUES written again for --sweep's help line, so that --help needs no numpy
@@ -82,6 +83,23 @@ def _add_trace_arguments(parser: argparse.ArgumentParser) -> None:
                              "(default: FILE's setting, else 0)")
 
 
+CRITICAL_TYPES = ("hyperbolic", "elliptic", "parabolic")   # core.analysis.critical.CRITICAL_TYPES (a test keeps
+#                                                           them equal; written here so that --help needs no numpy)
+
+
+def _add_critical_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    group = parser.add_argument_group("critical values")
+    group.add_argument("--vary", required=True, metavar="NAME",
+                       help="the parameter that varies (a parameter of the equation; a new name is added as one)")
+    group.add_argument("--between", required=True, nargs=2, type=finite, metavar=("LO", "HI"),
+                       help="the interval of NAME searched, LO below HI")
+    group.add_argument("--type", choices=CRITICAL_TYPES, default="hyperbolic",
+                       help="the type whose zone appears or vanishes (default hyperbolic)")
+    group.add_argument("--no-certify", action="store_true",
+                       help="skip the certified maps that prove no other place reaches the threshold first")
+
+
 def _add_check_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
     add_data_access_options(parser)
@@ -127,6 +145,12 @@ PROBE = Command("probe", "everything known at one point (or at every pin of FILE
                 _implemented_in("core.cli.probe"))
 TRACE = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_trace_arguments,
                 _implemented_in("core.cli.trace"))
+CRITICAL = Command("critical", "parameter values where a zone of a type appears or vanishes, to 1e-9",
+                   _add_critical_arguments, _implemented_in("core.cli.critical"),
+                   description="Vary one parameter over an interval and find every value where a zone of the "
+                   "type (hyperbolic unless --type says otherwise) appears or vanishes, to a relative tolerance "
+                   "of 1e-9, and where in the domain it does; certified maps then prove (or fail to prove) that "
+                   "no other place reaches the threshold first.")
 CHECK = Command("check", "validate a project file and open its data files", _add_check_arguments,
                 _implemented_in("core.cli.check"),
                 description="Validate a project file and list every problem in it, then open the data files it "
@@ -141,4 +165,4 @@ SWEEP = Command("sweep", "how each type's area, the pockets and their peak chang
 TEMPLATES = Command("templates", "list the equation templates --template accepts", _add_templates_arguments,
                     _implemented_in("core.cli.templates"))
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CHECK, TEMPLATES)
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES)

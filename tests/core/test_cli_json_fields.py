@@ -45,6 +45,9 @@ CASES = {
     "trace_file": ("trace", TRICOMI, "--from", "0", "-0.5"),
     "trace_seeds": ("trace", TRICOMI),
     "sweep_file": ("sweep", BUMP, "--grid", "41", "21", "--sweep", "mach=0.7:0.9:3"),
+    "critical_inline": ("critical", "--a", "1", "--b", "0", "--c", "x**2 + y**2 - p", "--domain", "-1", "1", "-1",
+                        "1", "--grid", "9", "--vary", "p", "--between", "-1", "1"),
+    "critical_file": ("critical", TRICOMI, "--grid", "9", "--vary", "k", "--between", "0", "1", "--no-certify"),
 }
 
 CLASSIFY_FIELDS = {
@@ -155,6 +158,15 @@ ADDED: dict[str, set[str]] = {
     "trace_file": STUDY | {"project_checksum", "curves[].events"},
     "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
 }
+# mixtype critical (issue: critical parameter values): the first event at the top, every event in "events".
+CRITICAL_EVENT = {"parameter", "value", "bracket", "event", "at", "type"}
+CRITICAL = CRITICAL_EVENT | {f"events[].{key}" for key in CRITICAL_EVENT} | {
+    "events", "between", "relative_tolerance", "proven", "notes", "tolerance"}
+TODAY["critical_inline"] = CRITICAL | STUDY
+TODAY["critical_file"] = CRITICAL - {f"events[].{key}" for key in CRITICAL_EVENT} | STUDY | {
+    "source", "source.domain", "source.equation", "source.file", "project_checksum"}
+ADDED["critical_inline"] = set()
+ADDED["critical_file"] = set()
 # Below these fields the keys are the study's own names (definitions, parameters), not field names.
 NAMED_BY_THE_STUDY = ("equation.definitions.", "equation.parameters.", "parameters.")
 
