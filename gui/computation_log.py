@@ -45,7 +45,7 @@ MAX_ENTRIES = 1000
 # job channel -> what the log calls it
 LOGGED_CHANNELS = {"map": "Type map", "lines": "Type-change lines", "pockets": "Hyperbolic pockets",
                    "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file",
-                   "certified": "Certified map", "sweep": "Parameter sweep"}
+                   "certified": "Certified map", "sweep": "Parameter sweep", "critical": "Critical values"}
 
 
 @dataclass(frozen=True)
@@ -224,7 +224,7 @@ class ComputationLog(QObject):
             return _grid_text(self.analysis.type_map.codes.shape)
         if channel == "characteristics":
             return _plural(len(self.document.project.seeds), "seed line")
-        if channel == "sweep":
+        if channel in ("sweep", "critical"):
             domain = self.document.domain
             return _grid_text((domain.ny, domain.nx))
         if channel == "certified":
@@ -299,6 +299,10 @@ def _result_text(channel: str, result: object, *, dragging: bool) -> str:
     if channel == "sweep":
         _key, sweep = result
         return f"{_plural(len(sweep.rows), 'value')} of {sweep.parameter}"
+    if channel == "critical":
+        _key, search = result
+        proof = {True: ", proven", False: ", not all proven"}.get(search.proven, "")
+        return f"{_plural(len(search.events), 'event')} of {search.type} zones in {search.parameter}{proof}"
     if channel == "characteristics":
         return _plural(sum(len(traced.curves) for traced in result), "curve")
     if channel == "data":

@@ -1,14 +1,13 @@
 """The sweep panel: how each type's area and the pockets' peak change as one parameter of the study moves.
 
 Choose a parameter of the shown equation, its range and number of values (evenly or on a logarithmic scale)
-and Run: core.analysis.sweep.run_sweep classifies the grid at every value off the GUI thread (the "sweep" job
-channel, with progress and Cancel). The results are saved with the study through the document (one undo step
-each run), as are the settings when they are edited (core.project.sweeps.SavedSweep: one sweep per study and
-parameter). Two plots: the area of each type against the parameter (type colours of gui.palette, in units of
-the variables' product), and the largest pocket peak of the study's peak quantity. Dashed vertical lines mark
-the critical values saved with the sweep; a dotted one the parameter's current value. A click on either plot
-sets the study's parameter to the value clicked (one undoable edit, as a slider step is). The panel draws
-what core computed and computes nothing itself.
+and Run: core.analysis.sweep.run_sweep classifies the grid at every value off the GUI thread, with progress and
+Cancel. "Find critical values" runs core.analysis.critical.find_critical_values over the same range: the values
+where a hyperbolic zone appears or vanishes, proven by certified maps where it can (gui.sweep_runs runs both and
+keeps their results with the study through the document, one undo step each). The settings are saved when
+edited (core.project.sweeps.SavedSweep: one sweep per study and parameter). The plots (gui.panels.sweep_plots) show the area of each type and the largest pocket peak
+against the parameter, the critical values as dashed lines; a click on a plot sets the study's parameter to
+the value clicked (one undoable edit, as a slider step is). The panel computes nothing itself.
 """
 
 from __future__ import annotations
@@ -16,9 +15,7 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
-import numpy as np
-import pyqtgraph as pg
-from PySide6.QtCore import Qt, Signal
+from PySide6.QtCore import Signal
 from PySide6.QtWidgets import (
     QCheckBox,
     QFormLayout,
@@ -30,24 +27,22 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from core.analysis.classify import FRACTION_ORDER
-from core.analysis.sweep import MAX_SWEEP_VALUES, run_sweep
+from core.analysis.sweep import MAX_SWEEP_VALUES
 from core.equations.equation import Parameter
 from core.project.sweeps import SavedSweep
 from core.results.readouts import peak_quantity
 from gui.document import Document
 from gui.jobs import JobRunner
-from gui.palette import PIN_COLOUR, TYPE_COLOURS
+from gui.panels.sweep_plots import SweepPlots
 from gui.settled_edits import SettledText
 from gui.slider_scale import slider_scale
+from gui.sweep_runs import CHANNEL, CRITICAL_CHANNEL, CRITICAL_TYPE, SweepRuns
 from gui.widgets import SteadyComboBox, SteadySpinBox, error_label, push_button, show_error
 
-__all__ = ["CHANNEL", "DEFAULT_COUNT", "SweepPanel", "default_sweep", "rounded_value"]
+__all__ = ["CHANNEL", "CRITICAL_CHANNEL", "CRITICAL_TYPE", "DEFAULT_COUNT", "SweepPanel", "default_sweep",
+           "rounded_value"]
 
-CHANNEL = "sweep"
 DEFAULT_COUNT = 41
-CRITICAL_COLOUR = "#000000"
-PEAK_COLOUR = "#CC79A7"         # reddish purple (Okabe-Ito): apart from every type colour
 
 
 def default_sweep(study: tuple[str, str], name: str, parameter: Parameter) -> SavedSweep:
@@ -64,7 +59,8 @@ def default_sweep(study: tuple[str, str], name: str, parameter: Parameter) -> Sa
 
 
 def rounded_value(value: float, low: float, high: float, *, log: bool = False) -> float:
-    """A clicked value rounded to about a thousandth of the plotted range (relative on a log scale), inside it."""
+    """A clicked value rounded to about a thousandth of the plotted range (four significant digits on a log
+    scale), inside the range."""
     value = min(max(value, low), high)
     if log:
         step = 10.0 ** math.floor(math.log10(value) - 3)
@@ -83,7 +79,6 @@ class SweepPanel(QWidget):
         super().__init__(parent)
         self.document = document
         self.runner = runner
-        self._job = 0
         self._updating = False
         self._parameter: str | None = None
         self.setToolTip("Sweep one parameter: the area of each type and the largest pocket peak at each value. "
@@ -114,8 +109,12 @@ class SweepPanel(QWidget):
         self.log.toggled.connect(self._apply_settings)
         self.run_button = push_button("Run", "Classify the grid at every value, in the background", self.run)
         self.run_button.setObjectName("sweepRun")
-        self.cancel_button = push_button("Cancel", "Stop the sweep; the plot keeps the last finished one",
-                                         self.cancel)
+        self.critical_button = push_button(
+            "Find critical values", f"Search the range for the values where a {CRITICAL_TYPE} zone appears or "
+            "vanishes (to 1e-9, proven by certified maps where they can), in the background", self.find_critical)
+        self.critical_button.setObjectName("sweepCritical")
+        self.cancel_button = push_button("Cancel", "Stop the sweep or the search; the plot keeps the last "
+                                         "finished one", self.cancel)
         self.cancel_button.setObjectName("sweepCancel")
         self.cancel_button.setEnabled(False)
         self.progress = QProgressBar()
@@ -138,6 +137,7 @@ class SweepPanel(QWidget):
         controls = QVBoxLayout()
         controls.addLayout(form)
         controls.addLayout(buttons)
+        controls.addWidget(self.critical_button)
         controls.addWidget(self.progress)
         controls.addStretch(1)
         self.summary = QLabel("")
@@ -145,33 +145,11 @@ class SweepPanel(QWidget):
         self.summary.setWordWrap(True)
         self.error = error_label()
 
-        self.plots = pg.GraphicsLayoutWidget()
-        self.plots.setObjectName("sweepPlots")
-        self.plots.setBackground("w")
-        self.area_plot = self.plots.addPlot(row=0, col=0)
-        self.peak_plot = self.plots.addPlot(row=0, col=1)
-        self.legend = self.area_plot.addLegend(offset=(6, 4), colCount=2,
-                                               labelTextSize="8pt")
-        for plot in (self.area_plot, self.peak_plot):
-            plot.showGrid(x=True, y=True, alpha=0.25)
-            plot.setMenuEnabled(False)
-            for side in ("bottom", "left"):
-                plot.getAxis(side).enableAutoSIPrefix(False)     # no "(x0.001)" beside a dimensionless name
-        self.area_curves: dict[str, pg.PlotDataItem] = {}
-        for code in FRACTION_ORDER:
-            curve = self.area_plot.plot([], [], pen=pg.mkPen(TYPE_COLOURS[code], width=2.2), name=code.label,
-                                        symbol="o", symbolSize=4, symbolBrush=TYPE_COLOURS[code],
-                                        symbolPen=None)
-            self.area_curves[code.label] = curve
-        self.peak_curve = self.peak_plot.plot([], [], pen=pg.mkPen(PEAK_COLOUR, width=2.2), symbol="o",
-                                              symbolSize=4, symbolBrush=PEAK_COLOUR, symbolPen=None,
-                                              connect="finite")
-        self.critical_lines: list[tuple[pg.PlotItem, pg.InfiniteLine]] = []
-        self.now_lines = [pg.InfiniteLine(angle=90, pen=pg.mkPen(PIN_COLOUR, width=1.5, style=Qt.PenStyle.DotLine))
-                          for _ in range(2)]
-        for plot, line in zip((self.area_plot, self.peak_plot), self.now_lines, strict=True):
-            plot.addItem(line, ignoreBounds=True)
-        self.plots.scene().sigMouseClicked.connect(self._plot_clicked)
+        self.plots = SweepPlots()
+        self.area_plot, self.peak_plot = self.plots.plot_items
+        self.area_curves, self.peak_curve = self.plots.area_curves, self.plots.peak_curve
+        self.now_lines = self.plots.now_lines
+        self.plots.clicked_at.connect(self.choose_value)
 
         results = QVBoxLayout()
         results.addWidget(self.summary)
@@ -180,10 +158,11 @@ class SweepPanel(QWidget):
         layout = QHBoxLayout(self)
         layout.addLayout(controls)
         layout.addLayout(results, 1)
-        runner.progressed.connect(self._progressed)
-        runner.finished.connect(self._finished)
-        runner.failed.connect(self._failed)
-        runner.cancelled.connect(self._cancelled)
+        self.runs = SweepRuns(document, runner, self)
+        self.runs.busy_changed.connect(self._busy)
+        self.runs.progressed.connect(lambda fraction: self.progress.setValue(round(1000 * fraction)))
+        self.runs.problem.connect(lambda text: show_error(self.error, text))
+        self.runs.stopped.connect(self._stopped)
         document.project_replaced.connect(self._forget)
         document.equation_changed.connect(self.refresh)
         document.equations_listed.connect(self.refresh)
@@ -229,7 +208,7 @@ class SweepPanel(QWidget):
             if self._parameter is not None:
                 self.parameter.setCurrentIndex(parameters.index(self._parameter))
             sweep = self.current()
-            for widget in (self.parameter, self.low, self.high, self.count, self.log, self.run_button):
+            for widget in (self.parameter, self.low, self.high, self.count, self.log):
                 widget.setEnabled(sweep is not None)
             if sweep is not None:
                 self.settling["low"].show(f"{sweep.low:.10g}")
@@ -238,89 +217,52 @@ class SweepPanel(QWidget):
                 self.log.setChecked(sweep.log)
         finally:
             self._updating = False
-        self.run_button.setEnabled(sweep is not None and not self.runner.is_busy(CHANNEL))
+        self._busy(self.runs.working())
         self._plot(sweep)
 
-    def _axis_labels(self, sweep: SavedSweep | None, quantity: str | None) -> None:
-        first, second = self.document.equation.variables
-        name = "" if sweep is None else sweep.parameter
-        parameter = self.document.equation.parameters.get(name)
-        unit = (parameter.unit if parameter is not None else "") or "dimensionless"
-        for plot in (self.area_plot, self.peak_plot):
-            plot.setLabel("bottom", f"{name} ({unit})" if name else "")
-            plot.setLogMode(x=bool(sweep is not None and sweep.log), y=False)
-        # titles rather than left labels: the plots are short, and a rotated label would be cut
-        self.area_plot.setTitle(f"area of each type ({first} unit × {second} unit)", size="9pt")
-        self.peak_plot.setTitle(f"largest pocket peak of {quantity}" if quantity else
-                                "largest pocket peak (the equation names no peak quantity)", size="9pt")
-
     def _plot(self, sweep: SavedSweep | None) -> None:
-        rows = () if sweep is None or sweep.rows is None else sweep.rows
-        values = np.array([row.value for row in rows], dtype=np.float64)
-        self.legend.clear()
-        for label, curve in self.area_curves.items():
-            areas = np.array([row.areas[label] for row in rows], dtype=np.float64)
-            shown = label in ("elliptic", "hyperbolic") or bool(np.any(areas > 0))
-            curve.setData(values if shown else [], areas if shown else [])
-            curve.setVisible(shown)
-            if shown:
-                self.legend.addItem(curve, label)
-        quantities = [row.peak["quantity"] for row in rows if row.peak is not None]
-        peaks = np.array([np.nan if row.peak is None else row.peak["value"] for row in rows], dtype=np.float64)
-        if np.isfinite(peaks).any():
-            self.peak_curve.setData(values, peaks, connect="finite")
-        else:
-            self.peak_curve.setData([], [])
-        quantity = quantities[0] if quantities else self._peak_quantity()
-        self._axis_labels(sweep, quantity)
-        for plot, line in self.critical_lines:
-            plot.removeItem(line)
-        self.critical_lines = []
-        for critical in () if sweep is None or sweep.critical is None else sweep.critical:
-            for plot in (self.area_plot, self.peak_plot):
-                line = pg.InfiniteLine(pos=critical.value, angle=90, movable=False,
-                                       pen=pg.mkPen(CRITICAL_COLOUR, width=1.2, style=Qt.PenStyle.DashLine),
-                                       label=f"{critical.type} {critical.event}\n{critical.value:.5g}",
-                                       labelOpts={"position": 0.85, "color": CRITICAL_COLOUR, "fill": "#FFFFFFC0"})
-                if sweep.log:
-                    line.setPos(math.log10(critical.value))
-                plot.addItem(line, ignoreBounds=True)
-                self.critical_lines.append((plot, line))
-        self.summary.setText(self._summary_text(sweep, rows))
+        parameter = None if sweep is None else self.document.equation.parameters.get(sweep.parameter)
+        self.plots.show_sweep(sweep, variables=self.document.equation.variables,
+                              unit="" if parameter is None else parameter.unit, quantity=self._peak_quantity())
+        self.summary.setText(self._summary_text(sweep))
         self._show_now()
-        for plot in (self.area_plot, self.peak_plot):
-            plot.enableAutoRange()
+
+    @property
+    def critical_lines(self):
+        """(plot, line) pairs of the critical values drawn (gui.panels.sweep_plots)."""
+        return self.plots.critical_lines
 
     def _peak_quantity(self) -> str | None:
         compiled = self.document.compiled
         return None if compiled is None else peak_quantity(self.document.equation, compiled, self.document.data_names)
 
-    def _summary_text(self, sweep: SavedSweep | None, rows) -> str:
+    def _summary_text(self, sweep: SavedSweep | None) -> str:
+        rows = () if sweep is None or sweep.rows is None else sweep.rows
         if sweep is None:
             return "The shown equation has no parameter to sweep."
         scale = "on a logarithmic scale" if sweep.log else "evenly spaced"
         settings = f"{sweep.count} values of {sweep.parameter} from {sweep.low:g} to {sweep.high:g}, {scale}"
-        if not rows:
-            return f"{settings}. Not run yet: press Run."
-        pockets = [row.pockets for row in rows]
-        text = (f"Last run: {len(rows)} values from {rows[0].value:g} to {rows[-1].value:g}; hyperbolic pockets "
-                f"{min(pockets)} to {max(pockets)}")
+        if rows:
+            pockets = [row.pockets for row in rows]
+            text = (f"Last run: {len(rows)} values from {rows[0].value:g} to {rows[-1].value:g}; hyperbolic "
+                    f"pockets {min(pockets)} to {max(pockets)}")
+        else:
+            text = "Not run yet: press Run"
         if sweep.critical:
-            marks = ", ".join(f"{c.type} {c.event} at {c.value:.5g}" for c in sweep.critical)
+            marks = ", ".join(f"{c.type} {c.event} at {c.value:.6g}" for c in sweep.critical)
             text += f"; critical values: {marks}"
         elif sweep.critical is not None:
             text += "; no critical value in the range"
+        proof = self.runs.proofs.get(sweep.key)
+        if sweep.critical is not None and proof:
+            text += f" ({proof})"
         return text + f". Settings: {settings}."
 
     def _show_now(self) -> None:
         """The dotted line at the parameter's current value."""
         sweep = self.current()
         parameter = None if sweep is None else self.document.equation.parameters.get(sweep.parameter)
-        for line in self.now_lines:
-            visible = parameter is not None and (not sweep.log or parameter.value > 0)
-            line.setVisible(visible)
-            if visible:
-                line.setPos(math.log10(parameter.value) if sweep.log else parameter.value)
+        self.plots.show_now(None if parameter is None else parameter.value)
 
     # -- settings -------------------------------------------------------------------------------------------
     def _parameter_picked(self, index: int) -> None:
@@ -362,85 +304,36 @@ class SweepPanel(QWidget):
 
     # -- running --------------------------------------------------------------------------------------------
     def run(self) -> int:
-        """Start the sweep of the fields' settings in the background; returns the job number (0: not started)."""
+        """Save the fields' settings and sweep them in the background; the job number (0: not started)."""
         sweep = self._apply_settings()
-        compiled = self.document.compiled
-        if sweep is None:
-            return 0
-        if compiled is None or self.document.data_pending:
-            reason = "the data files are still loading" if compiled is not None else self.document.compile_error
-            show_error(self.error, f"Cannot sweep: {reason}")
-            return 0
-        document = self.document
-        domain, data, tolerance = document.domain, document.data, document.tolerance
-        parameters = document.equation.parameter_values()
-        quantity = peak_quantity(document.equation, compiled, document.data_names)
-        values = sweep.values()
+        return 0 if sweep is None else self.runs.run(sweep)
 
-        def work(cancel, progress):
-            return sweep, run_sweep(compiled, domain, sweep.parameter, values, parameters=parameters, data=data,
-                                    tolerance=tolerance, quantity=quantity, cancel=cancel, progress=progress,
-                                    log=sweep.log)
-
-        self._job = self.runner.request(CHANNEL, work, label=f"Sweeping {sweep.parameter}")
-        if self.runner.is_busy(CHANNEL):
-            self._busy(True)
-        return self._job
+    def find_critical(self) -> int:
+        """Save the fields' settings and search their range for critical values in the background."""
+        sweep = self._apply_settings()
+        return 0 if sweep is None else self.runs.find_critical(sweep)
 
     def cancel(self) -> None:
-        self.runner.cancel(CHANNEL)
+        self.runs.cancel()
 
     def _busy(self, busy: bool) -> None:
+        if busy != self.progress.isVisibleTo(self):
+            self.progress.setValue(0)
         self.progress.setVisible(busy)
-        self.progress.setValue(0)
         self.cancel_button.setEnabled(busy)
-        self.run_button.setEnabled(not busy and self.current() is not None)
+        for button in (self.run_button, self.critical_button):
+            button.setEnabled(not busy and self.current() is not None)
 
-    def _progressed(self, channel: str, fraction: float, label: str) -> None:
-        if channel == CHANNEL:
-            self.progress.setValue(round(1000 * fraction))
-
-    def _finished(self, channel: str, number: int, result) -> None:
-        if channel != CHANNEL:
-            return
-        self._busy(False)
-        started, computed = result
-        saved = next((s for s in self.document.project.sweeps if s.key == started.key), started)
-        after = replace(saved, low=started.low, high=started.high, count=started.count, log=started.log,
-                        rows=computed.rows)
-        try:
-            self.document.set_sweep(after, f"Run the sweep of {started.parameter} ({len(computed.rows)} values)")
-        except ValueError as error:       # the study was renamed or replaced while the sweep ran
-            show_error(self.error, f"The sweep's results were not kept: {error}")
-
-    def _failed(self, channel: str, number: int, text: str) -> None:
-        if channel == CHANNEL:
-            self._busy(False)
-            show_error(self.error, f"The sweep failed: {text}")
-
-    def _cancelled(self, channel: str, number: int) -> None:
-        if channel == CHANNEL and not self.runner.is_busy(CHANNEL):
-            self._busy(False)
-            self.summary.setText("Sweep cancelled; the plot shows the last finished sweep.")
+    def _stopped(self, what: str) -> None:
+        self.summary.setText(f"{what} cancelled; the plot shows the last finished results.")
 
     # -- clicks ---------------------------------------------------------------------------------------------
-    def _plot_clicked(self, event) -> None:
-        if event.button() != Qt.MouseButton.LeftButton:
-            return
-        for plot in (self.area_plot, self.peak_plot):
-            box = plot.getViewBox()
-            if box.sceneBoundingRect().contains(event.scenePos()):
-                self.choose_value(box.mapSceneToView(event.scenePos()).x())
-                event.accept()
-                return
-
-    def choose_value(self, x: float) -> bool:
-        """Set the swept parameter to the plot's value ``x`` (log10 of the value on a logarithmic axis), rounded
-        and kept within the sweep's range: one undoable edit. False when there is nothing to set."""
+    def choose_value(self, value: float) -> bool:
+        """Set the swept parameter to ``value`` (a click on a plot), rounded and kept within the sweep's range:
+        one undoable edit. False when there is nothing to set."""
         sweep = self.current()
-        if sweep is None or not math.isfinite(x):
+        if sweep is None or not math.isfinite(value):
             return False
-        value = 10.0 ** x if sweep.log else x
         rows = sweep.rows or ()
         low = min([sweep.low, *(row.value for row in rows)])
         high = max([sweep.high, *(row.value for row in rows)])

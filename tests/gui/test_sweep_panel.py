@@ -20,7 +20,7 @@ from core.project.io import load_project
 from core.project.model import new_project
 from core.project.sweeps import CriticalValue, SavedSweep
 from gui.computation_log import CANCELLED, DONE
-from gui.panels.sweep import CHANNEL, rounded_value
+from gui.panels.sweep import CHANNEL, CRITICAL_CHANNEL, rounded_value
 from tests.ceilings import HANG_CEILING_S
 from tests.gui.conftest import tricomi_project
 
@@ -195,3 +195,31 @@ def test_rows_of_another_parameter_are_kept_apart(make_window, qtbot):
     assert len(panel.current().rows) == 3
     row = panel.current().rows[1]
     assert isinstance(row, SweepRow) and row.areas["hyperbolic"] == pytest.approx(3.0 * 1.5, rel=1e-12)
+
+
+def test_find_critical_values_marks_where_the_pocket_appears_and_keeps_it_with_the_sweep(make_window, qtbot):
+    # c = (x - 0.5)^2 + (y - 0.25)^2 - p: hyperbolic inside the disc of radius sqrt(p) about (0.5, 0.25), so a
+    # pocket appears at p = 0, at that point (elementary geometry, common practice, no source); no other event
+    # in [-0.5, 0.5] (the disc reaches no corner of [-1, 1]^2 before p = 3.8125).
+    equation = Equation(a="1", b="0", c="(x - 0.5)**2 + (y - 0.25)**2 - p", name="disc",
+                        parameters={"p": Parameter(0.1, -0.5, 0.5)})
+    window = make_window(new_project(equation, Domain(-1.0, 1.0, -1.0, 1.0, 41, 41, name="square")),
+                         synchronous=False)
+    panel = window.sweep_panel
+    started = []
+    window.runner.started.connect(lambda channel, number, label: started.append(channel))
+    qtbot.mouseClick(panel.critical_button, Qt.MouseButton.LeftButton)
+    assert started == [CRITICAL_CHANNEL] and panel.cancel_button.isEnabled()     # off the GUI thread
+    assert window.runner.wait_idle(HANG_CEILING_S)
+    (sweep,) = window.document.project.sweeps_of("disc", "square")
+    (mark,) = sweep.critical
+    assert mark.event == "appears" and mark.type == "hyperbolic" and abs(mark.value) < 1e-9
+    assert mark.at == pytest.approx((0.5, 0.25), abs=1e-3)
+    assert mark.bracket[0] <= mark.value <= mark.bracket[1]
+    assert [line.value() for _, line in panel.critical_lines] == [mark.value, mark.value]   # both plots
+    assert "hyperbolic appears at" in panel.summary.text() and "proven by certified maps" in panel.summary.text()
+    assert window.document.undo_stack.undoText() == "Find critical values of p (1 found)"
+    entry = [e for e in window.computation_log.entries if e.what == "Critical values"][-1]
+    assert entry.outcome == DONE and entry.detail == "1 event of hyperbolic zones in p, proven"
+    window.document.undo_stack.undo()
+    assert window.document.project.sweeps_of("disc", "square") == () and not panel.critical_lines
