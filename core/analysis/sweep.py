@@ -21,12 +21,12 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
 
 import numpy as np
 
 from core.analysis.classify import DEFAULT_TOLERANCE, FRACTION_ORDER, TypeCode, TypeMap, classify_grid
 from core.analysis.pockets import Pocket, node_areas, pocket_statistics
+from core.analysis.sweep_values import MAX_SWEEP_VALUES, Sweep, SweepRow, sweep_values
 from core.analysis.type_change_lines import find_type_boundaries
 from core.analysis.zone_polygons import zone_polygons
 from core.domain import Domain
@@ -36,67 +36,8 @@ from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = ["MAX_SWEEP_VALUES", "Sweep", "SweepRow", "run_sweep", "sweep_values", "zone_areas"]
 
-MAX_SWEEP_VALUES = 1000     # values in one sweep: 1000 maps of 201 x 201 nodes take about a minute
-
 # Shares of one value's work, for progress: the map, its lines, the zones' polygons, the pockets.
 _MAP, _LINES, _ZONES = 0.55, 0.75, 0.85
-
-
-@dataclass(frozen=True)
-class SweepRow:
-    """What the study looks like at one value of the swept parameter.
-
-    ``fractions``: each type's share of the grid nodes by type name (elliptic, parabolic, hyperbolic,
-    undefined), exactly what ``mixtype classify --json`` prints as "fractions" at that value. ``areas``: the
-    area of each type in the same order, in units of the product of the two variables' units (module
-    docstring: how). ``pockets``: the number of connected hyperbolic regions (core.analysis.pockets).
-    ``peak``: ``{"quantity": name, "value": v, "at": [x, y]}``, the largest pocket peak of the peak quantity
-    over every pocket (the first pocket, largest area first, on ties); None without a quantity or a finite peak.
-    """
-
-    value: float
-    fractions: Mapping[str, float]
-    areas: Mapping[str, float]
-    pockets: int
-    peak: Mapping | None
-
-
-@dataclass(frozen=True)
-class Sweep:
-    """A parameter's values in the order swept and one SweepRow per value; ``log`` says the values were spread
-    evenly on a logarithmic scale (sweep_values)."""
-
-    parameter: str
-    values: tuple[float, ...]
-    rows: tuple[SweepRow, ...]
-    log: bool
-
-
-def sweep_values(low: float, high: float, count: int, *, log: bool = False) -> np.ndarray:
-    """``count`` values from ``low`` to ``high``, both ends included, evenly spread (geometrically with ``log``).
-
-    ValueError, saying which input and why, for a count that is not a whole number from 2 to MAX_SWEEP_VALUES,
-    ends that are not finite numbers or not in increasing order, or a logarithmic sweep not above 0.
-    """
-    if isinstance(count, bool) or not isinstance(count, int | np.integer) or not 2 <= count <= MAX_SWEEP_VALUES:
-        raise ValueError(f"the number of values must be a whole number from 2 to {MAX_SWEEP_VALUES}, got {count!r}")
-    for name, end in (("low", low), ("high", high)):
-        if not isinstance(end, int | float | np.number) or isinstance(end, bool) or not math.isfinite(end):
-            raise ValueError(f"the sweep's {name} end must be a finite number, got {end!r}")
-    low, high = float(low), float(high)
-    if not low < high:
-        raise ValueError(f"the sweep's low end must be below its high end, got {low:g} to {high:g}")
-    if log:
-        if low <= 0:
-            raise ValueError(f"a logarithmic sweep needs a low end above 0, got {low:g}")
-        values = np.geomspace(low, high, int(count))
-    else:
-        values = np.linspace(low, high, int(count))
-    values[0], values[-1] = low, high       # the ends exactly as given
-    if np.unique(values).size != values.size:
-        raise ValueError(f"{count} values from {low!r} to {high!r} are not all distinct numbers; widen the range "
-                         "or take fewer values")
-    return values
 
 
 def zone_areas(type_map: TypeMap, boundaries=None, *, cancel: CancelCheck | None = None) -> dict[str, float]:

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 
-from core.analysis.sweep import SweepRow
+from core.analysis.sweep_values import SweepRow
 from core.domain import Domain
 from core.equations.equation import Parameter
 from core.project.checks import equation_from_dict, meaning_problems

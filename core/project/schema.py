@@ -12,7 +12,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from core.analysis.sweep import MAX_SWEEP_VALUES
+from core.analysis.sweep_values import MAX_SWEEP_VALUES
 from core.analysis.tracing import MAX_BOUNCES
 from core.bundled import bundled_path
 from core.domain import MAX_GRID, MIN_GRID

@@ -1,8 +1,8 @@
 """The parameter sweeps a project keeps (format version 6): what to sweep, and the last results found.
 
 A ``SavedSweep`` belongs to one study (an equation and a domain, by name, as pins do): which parameter, from
-``low`` to ``high`` in ``count`` values, evenly or on a logarithmic scale (core.analysis.sweep.sweep_values),
-and optionally the rows the last run gave (core.analysis.sweep.SweepRow) and the critical values found in
+``low`` to ``high`` in ``count`` values, evenly or on a logarithmic scale (core.analysis.sweep_values),
+and optionally the rows the last run gave (core.analysis.sweep_values.SweepRow) and the critical values found in
 its range (``CriticalValue``: where a zone of a type appears or vanishes). A project holds at most one sweep
 per study and parameter. The parameter is not required to exist in the equation (it may have been renamed
 since): the window says so when it cannot run it.
@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from core.analysis.classify import FRACTION_ORDER, TypeCode
-from core.analysis.sweep import MAX_SWEEP_VALUES, SweepRow, sweep_values
+from core.analysis.sweep_values import MAX_SWEEP_VALUES, SweepRow, sweep_values
 from core.equations.language import ExpressionError, check_name
 
 __all__ = ["CRITICAL_EVENTS", "MAX_CRITICAL_VALUES", "MAX_SWEEPS", "CriticalValue", "SavedSweep", "checked_row"]
@@ -138,5 +138,5 @@ class SavedSweep:
         return (*self.study, self.parameter)
 
     def values(self):
-        """The values the sweep runs at (core.analysis.sweep.sweep_values)."""
+        """The values the sweep runs at (core.analysis.sweep_values.sweep_values)."""
         return sweep_values(self.low, self.high, self.count, log=self.log)
