@@ -63,6 +63,8 @@ def sweep_values(low: float, high: float, count: int, *, log: bool = False) -> n
     low, high = float(low), float(high)
     if not low < high:
         raise ValueError(f"the sweep's low end must be below its high end, got {low:g} to {high:g}")
+    if not math.isfinite(high - low):
+        raise ValueError(f"the sweep's range {low:g} to {high:g} is too wide (its width is not a finite number)")
     if log:
         if low <= 0:
             raise ValueError(f"a logarithmic sweep needs a low end above 0, got {low:g}")

@@ -5,7 +5,7 @@ A ``SavedSweep`` belongs to one study (an equation and a domain, by name, as pin
 and optionally the rows the last run gave (core.analysis.sweep_values.SweepRow) and the critical values found in
 its range (``CriticalValue``: where a zone of a type appears or vanishes). A project holds at most one sweep
 per study and parameter. The parameter is not required to exist in the equation (it may have been renamed
-since): the window says so when it cannot run it.
+since): such a sweep is kept in the file, and the window shows only the sweeps of parameters the equation has.
 """
 
 from __future__ import annotations

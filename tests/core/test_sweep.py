@@ -129,6 +129,7 @@ def test_logarithmic_values_are_geometric_with_exact_ends():
     ((0.0, 1.0, 5), {"log": True}, "logarithmic sweep needs a low end above 0"),
     ((-1.0, 1.0, 5), {"log": True}, "logarithmic sweep needs a low end above 0"),
     ((1.0, 1.0 + 4e-16, 5), {}, "not all distinct"),
+    ((-1e308, 1e308, 5), {}, "too wide"),
 ])
 def test_bad_ranges_are_refused_with_a_reason(arguments, options, message):
     with pytest.raises(ValueError, match=message):
