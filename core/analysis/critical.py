@@ -141,7 +141,7 @@ def find_critical_values(compiled: CompiledEquation, domain: Domain, parameter: 
                 found.append(candidate)
         if progress is not None:
             progress(0.5 + 0.4 * (k + 1) / (scan - 1))
-    found.sort(key=lambda item: (item[0].value, item[0].event))
+    found.sort(key=lambda item: (item[0].value, item[0].bracket[0] + item[0].bracket[1]))
     events = tuple(event for event, _ in found)
     proven = None
     if certify and events:
@@ -174,6 +174,8 @@ def _checked(compiled: CompiledEquation, parameter: str, between, type: str, tol
         raise ValueError(f"the interval must be two numbers LO HI, got {between!r}") from None
     if not (math.isfinite(lo) and math.isfinite(hi)) or not lo < hi:
         raise ValueError(f"the interval must be two finite numbers with LO below HI, got [{lo}, {hi}]")
+    if not math.isfinite(hi - lo):
+        raise ValueError(f"the interval [{lo:g}, {hi:g}] is too wide: its width overflows double precision")
     if not (isinstance(rtol, int | float) and 1e-15 <= rtol <= 0.1):
         raise ValueError(f"the relative tolerance must be from 1e-15 to 0.1, got {rtol!r}")
     if not 0.0 <= float(tolerance) < 1.0:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import re
 from dataclasses import replace
 from typing import TextIO
@@ -33,6 +34,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     lo, hi = args.between
     if not lo < hi:
         raise UsageError(f"--between: LO ({lo:g}) must be below HI ({hi:g})")
+    if not math.isfinite(hi - lo):
+        raise UsageError(f"--between: the interval [{lo:g}, {hi:g}] is too wide (its width overflows)")
     study = _with_varied_parameter(read_study(args, err), args.vary, lo)
     if not 0.0 <= study.tolerance < 1.0:
         raise UsageError(f"--tolerance: expected a number in [0, 1), got {study.tolerance:g}")

@@ -152,6 +152,7 @@ def test_bad_input_is_refused_with_what_is_wrong():
     for kwargs, message in (({"parameter": "q", "between": (0, 1)}, "'q' is not a parameter"),
                             ({"parameter": "p", "between": (1, 0)}, "LO below HI"),
                             ({"parameter": "p", "between": (0, math.inf)}, "finite"),
+                            ({"parameter": "p", "between": (-1e308, 1e308)}, "too wide"),
                             ({"parameter": "p", "between": (0, 1), "type": "undefined"}, "unknown type"),
                             ({"parameter": "p", "between": (0, 1), "rtol": 0.0}, "relative tolerance")):
         with pytest.raises(ValueError, match=message):
@@ -235,6 +236,8 @@ def test_the_command_says_it_in_words_with_the_tolerance():
 @pytest.mark.parametrize(("options", "message"), [
     (("--vary", "G", "--between", "0.8", "0.2"), "mixtype: --between: LO (0.8) must be below HI (0.2)\n"),
     (("--vary", "G", "--between", "0.2", "inf"), "mixtype: argument --between: 'inf' is not a finite number\n"),
+    (("--vary", "G", "--between", "-1e308", "1e308"), ("mixtype: --between: the interval [-1e+308, 1e+308] is too "
+                                                      "wide (its width overflows)\n")),
     (("--vary", "x", "--between", "0", "1"), ("mixtype: --vary x: x is a variable of the equation; only a "
                                              "parameter can vary\n")),
     (("--vary", "u", "--between", "0", "1"), ("mixtype: --vary u: u is a definition (--let); only a parameter "
@@ -250,3 +253,16 @@ def test_the_command_says_it_in_words_with_the_tolerance():
 def test_bad_command_line_input_exits_2_naming_the_option(options, message):
     status, out, err = run("critical", *VORTEX_OPTIONS, *options)
     assert (status, out) == (2, "") and err.startswith(message) and err.count("\n") == 1
+
+
+def test_a_zone_that_dies_as_another_is_born_at_the_same_value_is_listed_dying_first():
+    # a = 1, b = 0, c = x p: elliptic (D = -4 x p < 0) where x p > 0, so the elliptic zone x < 0 dies at p = 0
+    # and the zone x > 0 is born there (common practice, no source). At 0 the tolerance is absolute: 1e-12 of
+    # the interval's scale.
+    equation = Equation(a="1", b="0", c="x*p", parameters={"p": Parameter(0.0)})
+    search = find_critical_values(compile_equation(equation), Domain(-1, 1, -1, 1, nx=9, ny=9), "p", (-1, 1),
+                                  type="elliptic")
+    assert [e.event for e in search.events] == ["vanishes", "appears"]
+    assert all(abs(e.value) <= 1e-12 and e.bracket[0] <= 0.0 <= e.bracket[1] for e in search.events)
+    assert search.events[0].at[0] < 0 < search.events[1].at[0]
+    assert search.proven is True
