@@ -2,8 +2,9 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, probe, trace, critical, check, templates: each has ``run(args, out, err) -> exit status``) is
-imported only when that command runs; that is the one lazy import of the command line, in ``_implemented_in``.
+(core.cli.classify, sweep, probe, trace, critical, check, templates: each has ``run(args, out, err) -> exit
+status``) is imported only when that command runs; that is the one lazy import of the command line, in
+``_implemented_in``.
 """
 
 from __future__ import annotations
@@ -23,11 +24,14 @@ from core.cli.options import (
     whole_number,
 )
 
-__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_CELL_BUDGET"]
+__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
 
 MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
 MAX_STRIDE = 1_000_000           # --stride K
 MAX_BLOCK_MIB = 1 << 20          # --block-mib: 1 TiB
+# core.analysis.sweep.MAX_SWEEP_VALUES written again for --sweep's help line, so that --help needs no numpy
+# (tests/core/test_sweep_cli.py keeps the two equal).
+MAX_SWEEP_VALUES = 1000
 
 
 def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO], int]:
@@ -131,6 +135,33 @@ def _add_cauchy_arguments(parser: argparse.ArgumentParser) -> None:
                         help="also the value there and the two points of the line it depends on")
     parser.add_argument("--vars", nargs=2, metavar=("X", "Y"), help="names of the two variables (default x y)")
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+def sweep_option(text: str) -> tuple[str, float, float, int]:
+    """--sweep NAME=LO:HI:N -> (name, low, high, count): a parameter name, two finite numbers and a whole
+    number (their order, the count's range and --log are checked when the sweep runs)."""
+    name, sep, spec = text.partition("=")
+    parts = spec.split(":")
+    if not sep or not name.strip() or len(parts) != 3:
+        raise argparse.ArgumentTypeError(f"expected NAME=LO:HI:N (such as mach=0.5:0.9:41), got {text!r}")
+    try:
+        low, high = finite(parts[0]), finite(parts[1])
+    except argparse.ArgumentTypeError as error:
+        raise argparse.ArgumentTypeError(f"{text!r}: LO and HI must be finite numbers ({error})") from None
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r}: N must be a whole number of values, got {parts[2]!r}") from None
+    return name.strip(), low, high, count
+
+
+def _add_sweep_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    group = parser.add_argument_group("sweep")
+    group.add_argument("--sweep", type=sweep_option, required=True, metavar="NAME=LO:HI:N",
+                       help="the parameter NAME and N values from LO to HI, both ends included (N from 2 to "
+                            f"{MAX_SWEEP_VALUES})")
+    group.add_argument("--log", action="store_true", help="spread the values evenly on a logarithmic scale "
+                       "(LO above 0)")
+    group.add_argument("--raw", action="store_true", help="measure the zones on lines not refined onto D = 0")
 
 
 def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
@@ -154,6 +185,12 @@ CHECK = Command("check", "validate a project file and open its data files", _add
                 description="Validate a project file and list every problem in it, then open the data files it "
                 "lists. Exit status 2 when the file is invalid or a data file is missing or unreadable; a data "
                 "file that changed since the project was saved is a warning on stderr (exit status 0).")
+SWEEP = Command("sweep", "how each type's area, the pockets and their peak change as one parameter moves",
+                _add_sweep_arguments, _implemented_in("core.cli.sweep"),
+                description="Classify the grid at N values of one parameter (the equation compiled once) and "
+                "report, per value, each type's share of the grid nodes (as classify does), its area measured on "
+                "the refined type-change lines, the number of hyperbolic pockets and the largest pocket peak of "
+                "the study's peak quantity.")
 TEMPLATES = Command("templates", "list the equation templates --template accepts", _add_templates_arguments,
                     _implemented_in("core.cli.templates"))
 
@@ -164,4 +201,4 @@ CAUCHY = Command("cauchy", "the Cauchy problem of a constant-coefficient equatio
                  "characteristic coordinates where hyperbolic), its value at a point and the two points of the "
                  "line it depends on. Elliptic equations and characteristic data lines are refused (exit 2).")
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, CAUCHY)
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, CAUCHY)

@@ -212,6 +212,7 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             problems.append((json_path(["shown", field]), (f"there is no {field} named {clip(shown, 40)!r} "
                                                           f"(the project has {listed})")))
     problems += _pin_study_problems(data)
+    problems += _sweep_problems(data)
     problems += _field_layer_problems(data["view"].get("field"))
     return problems
 
@@ -226,6 +227,36 @@ def _pin_study_problems(data: Mapping) -> list[tuple[str, str]]:
             if name not in names[field] and name != data["shown"][field]:   # (a bad shown name is said once)
                 problems.append((json_path(["pins", index, "study", field]),
                                  f"there is no {field} named {clip(name, 40)!r}"))
+    return problems
+
+
+def _sweep_problems(data: Mapping) -> list[tuple[str, str]]:
+    """Each sweep's study exists, one sweep per study and parameter, its range is ordered (above 0 on a
+    logarithmic scale) and each critical value lies in its bracket."""
+    problems = []
+    names = {"equation": {item["name"] for item in data["equations"]},
+             "domain": {item["name"] for item in data["domains"]}}
+    seen: set[tuple[str, str, str]] = set()
+    for index, sweep in enumerate(data.get("sweeps", ())):
+        for field, name in sweep["study"].items():
+            if name not in names[field]:
+                problems.append((json_path(["sweeps", index, "study", field]),
+                                 f"there is no {field} named {clip(name, 40)!r}"))
+        key = (sweep["study"]["equation"], sweep["study"]["domain"], sweep["parameter"])
+        if key in seen:
+            problems.append((json_path(["sweeps", index, "parameter"]),
+                             f"the study already has a sweep of {sweep['parameter']!r} (one per parameter)"))
+        seen.add(key)
+        low, high = sweep["low"], sweep["high"]
+        if not low < high:
+            problems.append((json_path(["sweeps", index, "high"]), f"must be above low ({low!r}), got {high!r}"))
+        elif sweep["log"] and low <= 0:
+            problems.append((json_path(["sweeps", index, "low"]), f"a logarithmic sweep starts above 0, got {low!r}"))
+        for number, critical in enumerate(sweep.get("critical_values", ())):
+            bracket = critical.get("bracket")
+            if bracket is not None and not bracket[0] <= critical["value"] <= bracket[1]:
+                problems.append((json_path(["sweeps", index, "critical_values", number, "bracket"]),
+                                 f"must hold the value {critical['value']!r}"))
     return problems
 
 
