@@ -30,7 +30,7 @@ def _equation_path(index: int, field: str) -> str:
     base = ["equations", index]
     if field in COEFFICIENT_NAMES:
         return json_path([*base, "coefficients", field])
-    if field.startswith("trade.") or field in ("trade", "peak_quantity"):
+    if field.startswith(("trade.", "lower_order.")) or field in ("trade", "peak_quantity"):
         return json_path([*base, *field.split(".")[:3]])
     group, _, name = field.partition(".")
     if group in ("definitions", "parameters") and name:
@@ -110,6 +110,31 @@ def _parameter_problems(index: int, parameters: Mapping) -> list[tuple[str, str]
 
 
 def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
+    return _coefficient_problems(index, raw, has_data=has_data) + _lower_order_problems(index, raw,
+                                                                                         has_data=has_data)
+
+
+def _lower_order_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
+    """Texts of d, e, f that do not parse over the equation's names (and data quantities, with data)."""
+    lower = raw.get("lower_order", {})
+    if not lower:
+        return []
+    variables = raw["variables"]
+    names = [*variables, *raw["parameters"], *raw["definitions"]]
+    symbols = {n: sympy.Symbol(n, real=True) for n in names}
+    errors = []
+    for key, text in lower.items():
+        try:
+            if has_data:
+                find_data_names(text, symbols, variables=variables, reserved=COEFFICIENT_NAMES)
+            else:
+                parse_expression(text, symbols, variables=variables)
+        except ExpressionError as error:
+            errors.append((f"lower_order.{key}", error))
+    return _located(index, errors, has_data=has_data)
+
+
+def _coefficient_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
     problems = _parameter_problems(index, raw["parameters"])
     variables = raw["variables"]
     names = [*variables, *raw["parameters"], *raw["definitions"]]
@@ -323,4 +348,4 @@ def equation_from_dict(raw: Mapping) -> Equation:
                     variables=tuple(raw["variables"]), definitions=dict(raw["definitions"]),
                     parameters=parameters, name=raw["name"], description=raw["description"],
                     trade={kind: dict(inputs) for kind, inputs in raw.get("trade", {}).items()},
-                    peak_quantity=raw.get("peak_quantity", ""))
+                    peak_quantity=raw.get("peak_quantity", ""), lower_order=dict(raw.get("lower_order", {})))

@@ -78,6 +78,8 @@ def _equation_to_dict(e) -> dict:
         result["trade"] = {kind: dict(inputs) for kind, inputs in e.trade.items()}
     if e.peak_quantity:
         result["peak_quantity"] = e.peak_quantity
+    if e.lower_order:
+        result["lower_order"] = dict(e.lower_order)
     return result
 
 

@@ -146,6 +146,12 @@ def _equation_schema() -> dict:
         "trade": _trade_schema(),
         "peak_quantity": _identifier("the definition, parameter or data quantity whose largest value is reported "
                                      "for each hyperbolic pocket (optional)"),
+        "lower_order": _object({
+            "d": _expression("coefficient of u_(first variable)"),
+            "e": _expression("coefficient of u_(second variable)"),
+            "f": _expression("coefficient of u"),
+        }, required=[], description="the lower-order part d u_x + e u_y + f u where the study states it "
+                                    "(optional, format 6): it never changes the type, only the canonical forms"),
     }, required=["name", "description", "variables", "coefficients", "definitions", "parameters"],
         description="a second-order equation in two independent variables")
 

@@ -35,7 +35,23 @@ def test_the_version_6_sample_reads_as_written():
     assert len(values) == 41 and (values[0], values[20], values[-1]) == (1e-3, pytest.approx(1.0, rel=1e-14), 1e3)
     assert bare.rows == () and bare.critical == ()
     assert project.sweeps_of("sample: all fields", "main") == (first, log)
+    assert project.equations[0].lower_order == {"d": "k*u", "e": "0", "f": "-1/(1 + x**2)"}
+    assert project.equations[1].lower_order == {}
     assert dumps_project(project) == V6.read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize(("lower_order", "expected"), [
+    ({"d": "t*"}, "$.equations[1].lower_order.d: syntax error"),
+    ({"f": "nowhere + 1"}, "$.equations[1].lower_order.f: column 1: unknown name 'nowhere'"),
+    ({"g": "1"}, "$.equations[1].lower_order: unknown field 'g'"),
+])
+def test_bad_lower_order_terms_are_refused_with_their_place(lower_order, expected):
+    data = json.loads(V6.read_text(encoding="utf-8"))
+    data["equations"][1]["lower_order"] = lower_order
+    data["data_sources"] = []      # names nowhere defined are then errors, not data quantities
+    with pytest.raises(ProjectError) as raised:
+        project_from_dict(data)
+    assert any(expected in str(problem) for problem in raised.value.problems), raised.value.problems
 
 
 def test_older_files_have_no_sweeps_and_the_migration_places_the_list_after_the_seeds():
