@@ -13,7 +13,7 @@ from core.cli.options import UsageError
 from core.cli.study import Study, build_study
 from core.equations.compiled import CompiledEquation, compile_equation
 from core.equations.language import ExpressionError
-from core.results.document import project_file_checksum
+from core.results.document import source_document
 
 __all__ = ["compiled_study", "read_study", "source_fields"]
 
@@ -47,6 +47,4 @@ def compiled_study(study: Study) -> CompiledEquation:
 def source_fields(study: Study) -> dict:
     """Where a study comes from: ``source`` (FILE, its equation and domain) and ``project_checksum`` (the
     SHA-256 of FILE's bytes); no fields without FILE."""
-    if not study.source:
-        return {}
-    return {"source": study.source, "project_checksum": project_file_checksum(study.source["file"])}
+    return source_document(study.source)
