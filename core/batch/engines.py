@@ -1,0 +1,208 @@
+"""Where the jobs of a batch run: a local pool of processes, or a Dask cluster.
+
+An engine maps a picklable function over items and yields ``(index, result)`` pairs as the results come,
+in any order; a job whose worker went away (killed, out of memory, crashed) or whose task failed on the
+cluster yields ``JobFailure`` instead of a result, so one bad job never ends the batch. Engines know nothing
+of Mixtype's studies (core.batch.runner gives them core.batch.jobs.run_job and the jobs).
+
+- ``LocalPool``: concurrent.futures.ProcessPoolExecutor, processes started by a fork server that has the
+  function's module imported already (spawn where there is no fork server), so each worker starts warm and
+  no worker inherits the threads of the caller. A job that breaks the pool is found by running the jobs
+  left again, and a job left unfinished by two broken pools alone.
+- ``DaskCluster``: dask.distributed, on a running scheduler (``tcp://host:port``) or on a LocalCluster
+  started here on the loopback address only, without dashboard. dask and distributed are the optional
+  extra ``cluster`` and are imported only here, only when this engine runs.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import multiprocessing
+import os
+from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
+from dataclasses import dataclass
+
+from core.progress import CancelCheck, Cancelled
+
+__all__ = [
+    "CLUSTER_INSTALL_HINT",
+    "CONNECT_TIMEOUT_S",
+    "DaskCluster",
+    "EngineUnavailable",
+    "JobFailure",
+    "LocalPool",
+    "available_cores",
+]
+
+CLUSTER_INSTALL_HINT = "pip install 'mixtype[cluster]'"
+CONNECT_TIMEOUT_S = 15          # to reach a running scheduler
+LOOPBACK = "127.0.0.1"
+STRIKES_BEFORE_ALONE = 2        # broken pools a job may be left unfinished by before it runs alone
+
+
+class EngineUnavailable(Exception):
+    """The engine cannot start (dask not installed, the scheduler out of reach): one line for the user."""
+
+
+@dataclass(frozen=True)
+class JobFailure:
+    """What an engine knows of a job that gave no result: one line."""
+
+    message: str
+
+
+def available_cores() -> int:
+    """The processor cores this process may run on (its affinity where the system tells it)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:     # not on every system (macOS, Windows)
+        return max(1, os.cpu_count() or 1)
+
+
+def _process_context(function: Callable) -> multiprocessing.context.BaseContext:
+    """A fork server that has ``function``'s module imported (every worker forks from it warm), else spawn."""
+    if "forkserver" not in multiprocessing.get_all_start_methods():
+        return multiprocessing.get_context("spawn")
+    context = multiprocessing.get_context("forkserver")
+    if function.__module__ != "__main__":
+        context.set_forkserver_preload([function.__module__])   # no effect once the server runs: harmless
+    return context
+
+
+@dataclass(frozen=True)
+class LocalPool:
+    """Up to ``workers`` processes on this machine."""
+
+    workers: int
+
+    def __post_init__(self) -> None:
+        if self.workers < 1:
+            raise ValueError(f"a local pool needs at least one worker, got {self.workers}")
+
+    @property
+    def description(self) -> dict:
+        return {"engine": "local", "workers": self.workers, "scheduler": None}
+
+    def map(self, function: Callable, items: Sequence, *, cancel: CancelCheck | None = None
+            ) -> Iterator[tuple[int, object]]:
+        """``(index, function(items[index]) or JobFailure)`` for every item, as they finish."""
+        context = _process_context(function)
+        strikes = [0] * len(items)
+        left = list(range(len(items)))
+        while left:
+            together = [i for i in left if strikes[i] < STRIKES_BEFORE_ALONE]
+            alone = [i for i in left if strikes[i] >= STRIKES_BEFORE_ALONE]
+            finished: set[int] = set()
+            if together:
+                workers = min(self.workers, len(together))
+                for index, result in _pool_round(function, items, together, workers, context, cancel):
+                    if result is _UNFINISHED:
+                        strikes[index] += 1
+                    else:
+                        finished.add(index)
+                        yield index, result
+            for index in alone:
+                for _, result in _pool_round(function, items, [index], 1, context, cancel):
+                    finished.add(index)
+                    yield index, (JobFailure("its worker process stopped before answering (killed, out of "
+                                             "memory or crashed), also when run alone")
+                                  if result is _UNFINISHED else result)
+            left = [i for i in left if i not in finished]
+
+
+_UNFINISHED = object()     # a job left unfinished by a broken pool
+
+
+def _pool_round(function: Callable, items: Sequence, indices: Sequence[int], workers: int,
+                context: multiprocessing.context.BaseContext, cancel: CancelCheck | None
+                ) -> Iterator[tuple[int, object]]:
+    """One pool over ``indices``: each index once, with its result, a JobFailure or _UNFINISHED (the pool
+    broke before it finished)."""
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
+        futures = {pool.submit(function, items[i]): i for i in indices}
+        pending = set(futures)
+        while pending:
+            done, pending = wait(pending, timeout=0.5 if cancel is not None else None,
+                                 return_when=FIRST_COMPLETED)
+            if cancel is not None and cancel():
+                pool.shutdown(wait=False, cancel_futures=True)
+                raise Cancelled("the batch was cancelled")
+            for future in sorted(done, key=futures.__getitem__):
+                index = futures[future]
+                try:
+                    yield index, future.result()
+                except BrokenProcessPool:
+                    yield index, _UNFINISHED
+                except Exception as error:  # noqa: BLE001 - the function raised, or its result did not pickle
+                    yield index, JobFailure(f"its worker failed ({type(error).__name__}: "
+                                            f"{' '.join(str(error).split())})")
+
+
+def _distributed():
+    """The dask.distributed module, or EngineUnavailable naming the extra to install."""
+    try:
+        # Here, not at the top: dask is an optional extra, and importing distributed takes about a second
+        import distributed
+    except ImportError:
+        raise EngineUnavailable(f"--dask needs dask and distributed: {CLUSTER_INSTALL_HINT}") from None
+    return distributed
+
+
+@dataclass(frozen=True)
+class DaskCluster:
+    """A Dask cluster: ``address`` "local" (a LocalCluster of ``workers`` processes on the loopback address,
+    started and stopped here) or a running scheduler's address (its workers are its own)."""
+
+    address: str
+    workers: int | None = None
+
+    @property
+    def description(self) -> dict:
+        return {"engine": "dask", "workers": self.workers, "scheduler": None if self.address == "local"
+                else self.address}
+
+    @contextlib.contextmanager
+    def client(self):
+        """A connected distributed.Client (and the LocalCluster behind it for "local"), closed afterwards."""
+        distributed = _distributed()
+        with contextlib.ExitStack() as stack:
+            try:
+                if self.address == "local":
+                    cluster = stack.enter_context(distributed.LocalCluster(
+                        host=LOOPBACK, n_workers=self.workers or available_cores(), threads_per_worker=1,
+                        processes=True, dashboard_address=None))
+                    client = stack.enter_context(distributed.Client(cluster))
+                else:
+                    client = stack.enter_context(distributed.Client(self.address, timeout=CONNECT_TIMEOUT_S))
+            except (OSError, ValueError, TypeError) as error:
+                where = "start a local Dask cluster" if self.address == "local" else \
+                    f"reach the Dask scheduler at {self.address}"
+                reason = " ".join(str(error).split()) or type(error).__name__
+                raise EngineUnavailable(f"--dask: cannot {where} ({reason})") from None
+            yield client
+
+    def map(self, function: Callable, items: Sequence, *, cancel: CancelCheck | None = None,
+            on_client: Callable[[object], None] | None = None) -> Iterator[tuple[int, object]]:
+        """``(index, function(items[index]) or JobFailure)`` for every item, as the cluster finishes them;
+        ``on_client`` sees the connected client first (to read the scheduler's address)."""
+        distributed = _distributed()
+        with self.client() as client:
+            if on_client is not None:
+                on_client(client)
+            futures = client.map(function, list(items), pure=False)
+            position = {future.key: index for index, future in enumerate(futures)}
+            for future in distributed.as_completed(futures):
+                index = position[future.key]
+                if future.status == "finished":
+                    result = future.result()
+                else:
+                    error = future.exception()
+                    result = JobFailure(f"its Dask task failed ({type(error).__name__}: "
+                                        f"{' '.join(str(error).split())})")
+                future.release()
+                yield index, result
+                if cancel is not None and cancel():
+                    client.cancel(futures)
+                    raise Cancelled("the batch was cancelled")
