@@ -190,7 +190,11 @@ def test_names_are_unique_and_safe_as_file_names(studies, tmp_path):
 
 # -- Dask -------------------------------------------------------------------------------------------------
 def test_a_dask_cluster_gives_what_the_local_pool_gives(studies, tmp_path):
-    import distributed  # the test extra installs the cluster extra: a missing dask fails here, never skips
+    # Here, not at the top: distributed takes 0.3 s to import (python -X importtime) and sets up its loggers,
+    # which no other test of the process needs. The test extra holds the cluster extra: without dask this
+    # test fails, it never skips.
+    import distributed
+
     jobs = (studies["tricomi"], "--project", studies["flow"], "--data-each",
             os.path.join(studies["runs"], "*.npz"))
     local_status, local, _ = _batch(*jobs, "--out", str(tmp_path / "local"), "--workers", "2")
