@@ -13,6 +13,7 @@ outcome's one-line ``error``, which names the file and, inside a project, the JS
 from __future__ import annotations
 
 import argparse
+import json
 import os
 import re
 import time
@@ -20,6 +21,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 
+from core.batch.figures import document_figures
 from core.cli.command import compiled_study
 from core.cli.options import UsageError
 from core.cli.registry import CLASSIFY
@@ -72,12 +74,14 @@ class BatchJob:
 
 @dataclass(frozen=True, eq=False)
 class JobOutcome:
-    """What one job gave: the classify ``document`` (None when it failed), or the one-line ``error``;
-    ``warnings`` (e.g. a data file changed since the project was saved) and the job's ``elapsed_s`` seconds
-    on its worker."""
+    """What one job gave: its classify document as ``mixtype classify --json`` prints it (``text``, one line
+    and a newline) with the summary ``figures`` of it (core.batch.figures), both made where the job ran so
+    that the batch's process only writes them; or, when it failed, the one-line ``error``. ``warnings`` (e.g.
+    a data file changed since the project was saved) and the job's ``elapsed_s`` seconds on its worker."""
 
     name: str
-    document: dict | None
+    text: str | None
+    figures: dict | None = None
     error: str | None = None
     warnings: tuple[str, ...] = ()
     elapsed_s: float = 0.0
@@ -85,6 +89,10 @@ class JobOutcome:
     @property
     def ok(self) -> bool:
         return self.error is None
+
+    def document(self) -> dict | None:
+        """The classify document (None when the job failed)."""
+        return None if self.text is None else json.loads(self.text)
 
 
 # -- the job list ------------------------------------------------------------------------------------------
@@ -243,6 +251,8 @@ def run_job(job: BatchJob) -> JobOutcome:
     start = time.perf_counter()
     try:
         document, warnings = _classified(job)
+        text = json.dumps(document) + "\n"          # what classify writes with --json
+        figures = document_figures(document)
     except Exception as error:  # noqa: BLE001 - a failing job is a row of the summary, never the batch's end
-        return JobOutcome(job.name, None, _message(error, job), (), time.perf_counter() - start)
-    return JobOutcome(job.name, document, None, warnings, time.perf_counter() - start)
+        return JobOutcome(job.name, None, None, _message(error, job), (), time.perf_counter() - start)
+    return JobOutcome(job.name, text, figures, None, warnings, time.perf_counter() - start)

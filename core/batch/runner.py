@@ -17,7 +17,14 @@ from pathlib import Path
 
 from core.batch.engines import DaskCluster, JobFailure, LocalPool
 from core.batch.jobs import BatchJob, JobOutcome, run_job
-from core.batch.summary import FAILED, remove_stale_result, summary_row, write_result, write_summary
+from core.batch.summary import (
+    FAILED,
+    remove_stale_result,
+    result_file_name,
+    summary_row,
+    write_result,
+    write_summary,
+)
 from core.progress import CancelCheck, ProgressReport
 
 __all__ = ["BatchReport", "run_batch"]
@@ -45,8 +52,8 @@ def _outcome(job: BatchJob, result: object) -> JobOutcome:
     if isinstance(result, JobOutcome):
         return result
     if isinstance(result, JobFailure):
-        return JobOutcome(job.name, None, result.message)
-    return JobOutcome(job.name, None, f"unexpected result {type(result).__name__}")
+        return JobOutcome(job.name, None, error=result.message)
+    return JobOutcome(job.name, None, error=f"unexpected result {type(result).__name__}")
 
 
 def run_batch(jobs: Sequence[BatchJob], folder: str | os.PathLike, engine: LocalPool | DaskCluster, *,
@@ -71,12 +78,13 @@ def run_batch(jobs: Sequence[BatchJob], folder: str | os.PathLike, engine: Local
         job = jobs[index]
         outcome = _outcome(job, result)
         written = None
-        if outcome.document is not None:
+        if outcome.text is not None:
             try:
-                written = write_result(folder, job, outcome.document)
+                written = write_result(folder, job, outcome)
             except OSError as error:
-                outcome = JobOutcome(job.name, None, f"cannot write {Path(folder) / f'{job.name}.json'} "
-                                     f"({error.strerror or error})", outcome.warnings, outcome.elapsed_s)
+                where = Path(folder) / result_file_name(job)
+                outcome = JobOutcome(job.name, None, None, f"cannot write {where} ({error.strerror or error})",
+                                     outcome.warnings, outcome.elapsed_s)
         if written is None:
             try:
                 remove_stale_result(folder, job)

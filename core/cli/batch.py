@@ -22,9 +22,10 @@ from core.batch.engines import (
     LocalPool,
     available_cores,
 )
+from core.batch.figures import FRACTION_COLUMNS
 from core.batch.jobs import BatchJob, project_jobs, sweep_jobs, with_unique_names
 from core.batch.runner import BatchReport, run_batch
-from core.batch.summary import FAILED, FRACTION_COLUMNS
+from core.batch.summary import FAILED
 from core.cli.options import EXIT_OK, EXIT_SOME_FAILED, UsageError
 
 __all__ = ["run"]

@@ -1,0 +1,137 @@
+"""Batch runs (`mixtype batch`), as ratios measured in one run.
+
+Throughput: the same batch of ``jobs`` projects (invented Tricomi-type studies, each on a ``grid`` x ``grid``
+map) on a local pool of 1 and of 2 worker processes (core.batch.runner.run_batch, as the command runs it),
+timed in pairs with the order alternating; the figure is the median of the pairs' ratios of 1-worker to
+2-worker seconds, i.e. the 2-worker throughput over the 1-worker throughput. Both write the same results.
+The fork server that starts the workers is warmed first, as a long batch's start-up is paid once.
+
+Start-up: ``separate`` small studies as that many `mixtype classify FILE --json` processes one after the
+other against one `mixtype batch FILE... --workers 1` process (one start-up for all, jobs one after the
+other too), each a fresh interpreter from this checkout (``python -m gui.launcher``, the script's module).
+The batch's result files must be byte for byte what the separate processes printed.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+import pathlib
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+from records import figure
+from timing import paired_times  # bench/ is on sys.path (script dir or bench/run.py)
+
+from core.batch.engines import LocalPool, available_cores
+from core.batch.jobs import project_jobs
+from core.batch.runner import run_batch
+from core.cli.main import main as mixtype
+
+ROOT = pathlib.Path(__file__).resolve().parents[1]
+
+# Measured on the 2-core development machine, shared with other work: 1.5 to 1.7 for 2 against 1 worker
+# (each job's grid is already classified on two threads; what parallelises over jobs is the rest: lines,
+# pockets, the document), 4 to 6 for the start-up figure with 8 studies.
+TARGETS = {"two_over_one_worker_throughput": 1.3, "separate_processes_over_one_batch": 3.0}
+
+SMOKE = {"jobs": 2, "grid": 21, "repeats": 1, "separate": 2}     # every line runs, figures meaningless
+
+
+def _projects(folder: str, count: int, grid: int) -> list[str]:
+    """``count`` project files of y u_xx + b u_xy + (1 + x^2) u_yy = 0 with the sonic line bent a little
+    differently in each (invented studies, for timing only)."""
+    os.makedirs(folder, exist_ok=True)
+    paths = []
+    for k in range(count):
+        path = os.path.join(folder, f"study_{k}.mixtype.json")
+        status = mixtype(["classify", "--a", f"y - {0.05 * (k + 1)}*sin(3*x) + 0.1*cos(7*x*y)", "--b", "0.1*x",
+                          "--c", "1 + x**2", "--domain", "-1", "1", "-1", "1", "--grid", str(grid),
+                          "--save-project", path], out=io.StringIO(), err=io.StringIO())
+        if status != 0:
+            raise RuntimeError(f"could not write the study {path}")
+        paths.append(path)
+    return paths
+
+
+def _results(folder: str) -> dict[str, bytes]:
+    return {name: pathlib.Path(folder, name).read_bytes() for name in sorted(os.listdir(folder))
+            if not name.startswith("summary.")}
+
+
+def _throughput(folder: str, jobs: int, grid: int, repeats: int) -> dict:
+    batch = project_jobs(_projects(folder, jobs, grid))
+    one_folder, two_folder = os.path.join(folder, "one"), os.path.join(folder, "two")
+    run_batch(batch, two_folder, LocalPool(2))                 # the fork server imports Mixtype once
+    one, two, one_report, two_report = paired_times(lambda: run_batch(batch, one_folder, LocalPool(1)),
+                                                    lambda: run_batch(batch, two_folder, LocalPool(2)),
+                                                    repeats=repeats)
+    if one_report.failed or two_report.failed:
+        raise RuntimeError("a job of the throughput batch failed")
+    ratio = float(np.median(one / two))
+    return {
+        "jobs": jobs, "grid": f"{grid}x{grid}", "cores_available": available_cores(),
+        "one_worker_seconds_median": float(np.median(one)),
+        "two_workers_seconds_median": float(np.median(two)),
+        "one_worker_jobs_per_second": jobs / float(np.median(one)),
+        "two_workers_jobs_per_second": jobs / float(np.median(two)),
+        "two_over_one_worker_throughput": ratio,
+        "results_agree": float(_results(one_folder) == _results(two_folder)),
+    }
+
+
+def _mixtype_process(*arguments: str) -> bytes:
+    """stdout of one fresh ``mixtype ARGUMENTS`` from this checkout (fails loudly, status 0 expected)."""
+    completed = subprocess.run([sys.executable, "-m", "gui.launcher", *arguments], cwd=ROOT, check=True,
+                               capture_output=True)
+    return completed.stdout
+
+
+def _start_up(folder: str, studies: int, repeats: int) -> dict:
+    paths = _projects(folder, studies, 101)
+    out = os.path.join(folder, "batch")
+    printed: list[bytes] = []
+
+    def separate() -> None:
+        printed[:] = [_mixtype_process("classify", path, "--json") for path in paths]
+
+    def one_batch() -> None:
+        _mixtype_process("batch", *paths, "--out", out, "--workers", "1", "--json")
+
+    separate_times, batch_times, _, _ = paired_times(separate, one_batch, repeats=repeats)
+    written = [pathlib.Path(out, f"study_{k}.json").read_bytes() for k in range(studies)]
+    return {
+        "studies": studies, "grid": "101x101",
+        "separate_processes_seconds_median": float(np.median(separate_times)),
+        "one_batch_seconds_median": float(np.median(batch_times)),
+        "separate_processes_over_one_batch": float(np.median(separate_times / batch_times)),
+        "batch_equals_classify": float(written == printed),
+    }
+
+
+def run(jobs: int = 8, grid: int = 1601, repeats: int = 5, separate: int = 8) -> dict:
+    with tempfile.TemporaryDirectory(prefix="mixtype-bench-batch-") as folder:
+        throughput = _throughput(os.path.join(folder, "throughput"), jobs, grid, repeats)
+        start_up = _start_up(os.path.join(folder, "start_up"), separate, max(1, min(repeats, 3)))
+    return {
+        "throughput": throughput,
+        "start_up": start_up,
+        "targets": TARGETS,
+        "records": [
+            figure("batch throughput, 2 local workers over 1 (ratio of jobs per second)",
+                   throughput["two_over_one_worker_throughput"], TARGETS["two_over_one_worker_throughput"],
+                   at_most=False),
+            figure(f"{separate} separate classify processes over one batch of them (ratio of seconds)",
+                   start_up["separate_processes_over_one_batch"], TARGETS["separate_processes_over_one_batch"],
+                   at_most=False),
+            figure("batch results equal separate classify runs", start_up["batch_equals_classify"], 1.0,
+                   at_most=False),
+        ],
+    }
+
+
+if __name__ == "__main__":
+    print(json.dumps(run(), indent=1))
