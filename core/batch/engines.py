@@ -123,21 +123,27 @@ def _pool_round(function: Callable, items: Sequence, indices: Sequence[int], wor
     with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
         futures = {pool.submit(function, items[i]): i for i in indices}
         pending = set(futures)
-        while pending:
-            done, pending = wait(pending, timeout=0.5 if cancel is not None else None,
-                                 return_when=FIRST_COMPLETED)
+
+        def stop_if_cancelled() -> None:
             if cancel is not None and cancel():
                 pool.shutdown(wait=False, cancel_futures=True)
                 raise Cancelled("the batch was cancelled")
+
+        while pending:
+            done, pending = wait(pending, timeout=0.5 if cancel is not None else None,
+                                 return_when=FIRST_COMPLETED)
+            stop_if_cancelled()
             for future in sorted(done, key=futures.__getitem__):
                 index = futures[future]
                 try:
-                    yield index, future.result()
+                    result = future.result()
                 except BrokenProcessPool:
-                    yield index, _UNFINISHED
+                    result = _UNFINISHED
                 except Exception as error:  # noqa: BLE001 - the function raised, or its result did not pickle
-                    yield index, JobFailure(f"its worker failed ({type(error).__name__}: "
-                                            f"{' '.join(str(error).split())})")
+                    result = JobFailure(f"its worker failed ({type(error).__name__}: "
+                                        f"{' '.join(str(error).split())})")
+                yield index, result
+                stop_if_cancelled()
 
 
 def _distributed():
@@ -176,7 +182,7 @@ class DaskCluster:
                     client = stack.enter_context(distributed.Client(cluster))
                 else:
                     client = stack.enter_context(distributed.Client(self.address, timeout=CONNECT_TIMEOUT_S))
-            except (OSError, ValueError, TypeError) as error:
+            except (OSError, ValueError, TypeError, RuntimeError) as error:   # RuntimeError: a cluster that failed to start
                 where = "start a local Dask cluster" if self.address == "local" else \
                     f"reach the Dask scheduler at {self.address}"
                 reason = " ".join(str(error).split()) or type(error).__name__

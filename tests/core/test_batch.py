@@ -22,6 +22,7 @@ from core.batch.engines import JobFailure, LocalPool
 from core.batch.jobs import BatchJob, job_name, run_job, unique_names
 from core.batch.runner import run_batch
 from core.batch.summary import SUMMARY_COLUMNS
+from core.progress import Cancelled
 from core.project.io import load_project, save_project
 from core.project.model import DataSourceRef
 from tests.core.cli_runner import run, run_json
@@ -280,15 +281,52 @@ def test_out_must_be_given_and_be_a_folder(studies):
     assert status == 2 and err == f"mixtype: --out {studies['tricomi']}: is a file, not a folder\n"
 
 
-def test_a_project_with_several_data_files_needs_in_place_of(studies, tmp_path):
+def test_a_project_with_several_data_files_sweeps_the_one_named(studies, tmp_path):
+    folder = studies["folder"]
+    x, y, _ = _mach_field(0.5)
+    np.savez(os.path.join(folder, "extra.npz"), x=x, y=y, K=np.ones((11, 21)))
     project = load_project(studies["flow"])
-    two = os.path.join(studies["folder"], "two.mixtype.json")
-    extra = DataSourceRef(path="runs/mach_0.7.npz", checksum=project.data_source("base.npz").checksum)
+    extra = DataSourceRef(path="extra.npz",
+                          checksum=hashlib.sha256(Path(folder, "extra.npz").read_bytes()).hexdigest())
+    two = os.path.join(folder, "two.mixtype.json")
     save_project(project.with_data_source(extra), two)
-    status, _, err = run("batch", "--project", two, "--data-each", "a.npz", "--out", str(tmp_path / "o"))
+    data = os.path.join(studies["runs"], "mach_0.9.npz")
+    status, _, err = run("batch", "--project", two, "--data-each", data, "--out", str(tmp_path / "o"))
     assert status == 2
-    assert err == (f"mixtype: {two} lists 2 data files ('base.npz', 'runs/mach_0.7.npz'): say which one each "
+    assert err == (f"mixtype: {two} lists 2 data files ('base.npz', 'extra.npz'): say which one each "
                    "sweep file stands in for with --in-place-of PATH\n")
+    status, report, _ = _batch("--project", two, "--data-each", data, "--in-place-of", "base.npz",
+                               "--out", str(tmp_path / "o"))
+    assert status == 0
+    document = json.loads((tmp_path / "o" / "two__mach_0.9.json").read_text())
+    assert [entry["path"] for entry in document["data"]] == [os.path.join(folder, "extra.npz"), data]
+    _, alone, _ = _batch("--project", studies["flow"], "--data-each", data, "--out", str(tmp_path / "alone"))
+    for key in ("hyperbolic_fraction", "hyperbolic_pockets", "hyperbolic_area"):
+        assert report["jobs"][0][key] == alone["jobs"][0][key] and alone["jobs"][0]["hyperbolic_pockets"] == 1
+
+
+def test_the_json_fields_stay(studies, tmp_path):
+    # a public interface: fields may be added, never renamed or dropped
+    status, report, _ = _batch(studies["tricomi"], "--out", str(tmp_path / "o"))
+    assert status == 0
+    assert {"out", "engine", "workers", "scheduler", "jobs", "failed", "elapsed_s"} <= set(report)
+    assert {"job", "project", "data", "status", "error", "elliptic_fraction", "parabolic_fraction",
+            "hyperbolic_fraction", "undefined_fraction", "hyperbolic_pockets", "hyperbolic_area",
+            "largest_pocket_area", "parabolic_area", "peak_quantity", "peak_value", "warnings", "elapsed_s",
+            "result"} <= set(report["jobs"][0])
+
+
+def test_progress_and_cancel(studies, tmp_path):
+    jobs = [BatchJob(f"job{k}", studies["tricomi"]) for k in range(3)]
+    fractions: list[float] = []
+    run_batch(jobs, tmp_path / "all", LocalPool(1), progress=fractions.append)
+    assert fractions == pytest.approx([1 / 3, 2 / 3, 1.0])
+    finished: list[str] = []
+    with pytest.raises(Cancelled):
+        run_batch(jobs, tmp_path / "cancelled", LocalPool(1), cancel=lambda: bool(finished),
+                  on_outcome=lambda job, row: finished.append(job.name))
+    assert len(finished) == 1                    # polled after each job
+    assert sorted(os.listdir(tmp_path / "cancelled")) == sorted(f"{name}.json" for name in finished)
 
 
 def test_dask_without_the_cluster_extra_names_the_install(studies, tmp_path, monkeypatch):
