@@ -48,9 +48,9 @@ def _projects(folder: str, count: int, grid: int) -> list[str]:
     paths = []
     for k in range(count):
         path = os.path.join(folder, f"study_{k}.mixtype.json")
-        status = mixtype(["classify", "--a", f"y - {0.05 * (k + 1)}*sin(3*x) + 0.1*cos(7*x*y)", "--b", "0.1*x",
-                          "--c", "1 + x**2", "--domain", "-1", "1", "-1", "1", "--grid", str(grid),
-                          "--save-project", path], out=io.StringIO(), err=io.StringIO())
+        a = f"y - {0.05 * (k + 1)}*sin(3*x) + 0.1*cos(7*x*y)"
+        status = mixtype(["classify", "--a", a, "--b", "0.1*x", "--c", "1 + x**2", "--domain", "-1", "1", "-1", "1",
+                          "--grid", str(grid), "--save-project", path], out=io.StringIO(), err=io.StringIO())
         if status != 0:
             raise RuntimeError(f"could not write the study {path}")
         paths.append(path)
@@ -125,8 +125,8 @@ def run(jobs: int = 8, grid: int = 1601, repeats: int = 5, separate: int = 8) ->
                    throughput["two_over_one_worker_throughput"], TARGETS["two_over_one_worker_throughput"],
                    at_most=False),
             figure(f"{separate} separate classify processes over one batch of them (ratio of seconds)",
-                   start_up["separate_processes_over_one_batch"], TARGETS["separate_processes_over_one_batch"],
-                   at_most=False),
+                   start_up["separate_processes_over_one_batch"],
+                   TARGETS["separate_processes_over_one_batch"], at_most=False),
             figure("batch results equal separate classify runs", start_up["batch_equals_classify"], 1.0,
                    at_most=False),
         ],

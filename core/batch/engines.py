@@ -182,7 +182,7 @@ class DaskCluster:
                     client = stack.enter_context(distributed.Client(cluster))
                 else:
                     client = stack.enter_context(distributed.Client(self.address, timeout=CONNECT_TIMEOUT_S))
-            except (OSError, ValueError, TypeError, RuntimeError) as error:   # RuntimeError: a cluster that failed to start
+            except (OSError, ValueError, TypeError, RuntimeError) as error:   # Runtime: a cluster not started
                 where = "start a local Dask cluster" if self.address == "local" else \
                     f"reach the Dask scheduler at {self.address}"
                 reason = " ".join(str(error).split()) or type(error).__name__

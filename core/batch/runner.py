@@ -83,8 +83,9 @@ def run_batch(jobs: Sequence[BatchJob], folder: str | os.PathLike, engine: Local
                 written = write_result(folder, job, outcome)
             except OSError as error:
                 where = Path(folder) / result_file_name(job)
-                outcome = JobOutcome(job.name, None, None, f"cannot write {where} ({error.strerror or error})",
-                                     outcome.warnings, outcome.elapsed_s)
+                outcome = JobOutcome(job.name, None, None,
+                                     f"cannot write {where} ({error.strerror or error})", outcome.warnings,
+                                     outcome.elapsed_s)
         if written is None:
             try:
                 remove_stale_result(folder, job)
