@@ -24,6 +24,7 @@ from pathlib import Path
 from core.batch.figures import document_figures
 from core.cli.command import compiled_study
 from core.cli.options import UsageError
+from core.cli.printable import printable
 from core.cli.registry import CLASSIFY
 from core.cli.study import build_study, load_project_or_fail
 from core.results.classification import classification_document, classify_study
@@ -251,7 +252,7 @@ def run_job(job: BatchJob) -> JobOutcome:
     start = time.perf_counter()
     try:
         document, warnings = _classified(job)
-        text = json.dumps(document) + "\n"          # what classify writes with --json
+        text = printable(json.dumps(document) + "\n")     # what classify writes with --json, to the byte
         figures = document_figures(document)
     except Exception as error:  # noqa: BLE001 - a failing job is a row of the summary, never the batch's end
         return JobOutcome(job.name, None, None, _message(error, job), (), time.perf_counter() - start)
