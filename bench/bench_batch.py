@@ -4,7 +4,10 @@ Throughput: the same batch of ``jobs`` projects (invented Tricomi-type studies, 
 map) on a local pool of 1 and of 2 worker processes (core.batch.runner.run_batch, as the command runs it),
 timed in pairs with the order alternating; the figure is the median of the pairs' ratios of 1-worker to
 2-worker seconds, i.e. the 2-worker throughput over the 1-worker throughput. Both write the same results.
-The fork server that starts the workers is warmed first, as a long batch's start-up is paid once.
+What two processes can give at all on this machine at this moment is the floor it is read against: the same
+pools running ``jobs`` equal pieces of plain numpy work (no Mixtype) in 1 and in 2 processes, timed in pairs
+with the batches; ``two_worker_efficiency`` is the batch's ratio over the floor's (1 when the batch scales as
+well as plain work does: a machine shared with other work can leave two processes no faster than one).
 
 Start-up: ``separate`` small studies as that many `mixtype classify FILE --json` processes one after the
 other against one `mixtype batch FILE... --workers 1` process (one start-up for all, jobs one after the
@@ -62,16 +65,41 @@ def _results(folder: str) -> dict[str, bytes]:
             if not name.startswith("summary.")}
 
 
+def plain_work(size: int) -> float:
+    """A piece of plain numpy work for the floor (module level: the pool's workers import it)."""
+    values = np.linspace(0.0, 1.0, size)
+    total = 0.0
+    for _ in range(8):
+        total += float(np.sin(values * 3.0 + total * 1e-9).sum())
+    return total
+
+
+def _floor_pool(workers: int, pieces: int, size: int) -> None:
+    failed = [result for _, result in LocalPool(workers).map(plain_work, [size] * pieces)
+              if not isinstance(result, float)]
+    if failed:
+        raise RuntimeError(f"the floor's work failed: {failed[0]}")
+
+
 def _throughput(folder: str, jobs: int, grid: int, repeats: int) -> dict:
     batch = project_jobs(_projects(folder, jobs, grid))
     one_folder, two_folder = os.path.join(folder, "one"), os.path.join(folder, "two")
-    run_batch(batch, two_folder, LocalPool(2))                 # the fork server imports Mixtype once
-    one, two, one_report, two_report = paired_times(lambda: run_batch(batch, one_folder, LocalPool(1)),
-                                                    lambda: run_batch(batch, two_folder, LocalPool(2)),
-                                                    repeats=repeats)
-    if one_report.failed or two_report.failed:
-        raise RuntimeError("a job of the throughput batch failed")
+    first = run_batch(batch, two_folder, LocalPool(2))
+    size = grid * grid                         # a piece of plain work about as long as a job's grid
+    one, two, floor_one, floor_two = [], [], [], []
+    for _ in range(repeats):
+        batch_one, batch_two, one_report, two_report = paired_times(
+            lambda: run_batch(batch, one_folder, LocalPool(1)), lambda: run_batch(batch, two_folder, LocalPool(2)),
+            repeats=1)
+        plain_one, plain_two, _, _ = paired_times(lambda: _floor_pool(1, jobs, size),
+                                                  lambda: _floor_pool(2, jobs, size), repeats=1)
+        if first.failed or one_report.failed or two_report.failed:
+            raise RuntimeError("a job of the throughput batch failed")
+        one.append(batch_one[0]), two.append(batch_two[0])
+        floor_one.append(plain_one[0]), floor_two.append(plain_two[0])
+    one, two, floor_one, floor_two = map(np.asarray, (one, two, floor_one, floor_two))
     ratio = float(np.median(one / two))
+    floor = float(np.median(floor_one / floor_two))
     return {
         "jobs": jobs, "grid": f"{grid}x{grid}", "cores_available": available_cores(),
         "one_worker_seconds_median": float(np.median(one)),
@@ -79,6 +107,8 @@ def _throughput(folder: str, jobs: int, grid: int, repeats: int) -> dict:
         "one_worker_jobs_per_second": jobs / float(np.median(one)),
         "two_workers_jobs_per_second": jobs / float(np.median(two)),
         "two_over_one_worker_throughput": ratio,
+        "plain_work_two_over_one_process": floor,
+        "two_worker_efficiency": ratio / floor,
         "results_agree": float(_results(one_folder) == _results(two_folder)),
     }
 

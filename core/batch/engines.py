@@ -5,9 +5,9 @@ in any order; a job whose worker went away (killed, out of memory, crashed) or w
 cluster yields ``JobFailure`` instead of a result, so one bad job never ends the batch. Engines know nothing
 of Mixtype's studies (core.batch.runner gives them core.batch.jobs.run_job and the jobs).
 
-- ``LocalPool``: concurrent.futures.ProcessPoolExecutor, processes started by a fork server that has the
-  function's module imported already (spawn where there is no fork server), so each worker starts warm and
-  no worker inherits the threads of the caller. A job that breaks the pool is found by running the jobs
+- ``LocalPool``: concurrent.futures.ProcessPoolExecutor, processes started by a fork server (spawn where
+  there is none), so no worker inherits the threads of the caller; where Python allows, the server has the
+  function's module imported already and each worker starts warm. A job that breaks the pool is found by running the jobs
   left again, and a job left unfinished by two broken pools alone.
 - ``DaskCluster``: dask.distributed, on a running scheduler (``tcp://host:port``) or on a LocalCluster
   started here on the loopback address only, without dashboard. dask and distributed are the optional
@@ -19,6 +19,7 @@ from __future__ import annotations
 import contextlib
 import multiprocessing
 import os
+import sys
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
@@ -61,12 +62,19 @@ def available_cores() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+# The fork server imports preloaded modules with the caller's sys.path only from Python 3.12.8 and 3.13.1 on
+# (CPython issue gh-117378); before, it could preload another installed copy of Mixtype than the caller's.
+PRELOAD_SEES_SYS_PATH = sys.version_info >= (3, 13, 1) or (3, 12, 8) <= sys.version_info < (3, 13)
+
+
 def _process_context(function: Callable) -> multiprocessing.context.BaseContext:
-    """A fork server that has ``function``'s module imported (every worker forks from it warm), else spawn."""
+    """A fork server (where the system has one; spawn elsewhere) which, where Python lets it see the caller's
+    sys.path, has ``function``'s module imported, so that every worker forks from it warm; otherwise each
+    worker imports the module itself, once."""
     if "forkserver" not in multiprocessing.get_all_start_methods():
         return multiprocessing.get_context("spawn")
     context = multiprocessing.get_context("forkserver")
-    if function.__module__ != "__main__":
+    if PRELOAD_SEES_SYS_PATH and function.__module__ != "__main__":
         context.set_forkserver_preload([function.__module__])   # no effect once the server runs: harmless
     return context
 
