@@ -52,8 +52,9 @@ def _projects(folder: str, count: int, grid: int) -> list[str]:
     for k in range(count):
         path = os.path.join(folder, f"study_{k}.mixtype.json")
         a = f"y - {0.05 * (k + 1)}*sin(3*x) + 0.1*cos(7*x*y)"
-        status = mixtype(["classify", "--a", a, "--b", "0.1*x", "--c", "1 + x**2", "--domain", "-1", "1", "-1", "1",
-                          "--grid", str(grid), "--save-project", path], out=io.StringIO(), err=io.StringIO())
+        argv = ["classify", "--a", a, "--b", "0.1*x", "--c", "1 + x**2", "--domain", "-1", "1", "-1", "1",
+                "--grid", str(grid), "--save-project", path]
+        status = mixtype(argv, out=io.StringIO(), err=io.StringIO())
         if status != 0:
             raise RuntimeError(f"could not write the study {path}")
         paths.append(path)
@@ -89,8 +90,8 @@ def _throughput(folder: str, jobs: int, grid: int, repeats: int) -> dict:
     one, two, floor_one, floor_two = [], [], [], []
     for _ in range(repeats):
         batch_one, batch_two, one_report, two_report = paired_times(
-            lambda: run_batch(batch, one_folder, LocalPool(1)), lambda: run_batch(batch, two_folder, LocalPool(2)),
-            repeats=1)
+            lambda: run_batch(batch, one_folder, LocalPool(1)),
+            lambda: run_batch(batch, two_folder, LocalPool(2)), repeats=1)
         plain_one, plain_two, _, _ = paired_times(lambda: _floor_pool(1, jobs, size),
                                                   lambda: _floor_pool(2, jobs, size), repeats=1)
         if first.failed or one_report.failed or two_report.failed:

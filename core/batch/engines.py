@@ -7,8 +7,8 @@ of Mixtype's studies (core.batch.runner gives them core.batch.jobs.run_job and t
 
 - ``LocalPool``: concurrent.futures.ProcessPoolExecutor, processes started by a fork server (spawn where
   there is none), so no worker inherits the threads of the caller; where Python allows, the server has the
-  function's module imported already and each worker starts warm. A job that breaks the pool is found by running the jobs
-  left again, and a job left unfinished by two broken pools alone.
+  function's module imported already and each worker starts warm. A job that breaks the pool is found by
+  running the jobs left again, and a job left unfinished by two broken pools alone.
 - ``DaskCluster``: dask.distributed, on a running scheduler (``tcp://host:port``) or on a LocalCluster
   started here on the loopback address only, without dashboard. dask and distributed are the optional
   extra ``cluster`` and are imported only here, only when this engine runs.
