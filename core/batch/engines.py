@@ -7,8 +7,8 @@ of Mixtype's studies (core.batch.runner gives them core.batch.jobs.run_job and t
 
 - ``LocalPool``: concurrent.futures.ProcessPoolExecutor, processes started by a fork server (spawn where
   there is none), so no worker inherits the threads of the caller; where Python allows, the server has the
-  function's module imported already and each worker starts warm. A job that breaks the pool is found by
-  running the jobs left again, and a job left unfinished by two broken pools alone.
+  function's module imported already and each worker starts warm. Workers say which job they begin, so a
+  job that kills its worker is found by running the jobs it took down with it again, each alone.
 - ``DaskCluster``: dask.distributed, on a running scheduler (``tcp://host:port``) or on a LocalCluster
   started here on the loopback address only, without dashboard. dask and distributed are the optional
   extra ``cluster`` and are imported only here, only when this engine runs.
@@ -40,7 +40,6 @@ __all__ = [
 CLUSTER_INSTALL_HINT = "pip install 'mixtype[cluster]'"
 CONNECT_TIMEOUT_S = 15          # to reach a running scheduler
 LOOPBACK = "127.0.0.1"
-STRIKES_BEFORE_ALONE = 2        # broken pools a job may be left unfinished by before it runs alone
 
 
 class EngineUnavailable(Exception):
@@ -95,42 +94,65 @@ class LocalPool:
 
     def map(self, function: Callable, items: Sequence, *, cancel: CancelCheck | None = None
             ) -> Iterator[tuple[int, object]]:
-        """``(index, function(items[index]) or JobFailure)`` for every item, as they finish."""
+        """``(index, function(items[index]) or JobFailure)`` for every item, as they finish.
+
+        When a worker process dies (killed, out of memory, crashed), the pool breaks and every item it had not
+        finished fails with it: those that had not started run again in a new pool, those that had (the one
+        that killed its worker is among them) run again each alone, where a death is that item's own.
+        """
         context = _process_context(function)
-        strikes = [0] * len(items)
         left = list(range(len(items)))
         while left:
-            together = [i for i in left if strikes[i] < STRIKES_BEFORE_ALONE]
-            alone = [i for i in left if strikes[i] >= STRIKES_BEFORE_ALONE]
-            finished: set[int] = set()
-            if together:
-                workers = min(self.workers, len(together))
-                for index, result in _pool_round(function, items, together, workers, context, cancel):
-                    if result is _UNFINISHED:
-                        strikes[index] += 1
-                    else:
-                        finished.add(index)
-                        yield index, result
-            for index in alone:
+            again: list[int] = []
+            suspects: list[int] = []
+            workers = min(self.workers, len(left))
+            for index, result in _pool_round(function, items, left, workers, context, cancel):
+                if result is _NOT_STARTED:
+                    again.append(index)
+                elif result is _STARTED:
+                    suspects.append(index)
+                else:
+                    yield index, result
+            for index in suspects:
                 for _, result in _pool_round(function, items, [index], 1, context, cancel):
-                    finished.add(index)
                     yield index, (JobFailure("its worker process stopped before answering (killed, out of "
-                                             "memory or crashed), also when run alone")
-                                  if result is _UNFINISHED else result)
-            left = [i for i in left if i not in finished]
+                                             "memory or crashed)") if result is _STARTED else
+                                  JobFailure(_NO_START) if result is _NOT_STARTED else result)
+            if again and not suspects and len(again) == len(left):     # no worker ever started an item
+                for index in again:
+                    yield index, JobFailure(_NO_START)
+                return
+            left = again
 
 
-_UNFINISHED = object()     # a job left unfinished by a broken pool
+_NO_START = "no worker process could start it"
+_STARTED, _NOT_STARTED = object(), object()     # items a broken pool left unfinished: begun, or not yet
+_ANNOUNCE = None                                # in a worker: the queue it tells which item it begins
+
+
+def _listen(queue) -> None:
+    """Worker initializer: keep the queue to announce items on."""
+    global _ANNOUNCE
+    _ANNOUNCE = queue
+
+
+def _announced(function: Callable, index: int, item: object) -> object:
+    """Tell the pool's owner that item ``index`` begins, then run it."""
+    _ANNOUNCE.put(index)
+    return function(item)
 
 
 def _pool_round(function: Callable, items: Sequence, indices: Sequence[int], workers: int,
                 context: multiprocessing.context.BaseContext, cancel: CancelCheck | None
                 ) -> Iterator[tuple[int, object]]:
-    """One pool over ``indices``: each index once, with its result, a JobFailure or _UNFINISHED (the pool
-    broke before it finished)."""
-    with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
-        futures = {pool.submit(function, items[i]): i for i in indices}
+    """One pool over ``indices``: each index once, with its result, a JobFailure, or _STARTED / _NOT_STARTED
+    when the pool broke before it finished."""
+    begun = context.SimpleQueue()
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_listen,
+                             initargs=(begun,)) as pool:
+        futures = {pool.submit(_announced, function, i, items[i]): i for i in indices}
         pending = set(futures)
+        started: set[int] = set()
 
         def stop_if_cancelled() -> None:
             if cancel is not None and cancel():
@@ -146,12 +168,15 @@ def _pool_round(function: Callable, items: Sequence, indices: Sequence[int], wor
                 try:
                     result = future.result()
                 except BrokenProcessPool:
-                    result = _UNFINISHED
+                    while not begun.empty():
+                        started.add(begun.get())
+                    result = _STARTED if index in started else _NOT_STARTED
                 except Exception as error:  # noqa: BLE001 - the function raised, or its result did not pickle
                     result = JobFailure(f"its worker failed ({type(error).__name__}: "
                                         f"{' '.join(str(error).split())})")
                 yield index, result
                 stop_if_cancelled()
+    begun.close()
 
 
 def _distributed():

@@ -13,6 +13,7 @@ import json
 import math
 import os
 import sys
+import types
 from pathlib import Path
 
 import numpy as np
@@ -241,6 +242,22 @@ def test_a_job_that_kills_its_worker_is_an_error_row(studies, tmp_path):
     expected = _classify_text(studies["tricomi"])
     assert (tmp_path / "out" / "tricomi.json").read_text() == expected
     assert (tmp_path / "out" / "tricomi-2.json").read_text() == expected
+
+
+def _double(x: int) -> int:
+    return 2 * x
+
+
+def test_items_no_worker_can_start_fail_instead_of_running_again_forever(monkeypatch):
+    # a function pickled as part of a module only this process has: a worker cannot unpickle it and dies
+    # before it starts the item
+    only_here = types.ModuleType("mixtype_module_only_in_this_process")
+    only_here._double = _double
+    monkeypatch.setitem(sys.modules, only_here.__name__, only_here)
+    monkeypatch.setattr(_double, "__module__", only_here.__name__)
+    results = dict(LocalPool(2).map(_double, [1, 2, 3]))
+    assert sorted(results) == [0, 1, 2]
+    assert {result.message for result in results.values()} == {"no worker process could start it"}
 
 
 def test_the_local_pool_yields_every_item_once():
