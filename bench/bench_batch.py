@@ -36,10 +36,14 @@ from core.cli.main import main as mixtype
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 
-# Measured on the 2-core development machine, shared with other work: 1.5 to 1.7 for 2 against 1 worker
-# (each job's grid is already classified on two threads; what parallelises over jobs is the rest: lines,
-# pockets, the document), 4 to 6 for the start-up figure with 8 studies.
-TARGETS = {"two_over_one_worker_throughput": 1.3, "separate_processes_over_one_batch": 3.0}
+# Targets. Throughput: on two idle cores a 1-worker batch already classifies each grid on two threads, so a
+# second worker gains on the rest of a job (lines, pockets, the document: about half of it here), which bounds
+# the ratio near 1.5; 1.3 is asked. On the shared development machine (load 5 to 6 on 2 cores) plain numpy
+# work on the same pools gave 0.72 and the batch 0.72 (efficiency 1.0), so the efficiency against plain work
+# is the figure a busy machine can still judge: at least 0.8. Start-up: 8 small studies measured 3.9 (busy
+# machine) to 5.6; at least 3 is asked.
+TARGETS = {"two_over_one_worker_throughput": 1.3, "two_worker_efficiency": 0.8,
+           "separate_processes_over_one_batch": 3.0}
 
 SMOKE = {"jobs": 2, "grid": 21, "repeats": 1, "separate": 2}     # every line runs, figures meaningless
 
@@ -143,7 +147,7 @@ def _start_up(folder: str, studies: int, repeats: int) -> dict:
     }
 
 
-def run(jobs: int = 8, grid: int = 1601, repeats: int = 5, separate: int = 8) -> dict:
+def run(jobs: int = 16, grid: int = 1601, repeats: int = 5, separate: int = 8) -> dict:
     with tempfile.TemporaryDirectory(prefix="mixtype-bench-batch-") as folder:
         throughput = _throughput(os.path.join(folder, "throughput"), jobs, grid, repeats)
         start_up = _start_up(os.path.join(folder, "start_up"), separate, max(1, min(repeats, 3)))
@@ -155,6 +159,8 @@ def run(jobs: int = 8, grid: int = 1601, repeats: int = 5, separate: int = 8) ->
             figure("batch throughput, 2 local workers over 1 (ratio of jobs per second)",
                    throughput["two_over_one_worker_throughput"], TARGETS["two_over_one_worker_throughput"],
                    at_most=False),
+            figure("batch throughput ratio over plain work's on the same pools (2-worker efficiency)",
+                   throughput["two_worker_efficiency"], TARGETS["two_worker_efficiency"], at_most=False),
             figure(f"{separate} separate classify processes over one batch of them (ratio of seconds)",
                    start_up["separate_processes_over_one_batch"],
                    TARGETS["separate_processes_over_one_batch"], at_most=False),
