@@ -2,9 +2,9 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, sweep, probe, trace, critical, check, templates: each has ``run(args, out, err) -> exit
-status``) is imported only when that command runs; that is the one lazy import of the command line, in
-``_implemented_in``.
+(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy: each has ``run(args, out,
+err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
+line, in ``_implemented_in``.
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from core.cli.options import (
     whole_number,
 )
 
-__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
+__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_BATCH_WORKERS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
 
 MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
 MAX_STRIDE = 1_000_000           # --stride K
@@ -135,6 +135,8 @@ def _add_cauchy_arguments(parser: argparse.ArgumentParser) -> None:
                         help="also the value there and the two points of the line it depends on")
     parser.add_argument("--vars", nargs=2, metavar=("X", "Y"), help="names of the two variables (default x y)")
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
+
+
 def sweep_option(text: str) -> tuple[str, float, float, int]:
     """--sweep NAME=LO:HI:N -> (name, low, high, count): a parameter name, two finite numbers and a whole
     number (their order, the count's range and --log are checked when the sweep runs)."""
@@ -162,6 +164,33 @@ def _add_sweep_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--log", action="store_true", help="spread the values evenly on a logarithmic scale "
                        "(LO above 0)")
     group.add_argument("--raw", action="store_true", help="measure the zones on lines not refined onto D = 0")
+
+
+MAX_BATCH_WORKERS = 1024
+batch_workers = whole_number(1, MAX_BATCH_WORKERS)     # --workers N
+
+
+def _add_batch_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("jobs", nargs="*", metavar="FILE", help="project files (.mixtype.json), one job each: "
+                        "what 'mixtype classify FILE --json' prints")
+    parser.add_argument("--out", required=True, metavar="DIR", help="the folder the results (JOB.json), "
+                        "summary.csv and summary.json are written to (made if missing)")
+    sweep = parser.add_argument_group("a sweep over data files")
+    sweep.add_argument("--project", metavar="FILE", help="the project each --data-each file is classified with")
+    sweep.add_argument("--data-each", action="extend", nargs="+", default=[], metavar="DATA",
+                       help="data files, or quoted patterns such as 'runs/mach_*.nc' (sorted by name): one job "
+                            "each, the file read in place of the project's data file")
+    sweep.add_argument("--in-place-of", metavar="PATH", help="which of the project's data files (its path as "
+                       "the project records it) the sweep files stand in for; needed when it lists several")
+    engine = parser.add_argument_group("where the jobs run")
+    engine.add_argument("--workers", type=batch_workers, default=None, metavar="N",
+                        help="processes on this machine (default: the cores available, at most one per job); "
+                             "with --dask local, the local cluster's workers")
+    engine.add_argument("--dask", metavar="ADDRESS", help="run on a Dask cluster: a running scheduler "
+                        "(tcp://host:port) or 'local' (a cluster on this machine, loopback address only); needs "
+                        "pip install 'mixtype[cluster]'")
+    add_data_access_options(parser)
+    parser.add_argument("--json", action="store_true", help="print the summary as one JSON document")
 
 
 def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
@@ -201,4 +230,13 @@ CAUCHY = Command("cauchy", "the Cauchy problem of a constant-coefficient equatio
                  "characteristic coordinates where hyperbolic), its value at a point and the two points of the "
                  "line it depends on. Elliptic equations and characteristic data lines are refused (exit 2).")
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, CAUCHY)
+BATCH = Command("batch", "many studies in one run: a result per project file or data file, and a summary",
+                _add_batch_arguments, _implemented_in("core.cli.batch"),
+                description="Classify many studies in one start-up, on a pool of local processes or a Dask "
+                "cluster: one job per project FILE, and one per --data-each file with --project. Each result "
+                "JOB.json in --out DIR is what 'mixtype classify --json' prints for it; summary.csv and "
+                "summary.json hold a row per job. Exit status 1 when any job failed (its row says why), 2 for "
+                "bad options.")
+
+
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, BATCH, CAUCHY)

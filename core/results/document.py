@@ -45,6 +45,7 @@ __all__ = [
     "project_file_checksum",
     "results_document",
     "seed_document",
+    "source_document",
     "study_fields",
     "sweep_document",
     "type_labels",
@@ -103,6 +104,14 @@ def project_file_checksum(path: str | os.PathLike | None) -> str | None:
         return file_checksum(path)
     except DataError:
         return None
+
+
+def source_document(source: Mapping[str, str] | None) -> dict:
+    """Where a study comes from: ``source`` ({"file", "equation", "domain"}) and ``project_checksum`` (the
+    SHA-256 of the file's bytes now); no fields for a study that comes from no file."""
+    if not source:
+        return {}
+    return {"source": dict(source), "project_checksum": project_file_checksum(source["file"])}
 
 
 def data_files_document(data) -> list[dict]:
