@@ -2,7 +2,7 @@
 # Proves the wheel: build it from a clean copy of the source, install it into a fresh venv, and run the
 # installed `mixtype` from outside the repository (so nothing is imported from the checkout):
 #   mixtype --version, mixtype templates, mixtype classify --template full_potential --grid 64 --json,
-#   a headless render of the bundled demo, the bundled user guide, and the window's one-line refusal when there is no display.
+#   a headless render of the bundled demo, a batch of it on two worker processes, the bundled user guide, and the window's one-line refusal when there is no display.
 # Fails on any wrong output. Run alone from anywhere: bash .ci/wheel_smoke.sh
 # WHEEL_SMOKE_VENV=DIR reuses (or creates) that venv instead of a fresh one, for quicker local reruns.
 set -euo pipefail
@@ -65,6 +65,15 @@ assert 200 <= width <= 640 and 200 <= height <= 480, (width, height)  # the map 
 assert len(data) > 10_000, len(data)  # a drawn map, not an empty canvas
 EOF
 step "render: $(basename "$DEMO") -> map.png ($(stat -c %s map.png) bytes)"
+
+# batch from the installed copy: its worker processes start from the installed script and package
+"$MIXTYPE" batch "$DEMO" "$DEMO" --out batch --workers 2 --json > batch.json 2> batch.err \
+    || fail "batch failed: $(cat batch.err)"
+"$MIXTYPE" classify "$DEMO" --json > demo_classify.json
+DEMO_NAME="$(basename "$DEMO" .mixtype.json)"
+cmp -s "batch/$DEMO_NAME.json" demo_classify.json && cmp -s "batch/$DEMO_NAME-2.json" demo_classify.json \
+    || fail "batch results differ from mixtype classify $DEMO --json"
+step "batch: 2 jobs of $(basename "$DEMO") on 2 worker processes, both equal to classify"
 
 GUIDE="$("$CHECK" -c 'from gui.help import guide_path; print(guide_path())')"
 case "$GUIDE" in "$ROOT"/*) fail "the user guide was found in the checkout ($GUIDE), not in the installed package";; esac

@@ -45,7 +45,7 @@ MAX_ENTRIES = 1000
 # job channel -> what the log calls it
 LOGGED_CHANNELS = {"map": "Type map", "lines": "Type-change lines", "pockets": "Hyperbolic pockets",
                    "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file",
-                   "certified": "Certified map"}
+                   "certified": "Certified map", "sweep": "Parameter sweep", "critical": "Critical values"}
 
 
 @dataclass(frozen=True)
@@ -224,6 +224,9 @@ class ComputationLog(QObject):
             return _grid_text(self.analysis.type_map.codes.shape)
         if channel == "characteristics":
             return _plural(len(self.document.project.seeds), "seed line")
+        if channel in ("sweep", "critical"):
+            domain = self.document.domain
+            return _grid_text((domain.ny, domain.nx))
         if channel == "certified":
             return f"cells down to {self.document.project.view.certified.min_cell:g} of the shorter side"
         if channel == "data":
@@ -293,6 +296,13 @@ def _result_text(channel: str, result: object, *, dragging: bool) -> str:
         return (f"{_plural(result.cells, 'cell')} examined, {_plural(len(result.pockets), 'pocket')} "
                 f"({missed} missed by the grid), undecided area {result.undecided_area:.3g}"
                 + ("; the cell budget ran out" if result.budget_reached else ""))
+    if channel == "sweep":
+        _key, sweep = result
+        return f"{_plural(len(sweep.rows), 'value')} of {sweep.parameter}"
+    if channel == "critical":
+        _key, search = result
+        proof = {True: ", proven", False: ", not all proven"}.get(search.proven, "")
+        return f"{_plural(len(search.events), 'event')} of {search.type} zones in {search.parameter}{proof}"
     if channel == "characteristics":
         return _plural(sum(len(traced.curves) for traced in result), "curve")
     if channel == "data":

@@ -20,7 +20,7 @@ from core.equations.compiled import CompiledEquation
 from core.equations.equation import Equation, Parameter
 from core.equations.language import ExpressionError
 from core.project.data_files import compile_with_data
-from core.project.model import Pin, Project, Seed
+from core.project.model import Pin, Project, SavedSweep, Seed
 from core.project.names import free_name
 from gui.project_edits import ProjectEdit, changed_parts
 
@@ -64,6 +64,7 @@ class Document(QObject):
     notes_changed = Signal()
     data_changed = Signal()            # the loaded background data (and so the names equations may use) changed
     data_sources_changed = Signal()    # the study's list of data files (paths, renames, checksums) changed
+    sweeps_changed = Signal()          # the parameter sweeps (settings, results, critical values) changed
     dirty_changed = Signal(bool)
     path_changed = Signal(str)
     unapplied_changed = Signal()       # typed text held back because it has an error (see ``unapplied``)
@@ -218,6 +219,7 @@ class Document(QObject):
         self.seeds_changed.emit()
         self.layers_changed.emit()
         self.notes_changed.emit()
+        self.sweeps_changed.emit()
         if dirty:
             # An empty, never-clean marker: a recovered project must be saved before it is safe.
             self.undo_stack.resetClean()
@@ -380,6 +382,11 @@ class Document(QObject):
         removed = sources.pop(index)
         return self.edit(replace(self._project, data_sources=tuple(sources)),
                          f"Remove data file {Path(removed.path).name}")
+
+    def set_sweep(self, sweep: SavedSweep, text: str, *, merge_key: str = "") -> bool:
+        """Put ``sweep`` in place of the sweep of the same study and parameter, or add it (ValueError when its
+        study is not in the project)."""
+        return self.edit(self._project.with_sweep(sweep), text, merge_key=merge_key)
 
     def set_notes(self, notes: str, *, merge_key: str = "") -> bool:
         return self.edit(replace(self._project, notes=notes), "Edit notes", merge_key=merge_key)

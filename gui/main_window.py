@@ -1,4 +1,4 @@
-"""Mixtype's main window: the map takes most of it; the study's panels on the left, pins and pockets below it.
+"""Mixtype's main window: the map takes most of it; the study's panels on the left, pins, pockets and the parameter sweep below it.
 
 Lays out the widgets and wires the document (edits, undo), the analysis (background results) and the widgets
 together. Its commands live beside it: gui.file_commands (new, open, recent, save, autosave, recovery),
@@ -49,6 +49,7 @@ from gui.panels.log import LogPanel
 from gui.panels.notes import NotesPanel
 from gui.panels.pins import PinsPanel
 from gui.panels.pockets import PocketsPanel
+from gui.panels.sweep import SweepPanel
 from gui.panels.template_dialog import TemplateChoice, TemplateDialog, template_equation
 from gui.preferences import Preferences
 from gui.project_bridge import scratch_project
@@ -58,7 +59,7 @@ from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
-LAYOUT_VERSION = 2     # saved panel layouts of other versions are not restored (version 2: the map comes first)
+LAYOUT_VERSION = 3     # saved panel layouts of other versions are not restored (version 3: the sweep tab)
 
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified")
 
@@ -114,8 +115,9 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.pockets_panel = PocketsPanel(self.document)
         self.notes_panel = NotesPanel(self.document)
         self.data_panel = DataPanel(self.document)
-        # One column of the study's panels on the left (the equation above, the rest as tabs below it); pins
-        # and pockets as tabs under the map. Every panel can be closed and reopened from the View menu.
+        self.sweep_panel = SweepPanel(self.document, self.runner)
+        # One column of the study's panels on the left (the equation above, the rest as tabs below it); pins,
+        # pockets and sweep as tabs under the map. Every panel can be closed and reopened from the View menu.
         left, bottom = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.BottomDockWidgetArea
         self.equation_dock = self._dock("Equation: coefficients, definitions, parameters", self.equation_panel,
                                         left, "equationDock", scroll=True)
@@ -127,11 +129,12 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         for dock in (self.data_dock, notes_dock, self.layers_dock, log_dock):
             self.tabifyDockWidget(domain_dock, dock)
         domain_dock.raise_()
-        # The left column runs the full height; the pins and pockets sit under the map only.
+        # The left column runs the full height; the pins, pockets and sweep sit under the map only.
         self.setCorner(Qt.Corner.BottomLeftCorner, left)
         self.setCorner(Qt.Corner.BottomRightCorner, Qt.DockWidgetArea.RightDockWidgetArea)
         self.pins_dock = self._dock("Pins: readouts at points", self.pins_panel, bottom, "pinsDock")
         self.pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel, bottom, "pocketsDock")
+        self.sweep_dock = self._dock("Parameter sweep", self.sweep_panel, bottom, "sweepDock")
         self.pins_dock.dockLocationChanged.connect(
             lambda area: self.pins_panel.set_side_by_side(area in (bottom, Qt.DockWidgetArea.TopDockWidgetArea)))
         self.pins_panel.set_side_by_side(True)
@@ -202,9 +205,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
 
     def apply_default_layout(self) -> None:
         """Give the map most of the window: the left column just wide enough for its panels (at most 42 % of
-        the width), the pins and pockets about a quarter of the height."""
+        the width), the pins, pockets and sweep about three tenths of the height."""
         # Tabified only once the window is shown: tabs made before in the bottom area leave a stray tab bar.
         self.tabifyDockWidget(self.pins_dock, self.pockets_dock)
+        self.tabifyDockWidget(self.pockets_dock, self.sweep_dock)
         self.pins_dock.raise_()
         width, height = self.width(), self.height()
         scroll_bar = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
@@ -213,7 +217,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         left = min(round(0.42 * width), max(round(0.3 * width), needed + scroll_bar + 8))
         self.resizeDocks([self.equation_dock], [left], Qt.Orientation.Horizontal)
         self.resizeDocks([self.equation_dock], [round(0.5 * height)], Qt.Orientation.Vertical)
-        self.resizeDocks([self.pins_dock], [max(190, min(320, round(0.27 * height)))], Qt.Orientation.Vertical)
+        self.resizeDocks([self.pins_dock], [max(190, min(340, round(0.3 * height)))], Qt.Orientation.Vertical)
 
     def _connect(self) -> None:
         d, a, m = self.document, self.analysis, self.map_view

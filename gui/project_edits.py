@@ -91,4 +91,6 @@ def changed_parts(before: Project, after: Project) -> tuple[str, ...]:
         parts.append("notes_changed")
     if before.data_sources != after.data_sources:
         parts.append("data_sources_changed")
+    if before.sweeps != after.sweeps:
+        parts.append("sweeps_changed")
     return tuple(parts)

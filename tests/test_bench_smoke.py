@@ -38,3 +38,4 @@ def test_every_benchmark_runs_at_smoke_size():
     tracing = figures["tracing"]
     assert tracing["max_invariant_error_vectorised"] <= tracing["max_invariant_error_target"]
     assert figures["gui_drag"]["undo_steps_for_the_drag"] == 1
+    assert figures["sweep"]["fractions_equal_classify"] is True

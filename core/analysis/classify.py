@@ -29,6 +29,7 @@ from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = [
     "DEFAULT_TOLERANCE",
+    "FRACTION_ORDER",
     "TypeCode",
     "TypeMap",
     "classify_grid",
@@ -133,6 +134,10 @@ def classify_points(compiled: CompiledEquation, x, y, *, parameters: Mapping[str
     return codes, normalized
 
 
+# The order in which types are listed (fractions, areas): the three types, then undefined, as the CLI always has.
+FRACTION_ORDER = (TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED)
+
+
 @dataclass(frozen=True, eq=False)
 class TypeMap:
     """The type of the equation at every node of a domain's grid.
@@ -156,6 +161,11 @@ class TypeMap:
 
     def count(self, code: TypeCode | int | str) -> int:
         return int(np.count_nonzero(self.codes == TypeCode.coerce(code)))
+
+    def ordered_fractions(self) -> dict[str, float]:
+        """Each type's share of the grid nodes as plain floats, by name, in FRACTION_ORDER: what ``mixtype
+        classify`` reports as "fractions" (core.results.document) and a parameter sweep records per value."""
+        return {code.label: float(self.fractions[code.label]) for code in FRACTION_ORDER}
 
 
 def classify_grid(compiled: CompiledEquation, domain: Domain, *,

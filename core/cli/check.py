@@ -38,7 +38,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         opened = open_project_data(project, args.file, allow_outside=args.allow_outside_data)
     summary = {"file": args.file, "valid": True, "format_version": version,
                "equations": list(project.equation_names), "domains": list(project.domain_names),
-               "pins": len(project.pins), "seeds": len(project.seeds),
+               "pins": len(project.pins), "seeds": len(project.seeds), "sweeps": len(project.sweeps),
                "shown": {"equation": project.shown_equation, "domain": project.shown_domain},
                "data": {"files": len(project.data_sources), "quantities": list(opened.names),
                         "problems": list(opened.problems), "changed": list(opened.changed)}}
@@ -49,6 +49,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return status
     upgrade = f" (saving writes format version {CURRENT_FORMAT_VERSION})" if version != CURRENT_FORMAT_VERSION else ""
     files = f", {_count(len(project.data_sources), 'data file')}" if project.data_sources else ""
+    files += f", {_count(len(project.sweeps), 'sweep')}" if project.sweeps else ""
     out.write(f"{args.file}: valid, format version {version}{upgrade}; {_count(len(project.equations), 'equation')}, "
               f"{_count(len(project.domains), 'domain')}, {_count(len(project.pins), 'pin')}, "
               f"{_count(len(project.seeds), 'seed')}{files}; shows {project.shown_equation!r} on "

@@ -7,14 +7,11 @@ import json
 from dataclasses import replace
 from typing import TextIO
 
-from core.analysis.classify import TypeCode, classify_grid
-from core.analysis.pockets import pocket_statistics
-from core.analysis.type_change_lines import find_type_boundaries
-from core.cli.command import compiled_study, read_study, source_fields
+from core.analysis.classify import TypeCode
+from core.cli.command import compiled_study, read_study
 from core.cli.options import EXIT_OK, UsageError
 from core.cli.study import Study
-from core.results.document import data_files_document, map_fields, study_fields
-from core.results.readouts import peak_quantity
+from core.results.classification import classification_document, classify_study
 
 __all__ = ["MAX_POCKET_ROWS", "run"]
 
@@ -30,13 +27,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         return run_out_of_core(args, out, err)
     study = read_study(args, err)
     compiled = compiled_study(study)
-    type_map = classify_grid(compiled, study.domain, parameters=study.parameters, data=study.data,
-                             tolerance=study.tolerance)
-    boundaries = find_type_boundaries(compiled, type_map, parameters=study.parameters, data=study.data,
-                                      refine=not args.raw)
-    quantity = peak_quantity(study.equation, compiled, study.data.names if study.data else ())
-    pockets = pocket_statistics(compiled, type_map, quantity=quantity, parameters=study.parameters,
-                                data=study.data)
+    classification = classify_study(compiled, study.equation, study.domain, parameters=study.parameters,
+                                    tolerance=study.tolerance, data=study.data, refine=not args.raw)
+    type_map, boundaries = classification.type_map, classification.boundaries
     certified = None
     if args.certify:
         # Here, not at the top: the certified-map modules take 10 to 25 ms to import (python -X importtime),
@@ -46,12 +39,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         certified = certify_study(args, study, compiled, type_map)
     if args.save_project:
         _save_study(study, args.save_project)
-    document = {**map_fields(compiled.variables, study.domain, study.tolerance, type_map=type_map,
-                             boundaries=boundaries, pockets=pockets),
-                **study_fields(study.equation, study.parameters)}
-    if study.data is not None:
-        document["data"] = data_files_document(study.data)
-    document.update(source_fields(study))
+    # the one document builder of classify and batch (core.results.classification)
+    document = classification_document(classification, variables=compiled.variables, equation=study.equation,
+                                       domain=study.domain, parameters=study.parameters,
+                                       tolerance=study.tolerance, data=study.data, source=study.source)
     if certified is not None:
         from core.results.certified import certified_document  # with --certify only (see above)
 

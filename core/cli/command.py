@@ -15,7 +15,7 @@ from core.cli.study import Study, build_study
 from core.equations.compiled import CompiledEquation, compile_equation
 from core.equations.equation import Equation
 from core.equations.language import ExpressionError
-from core.results.document import project_file_checksum
+from core.results.document import source_document
 
 __all__ = ["compiled_study", "compiled_with_names", "read_study", "source_fields"]
 
@@ -55,6 +55,4 @@ def compiled_with_names(equation: Equation, data_names: Sequence[str] | None) ->
 def source_fields(study: Study) -> dict:
     """Where a study comes from: ``source`` (FILE, its equation and domain) and ``project_checksum`` (the
     SHA-256 of FILE's bytes); no fields without FILE."""
-    if not study.source:
-        return {}
-    return {"source": study.source, "project_checksum": project_file_checksum(study.source["file"])}
+    return source_document(study.source)

@@ -19,6 +19,7 @@ __all__ = [
     "DEFAULT_TOLERANCE",
     "EXIT_BAD_INPUT",
     "EXIT_OK",
+    "EXIT_SOME_FAILED",
     "MAX_BOUNCES",
     "Command",
     "UsageError",
@@ -33,6 +34,7 @@ __all__ = [
 ]
 
 EXIT_OK = 0
+EXIT_SOME_FAILED = 1      # mixtype batch: some jobs failed (their rows say why), the others ran
 EXIT_BAD_INPUT = 2
 
 # core.analysis.classify.DEFAULT_TOLERANCE, written here again for the --tolerance help line so that --help

@@ -2,8 +2,9 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, probe, trace, check, templates: each has ``run(args, out, err) -> exit status``) is
-imported only when that command runs; that is the one lazy import of the command line, in ``_implemented_in``.
+(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy: each has ``run(args, out,
+err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
+line, in ``_implemented_in``.
 """
 
 from __future__ import annotations
@@ -23,11 +24,14 @@ from core.cli.options import (
     whole_number,
 )
 
-__all__ = ["HEADLESS_COMMANDS", "MAX_CELL_BUDGET"]
+__all__ = ["CRITICAL_TYPES", "HEADLESS_COMMANDS", "MAX_BATCH_WORKERS", "MAX_CELL_BUDGET", "MAX_SWEEP_VALUES"]
 
 MAX_CELL_BUDGET = 50_000_000     # cells a certified map may enclose: about 100 bytes a cell kept
 MAX_STRIDE = 1_000_000           # --stride K
 MAX_BLOCK_MIB = 1 << 20          # --block-mib: 1 TiB
+# core.analysis.sweep.MAX_SWEEP_VALUES written again for --sweep's help line, so that --help needs no numpy
+# (tests/core/test_sweep_cli.py keeps the two equal).
+MAX_SWEEP_VALUES = 1000
 
 
 def _implemented_in(module: str) -> Callable[[argparse.Namespace, TextIO, TextIO], int]:
@@ -93,6 +97,23 @@ def _add_trace_arguments(parser: argparse.ArgumentParser) -> None:
                              "(default: FILE's setting, else 0)")
 
 
+CRITICAL_TYPES = ("hyperbolic", "elliptic", "parabolic")   # core.analysis.critical.CRITICAL_TYPES (a test keeps
+#                                                           them equal; written here so that --help needs no numpy)
+
+
+def _add_critical_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    group = parser.add_argument_group("critical values")
+    group.add_argument("--vary", required=True, metavar="NAME",
+                       help="the parameter that varies (a parameter of the equation; a new name is added as one)")
+    group.add_argument("--between", required=True, nargs=2, type=finite, metavar=("LO", "HI"),
+                       help="the interval of NAME searched, LO below HI")
+    group.add_argument("--type", choices=CRITICAL_TYPES, default="hyperbolic",
+                       help="the type whose zone appears or vanishes (default hyperbolic)")
+    group.add_argument("--no-certify", action="store_true",
+                       help="skip the certified maps that prove no other place reaches the threshold first")
+
+
 def _add_check_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("file", metavar="FILE", help="a project file (.mixtype.json)")
     add_data_access_options(parser)
@@ -116,6 +137,62 @@ def _add_cauchy_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of text")
 
 
+def sweep_option(text: str) -> tuple[str, float, float, int]:
+    """--sweep NAME=LO:HI:N -> (name, low, high, count): a parameter name, two finite numbers and a whole
+    number (their order, the count's range and --log are checked when the sweep runs)."""
+    name, sep, spec = text.partition("=")
+    parts = spec.split(":")
+    if not sep or not name.strip() or len(parts) != 3:
+        raise argparse.ArgumentTypeError(f"expected NAME=LO:HI:N (such as mach=0.5:0.9:41), got {text!r}")
+    try:
+        low, high = finite(parts[0]), finite(parts[1])
+    except argparse.ArgumentTypeError as error:
+        raise argparse.ArgumentTypeError(f"{text!r}: LO and HI must be finite numbers ({error})") from None
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r}: N must be a whole number of values, got {parts[2]!r}") from None
+    return name.strip(), low, high, count
+
+
+def _add_sweep_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    group = parser.add_argument_group("sweep")
+    group.add_argument("--sweep", type=sweep_option, required=True, metavar="NAME=LO:HI:N",
+                       help="the parameter NAME and N values from LO to HI, both ends included (N from 2 to "
+                            f"{MAX_SWEEP_VALUES})")
+    group.add_argument("--log", action="store_true", help="spread the values evenly on a logarithmic scale "
+                       "(LO above 0)")
+    group.add_argument("--raw", action="store_true", help="measure the zones on lines not refined onto D = 0")
+
+
+MAX_BATCH_WORKERS = 1024
+batch_workers = whole_number(1, MAX_BATCH_WORKERS)     # --workers N
+
+
+def _add_batch_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("jobs", nargs="*", metavar="FILE", help="project files (.mixtype.json), one job each: "
+                        "what 'mixtype classify FILE --json' prints")
+    parser.add_argument("--out", required=True, metavar="DIR", help="the folder the results (JOB.json), "
+                        "summary.csv and summary.json are written to (made if missing)")
+    sweep = parser.add_argument_group("a sweep over data files")
+    sweep.add_argument("--project", metavar="FILE", help="the project each --data-each file is classified with")
+    sweep.add_argument("--data-each", action="extend", nargs="+", default=[], metavar="DATA",
+                       help="data files, or quoted patterns such as 'runs/mach_*.nc' (sorted by name): one job "
+                            "each, the file read in place of the project's data file")
+    sweep.add_argument("--in-place-of", metavar="PATH", help="which of the project's data files (its path as "
+                       "the project records it) the sweep files stand in for; needed when it lists several")
+    engine = parser.add_argument_group("where the jobs run")
+    engine.add_argument("--workers", type=batch_workers, default=None, metavar="N",
+                        help="processes on this machine (default: the cores available, at most one per job); "
+                             "with --dask local, the local cluster's workers")
+    engine.add_argument("--dask", metavar="ADDRESS", help="run on a Dask cluster: a running scheduler "
+                        "(tcp://host:port) or 'local' (a cluster on this machine, loopback address only); needs "
+                        "pip install 'mixtype[cluster]'")
+    add_data_access_options(parser)
+    parser.add_argument("--json", action="store_true", help="print the summary as one JSON document")
+
+
 def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
@@ -126,11 +203,23 @@ PROBE = Command("probe", "everything known at one point (or at every pin of FILE
                 _implemented_in("core.cli.probe"))
 TRACE = Command("trace", "the two characteristics through a point (or FILE's seeds)", _add_trace_arguments,
                 _implemented_in("core.cli.trace"))
+CRITICAL = Command("critical", "parameter values where a zone of a type appears or vanishes, to 1e-9",
+                   _add_critical_arguments, _implemented_in("core.cli.critical"),
+                   description="Vary one parameter over an interval and find every value where a zone of the "
+                   "type (hyperbolic unless --type says otherwise) appears or vanishes, to a relative tolerance "
+                   "of 1e-9, and where in the domain it does; certified maps then prove (or fail to prove) that "
+                   "no other place reaches the threshold first.")
 CHECK = Command("check", "validate a project file and open its data files", _add_check_arguments,
                 _implemented_in("core.cli.check"),
                 description="Validate a project file and list every problem in it, then open the data files it "
                 "lists. Exit status 2 when the file is invalid or a data file is missing or unreadable; a data "
                 "file that changed since the project was saved is a warning on stderr (exit status 0).")
+SWEEP = Command("sweep", "how each type's area, the pockets and their peak change as one parameter moves",
+                _add_sweep_arguments, _implemented_in("core.cli.sweep"),
+                description="Classify the grid at N values of one parameter (the equation compiled once) and "
+                "report, per value, each type's share of the grid nodes (as classify does), its area measured on "
+                "the refined type-change lines, the number of hyperbolic pockets and the largest pocket peak of "
+                "the study's peak quantity.")
 TEMPLATES = Command("templates", "list the equation templates --template accepts", _add_templates_arguments,
                     _implemented_in("core.cli.templates"))
 
@@ -141,4 +230,13 @@ CAUCHY = Command("cauchy", "the Cauchy problem of a constant-coefficient equatio
                  "characteristic coordinates where hyperbolic), its value at a point and the two points of the "
                  "line it depends on. Elliptic equations and characteristic data lines are refused (exit 2).")
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, PROBE, TRACE, CHECK, TEMPLATES, CAUCHY)
+BATCH = Command("batch", "many studies in one run: a result per project file or data file, and a summary",
+                _add_batch_arguments, _implemented_in("core.cli.batch"),
+                description="Classify many studies in one start-up, on a pool of local processes or a Dask "
+                "cluster: one job per project FILE, and one per --data-each file with --project. Each result "
+                "JOB.json in --out DIR is what 'mixtype classify --json' prints for it; summary.csv and "
+                "summary.json hold a row per job. Exit status 1 when any job failed (its row says why), 2 for "
+                "bad options.")
+
+
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, BATCH, CAUCHY)

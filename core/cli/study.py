@@ -132,18 +132,22 @@ def _combined(datasets: list[DataSet]) -> DataSources | None:
         raise UsageError(f"--data: {error}") from None
 
 
-def build_study(args: argparse.Namespace) -> Study:
-    """The equation, domain and data of a command; every problem is a UsageError naming the option."""
+def build_study(args: argparse.Namespace, *, project: Project | None = None) -> Study:
+    """The equation, domain and data of a command; every problem is a UsageError naming the option.
+
+    ``project`` is FILE's project when the caller has read it already (``mixtype batch`` passes it without
+    the data source a sweep file stands in for); None reads FILE.
+    """
     with data_cap_raised(args.data_cap):
-        return _build_study(args)
+        return _build_study(args, project)
 
 
-def _build_study(args: argparse.Namespace) -> Study:
+def _build_study(args: argparse.Namespace, project: Project | None) -> Study:
     if args.file:
         if args.template:
             raise UsageError("--template starts an equation without a project FILE; it cannot be combined with "
                              "FILE (use --equation NAME to pick one of FILE's equations)")
-        return _study_from_file(args)
+        return _study_from_file(args, project)
     if args.equation is not None:
         raise UsageError("--equation NAME picks an equation of a project FILE, and no FILE was given")
     template = _template(args.template) if args.template else None
@@ -205,11 +209,13 @@ def _first_of(problems, path: str) -> str:
     return problems[0] + tail
 
 
-def _study_from_file(args: argparse.Namespace) -> Study:
-    """The equation and domain of project FILE, with the inline options given beside it put in their place."""
+def _study_from_file(args: argparse.Namespace, project: Project | None) -> Study:
+    """The equation and domain of project FILE (``project``: FILE's, read already), with the inline options
+    given beside it put in their place."""
     from core.project.data_files import open_project_data, unprovided_names_problem  # only with a FILE
 
-    project = load_project_or_fail(args.file)
+    if project is None:
+        project = load_project_or_fail(args.file)
     try:
         equation = project.shown()[0] if args.equation is None else project.equation(args.equation)
         named = args.domain is not None and len(args.domain) == 1

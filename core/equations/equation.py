@@ -11,9 +11,13 @@ from typing import Protocol
 
 import numpy as np
 
-__all__ = ["COEFFICIENT_NAMES", "MAX_DEFINITIONS", "MAX_PARAMETERS", "Equation", "Parameter", "QuantitySource"]
+__all__ = ["COEFFICIENT_NAMES", "LOWER_ORDER_NAMES", "MAX_DEFINITIONS", "MAX_PARAMETERS", "Equation", "Parameter",
+           "QuantitySource"]
 
 COEFFICIENT_NAMES = ("a", "b", "c")
+# d u_x + e u_y + f u: the lower-order part's coefficients, named as fields only (never symbols of the equation:
+# a definition or parameter may be called d or f)
+LOWER_ORDER_NAMES = ("d", "e", "f")
 MAX_DEFINITIONS = 200
 MAX_PARAMETERS = 100
 
@@ -37,6 +41,8 @@ class Equation:
     to numbers. ``variables`` are the names of the first and second independent variable. ``trade`` says
     which of the trade's quantities (core.equations.trade: Mach number, Froude number, ray angle...) a probe reads
     and from which names; ``peak_quantity`` names the definition whose maximum is reported per pocket.
+    ``lower_order`` maps "d", "e", "f" to the text of the coefficients of u_x, u_y and u where the study states
+    them (empty: not stated); they never change the type, only the canonical forms of the exact analysis.
     """
 
     a: str
@@ -49,6 +55,7 @@ class Equation:
     description: str = ""
     trade: Mapping[str, Mapping[str, str]] = field(default_factory=dict)
     peak_quantity: str = ""
+    lower_order: Mapping[str, str] = field(default_factory=dict)
 
     def coefficient_text(self, which: str) -> str:
         return {"a": self.a, "b": self.b, "c": self.c}[which]

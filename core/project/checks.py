@@ -30,7 +30,7 @@ def _equation_path(index: int, field: str) -> str:
     base = ["equations", index]
     if field in COEFFICIENT_NAMES:
         return json_path([*base, "coefficients", field])
-    if field.startswith("trade.") or field in ("trade", "peak_quantity"):
+    if field.startswith(("trade.", "lower_order.")) or field in ("trade", "peak_quantity"):
         return json_path([*base, *field.split(".")[:3]])
     group, _, name = field.partition(".")
     if group in ("definitions", "parameters") and name:
@@ -110,6 +110,31 @@ def _parameter_problems(index: int, parameters: Mapping) -> list[tuple[str, str]
 
 
 def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
+    return _coefficient_problems(index, raw, has_data=has_data) + _lower_order_problems(index, raw,
+                                                                                         has_data=has_data)
+
+
+def _lower_order_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
+    """Texts of d, e, f that do not parse over the equation's names (and data quantities, with data)."""
+    lower = raw.get("lower_order", {})
+    if not lower:
+        return []
+    variables = raw["variables"]
+    names = [*variables, *raw["parameters"], *raw["definitions"]]
+    symbols = {n: sympy.Symbol(n, real=True) for n in names}
+    errors = []
+    for key, text in lower.items():
+        try:
+            if has_data:
+                find_data_names(text, symbols, variables=variables, reserved=COEFFICIENT_NAMES)
+            else:
+                parse_expression(text, symbols, variables=variables)
+        except ExpressionError as error:
+            errors.append((f"lower_order.{key}", error))
+    return _located(index, errors, has_data=has_data)
+
+
+def _coefficient_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
     problems = _parameter_problems(index, raw["parameters"])
     variables = raw["variables"]
     names = [*variables, *raw["parameters"], *raw["definitions"]]
@@ -212,6 +237,7 @@ def meaning_problems(data: Mapping) -> list[tuple[str, str]]:
             problems.append((json_path(["shown", field]), (f"there is no {field} named {clip(shown, 40)!r} "
                                                           f"(the project has {listed})")))
     problems += _pin_study_problems(data)
+    problems += _sweep_problems(data)
     problems += _field_layer_problems(data["view"].get("field"))
     return problems
 
@@ -226,6 +252,36 @@ def _pin_study_problems(data: Mapping) -> list[tuple[str, str]]:
             if name not in names[field] and name != data["shown"][field]:   # (a bad shown name is said once)
                 problems.append((json_path(["pins", index, "study", field]),
                                  f"there is no {field} named {clip(name, 40)!r}"))
+    return problems
+
+
+def _sweep_problems(data: Mapping) -> list[tuple[str, str]]:
+    """Each sweep's study exists, one sweep per study and parameter, its range is ordered (above 0 on a
+    logarithmic scale) and each critical value lies in its bracket."""
+    problems = []
+    names = {"equation": {item["name"] for item in data["equations"]},
+             "domain": {item["name"] for item in data["domains"]}}
+    seen: set[tuple[str, str, str]] = set()
+    for index, sweep in enumerate(data.get("sweeps", ())):
+        for field, name in sweep["study"].items():
+            if name not in names[field]:
+                problems.append((json_path(["sweeps", index, "study", field]),
+                                 f"there is no {field} named {clip(name, 40)!r}"))
+        key = (sweep["study"]["equation"], sweep["study"]["domain"], sweep["parameter"])
+        if key in seen:
+            problems.append((json_path(["sweeps", index, "parameter"]),
+                             f"the study already has a sweep of {sweep['parameter']!r} (one per parameter)"))
+        seen.add(key)
+        low, high = sweep["low"], sweep["high"]
+        if not low < high:
+            problems.append((json_path(["sweeps", index, "high"]), f"must be above low ({low!r}), got {high!r}"))
+        elif sweep["log"] and low <= 0:
+            problems.append((json_path(["sweeps", index, "low"]), f"a logarithmic sweep starts above 0, got {low!r}"))
+        for number, critical in enumerate(sweep.get("critical_values", ())):
+            bracket = critical.get("bracket")
+            if bracket is not None and not bracket[0] <= critical["value"] <= bracket[1]:
+                problems.append((json_path(["sweeps", index, "critical_values", number, "bracket"]),
+                                 f"must hold the value {critical['value']!r}"))
     return problems
 
 
@@ -292,4 +348,4 @@ def equation_from_dict(raw: Mapping) -> Equation:
                     variables=tuple(raw["variables"]), definitions=dict(raw["definitions"]),
                     parameters=parameters, name=raw["name"], description=raw["description"],
                     trade={kind: dict(inputs) for kind, inputs in raw.get("trade", {}).items()},
-                    peak_quantity=raw.get("peak_quantity", ""))
+                    peak_quantity=raw.get("peak_quantity", ""), lower_order=dict(raw.get("lower_order", {})))

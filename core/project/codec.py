@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 
+from core.analysis.sweep_values import SweepRow
 from core.domain import Domain
 from core.equations.equation import Parameter
 from core.project.checks import equation_from_dict, meaning_problems
@@ -26,6 +27,7 @@ from core.project.model import (
     ViewSettings,
 )
 from core.project.schema import CURRENT_FORMAT_VERSION, FORMAT_NAME
+from core.project.sweeps import TYPE_LABELS, CriticalValue, SavedSweep
 
 __all__ = ["ProjectError", "project_from_dict", "project_to_dict"]
 
@@ -76,6 +78,8 @@ def _equation_to_dict(e) -> dict:
         result["trade"] = {kind: dict(inputs) for kind, inputs in e.trade.items()}
     if e.peak_quantity:
         result["peak_quantity"] = e.peak_quantity
+    if e.lower_order:
+        result["lower_order"] = dict(e.lower_order)
     return result
 
 
@@ -118,6 +122,34 @@ def _certified_to_dict(certified: CertifiedLayerSettings) -> dict:
     return {"shown": certified.shown, "min_cell": float(certified.min_cell), "max_cells": certified.max_cells}
 
 
+def _sweep_row_to_dict(row: SweepRow) -> dict:
+    """One row of a sweep's results; ``peak`` only when there is one."""
+    result = {"value": float(row.value), "fractions": {k: float(v) for k, v in row.fractions.items()},
+              "areas": {k: float(v) for k, v in row.areas.items()}, "pockets": int(row.pockets)}
+    if row.peak is not None:
+        result["peak"] = {"quantity": row.peak["quantity"], "value": float(row.peak["value"]),
+                          "at": [float(v) for v in row.peak["at"]]}
+    return result
+
+
+def _critical_to_dict(critical: CriticalValue) -> dict:
+    result: dict = {"value": critical.value, "event": critical.event, "at": list(critical.at), "type": critical.type}
+    if critical.bracket is not None:
+        result["bracket"] = list(critical.bracket)
+    return result
+
+
+def _sweep_to_dict(sweep: SavedSweep) -> dict:
+    """A sweep; its results (``rows``) and ``critical_values`` are written only when it has them."""
+    result: dict = {"study": {"equation": sweep.study[0], "domain": sweep.study[1]}, "parameter": sweep.parameter,
+                    "low": sweep.low, "high": sweep.high, "count": sweep.count, "log": sweep.log}
+    if sweep.rows is not None:
+        result["rows"] = [_sweep_row_to_dict(row) for row in sweep.rows]
+    if sweep.critical is not None:
+        result["critical_values"] = [_critical_to_dict(c) for c in sweep.critical]
+    return result
+
+
 def project_to_dict(project: Project) -> dict:
     """The plain JSON data of a project in the current format, keys in the fixed order files use."""
     view = project.view
@@ -133,6 +165,7 @@ def project_to_dict(project: Project) -> dict:
         "shown": {"equation": project.shown_equation, "domain": project.shown_domain},
         "pins": [_pin_to_dict(p) for p in project.pins],
         "seeds": [_seed_to_dict(s) for s in project.seeds],
+        "sweeps": [_sweep_to_dict(s) for s in project.sweeps],
         "view": {
             "layers": _layers_to_dict(view),
             "parabolic_tolerance": float(view.parabolic_tolerance),
@@ -173,6 +206,24 @@ def _certified(raw: Mapping | None) -> CertifiedLayerSettings:
     return CertifiedLayerSettings(shown=raw["shown"], min_cell=float(raw["min_cell"]), max_cells=int(raw["max_cells"]))
 
 
+def _saved_sweep(raw: Mapping) -> SavedSweep:
+    rows = raw.get("rows")
+    critical = raw.get("critical_values")
+    return SavedSweep(
+        study=(raw["study"]["equation"], raw["study"]["domain"]), parameter=raw["parameter"],
+        low=float(raw["low"]), high=float(raw["high"]), count=int(raw["count"]), log=raw["log"],
+        rows=None if rows is None else tuple(
+            SweepRow(value=float(r["value"]), fractions={k: float(r["fractions"][k]) for k in TYPE_LABELS},
+                     areas={k: float(r["areas"][k]) for k in TYPE_LABELS}, pockets=int(r["pockets"]),
+                     peak=None if "peak" not in r else {"quantity": r["peak"]["quantity"],
+                                                          "value": float(r["peak"]["value"]),
+                                                          "at": [float(v) for v in r["peak"]["at"]]})
+            for r in rows),
+        critical=None if critical is None else tuple(
+            CriticalValue(value=float(c["value"]), event=c["event"], at=tuple(c["at"]), type=c["type"],
+                          bracket=None if "bracket" not in c else tuple(c["bracket"])) for c in critical))
+
+
 def _build(data: Mapping) -> Project:
     view, layers = data["view"], data["view"]["layers"]
     return Project(
@@ -198,6 +249,7 @@ def _build(data: Mapping) -> Project:
         data_sources=tuple(DataSourceRef(path=raw["path"], checksum=raw["checksum"], format=raw.get("format"),
                                          names=dict(raw.get("names", {})), note=raw.get("note", ""))
                            for raw in data["data_sources"]),
+        sweeps=tuple(_saved_sweep(raw) for raw in data.get("sweeps", ())),
     )
 
 

@@ -90,8 +90,20 @@ def _v4_to_v5(data: dict) -> dict:
     return result
 
 
+def _v5_to_v6(data: dict) -> dict:
+    """Version 6 adds the parameter sweeps of the studies (``sweeps``, after ``seeds``): none in a version-5 file."""
+    result: dict = {}
+    for key, value in data.items():
+        result[key] = value
+        if key == "seeds":
+            result["sweeps"] = []
+    result.setdefault("sweeps", [])
+    result["format_version"] = 6
+    return result
+
+
 # version n -> function turning version-n data into version n + 1. Version 1 is the first format.
-MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3, 3: _v3_to_v4, 4: _v4_to_v5}
+MIGRATIONS: dict[int, Migration] = {1: _v1_to_v2, 2: _v2_to_v3, 3: _v3_to_v4, 4: _v4_to_v5, 5: _v5_to_v6}
 
 
 class MigrationError(ValueError):

@@ -27,6 +27,7 @@ from core.data.raw import FORMATS
 from core.domain import Domain
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from core.equations.language import ExpressionError, check_name
+from core.project.sweeps import MAX_SWEEPS, SavedSweep
 
 __all__ = [
     "DATA_FORMATS",
@@ -44,6 +45,7 @@ __all__ = [
     "Metadata",
     "Pin",
     "Project",
+    "SavedSweep",
     "Seed",
     "ViewSettings",
     "demo_project_names",
@@ -333,7 +335,8 @@ class Project:
     """Everything a Mixtype study holds. Equation names are unique, and so are domain names.
 
     ``shown_equation`` and ``shown_domain`` name the pair the window shows and the command line uses by
-    default.
+    default. ``sweeps`` (format version 6) are the parameter sweeps of its studies, at most one per equation,
+    domain and parameter (core.project.sweeps).
     """
 
     equations: tuple[Equation, ...]
@@ -346,9 +349,10 @@ class Project:
     notes: str = ""
     metadata: Metadata = field(default_factory=lambda: Metadata(utc_timestamp(), utc_timestamp()))
     data_sources: tuple[DataSourceRef, ...] = ()
+    sweeps: tuple[SavedSweep, ...] = ()
 
     def __post_init__(self) -> None:
-        for name in ("equations", "domains", "pins", "seeds", "data_sources"):
+        for name in ("equations", "domains", "pins", "seeds", "data_sources", "sweeps"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
         for source in self.data_sources:
             if not isinstance(source, DataSourceRef):
@@ -370,6 +374,42 @@ class Project:
                                           or pin.study[1] not in self.domain_names):
                 raise ValueError(f"pin {pin.label!r} was set in equation {pin.study[0]!r} on domain {pin.study[1]!r}, "
                                  "which the project does not hold")
+        self._check_sweeps()
+
+    def _check_sweeps(self) -> None:
+        if len(self.sweeps) > MAX_SWEEPS:
+            raise ValueError(f"a project holds at most {MAX_SWEEPS} sweeps, got {len(self.sweeps)}")
+        keys = set()
+        for sweep in self.sweeps:
+            if not isinstance(sweep, SavedSweep):
+                raise TypeError(f"sweeps are SavedSweep objects, got {type(sweep).__name__}")
+            equation, domain = sweep.study
+            if equation not in self.equation_names or domain not in self.domain_names:
+                raise ValueError(f"a sweep of {sweep.parameter!r} belongs to equation {equation!r} on domain "
+                                 f"{domain!r}, which the project does not hold")
+            if sweep.key in keys:
+                raise ValueError(f"two sweeps of {sweep.parameter!r} in equation {equation!r} on domain {domain!r}; "
+                                 "a study keeps one sweep per parameter")
+            keys.add(sweep.key)
+
+    def sweeps_of(self, equation: str, domain: str) -> tuple[SavedSweep, ...]:
+        """The sweeps of the study of that equation and domain, in the order they were added."""
+        return tuple(sweep for sweep in self.sweeps if sweep.study == (equation, domain))
+
+    def with_sweep(self, sweep: SavedSweep) -> Project:
+        """A copy with ``sweep`` put in place of the sweep of the same study and parameter, or added last."""
+        if any(s.key == sweep.key for s in self.sweeps):
+            return replace(self, sweeps=tuple(sweep if s.key == sweep.key else s for s in self.sweeps))
+        return replace(self, sweeps=(*self.sweeps, sweep))
+
+    def _sweeps_renamed(self, position: int, old: str, new: str) -> tuple[SavedSweep, ...]:
+        """The sweeps with the equation (position 0) or domain (1) name ``old`` in their study changed to ``new``."""
+        def renamed(sweep: SavedSweep) -> SavedSweep:
+            if sweep.study[position] != old:
+                return sweep
+            study = (new, sweep.study[1]) if position == 0 else (sweep.study[0], new)
+            return replace(sweep, study=study)
+        return tuple(renamed(sweep) for sweep in self.sweeps)
 
     @property
     def shown_study(self) -> tuple[str, str]:
@@ -430,7 +470,8 @@ class Project:
         equations = tuple(equation if e.name == replacing else e for e in self.equations)
         shown = equation.name if self.shown_equation == replacing else self.shown_equation
         return replace(self, equations=equations, shown_equation=shown,
-                       pins=self._pins_renamed(0, replacing, equation.name))
+                       pins=self._pins_renamed(0, replacing, equation.name),
+                       sweeps=self._sweeps_renamed(0, replacing, equation.name))
 
     def with_shown(self, *, equation: str | None = None, domain: str | None = None) -> Project:
         """A copy showing the equation and/or domain of those names (KeyError for a name there is not)."""
@@ -458,7 +499,8 @@ class Project:
         self.domain(replacing)
         domains = tuple(domain if d.name == replacing else d for d in self.domains)
         shown = domain.name if self.shown_domain == replacing else self.shown_domain
-        return replace(self, domains=domains, shown_domain=shown, pins=self._pins_renamed(1, replacing, domain.name))
+        return replace(self, domains=domains, shown_domain=shown, pins=self._pins_renamed(1, replacing, domain.name),
+                       sweeps=self._sweeps_renamed(1, replacing, domain.name))
 
     def data_source(self, path: str) -> DataSourceRef:
         """The data source whose recorded ``path`` is ``path``; KeyError listing the paths otherwise."""

@@ -12,6 +12,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from core.analysis.sweep_values import MAX_SWEEP_VALUES
 from core.analysis.tracing import MAX_BOUNCES
 from core.bundled import bundled_path
 from core.domain import MAX_GRID, MIN_GRID
@@ -28,6 +29,7 @@ from core.project.model import (
     MAX_SEED_CURVES,
     MIN_CELL_FRACTION_RANGE,
 )
+from core.project.sweeps import CRITICAL_EVENTS, MAX_CRITICAL_VALUES, MAX_SWEEPS, TYPE_LABELS
 
 __all__ = [
     "CHECKSUM_PATTERN",
@@ -47,7 +49,7 @@ __all__ = [
     "schema_text",
 ]
 
-CURRENT_FORMAT_VERSION = 5
+CURRENT_FORMAT_VERSION = 6
 FORMAT_NAME = "mixtype-project"
 MAX_EQUATIONS = 100
 MAX_DOMAINS = 100
@@ -144,6 +146,12 @@ def _equation_schema() -> dict:
         "trade": _trade_schema(),
         "peak_quantity": _identifier("the definition, parameter or data quantity whose largest value is reported "
                                      "for each hyperbolic pocket (optional)"),
+        "lower_order": _object({
+            "d": _expression("coefficient of u_(first variable)"),
+            "e": _expression("coefficient of u_(second variable)"),
+            "f": _expression("coefficient of u"),
+        }, required=[], description="the lower-order part d u_x + e u_y + f u where the study states it "
+                                    "(optional, format 6): it never changes the type, only the canonical forms"),
     }, required=["name", "description", "variables", "coefficients", "definitions", "parameters"],
         description="a second-order equation in two independent variables")
 
@@ -222,6 +230,54 @@ def _certified_schema() -> dict:
        "minimum cell 1e-4 of the shorter side)")
 
 
+def _per_type(description: str, **bounds) -> dict:
+    return _object({label: _number(f"{description} of the {label} type", minimum=0, **bounds)
+                    for label in TYPE_LABELS}, description=description + " by type")
+
+
+def _sweep_schema() -> dict:
+    peak = _object({
+        "quantity": _identifier("the quantity peaked"),
+        "value": _number("its largest value over the hyperbolic pockets"),
+        "at": _point("where that value is reached"),
+    }, description="the largest pocket peak of the study's peak quantity (optional: absent when there is no peak "
+       "quantity or no pocket)")
+    row = _object({
+        "value": _number("the parameter's value"),
+        "fractions": _per_type("share of the grid nodes", maximum=1),
+        "areas": _per_type("area, in units of the product of the variables' units"),
+        "pockets": {"type": "integer", "minimum": 0, "description": "number of connected hyperbolic regions"},
+        "peak": peak,
+    }, required=["value", "fractions", "areas", "pockets"], description="what the study looked like at one value")
+    critical = _object({
+        "value": _number("the parameter's value where the zone appears or vanishes"),
+        "event": {"enum": list(CRITICAL_EVENTS), "description": "whether the zone appears or vanishes as the "
+                  "parameter grows"},
+        "at": _point("where it first appears or last remains"),
+        "type": {"enum": list(TYPE_LABELS), "description": "the type of the zone"},
+        "bracket": _range("the parameter values known to hold the critical value (optional)"),
+    }, required=["value", "event", "at", "type"], description="a parameter value where a zone of a type appears "
+       "or vanishes")
+    return _object({
+        "study": _object({
+            "equation": _title("name of the equation swept"),
+            "domain": _title("name of the domain swept"),
+        }, description="the study the sweep belongs to"),
+        "parameter": _identifier("the parameter swept"),
+        "low": _number("the first value"),
+        "high": _number("the last value (above low)"),
+        "count": {"type": "integer", "minimum": 2, "maximum": MAX_SWEEP_VALUES,
+                  "description": "how many values, both ends included"},
+        "log": {"type": "boolean", "description": "values evenly spread on a logarithmic scale (low above 0)"},
+        "rows": {"type": "array", "items": row, "maxItems": MAX_SWEEP_VALUES,
+                 "description": "the last results, one per value (optional: absent when not run or not kept)"},
+        "critical_values": {"type": "array", "items": critical, "maxItems": MAX_CRITICAL_VALUES,
+                            "description": "critical values found in the range (optional: absent when not "
+                                           "searched)"},
+    }, required=["study", "parameter", "low", "high", "count", "log"],
+        description="a sweep of one parameter of a study over a range of values")
+
+
 def project_schema() -> dict:
     """The JSON Schema of the current project file format, as a dict (keys in a fixed order)."""
     version = CURRENT_FORMAT_VERSION
@@ -272,6 +328,9 @@ def project_schema() -> dict:
                    "(optional: absent, it belongs to every study)"),
             }, required=["at", "label"], description="a probed point")},
             "seeds": {"type": "array", "maxItems": MAX_SEEDS, "items": _seed_schema()},
+            "sweeps": {"type": "array", "maxItems": MAX_SWEEPS, "items": _sweep_schema(),
+                       "description": "parameter sweeps of the studies, one per equation, domain and parameter "
+                                      "(optional: absent, none)"},
             "view": _object({
                 "layers": _object(layers, required=[n for n in layers if n != "seed_segments"],
                                   description="which layers of the map are visible"),
@@ -287,7 +346,8 @@ def project_schema() -> dict:
             }, required=["layers", "parabolic_tolerance", "characteristic_bounces"],
                 description="what the map shows and how characteristics are traced"),
             "notes": _text(MAX_NOTES_LENGTH, "free-text notes"),
-        }),
+        }, required=["format", "format_version", "metadata", "equations", "domains", "data_sources", "shown", "pins",
+                     "seeds", "view", "notes"]),
     }
 
 

@@ -21,7 +21,7 @@ from collections.abc import Iterable, Mapping, Sequence
 import numpy as np
 
 import core
-from core.analysis.classify import TypeCode
+from core.analysis.classify import FRACTION_ORDER, TypeCode
 from core.analysis.probe import ProbeResult
 from core.data.raw import DataError
 from core.results.readable import point_without_noise, points_without_noise
@@ -45,13 +45,12 @@ __all__ = [
     "project_file_checksum",
     "results_document",
     "seed_document",
+    "source_document",
     "study_fields",
+    "sweep_document",
     "type_labels",
     "type_map_document",
 ]
-
-# The order in which type fractions are listed (as the CLI always has): the three types, then undefined.
-FRACTION_ORDER = (TypeCode.ELLIPTIC, TypeCode.PARABOLIC, TypeCode.HYPERBOLIC, TypeCode.UNDEFINED)
 
 
 def json_number(value: float | None) -> float | None:
@@ -107,6 +106,14 @@ def project_file_checksum(path: str | os.PathLike | None) -> str | None:
         return None
 
 
+def source_document(source: Mapping[str, str] | None) -> dict:
+    """Where a study comes from: ``source`` ({"file", "equation", "domain"}) and ``project_checksum`` (the
+    SHA-256 of the file's bytes now); no fields for a study that comes from no file."""
+    if not source:
+        return {}
+    return {"source": dict(source), "project_checksum": project_file_checksum(source["file"])}
+
+
 def data_files_document(data) -> list[dict]:
     """Which data files a result was computed from (core.data.sources.DataSources or None)."""
     if data is None:
@@ -117,8 +124,8 @@ def data_files_document(data) -> list[dict]:
 
 # -- the map --------------------------------------------------------------------------------------------
 def fractions_document(type_map) -> dict[str, float]:
-    """Each type's share of the grid nodes, by name, in FRACTION_ORDER."""
-    return {code.label: float(type_map.fractions[code.label]) for code in FRACTION_ORDER}
+    """Each type's share of the grid nodes, by name, in FRACTION_ORDER (core.analysis.classify)."""
+    return type_map.ordered_fractions()
 
 
 def type_map_document(type_map) -> dict:
@@ -169,6 +176,25 @@ def map_fields(variables: Sequence[str], domain, tolerance: float, *, type_map=N
                       refined=bool(boundaries.refined))
     fields["pockets"] = None if pockets is None else [pocket_document(pocket, domain) for pocket in pockets]
     return fields
+
+
+def sweep_document(sweep, variables: Sequence[str], domain=None, *, parameter_unit: str = "") -> dict:
+    """A parameter sweep (core.analysis.sweep.Sweep): the parameter, its values, whether they were spread on a
+    logarithmic scale, and one row per value with the type fractions (as classify's "fractions"), each type's
+    area (units: ``area_units``), the number of hyperbolic pockets and the largest pocket peak (or null)."""
+    rows = []
+    for row in sweep.rows:
+        peak = None
+        if row.peak is not None:
+            peak = {"quantity": row.peak["quantity"], "value": json_number(row.peak["value"]),
+                    "at": _pair(row.peak["at"], domain)}
+        rows.append({"value": float(row.value), "fractions": {k: float(v) for k, v in row.fractions.items()},
+                     "areas": {k: float(v) for k, v in row.areas.items()}, "pockets": int(row.pockets),
+                     "peak": peak})
+    first, second = variables
+    return {"parameter": sweep.parameter, "values": [float(v) for v in sweep.values], "rows": rows,
+            "log": bool(sweep.log), "parameter_unit": parameter_unit, "variables": list(variables),
+            "area_units": f"{first}*{second}"}
 
 
 # -- points and curves ----------------------------------------------------------------------------------

@@ -268,7 +268,7 @@ def test_missing_data_exit_2_and_changed_data_warn(tmp_path, monkeypatch):
     data.rename(moved)
     problem = f"{path}: $.data_sources[0]: file '../data/bump.npz' is missing (looked in {data})"
     status, out, err = run("check", str(path), "--allow-outside-data")
-    assert status == 2 and out.startswith(f"{path}: valid, format version 5") and err == f"mixtype: {problem}\n"
+    assert status == 2 and out.startswith(f"{path}: valid, format version 6") and err == f"mixtype: {problem}\n"
     assert run("check", str(path), "--allow-outside-data", "--json")[0] == 2
     status, out, err = run("classify", str(path), "--allow-outside-data")
     assert status == 2 and out == "" and err == f"mixtype: {problem}\n"

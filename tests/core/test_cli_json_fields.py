@@ -46,6 +46,10 @@ CASES = {
     "trace_seeds": ("trace", TRICOMI),
     "cauchy": ("cauchy", "--a", "1", "--b", "0", "--c", "-1", "--line", "y = 0", "--u", "sin(s)", "--du", "s**2",
                "--at", "0.3", "0.5"),
+    "sweep_file": ("sweep", BUMP, "--grid", "41", "21", "--sweep", "mach=0.7:0.9:3"),
+    "critical_inline": ("critical", "--a", "1", "--b", "0", "--c", "x**2 + y**2 - p", "--domain", "-1", "1", "-1",
+                        "1", "--grid", "9", "--vary", "p", "--between", "-1", "1"),
+    "critical_file": ("critical", TRICOMI, "--grid", "9", "--vary", "k", "--between", "0", "1", "--no-certify"),
 }
 
 CLASSIFY_FIELDS = {
@@ -115,6 +119,13 @@ TODAY = {
         "curves", "curves[].ends", "curves[].family", "curves[].points", "seed", "source", "source.domain",
         "source.equation", "source.file",
     },
+    # the fields the sweep command was specified with (issue: parameter sweeps)
+    "sweep_file": {
+        "parameter", "values", "rows", "rows[].value", "rows[].fractions", "rows[].fractions.elliptic",
+        "rows[].fractions.parabolic", "rows[].fractions.hyperbolic", "rows[].fractions.undefined", "rows[].areas",
+        "rows[].areas.elliptic", "rows[].areas.parabolic", "rows[].areas.hyperbolic", "rows[].areas.undefined",
+        "rows[].pockets", "rows[].peak", "rows[].peak.quantity", "rows[].peak.value", "rows[].peak.at",
+    },
     "trace_seeds": {
         "seeds", "seeds[].curves", "seeds[].curves[].ends", "seeds[].curves[].family",
         "seeds[].curves[].points", "seeds[].families", "seeds[].label", "seeds[].points", "source",
@@ -140,7 +151,12 @@ CERTIFIED = {"certified", "certified.min_cell", "certified.area", "certified.are
              "certified.undecided_area", "certified.cells", "certified.pockets", "certified.pockets[].type",
              "certified.pockets[].bbox", "certified.pockets[].area", "certified.pockets[].proven",
              "certified.pockets[].missed_by_grid", "certified.tangencies", "certified.tangencies[].points"}
+# A sweep also says how its values were spread, the parameter's unit, the variables and area units, the grid,
+# tolerance and refinement, and the study as every command does.
+SWEEP = {"log", "parameter_unit", "variables", "area_units", "domain", "grid", "refined", "tolerance", "source",
+         "source.domain", "source.equation", "source.file", "project_checksum"}
 ADDED: dict[str, set[str]] = {
+    "sweep_file": STUDY | SWEEP,
     "classify_certified": STUDY | CERTIFIED,
     "classify_inline": STUDY | {"parabolic_regions[].holes", "parabolic_regions[].cells"},
     "classify_file_data": STUDY | {"project_checksum"},
@@ -152,6 +168,15 @@ ADDED: dict[str, set[str]] = {
     "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
     "cauchy": set(),
 }
+# mixtype critical (issue: critical parameter values): the first event at the top, every event in "events".
+CRITICAL_EVENT = {"parameter", "value", "bracket", "event", "at", "type"}
+CRITICAL = CRITICAL_EVENT | {f"events[].{key}" for key in CRITICAL_EVENT} | {
+    "events", "between", "relative_tolerance", "proven", "notes", "tolerance"}
+TODAY["critical_inline"] = CRITICAL | STUDY
+TODAY["critical_file"] = CRITICAL - {f"events[].{key}" for key in CRITICAL_EVENT} | STUDY | {
+    "source", "source.domain", "source.equation", "source.file", "project_checksum"}
+ADDED["critical_inline"] = set()
+ADDED["critical_file"] = set()
 # Below these fields the keys are the study's own names (definitions, parameters), not field names.
 NAMED_BY_THE_STUDY = ("equation.definitions.", "equation.parameters.", "parameters.")
 

@@ -46,7 +46,7 @@ print(json.dumps({{"runs": runs, "heavy": heavy, "core": core}}))
 
 
 def test_help_version_and_every_command_help_load_no_numpy_sympy_or_scipy():
-    commands = ["classify", "probe", "trace", "check", "templates"]
+    commands = ["classify", "sweep", "probe", "trace", "critical", "check", "templates", "batch", "cauchy"]
     report = loaded_after(["--help"], ["--version"], *([name, "--help"] for name in commands))
     assert [status for status, _, _ in report["runs"]] == [0] * (2 + len(commands))
     assert report["heavy"] == []
@@ -55,7 +55,8 @@ def test_help_version_and_every_command_help_load_no_numpy_sympy_or_scipy():
     outputs = [out for _, out, _ in report["runs"]]
     assert all(name in outputs[0] for name in commands)
     assert outputs[1].startswith("mixtype ")
-    assert "--save-project" in outputs[2] and "--at" in outputs[3] and "--from" in outputs[4]
+    assert "--save-project" in outputs[2] and "--sweep" in outputs[3] and "--at" in outputs[4]
+    assert "--from" in outputs[5] and "--vary" in outputs[6] and "--between" in outputs[6]
 
 
 def test_an_inline_classify_loads_what_it_computes_with_but_no_project_validation():

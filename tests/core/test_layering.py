@@ -127,7 +127,7 @@ CORE_LAYERS = (
     ("core.analysis", "core.certify"),
     ("core.project",),
     ("core.results",),
-    ("core.cli",),
+    ("core.cli", "core.batch"),
 )
 
 

@@ -29,12 +29,12 @@ BUMP = str(demo_project_path("transonic_bump"))
 def test_check_summarises_a_valid_file_in_one_line():
     status, out, err = run("check", TRICOMI)
     assert status == 0 and err == ""
-    assert out == (f"{TRICOMI}: valid, format version 5; 2 equations, 2 domains, 3 pins, 3 seeds; "
+    assert out == (f"{TRICOMI}: valid, format version 6; 2 equations, 2 domains, 3 pins, 3 seeds; "
                    "shows 'Tricomi' on 'around the origin'\n")
     document = run_json("check", TRICOMI)
-    assert document == {"file": TRICOMI, "valid": True, "format_version": 5,
+    assert document == {"file": TRICOMI, "valid": True, "format_version": 6,
                         "equations": ["Tricomi", "Tricomi, tilted"],
-                        "domains": ["around the origin", "hyperbolic half"], "pins": 3, "seeds": 3,
+                        "domains": ["around the origin", "hyperbolic half"], "pins": 3, "seeds": 3, "sweeps": 0,
                         "shown": {"equation": "Tricomi", "domain": "around the origin"},
                         "data": {"files": 0, "quantities": [], "problems": [], "changed": []}}
 
@@ -185,4 +185,4 @@ def test_the_installed_entry_point_checks_a_file():
     completed = subprocess.run([sys.executable, "-m", "core.cli.main", "check", TRICOMI], cwd=ROOT,
                                capture_output=True, text=True, timeout=HANG_CEILING_S, check=False)
     assert completed.returncode == 0 and completed.stderr == ""
-    assert completed.stdout.startswith(f"{TRICOMI}: valid, format version 5; 2 equations")
+    assert completed.stdout.startswith(f"{TRICOMI}: valid, format version 6; 2 equations")

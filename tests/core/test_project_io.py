@@ -274,7 +274,8 @@ def test_a_version_1_file_means_the_same_after_migration():
         "type_map": layers["type_map"], "type_change_lines": layers["type_change_lines"],
         "characteristics_family_1": layers["characteristics"], "characteristics_family_2": layers["characteristics"],
         "pins": layers["pins"], "legend": layers["legend"]}
-    assert new.pop("data_sources") == [] and new.pop("format_version") == 5 and old.pop("format_version") == 1
+    assert new.pop("data_sources") == [] and new.pop("format_version") == 6 and old.pop("format_version") == 1
+    assert new.pop("sweeps") == []                                                      # version 6: none
     assert new["view"].pop("characteristic_bounces") == 0      # version 3: curves stop where they always did
     assert new["view"].pop("field") == {"shown": False, "kind": "discriminant", "quantity": "normalized",
                                         "colour_map": "blue_yellow", "iso_values": []}     # version 4: hidden

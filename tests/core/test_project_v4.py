@@ -24,11 +24,13 @@ def test_the_version_4_sample_reads_as_written():
     # shown: "second (s, t)" on "main": the first two pins belong to other studies, the third to every study
     assert project.pins_shown() == (False, False, True)
     assert project.pins_of("sample: all fields", "main") == (project.pins[0], project.pins[2])
-    # saved again it is the same file in format 5, the certified layer hidden (tests/core/test_project_v5.py)
+    # saved again it is the same file in the current format, the certified layer hidden (tests/core/
+    # test_project_v5.py) and no sweeps (tests/core/test_project_v6.py)
     written = json.loads(dumps_project(project))
     original = json.loads(V4.read_text(encoding="utf-8"))
-    assert written.pop("format_version") == 5 and original.pop("format_version") == 4
+    assert written.pop("format_version") == 6 and original.pop("format_version") == 4
     assert written["view"].pop("certified") == {"shown": False, "min_cell": 1e-4, "max_cells": 4_000_000}
+    assert written.pop("sweeps") == []
     assert written == original
 
 

@@ -8,11 +8,12 @@ from pathlib import Path
 import pytest
 
 import core.cli.trace
+from core.analysis.sweep import MAX_SWEEP_VALUES
 from core.analysis.tracing import MAX_BOUNCES
 from core.domain import MAX_GRID
 from core.equations import codegen, language
 from core.equations.equation import MAX_DEFINITIONS, MAX_PARAMETERS
-from core.project import schema
+from core.project import schema, sweeps
 
 README = Path(__file__).resolve().parents[2] / "README.md"
 
@@ -32,6 +33,8 @@ def limits_section() -> str:
     ("{} curves in one run", core.cli.trace.MAX_CURVES), ("{} equations", schema.MAX_EQUATIONS),
     ("{} domains", schema.MAX_DOMAINS), ("{} data sources", schema.MAX_DATA_SOURCES), ("{} pins", schema.MAX_PINS),
     ("{} seeds", schema.MAX_SEEDS), ("{} characters of coefficient", schema.MAX_EXPRESSION_CHARACTERS),
+    ("{} sweeps", sweeps.MAX_SWEEPS), ("2 to {} values in one sweep", MAX_SWEEP_VALUES),
+    ("at most {} critical values", sweeps.MAX_CRITICAL_VALUES),
 ])
 def test_the_readme_states_each_limit_with_its_value(phrase, value):
     section = " ".join(limits_section().split())

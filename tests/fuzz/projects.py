@@ -158,8 +158,8 @@ def _expression_slot(document, draw):
 
 
 def _grow(document, draw) -> str:
-    """Make the project larger: many equations, definitions, pins or seed curves (within or past limits)."""
-    what = draw(st.sampled_from(("equations", "definitions", "pins", "curves")))
+    """Make the project larger: many equations, definitions, pins, seed curves or sweeps (within or past limits)."""
+    what = draw(st.sampled_from(("equations", "definitions", "pins", "curves", "sweeps")))
     if not isinstance(document, dict):
         return "grow nothing"
     equations = document.get("equations")
@@ -172,6 +172,14 @@ def _grow(document, draw) -> str:
         first["definitions"].update({f"d{i}": terms for i in range(count)})
     elif what == "pins":
         document["pins"] = [{"at": [0.1 * i, 0.0], "label": ""} for i in range(count * 10)]
+    elif what == "sweeps" and first is not None and isinstance(document.get("domains"), list) and document["domains"]:
+        study = {"equation": first.get("name"), "domain": document["domains"][0].get("name")}
+        row = {"value": 0.5, "fractions": dict.fromkeys(("elliptic", "parabolic", "hyperbolic", "undefined"), 0.25),
+               "areas": dict.fromkeys(("elliptic", "parabolic", "hyperbolic", "undefined"), 1.0), "pockets": 1}
+        document["sweeps"] = [{"study": study, "parameter": f"p{i}", "low": 0.0, "high": 1.0, "count": 1000,
+                               "log": False, "rows": [row] * 10,
+                               "critical_values": [{"value": 0.5, "event": "appears", "at": [0.0, 0.0],
+                                                    "type": "hyperbolic"}] * 3} for i in range(count)]
     else:
         document["seeds"] = [{"kind": "segment", "start": [-0.5, -0.5], "end": [0.5, -0.5],
                               "curves": min(count, 1000), "families": [1, 2], "label": ""}]
