@@ -1,15 +1,22 @@
-"""The window's export commands: the map as a picture, the results as CSV tables and as one JSON document.
+"""The window's export commands: the map as a picture, the results as CSV tables and as one JSON document, and
+the study report (HTML or PDF).
 
 A mixin of gui.main_window.MainWindow. Every number written comes from core.results (the same document the
-command line prints): this module only gathers what the window's analysis holds and picks file names.
+command line prints): this module only gathers what the window's analysis holds and picks file names. The
+study report is computed as ``mixtype report`` computes it (core.results.report_results) on the "report" job
+channel, off the GUI thread with progress and Cancel; its figures and file are then made on the GUI thread
+(gui.report), from the study as it was when the report was asked for.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
+
 from core.results.certified import certified_document
 from core.results.document import results_document
+from core.results.report_results import compute_report_results
 from core.results.tables import (
     boundary_columns,
     boundary_rows,
@@ -23,8 +30,11 @@ from core.results.tables import (
     write_json,
 )
 from gui.export import PICTURE_FILTER, export_picture
+from gui.report import REPORT_FILTER, check_report_path, write_report
 
-__all__ = ["TABLES", "ExportCommands"]
+__all__ = ["REPORT_CHANNEL", "TABLES", "ExportCommands"]
+
+REPORT_CHANNEL = "report"
 
 # table name -> menu text
 TABLES = {"lines": "Type-change lines as CSV…", "characteristics": "Characteristics as CSV…",
@@ -108,3 +118,56 @@ class ExportCommands:
                 self.report_error("Could not export", str(error))
                 return
             self.statusBar().showMessage(f"Results written to {path}", 5000)
+
+    # -- the study report ------------------------------------------------------------------------------------
+    def export_report_dialog(self) -> None:
+        path = self.choose_save_path("Export the study report", REPORT_FILTER, "study_report.html")
+        if path:
+            self.export_report(path)
+
+    def export_report(self, path: str | Path) -> int | None:
+        """Compute the study's report in the background and write it to ``path`` (.html or .pdf; another name
+        gets .html) when done; returns the job number (None when the study cannot be reported now)."""
+        if Path(path).suffix.lower() not in (".html", ".pdf"):
+            path = str(path) + ".html"
+        path = check_report_path(path)
+        document, analysis = self.document, self.analysis
+        compiled = document.compiled
+        if compiled is None:
+            self.report_error("Could not make the report", document.compile_error or "the equation has an error")
+            return None
+        if not getattr(self, "_report_wired", False):
+            self.runner.finished.connect(self._report_computed)
+            self.runner.failed.connect(self._report_failed)
+            self._report_wired = True
+        project, equation, domain = document.project, document.equation, document.domain
+        view = project.view
+        known = analysis.certified if view.certified.shown and not self.runner.is_busy("certified") else None
+        parameters, tolerance, data = equation.parameter_values(), document.tolerance, document.data
+        self._report_pending = {"path": path, "project": project, "view": view, "file": document.path,
+                                "dirty": document.is_dirty}
+
+        def work(cancel, progress):
+            with np.errstate(all="ignore"):
+                return compute_report_results(
+                    compiled, equation, domain, parameters=parameters, tolerance=tolerance, data=data,
+                    pins=project.pins, seeds=project.seeds, bounces=view.characteristic_bounces, field=view.field,
+                    certified=view.certified, known_certified=known, cancel=cancel, progress=progress)
+
+        return self.runner.request(REPORT_CHANNEL, work, label="Making the study report")
+
+    def _report_computed(self, channel: str, number: int, results: object) -> None:
+        if channel != REPORT_CHANNEL:
+            return
+        pending = self._report_pending
+        try:
+            written = write_report(results, pending["path"], view=pending["view"], project=pending["project"],
+                                   project_file=pending["file"], unsaved_changes=pending["dirty"])
+        except (OSError, ValueError) as error:
+            self.report_error("Could not write the report", str(error))
+            return
+        self.statusBar().showMessage(f"Study report written to {written}", 8000)
+
+    def _report_failed(self, channel: str, number: int, text: str) -> None:
+        if channel == REPORT_CHANNEL:
+            self.report_error("Could not make the report", text)

@@ -61,7 +61,8 @@ __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
 LAYOUT_VERSION = 3     # saved panel layouts of other versions are not restored (version 3: the sweep tab)
 
-CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified")
+CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified",
+                 "report")
 
 
 class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):

@@ -16,7 +16,7 @@ import numpy as np
 
 from core.cli.command import compiled_study, read_study
 from core.cli.options import EXIT_OK, UsageError
-from core.results.report_results import compute_report_results
+from core.results.report_results import project_report_results
 from gui.qt_setup import ensure_application
 from gui.report import check_report_path, write_report
 
@@ -31,16 +31,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(f"--out {args.out}: {error}") from None
     study = read_study(args, err)
     compiled = compiled_study(study)
-    project = study.project
-    view = project.view
     with np.errstate(all="ignore"):
-        results = compute_report_results(
-            compiled, study.equation, study.domain, parameters=study.parameters, tolerance=study.tolerance,
-            data=study.data, pins=project.pins, seeds=project.seeds, bounces=view.characteristic_bounces,
-            field=view.field, certified=view.certified, certify=True if args.certify else None)
+        results = project_report_results(compiled, study, certify=True if args.certify else None)
     ensure_application()
     try:
-        written = write_report(results, args.out, view=view, project=project, project_file=args.file)
+        written = write_report(results, args.out, view=study.project.view, project=study.project,
+                               project_file=args.file)
     except OSError as error:
         raise UsageError(str(error)) from None
     out.write(f"wrote {written}\n")

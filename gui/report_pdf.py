@@ -131,6 +131,14 @@ def _keep_headings_with_next(document: QTextDocument, page_height: float) -> Non
         start = block.next()
 
 
+def _font(points: float) -> QFont:
+    """The report's font without ligatures: "fi" stays two letters, so the PDF's text can be searched and copied."""
+    font = QFont("DejaVu Sans")
+    font.setPointSizeF(points)
+    font.setFeature(QFont.Tag("liga"), 0)
+    return font
+
+
 def _page_layout() -> QPageLayout:
     left, top, right, bottom = PAGE_MARGINS_MM
     return QPageLayout(QPageSize(QPageSize.PageSizeId.A4), QPageLayout.Orientation.Portrait,
@@ -172,7 +180,7 @@ def report_pdf_bytes(report: Mapping, figures: Mapping[str, str]) -> bytes:
 
     document = QTextDocument()
     document.documentLayout().setPaintDevice(writer)
-    document.setDefaultFont(QFont("DejaVu Sans", 9))
+    document.setDefaultFont(_font(9.0))
     document.setDocumentMargin(0)
     document.setPageSize(QSizeF(page_width, page_height))
     handler = _FigureObject(renderers, sizes)
@@ -196,8 +204,7 @@ def report_pdf_bytes(report: Mapping, figures: Mapping[str, str]) -> bytes:
     if not painter.begin(writer):
         raise OSError("could not start the PDF")
     try:
-        footer_font = QFont("DejaVu Sans")
-        footer_font.setPointSizeF(7.5)
+        footer_font = _font(7.5)
         for page in range(pages):
             if page:
                 writer.newPage()

@@ -61,6 +61,11 @@ class WindowMenus:
             export.addAction(self._action(text, lambda name=name: self.export_table_dialog(name)))
         export.addAction(self._action("Everything as JSON…", self.export_json_dialog,
                                       tip="The whole study and its results in one JSON document"))
+        export.addSeparator()
+        self.export_report_action = self._action(
+            "Study &report (HTML or PDF)…", self.export_report_dialog,
+            tip="One document with the equation, caution, data files, maps, lines, pockets, pins and notes")
+        export.addAction(self.export_report_action)
         menu.addSeparator()
         menu.addAction(self._action("&Quit", self.close, shortcut=keys.Quit, tip="Close Mixtype"))
 

@@ -16,9 +16,9 @@ dict that both writers read: the HTML5 page (core.results.report_html) and the P
   escape it); only ``math`` lines are markup;
 - ``title``, ``created`` (UTC, ISO 8601), ``mixtype_version`` and ``caution`` (the README's caution).
 
-Parts other modules may provide (parameter sweeps and critical values kept in the project, the exact symbolic
-analysis) come from core.results.report_extras: a section is built when its module exists in this Mixtype and
-reads ``not computed`` otherwise.
+The parts kept with the study or made by other modules (parameter sweeps and critical values kept in the
+project, the exact symbolic analysis) come from core.results.report_extras, which also adds their JSON to
+``results`` (``sweeps``, ``critical_values``); a part whose module this Mixtype lacks reads ``not computed``.
 """
 
 from __future__ import annotations
@@ -92,6 +92,8 @@ def report_document(results: ReportResults, *, project=None, project_file: str |
     if results.certified is not None:
         document["certified"] = certified_document(results.certified)
     title = f"Study report: “{equation.name}” on “{domain.name}”"
+    extras, extra_fields = extra_sections(project, results)
+    document.update(extra_fields)
     sections = [
         _study_section(document, created),
         _section("caution", "Caution", [_paragraph(CAUTION)]),
@@ -106,7 +108,7 @@ def report_document(results: ReportResults, *, project=None, project_file: str |
         _certified_section(results),
         _pins_section(results, document),
         _characteristics_section(results),
-        *extra_sections(project, results),
+        *extras,
         _notes_section(project),
     ]
     return {"format": REPORT_FORMAT, "title": title, "created": created.strftime("%Y-%m-%dT%H:%M:%SZ"),
@@ -137,6 +139,8 @@ def _equation_section(results: ReportResults) -> dict:
         blocks.append(_paragraph(equation.description))
     x, y = equation.variables
     rows = [(f"a (of u_{x}{x})", equation.a), (f"b (of u_{x}{y})", equation.b), (f"c (of u_{y}{y})", equation.c)]
+    lower = {"d": f"d (of u_{x})", "e": f"e (of u_{y})", "f": "f (of u)"}
+    rows += [(lower[key], text) for key, text in sorted(getattr(equation, "lower_order", {}).items())]
     rows += [(name, text) for name, text in equation.definitions.items()]
     blocks.append(_table(("name", "as typed"), rows, keyed=True,
                          caption="The coefficients and definitions as typed (the map evaluates exactly these)"))

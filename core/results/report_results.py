@@ -14,6 +14,7 @@ Long steps take ``cancel`` (raises core.progress.Cancelled) and report one overa
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
@@ -41,7 +42,7 @@ from core.progress import CancelCheck, Cancelled, ProgressReport
 from core.project.model import CertifiedLayerSettings, FieldLayerSettings, Pin, Seed
 from core.results.readouts import TradeReading, peak_quantity, read_trade
 
-__all__ = ["ReportResults", "certified_min_cell", "compute_report_results"]
+__all__ = ["ReportResults", "certified_min_cell", "compute_report_results", "project_report_results"]
 
 # Share of the overall progress each step takes (measured on the demo studies; the certified map, when asked,
 # takes the rest).
@@ -92,20 +93,28 @@ def certified_min_cell(settings: CertifiedLayerSettings, domain: Domain) -> floa
 
 
 class _Progress:
-    """One overall fraction from the fractions of consecutive steps, each given its share."""
+    """One overall fraction from the fractions of consecutive steps, each given its share; never reported going
+    back (a step's threads may report out of order)."""
 
     def __init__(self, report: ProgressReport | None, shares: Mapping[str, float]) -> None:
         total = sum(shares.values())
         self._report, self._done, self._shares = report, 0.0, {k: v / total for k, v in shares.items()}
+        self._reported = 0.0
+        self._lock = threading.Lock()
 
     def step(self, name: str) -> ProgressReport:
         start, share = self._done, self._shares[name]
         self._done += share
-        report = self._report
 
         def part(fraction: float) -> None:
-            if report is not None:
-                report(min(1.0, start + share * min(max(float(fraction), 0.0), 1.0)))
+            if self._report is None:
+                return
+            overall = min(1.0, start + share * min(max(float(fraction), 0.0), 1.0))
+            with self._lock:
+                if overall <= self._reported:
+                    return
+                self._reported = overall
+            self._report(overall)
 
         return part
 
@@ -199,3 +208,18 @@ def _field(compiled, equation, domain, settings: FieldLayerSettings, data, cance
     if not np.isfinite(grid.values).any():
         return quantity, None, (), f"{quantity.label} is undefined everywhere on the grid"
     return quantity, grid, iso_lines(grid, settings.iso_values), ""
+
+
+def project_report_results(compiled: CompiledEquation, study, *, certify: bool | None = None,
+                           known_certified: CertifiedMap | None = None, cancel: CancelCheck | None = None,
+                           progress: ProgressReport | None = None) -> ReportResults:
+    """``compute_report_results`` for a study read from a project: ``study`` has the fields of
+    core.cli.study.Study (equation, domain, parameters, tolerance, data and the ``project``, whose pins, seeds,
+    bounces and layer settings are used)."""
+    project = study.project
+    view = project.view
+    return compute_report_results(
+        compiled, study.equation, study.domain, parameters=study.parameters, tolerance=study.tolerance,
+        data=study.data, pins=project.pins, seeds=project.seeds, bounces=view.characteristic_bounces,
+        field=view.field, certified=view.certified, certify=certify, known_certified=known_certified,
+        cancel=cancel, progress=progress)

@@ -138,7 +138,7 @@ def certified_blocks(certified, variables: Sequence[str], min_cell: float) -> li
         f"Proven cell by cell with interval bounds on D (the {certified.dependency_form}): {certified.cells} cells "
         f"examined, refined down to {number(certified.min_cell)} (asked: {number(min_cell)}); undecided area "
         f"{number(certified.undecided_area)} ({share:.4g} % of the domain){budget}.")}]
-    rows = [(label, number(certified.area[label][0]), number(certified.area[label][1]))
+    rows = [[label, number(certified.area[label][0]), number(certified.area[label][1])]
             for label in CERTIFIED_AREA_ORDER]
     blocks.append({"kind": "table", "columns": ["type", f"proven area ({x}·{y})", "at most"], "rows": rows,
                    "keyed": True})
