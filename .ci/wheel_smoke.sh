@@ -2,7 +2,7 @@
 # Proves the wheel: build it from a clean copy of the source, install it into a fresh venv, and run the
 # installed `mixtype` from outside the repository (so nothing is imported from the checkout):
 #   mixtype --version, mixtype templates, mixtype classify --template full_potential --grid 64 --json,
-#   a headless render of the bundled demo, a batch of it on two worker processes, the bundled user guide, and the window's one-line refusal when there is no display.
+#   a headless render and report of the bundled demo, a batch of it on two worker processes, the bundled user guide, and the window's one-line refusal when there is no display.
 # Fails on any wrong output. Run alone from anywhere: bash .ci/wheel_smoke.sh
 # WHEEL_SMOKE_VENV=DIR reuses (or creates) that venv instead of a fresh one, for quicker local reruns.
 set -euo pipefail
@@ -65,6 +65,15 @@ assert 200 <= width <= 640 and 200 <= height <= 480, (width, height)  # the map 
 assert len(data) > 10_000, len(data)  # a drawn map, not an empty canvas
 EOF
 step "render: $(basename "$DEMO") -> map.png ($(stat -c %s map.png) bytes)"
+
+"$MIXTYPE" report "$DEMO" --out report.pdf > report.txt 2>report.err || fail "report failed: $(cat report.err)"
+"$CHECK" - report.pdf <<'EOF' || fail "report did not write a proper PDF"
+import re, sys
+data = open(sys.argv[1], "rb").read()
+assert data[:5] == b"%PDF-" and data.rstrip().endswith(b"%%EOF"), "not a whole PDF"
+assert len(re.findall(rb"/Type\s*/Page\b", data)) >= 3, "too few pages"
+EOF
+step "report: $(basename "$DEMO") -> report.pdf ($(stat -c %s report.pdf) bytes)"
 
 # batch from the installed copy: its worker processes start from the installed script and package
 "$MIXTYPE" batch "$DEMO" "$DEMO" --out batch --workers 2 --json > batch.json 2> batch.err \
