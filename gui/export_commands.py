@@ -132,6 +132,10 @@ class ExportCommands:
             path = str(path) + ".html"
         path = check_report_path(path)
         document, analysis = self.document, self.analysis
+        if document.data_pending:
+            self.report_error("Could not make the report", "the study's data files are still loading; export the "
+                              "report once they are read")
+            return None
         compiled = document.compiled
         if compiled is None:
             self.report_error("Could not make the report", document.compile_error or "the equation has an error")

@@ -9,9 +9,11 @@ as the command line.
 from __future__ import annotations
 
 import io
+import json
 import re
 import shutil
 import subprocess
+import sys
 import zlib
 from collections import Counter
 from pathlib import Path
@@ -30,6 +32,7 @@ from gui.palette import TYPE_COLOURS
 from gui.project_bridge import open_project_file
 from tests.ceilings import HANG_CEILING_S
 
+ROOT = Path(__file__).resolve().parents[2]
 BUMP = demo_project_path("transonic_bump")
 RSVG = shutil.which("rsvg-convert")
 PDFTOPPM = shutil.which("pdftoppm")
@@ -193,3 +196,30 @@ def test_the_window_exports_the_same_report_in_the_background_with_progress(make
 
 def test_the_launcher_knows_the_report_suffixes_without_loading_qt():
     assert launcher.REPORT_SUFFIXES == gui.report.REPORT_SUFFIXES
+
+
+def test_report_help_loads_no_numpy_and_no_qt():
+    script = """
+import io, json, sys
+from gui.launcher import main
+out = io.StringIO()
+sys.stdout = out
+status = main(["report", "--help"], out=out, err=io.StringIO())
+sys.stdout = sys.__stdout__
+loaded = sorted(name for name in ("numpy", "sympy", "PySide6", "gui.report") if name in sys.modules)
+print(json.dumps({"status": status, "loaded": loaded, "help": out.getvalue()}))
+"""
+    completed = subprocess.run([sys.executable, "-c", script], cwd=ROOT, capture_output=True, text=True,
+                               timeout=HANG_CEILING_S, check=True)
+    result = json.loads(completed.stdout)
+    assert result["status"] == 0 and result["loaded"] == []
+    assert "--certify" in result["help"] and ".html" in result["help"]
+
+
+def test_an_equation_with_an_error_is_refused_in_the_window(make_window, tmp_path):
+    window = make_window()
+    window.document.set_coefficient("a", "1 - M**2 +")
+    assert window.document.compiled is None
+    assert window.export_report(tmp_path / "r.html") is None
+    assert not (tmp_path / "r.html").exists()
+    assert window.notice.text().startswith("Could not make the report: ")
