@@ -20,7 +20,7 @@ from core.analysis.classify import DEFAULT_TOLERANCE
 from core.analysis.out_of_core import DEFAULT_BLOCK_BUDGET, classify_out_of_core
 from core.cli.command import compiled_with_names
 from core.cli.options import EXIT_OK, UsageError
-from core.cli.study import DataFile, _combined, _overridden, _read_data, _rectangle, _template
+from core.cli.study import DataFile, _combined, _overridden, _read_data, _rectangle, inline_start
 from core.data.gridded_store import gridded_format, open_gridded, store_checksum
 from core.data.limits import data_cap, data_cap_raised, gib_text
 from core.data.raw import DataError
@@ -100,13 +100,7 @@ def run_out_of_core(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if codes_path is not None and not codes_path.lower().endswith(".npy"):
         raise UsageError(f"--codes-out {codes_path}: the codes are written as a NumPy .npy file (end the name "
                          "in .npy)")
-    template = _template(args.template) if args.template else None
-    if template is None:
-        missing = [f"--{k}" for k in ("a", "b", "c") if getattr(args, k) is None]
-        if missing:
-            raise UsageError(f"missing {', '.join(missing)} (the coefficients of u_xx, u_xy, u_yy; or start from "
-                             "--template NAME)")
-    variables = tuple(args.vars) if args.vars else (template.equation.variables if template else ("x", "y"))
+    template, variables = inline_start(args)
     others = [DataFile(p, n) for k, (p, n) in enumerate(args.data) if k != index]
     with data_cap_raised(args.data_cap):
         try:

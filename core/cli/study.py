@@ -27,7 +27,7 @@ if TYPE_CHECKING:
     from core.equations.templates import Template
     from core.project.model import Project
 
-__all__ = ["DataFile", "Study", "build_study", "load_project_or_fail"]
+__all__ = ["DataFile", "Study", "build_study", "inline_start", "load_project_or_fail"]
 
 DEFAULT_GRID = (201, 201)
 
@@ -150,13 +150,7 @@ def _build_study(args: argparse.Namespace, project: Project | None) -> Study:
         return _study_from_file(args, project)
     if args.equation is not None:
         raise UsageError("--equation NAME picks an equation of a project FILE, and no FILE was given")
-    template = _template(args.template) if args.template else None
-    if template is None:
-        missing = [f"--{k}" for k in ("a", "b", "c") if getattr(args, k) is None]
-        if missing:
-            raise UsageError(f"missing {', '.join(missing)} (the coefficients of u_xx, u_xy, u_yy; or start from "
-                             "--template NAME)")
-    variables = tuple(args.vars) if args.vars else (template.equation.variables if template else ("x", "y"))
+    template, variables = inline_start(args)
     files = [DataFile(path, names) for path, names in args.data]
     data = _combined(_read_data(files, variables))
     if template is not None:
@@ -182,6 +176,18 @@ def _build_study(args: argparse.Namespace, project: Project | None) -> Study:
         raise UsageError(f"--domain/--grid: {error}") from None
     tolerance = DEFAULT_TOLERANCE if args.tolerance is None else args.tolerance
     return Study(equation, domain, equation.parameter_values(), tolerance, data=data, data_files=tuple(files))
+
+
+def inline_start(args: argparse.Namespace) -> tuple[Template | None, tuple[str, str]]:
+    """The template an inline study starts from (None: none) and its variable names; a usage error when
+    coefficients are missing and no template gives them."""
+    template = _template(args.template) if args.template else None
+    if template is None:
+        missing = [f"--{k}" for k in ("a", "b", "c") if getattr(args, k) is None]
+        if missing:
+            raise UsageError(f"missing {', '.join(missing)} (the coefficients of u_xx, u_xy, u_yy; or start from "
+                             "--template NAME)")
+    return template, tuple(args.vars) if args.vars else (template.equation.variables if template else ("x", "y"))
 
 
 def _template(name: str) -> Template:
