@@ -27,6 +27,7 @@ import os
 from datetime import UTC, datetime
 
 import core
+from core.analysis.tracing import END_REASONS
 from core.equations.math_html import equation_html
 from core.results.certified import certified_document
 from core.results.document import results_document
@@ -38,9 +39,13 @@ from core.results.report_tables import (
     certified_blocks,
     data_rows,
     fraction_rows,
+    not_computed,
     number,
+    paragraph,
     pocket_rows,
+    section,
     seed_rows,
+    table,
 )
 
 __all__ = ["CAUTION", "REPORT_FORMAT", "SECTION_IDS", "report_document"]
@@ -54,26 +59,6 @@ CAUTION = ("Mixtype is an analysis aid for model equations. It validates no desi
 SECTION_IDS = ("study", "caution", "equation", "parameters", "domain", "data", "type-map", "field",
                "type-change-lines", "pockets", "certified", "pins", "characteristics", "sweeps", "critical-values",
                "exact", "notes")
-
-
-def _section(section_id: str, title: str, blocks: list[dict], *, computed: bool = True) -> dict:
-    return {"id": section_id, "title": title, "computed": computed, "blocks": blocks}
-
-
-def _not_computed(section_id: str, title: str, text: str) -> dict:
-    return _section(section_id, title, [{"kind": "not_computed", "text": f"Not computed: {text}"}], computed=False)
-
-
-def _table(columns, rows, *, keyed: bool = False, caption: str = "") -> dict:
-    table = {"kind": "table", "columns": list(columns), "rows": [list(map(str, row)) for row in rows],
-             "keyed": keyed}
-    if caption:
-        table["caption"] = caption
-    return table
-
-
-def _paragraph(text: str) -> dict:
-    return {"kind": "paragraph", "text": text}
 
 
 def report_document(results: ReportResults, *, project=None, project_file: str | os.PathLike | None = None,
@@ -96,7 +81,7 @@ def report_document(results: ReportResults, *, project=None, project_file: str |
     document.update(extra_fields)
     sections = [
         _study_section(document, created),
-        _section("caution", "Caution", [_paragraph(CAUTION)]),
+        section("caution", "Caution", [paragraph(CAUTION)]),
         _equation_section(results),
         _parameters_section(results),
         _domain_section(results),
@@ -128,7 +113,7 @@ def _study_section(document: dict, created: datetime) -> dict:
     else:
         rows.append(("project file", "none (the study was given on the command line)"))
     rows += [("Mixtype version", document["mixtype_version"]), ("report made", created.strftime("%Y-%m-%d %H:%M UTC"))]
-    return _section("study", "The study", [_table(("", ""), rows, keyed=True)])
+    return section("study", "The study", [table(("", ""), rows, keyed=True)])
 
 
 def _equation_section(results: ReportResults) -> dict:
@@ -136,29 +121,29 @@ def _equation_section(results: ReportResults) -> dict:
     lines = equation_html(results.compiled).split("<br>")
     blocks: list[dict] = [{"kind": "math", "lines": lines}]
     if equation.description:
-        blocks.append(_paragraph(equation.description))
+        blocks.append(paragraph(equation.description))
     x, y = equation.variables
     rows = [(f"a (of u_{x}{x})", equation.a), (f"b (of u_{x}{y})", equation.b), (f"c (of u_{y}{y})", equation.c)]
     lower = {"d": f"d (of u_{x})", "e": f"e (of u_{y})", "f": "f (of u)"}
     rows += [(lower[key], text) for key, text in sorted(getattr(equation, "lower_order", {}).items())]
     rows += [(name, text) for name, text in equation.definitions.items()]
-    blocks.append(_table(("name", "as typed"), rows, keyed=True,
+    blocks.append(table(("name", "as typed"), rows, keyed=True,
                          caption="The coefficients and definitions as typed (the map evaluates exactly these)"))
-    return _section("equation", "The equation", blocks)
+    return section("equation", "The equation", blocks)
 
 
 def _parameters_section(results: ReportResults) -> dict:
     parameters = results.equation.parameters
     if not parameters:
-        return _section("parameters", "Parameters", [_paragraph("The equation has no parameters.")])
+        return section("parameters", "Parameters", [paragraph("The equation has no parameters.")])
     rows = []
     for name, parameter in parameters.items():
         value = results.parameters.get(name, parameter.value)
         span = "" if parameter.minimum is None or parameter.maximum is None else \
             f"{parameter.minimum:g} to {parameter.maximum:g}"
         rows.append((name, number(value, 12), parameter.unit or "", span, parameter.description or ""))
-    return _section("parameters", "Parameters",
-                    [_table(("name", "value used", "unit", "slider range", "description"), rows, keyed=True)])
+    return section("parameters", "Parameters",
+                    [table(("name", "value used", "unit", "slider range", "description"), rows, keyed=True)])
 
 
 def _domain_section(results: ReportResults) -> dict:
@@ -166,14 +151,14 @@ def _domain_section(results: ReportResults) -> dict:
     rows = [(x, f"{domain.xmin:.12g} to {domain.xmax:.12g}"), (y, f"{domain.ymin:.12g} to {domain.ymax:.12g}"),
             ("grid", f"{domain.nx} × {domain.ny} nodes"),
             ("parabolic when", f"|D| / (b² + 4|ac|) ≤ {results.tolerance:g}")]
-    return _section("domain", "Domain and grid", [_table(("", ""), rows, keyed=True)])
+    return section("domain", "Domain and grid", [table(("", ""), rows, keyed=True)])
 
 
 def _data_section(document: dict, project, project_file) -> dict:
     rows = data_rows(document["data"], project, project_file)
     if not rows:
-        return _section("data", "Data files", [_paragraph("The study reads no data files.")])
-    return _section("data", "Data files", [_table(("file", "quantities", "SHA-256 (as read)", "against the project"),
+        return section("data", "Data files", [paragraph("The study reads no data files.")])
+    return section("data", "Data files", [table(("file", "quantities", "SHA-256 (as read)", "against the project"),
                                                   rows, caption="Checksums are SHA-256 of the file's bytes")])
 
 
@@ -183,15 +168,15 @@ def _type_map_section(results: ReportResults, document: dict) -> dict:
     blocks = [{"kind": "figure", "figure": "type_map",
                "caption": "Type map: the zones, the type-change lines refined onto D = 0, the characteristics of the "
                           "study's seeds and its pins."},
-              _table(("type", "share of grid nodes", f"area of the zones ({x}·{y})"),
+              table(("type", "share of grid nodes", f"area of the zones ({x}·{y})"),
                      fraction_rows(document["fractions"], results.zones), keyed=True)]
-    return _section("type-map", "Type map", blocks)
+    return section("type-map", "Type map", blocks)
 
 
 def _field_section(results: ReportResults) -> dict:
     settings = results.field_settings
     if results.field is None:
-        return _not_computed("field", "Field layer", results.field_problem or "the field could not be shaded")
+        return not_computed("field", "Field layer", results.field_problem or "the field could not be shaded")
     quantity, grid = results.field_quantity, results.field
     rows = [("quantity", quantity.title), ("range on the grid", f"{number(grid.low)} to {number(grid.high)}"),
             ("colour map", settings.colour_map.replace("_", " ")),
@@ -200,8 +185,8 @@ def _field_section(results: ReportResults) -> dict:
     if grid.coarsened:
         rows.append(("grid", f"{grid.x.size} × {grid.y.size} nodes (coarser than the map's, for display)"))
     blocks = [{"kind": "figure", "figure": "field", "caption": f"Field layer: {quantity.title}."},
-              _table(("", ""), rows, keyed=True)]
-    return _section("field", "Field layer", blocks)
+              table(("", ""), rows, keyed=True)]
+    return section("field", "Field layer", blocks)
 
 
 def _lines_section(results: ReportResults, document: dict) -> dict:
@@ -212,76 +197,81 @@ def _lines_section(results: ReportResults, document: dict) -> dict:
     if boundaries.unrefined:
         refined += f"; {boundaries.unrefined} vertices stayed where the contour put them"
     if document["boundaries"]:
-        blocks.append(_paragraph(f"{len(document['boundaries'])} type-change lines, {refined}."))
-        blocks.append(_table(("line", "vertices", "kind", "left", "right", "length", f"{x} range", f"{y} range"),
+        count = len(document["boundaries"])
+        blocks.append(paragraph(f"{count} type-change line{'s' * (count != 1)}, {refined}."))
+        blocks.append(table(("line", "vertices", "kind", "left", "right", "length", f"{x} range", f"{y} range"),
                              boundary_rows(document["boundaries"])))
     else:
-        blocks.append(_paragraph("The type does not change across a line on this grid."))
+        blocks.append(paragraph("The type does not change across a line on this grid."))
     regions = document["parabolic_regions"]
     if regions:
-        blocks.append(_table(("parabolic region", f"area ({x}·{y})", "holes", "grid cells"),
+        blocks.append(table(("parabolic region", f"area ({x}·{y})", "holes", "grid cells"),
                              [(k, number(r["area"]), len(r["holes"]), r["cells"]) for k, r in enumerate(regions, 1)],
                              caption="Zones where D vanishes on an area"))
-    return _section("type-change-lines", "Type-change lines", blocks)
+    return section("type-change-lines", "Type-change lines", blocks)
 
 
 def _pockets_section(results: ReportResults, document: dict) -> dict:
     pockets = document["pockets"]
     x, y = results.equation.variables
     if not pockets:
-        return _section("pockets", "Hyperbolic pockets", [_paragraph("The sampled map has no hyperbolic node.")])
+        return section("pockets", "Hyperbolic pockets", [paragraph("The sampled map has no hyperbolic node.")])
     quantity = results.pocket_quantity
     columns = ["pocket", f"area ({x}·{y})", "centroid", f"{x} range", f"{y} range", "nodes", "reaches the edge"]
     if quantity:
         columns.append(f"peak {quantity}")
-    return _section("pockets", "Hyperbolic pockets",
-                    [_paragraph(f"{len(pockets)} connected hyperbolic zones of the sampled map, largest first."),
-                     _table(columns, pocket_rows(pockets, with_peak=bool(quantity)))])
+    return section("pockets", "Hyperbolic pockets",
+                    [paragraph(f"{len(pockets)} connected hyperbolic zone{'s' * (len(pockets) != 1)} of the sampled "
+                               "map, largest first."),
+                     table(columns, pocket_rows(pockets, with_peak=bool(quantity)))])
 
 
 def _certified_section(results: ReportResults) -> dict:
     title = "Certified bounds"
     if not results.certified_asked:
-        return _not_computed("certified", title, "the study's certified layer is off (turn it on in the Layers "
+        return not_computed("certified", title, "the study's certified layer is off (turn it on in the Layers "
                              "panel, or give mixtype report --certify)")
     certified = results.certified
     min_cell = certified_min_cell(results.certified_settings, results.domain)
     figure = {"kind": "figure", "figure": "certified",
               "caption": "Certified layer: proven zones lightly tinted in their type's colour, undecided cells "
                          "hatched, a ring on each pocket the sampled map missed."}
-    return _section("certified", title, [figure, *certified_blocks(certified, results.equation.variables, min_cell)])
+    return section("certified", title, [figure, *certified_blocks(certified, results.equation.variables, min_cell)])
 
 
 # -- points and curves ----------------------------------------------------------------------------------------
 def _pins_section(results: ReportResults, document: dict) -> dict:
     if not results.pins:
-        return _section("pins", "Pins", [_paragraph("The study has no pins.")])
+        return section("pins", "Pins", [paragraph("The study has no pins.")])
     blocks = []
     shown = (results.equation.name, results.domain.name)
     for number_, (pin, probe, trade) in enumerate(zip(results.pins, results.probes, results.trades, strict=True), 1):
         blocks.append({"kind": "heading", "text": f"Pin {number_}" + (f": {pin.label}" if pin.label else "")})
         if pin.study is not None and tuple(pin.study) != shown:
-            blocks.append(_paragraph(f"Set in equation “{pin.study[0]}” on domain “{pin.study[1]}”; read here in "
+            blocks.append(paragraph(f"Set in equation “{pin.study[0]}” on domain “{pin.study[1]}”; read here in "
                                      "this study's equation."))
-        blocks.append(_table(("readout", "value"), probe_rows(probe, trade, results.equation.variables,
+        blocks.append(table(("readout", "value"), probe_rows(probe, trade, results.equation.variables,
                                                               results.domain), keyed=True))
-    return _section("pins", "Pins", blocks)
+    return section("pins", "Pins", blocks)
 
 
 def _characteristics_section(results: ReportResults) -> dict:
     if not results.traced:
-        return _section("characteristics", "Characteristics", [_paragraph("The study has no seeds.")])
+        return section("characteristics", "Characteristics", [paragraph("The study has no seeds.")])
     bounces = (f"each half goes on as the other family through up to {results.bounces} reflections or turns"
                if results.bounces else "curves stop at the edge, at the type-change line or where undefined")
-    return _section("characteristics", "Characteristics",
-                    [_paragraph(f"Traced from the study's seeds; {bounces}."),
-                     _table(("seed", "from", "families", "curves", "ends", "events"),
-                            seed_rows(results.traced, results.domain))])
+    reasons = sorted({reason for _seed, curves in results.traced for curve in curves for reason in curve.end_reasons})
+    legend = "; ".join(f"{reason}: {END_REASONS.get(reason, reason)}" for reason in reasons)
+    return section("characteristics", "Characteristics",
+                   [paragraph(f"Traced from the study's seeds; {bounces}."),
+                    table(("seed", "from", "families", "curves", "ends", "events"),
+                          seed_rows(results.traced, results.domain),
+                          caption=f"Ends: how many curve ends stopped for each reason ({legend})")])
 
 
 def _notes_section(project) -> dict:
     notes = "" if project is None else project.notes.strip()
     if not notes:
-        return _section("notes", "Notes", [_paragraph("The study has no notes.")])
-    return _section("notes", "Notes", [_paragraph(part.strip()) for part in notes.split("\n\n") if part.strip()])
+        return section("notes", "Notes", [paragraph("The study has no notes.")])
+    return section("notes", "Notes", [paragraph(part.strip()) for part in notes.split("\n\n") if part.strip()])
 

@@ -19,7 +19,7 @@ import importlib.util
 from core.analysis.sweep_values import Sweep
 from core.results.document import sweep_document
 from core.results.readable import point_without_noise
-from core.results.report_tables import number
+from core.results.report_tables import not_computed, number, paragraph, section
 
 __all__ = ["EXACT_MODULE", "extra_sections", "has_module"]
 
@@ -33,18 +33,6 @@ def has_module(name: str) -> bool:
         return importlib.util.find_spec(name) is not None
     except ModuleNotFoundError:       # a missing parent package
         return False
-
-
-def _section(section_id: str, title: str, blocks: list[dict], *, computed: bool = True) -> dict:
-    return {"id": section_id, "title": title, "computed": computed, "blocks": blocks}
-
-
-def _not_computed(section_id: str, title: str, text: str) -> dict:
-    return _section(section_id, title, [{"kind": "not_computed", "text": f"Not computed: {text}"}], computed=False)
-
-
-def _paragraph(text: str) -> dict:
-    return {"kind": "paragraph", "text": text}
 
 
 def extra_sections(project, results) -> tuple[list[dict], dict]:
@@ -77,7 +65,7 @@ def _sweep_json(sweep, results) -> dict:
 def _sweeps_section(sweeps, results) -> dict:
     title = "Parameter sweeps"
     if not sweeps:
-        return _section("sweeps", title, [_paragraph("The study keeps no parameter sweep for this equation and "
+        return section("sweeps", title, [paragraph("The study keeps no parameter sweep for this equation and "
                                                      "domain.")])
     x, y = results.equation.variables
     blocks = []
@@ -85,7 +73,7 @@ def _sweeps_section(sweeps, results) -> dict:
         unit = f" ({document['parameter_unit']})" if document["parameter_unit"] else ""
         spread = "on a logarithmic scale" if sweep.log else "evenly spaced"
         blocks.append({"kind": "heading", "text": f"Sweep of {sweep.parameter}{unit}"})
-        blocks.append(_paragraph(f"{sweep.count} values from {sweep.low:g} to {sweep.high:g}, {spread}."))
+        blocks.append(paragraph(f"{sweep.count} values from {sweep.low:g} to {sweep.high:g}, {spread}."))
         if not document["rows"]:
             blocks.append({"kind": "not_computed", "text": "Not computed: the sweep has not been run (or its results "
                            "were not kept); run it in the window's sweep panel or with mixtype sweep."})
@@ -104,7 +92,7 @@ def _sweeps_section(sweeps, results) -> dict:
                                                   f"({number(peak['at'][0])}, {number(peak['at'][1])})"])
         blocks.append({"kind": "table", "columns": columns, "rows": rows, "keyed": False,
                        "caption": "Shares of the grid nodes by type, areas on the refined lines, hyperbolic pockets"})
-    return _section("sweeps", title, blocks)
+    return section("sweeps", title, blocks)
 
 
 # -- critical values ------------------------------------------------------------------------------------------
@@ -118,27 +106,27 @@ def _critical_json(sweep, value, domain) -> dict:
 def _critical_section(saved, values: list[dict], results) -> dict:
     title = "Critical parameter values"
     if not has_module("core.analysis.critical"):
-        return _not_computed("critical-values", title, "this version of Mixtype does not search for critical values")
+        return not_computed("critical-values", title, "this version of Mixtype does not search for critical values")
     searched = [sweep for sweep in saved if sweep.critical is not None]
     if not searched:
         text = "No sweep of this study has been searched for critical values (the sweep panel's “Find critical " \
                "values”, or mixtype critical)." if saved else "The study keeps no sweep, so no critical values."
-        return _section("critical-values", title, [_paragraph(text)])
+        return section("critical-values", title, [paragraph(text)])
     x, y = results.equation.variables
     rows = [[value["parameter"], number(value["value"], 9), f"a {value['type']} zone {value['event']}",
              f"({number(value['at'][0])}, {number(value['at'][1])})",
              "—" if value["bracket"] is None else f"{number(value['bracket'][0], 9)} to {number(value['bracket'][1], 9)}"]
             for value in values]
-    blocks = [_paragraph("Where a zone of a type appears or vanishes as the parameter grows, found in the range of "
+    blocks = [paragraph("Where a zone of a type appears or vanishes as the parameter grows, found in the range of "
                          "the study's sweeps.")]
     if rows:
         blocks.append({"kind": "table", "columns": ["parameter", "value", "event", f"first at ({x}, {y})", "bracket"],
                        "rows": rows, "keyed": False})
     else:
-        blocks.append(_paragraph("None in the ranges searched."))
-    return _section("critical-values", title, blocks)
+        blocks.append(paragraph("None in the ranges searched."))
+    return section("critical-values", title, blocks)
 
 
 # -- the exact analysis ---------------------------------------------------------------------------------------
 def _exact_section() -> dict:
-    return _not_computed("exact", "Exact analysis", "this version of Mixtype has no exact symbolic analysis")
+    return not_computed("exact", "Exact analysis", "this version of Mixtype has no exact symbolic analysis")

@@ -1,8 +1,9 @@
-"""The study report's tables: rows of plain text from the results document's fields.
+"""The study report's blocks and tables: rows of plain text from the results document's fields.
 
-Each function takes fields of core.results.document (points already cleaned of rounding noise) or core
-results, and gives rows of strings for core.results.report's table blocks. Numbers are written with six
-significant digits (``number``), ranges as "LOW to HIGH", missing or non-finite values as "undefined".
+``section``, ``paragraph``, ``table`` and ``not_computed`` make the blocks core.results.report describes. The
+row functions take fields of core.results.document (points already cleaned of rounding noise) or core results
+and give rows of strings. Numbers are written with six significant digits (``number``), ranges as "LOW to
+HIGH", missing or non-finite values as "undefined".
 """
 
 from __future__ import annotations
@@ -18,9 +19,34 @@ from core.analysis.classify import TypeCode
 from core.results.certified import CERTIFIED_AREA_ORDER
 from core.results.readable import point_without_noise
 
-__all__ = ["boundary_rows", "certified_blocks", "data_rows", "fraction_rows", "number", "pocket_rows", "seed_rows"]
+__all__ = ["boundary_rows", "certified_blocks", "data_rows", "fraction_rows", "not_computed", "number", "paragraph",
+           "pocket_rows", "section", "seed_rows", "table"]
 
 MAX_ROWS = 50          # rows of one table of lines, pockets or certified pockets (the JSON keeps them all)
+MAX_LISTED = 10        # tangencies named in the certified section's sentence
+
+
+def section(section_id: str, title: str, blocks: list[dict], *, computed: bool = True) -> dict:
+    """One section of the report: its id (the HTML anchor), title, whether its part was computed, its blocks."""
+    return {"id": section_id, "title": title, "computed": computed, "blocks": blocks}
+
+
+def not_computed(section_id: str, title: str, text: str) -> dict:
+    """A section whose part was not computed: one line saying so and why (``text``)."""
+    return section(section_id, title, [{"kind": "not_computed", "text": f"Not computed: {text}"}], computed=False)
+
+
+def paragraph(text: str) -> dict:
+    return {"kind": "paragraph", "text": text}
+
+
+def table(columns, rows, *, keyed: bool = False, caption: str = "") -> dict:
+    """A table block: ``columns`` and ``rows`` as texts (lists); ``keyed`` when the first column names the row."""
+    block = {"kind": "table", "columns": list(columns), "rows": [list(map(str, row)) for row in rows],
+             "keyed": keyed}
+    if caption:
+        block["caption"] = caption
+    return block
 
 
 def number(value, digits: int = 6) -> str:
@@ -133,15 +159,15 @@ def certified_blocks(certified, variables: Sequence[str], min_cell: float) -> li
     domain = certified.domain
     total = (domain.xmax - domain.xmin) * (domain.ymax - domain.ymin)
     share = 100.0 * certified.undecided_area / total if total > 0 else 0.0
-    budget = "; the cell budget ran out (raise it in the Layers panel)" if certified.budget_reached else ""
-    blocks = [{"kind": "paragraph", "text": (
+    budget = "; the cell budget ran out (raise the certified layer's in the Layers panel)" \
+        if certified.budget_reached else ""
+    blocks = [paragraph(
         f"Proven cell by cell with interval bounds on D (the {certified.dependency_form}): {certified.cells} cells "
         f"examined, refined down to {number(certified.min_cell)} (asked: {number(min_cell)}); undecided area "
-        f"{number(certified.undecided_area)} ({share:.4g} % of the domain){budget}.")}]
+        f"{number(certified.undecided_area)} ({share:.4g} % of the domain){budget}.")]
     rows = [[label, number(certified.area[label][0]), number(certified.area[label][1])]
             for label in CERTIFIED_AREA_ORDER]
-    blocks.append({"kind": "table", "columns": ["type", f"proven area ({x}·{y})", "at most"], "rows": rows,
-                   "keyed": True})
+    blocks.append(table(["type", f"proven area ({x}·{y})", "at most"], rows, keyed=True))
     pockets = []
     for index, pocket in enumerate(certified.pockets, 1):
         x0, x1, y0, y1 = pocket.bbox
@@ -150,16 +176,17 @@ def certified_blocks(certified, variables: Sequence[str], min_cell: float) -> li
                         f"{number(pocket.area[0])} to {number(pocket.area[1])}",
                         "proven" if pocket.proven else "possible", missed])
     if pockets:
-        blocks.append({"kind": "table", "columns": ["pocket", "type", f"{x} range", f"{y} range", "area", "exists",
-                                                    "missed by the grid"],
-                       "rows": _limited(pockets, "pockets"), "keyed": False,
-                       "caption": "Certified pockets: the connected zones that may hold each type (proven: surely hold it)"})
+        blocks.append(table(["pocket", "type", f"{x} range", f"{y} range", "area", "exists", "missed by the grid"],
+                            _limited(pockets, "pockets"),
+                            caption="Certified pockets: the connected zones that may hold each type (proven: surely "
+                                    "hold it)"))
     else:
-        blocks.append({"kind": "paragraph", "text": "No certified pocket apart from the main zones."})
-    tangencies = len(certified.tangencies)
-    blocks.append({"kind": "paragraph", "text": (
-        f"Parabolic tangencies (D touches 0 without changing sign): {tangencies}"
-        + ("." if not tangencies else ", at " + "; ".join(
-            f"{x} in {_span(t.bbox[0], t.bbox[1])}, {y} in {_span(t.bbox[2], t.bbox[3])}"
-            for t in certified.tangencies[:10]) + ("; …" if tangencies > 10 else "") + "."))})
+        blocks.append(paragraph("No certified pocket."))
+    places = [f"{x} in {_span(t.bbox[0], t.bbox[1])}, {y} in {_span(t.bbox[2], t.bbox[3])}"
+              for t in certified.tangencies[:MAX_LISTED]]
+    if len(certified.tangencies) > MAX_LISTED:
+        places.append(f"and {len(certified.tangencies) - MAX_LISTED} more")
+    where = f", at {'; '.join(places)}" if places else ""
+    blocks.append(paragraph(f"Parabolic tangencies (D touches 0 without changing sign): "
+                            f"{len(certified.tangencies)}{where}."))
     return blocks
