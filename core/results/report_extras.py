@@ -5,8 +5,8 @@
   as the results document writes them (core.results.document.sweep_document). A sweep never run says so.
 - Critical parameter values (core.analysis.critical): those kept with the sweeps (where a zone of a type
   appears or vanishes as the parameter grows), in the field names of ``mixtype critical --json`` events.
-- The exact symbolic analysis: built when this Mixtype has its module (EXACT_MODULE, looked up with
-  importlib.util.find_spec, nothing imported otherwise); its section reads "Not computed" and why otherwise.
+- The exact symbolic analysis: its section says "Not computed" and why: this Mixtype has no such module
+  (EXACT_MODULE, looked up with importlib.util.find_spec, nothing imported), or the report does not read it yet.
 
 Each part has its section in every report; ``extra_sections`` also returns the JSON the results document
 gains (``sweeps``, ``critical_values``).
@@ -129,4 +129,8 @@ def _critical_section(saved, values: list[dict], results) -> dict:
 
 # -- the exact analysis ---------------------------------------------------------------------------------------
 def _exact_section() -> dict:
-    return not_computed("exact", "Exact analysis", "this version of Mixtype has no exact symbolic analysis")
+    title = "Exact analysis"
+    if not has_module(EXACT_MODULE):
+        return not_computed("exact", title, "this version of Mixtype has no exact symbolic analysis")
+    return not_computed("exact", title, "this report does not read the exact symbolic analysis yet (mixtype analyze "
+                        "FILE --json gives it)")

@@ -28,6 +28,7 @@ from core.project.model import demo_project_path
 from core.project.sweeps import CriticalValue, SavedSweep
 from core.results.readouts import peak_quantity
 from core.results.report import CAUTION, REPORT_FORMAT, SECTION_IDS, report_document
+from core.results.report_extras import EXACT_MODULE, has_module
 from core.results.report_html import inline_svg, report_html
 from core.results.report_results import project_report_results
 from tests.core.cli_runner import run_json
@@ -242,3 +243,9 @@ def test_plain_texts_are_escaped_in_the_page(bump_report):
     page = report_html(report, {})
     assert "a &lt; b &amp; &lt;script&gt;x&lt;/script&gt;" in page and "Notes &lt;b&gt;" in page
     assert "<script" not in page
+
+
+def test_a_module_is_looked_up_without_importing_it():
+    assert has_module("core.results.report_html") and has_module(EXACT_MODULE) == (
+        (ROOT / "core" / "analysis" / "exact.py").is_file())
+    assert not has_module("core.no_such_module") and not has_module("no_such_package.module")
