@@ -35,6 +35,7 @@ __all__ = [
     "classify_grid",
     "classify_nodes",
     "classify_points",
+    "set_grid_threads",
 ]
 
 DEFAULT_TOLERANCE = 1e-10
@@ -42,6 +43,20 @@ _BLOCK_ELEMENTS = 1 << 18   # nodes per block: the fastest of 2**16..2**19 in be
 # hold the GIL between numpy calls less often; cancel still answers within one block)
 _WORKERS = min(8, os.cpu_count() or 1)
 _POOL: ThreadPoolExecutor | None = None
+
+
+def set_grid_threads(count: int) -> None:
+    """How many threads grid classification uses in this process (default: the cores, at most 8). A batch's
+    worker processes share the cores among them: two workers each running two threads on two cores would
+    only take turns."""
+    global _WORKERS, _POOL
+    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+        raise ValueError(f"thread count must be a positive integer, got {count!r}")
+    if count != _WORKERS:
+        if _POOL is not None:
+            _POOL.shutdown(wait=True)
+            _POOL = None
+        _WORKERS = count
 
 
 def _grid_pool() -> ThreadPoolExecutor:

@@ -130,10 +130,13 @@ _STARTED, _NOT_STARTED = object(), object()     # items a broken pool left unfin
 _ANNOUNCE = None                                # in a worker: the queue it tells which item it begins
 
 
-def _listen(queue) -> None:
-    """Worker initializer: keep the queue to announce items on."""
+def _listen(queue, grid_threads: int) -> None:
+    """Worker initializer: keep the queue to announce items on; share the cores with the other workers."""
     global _ANNOUNCE
     _ANNOUNCE = queue
+    from core.analysis.classify import set_grid_threads
+
+    set_grid_threads(grid_threads)
 
 
 def _announced(function: Callable, index: int, item: object) -> object:
@@ -149,7 +152,7 @@ def _pool_round(function: Callable, items: Sequence, indices: Sequence[int], wor
     when the pool broke before it finished."""
     begun = context.SimpleQueue()
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_listen,
-                             initargs=(begun,)) as pool:
+                             initargs=(begun, max(1, available_cores() // workers))) as pool:
         futures = {pool.submit(_announced, function, i, items[i]): i for i in indices}
         pending = set(futures)
         started: set[int] = set()

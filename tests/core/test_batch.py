@@ -353,3 +353,28 @@ def test_dask_without_the_cluster_extra_names_the_install(studies, tmp_path, mon
     assert err == ("mixtype: --dask needs dask and distributed, which are not installed: "
                    "pip install 'mixtype[cluster]'\n")
     assert not (tmp_path / "o").exists()
+
+
+def test_grid_threads_change_speed_only_not_the_map():
+    # a batch's workers share the cores (core.batch.engines gives each cores // workers grid threads)
+    from core.analysis import classify as classify_module
+    from core.analysis.classify import classify_grid, set_grid_threads
+    from core.domain import Domain
+    from core.equations.compiled import compile_equation
+    from core.equations.equation import Equation
+
+    compiled = compile_equation(Equation("1", "0", "x**2 + y**2 - 0.5"))
+    domain = Domain(-1.0, 1.0, -1.0, 1.0, 801, 801)
+    before = classify_module._WORKERS
+    try:
+        set_grid_threads(1)
+        one = classify_grid(compiled, domain)
+        assert classify_module._grid_pool()._max_workers == 1
+        set_grid_threads(2)
+        two = classify_grid(compiled, domain)
+        assert classify_module._grid_pool()._max_workers == 2
+    finally:
+        set_grid_threads(before)
+    assert (one.codes == two.codes).all() and one.fractions == two.fractions
+    with pytest.raises(ValueError, match="positive integer"):
+        set_grid_threads(0)
