@@ -276,8 +276,9 @@ def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mappi
     if a == 0 and b == 0 and c == 0:
         notes.append("a = b = c = 0: there is no second-order part to analyse")
     else:
+        seek = not with_data
         families, canonical = _characteristics_and_forms(budget, coefficients, factored, kinds, x, y,
-                                                         by_symbol, find_invariants=not with_data, notes=notes)
+                                                         by_symbol, notes=notes, find_invariants=seek)
     return ExactAnalysis(
         variables=tuple(compiled.variables), coefficients=coefficients, parameter_values=values,
         parameters_substituted=substitute_parameters, data_quantities=tuple(compiled.data_keys),
