@@ -25,6 +25,7 @@ between the steps by weight; a step that runs out leaves its part None with a no
 
 from __future__ import annotations
 
+import math
 import time
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -52,6 +53,7 @@ from core.equations.equation import Equation
 from core.equations.formula_text import NotInLanguage, formula_text
 from core.equations.language import ExpressionError
 from core.equations.parser import parse_expression, tidy_expression
+from core.progress import CancelCheck, Cancelled, ProgressReport
 
 __all__ = ["DEFAULT_DEADLINE_SECONDS", "LOWER_ORDER_NAMES", "CharacteristicFamily", "ExactAnalysis", "Zone",
            "analyze_equation"]
@@ -117,11 +119,19 @@ class ExactAnalysis:
 
 
 class _Budget:
-    """The analysis' one time budget, shared between steps by weight; notes what ran out."""
+    """The analysis' one time budget, shared between steps by weight; notes what ran out. ``cancel`` is
+    passed to every step; ``progress`` hears the share of the budget used after each step."""
 
-    def __init__(self, seconds: float) -> None:
-        self.end = time.monotonic() + seconds
+    def __init__(self, seconds: float, cancel: CancelCheck | None, progress: ProgressReport | None) -> None:
+        self.start = time.monotonic()
+        self.end = self.start + seconds
+        self.cancel, self.progress = cancel, progress
         self.notes: list[str] = []
+
+    def report(self, done: bool = False) -> None:
+        if self.progress is not None:
+            used = (time.monotonic() - self.start) / (self.end - self.start)
+            self.progress(1.0 if done else min(used, 0.99))
 
     def run(self, what: str, weight: float, later: float, function, *args):
         """``function(*args)`` through run_with_deadline with ``weight / (weight + later)`` of the time left,
@@ -133,24 +143,37 @@ class _Budget:
             self.notes.append(f"{what}: no time left in the deadline")
             return None
         try:
-            return run_with_deadline(function, *args, seconds=seconds)
+            return run_with_deadline(function, *args, seconds=seconds, cancel=self.cancel)
         except TimedOut:
             self.notes.append(f"{what}: sympy did not finish within its share of the deadline "
                               f"({seconds:.3g} s)")
+        except Cancelled:
+            raise
         except Exception as error:  # noqa: BLE001 - sympy raises many kinds; the analysis goes on without it
             self.notes.append(f"{what}: sympy failed ({type(error).__name__}: {error})")
+        finally:
+            self.report()
         return None
 
 
 def _exact_number(value: float) -> sympy.Expr:
-    """The simplest exact number with the same double: a fraction with a small denominator, a simple
-    expression in pi, e or square roots, else the decimal of the shortest repr."""
+    """The simplest exact number with the same double: a fraction with a small denominator, the square root
+    of one, or one times pi or e (what the parser folds sqrt(2), pi/4 to), else the decimal of the shortest
+    repr. A few arithmetic checks, no search: a study may hold thousands of numbers."""
+    if not math.isfinite(value):
+        raise ValueError(f"not a finite number: {value!r}")
     fraction = Fraction(value).limit_denominator(10 ** 6)
     if float(fraction) == value:
         return sympy.Rational(fraction.numerator, fraction.denominator)
-    guess = sympy.nsimplify(sympy.Float(value, 17), [sympy.pi, sympy.E])
-    if guess.is_number and not guess.has(sympy.Float) and float(guess) == value:
-        return guess
+    squared = value * value
+    square = Fraction(squared).limit_denominator(10 ** 4) if 0 < squared < math.inf else 0
+    if square and math.copysign(math.sqrt(square), value) == value:
+        root = sympy.sqrt(sympy.Rational(square.numerator, square.denominator))
+        return root if value > 0 else -root
+    for constant, number in ((sympy.pi, math.pi), (sympy.E, math.e)):
+        ratio = Fraction(value / number).limit_denominator(10 ** 4)
+        if ratio and float(ratio) * number == value:
+            return sympy.Rational(ratio.numerator, ratio.denominator) * constant
     return sympy.Rational(repr(value))
 
 
@@ -233,13 +256,16 @@ def _factor_notes(factored: FactoredDiscriminant, checked_at: Mapping[sympy.Symb
 
 def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mapping[str, float] | None = None,
                      substitute_parameters: bool = False, lower_order: Mapping[str, object] | None = None,
-                     data_names: tuple[str, ...] = (), deadline_seconds: float = DEFAULT_DEADLINE_SECONDS
+                     data_names: tuple[str, ...] = (), deadline_seconds: float = DEFAULT_DEADLINE_SECONDS,
+                     cancel: CancelCheck | None = None, progress: ProgressReport | None = None
                      ) -> ExactAnalysis:
     """The exact analysis of ``equation`` (module docstring). ``parameters`` override the defaults (values
     where signs are sampled, or substituted with ``substitute_parameters``); ``lower_order`` maps "d", "e",
     "f" to formula text, numbers or sympy expressions; ``data_names`` are the data quantities an Equation's
     text may use (a CompiledEquation already knows them). ExpressionError for bad text (its field names
-    the coefficient), ValueError for a bad option."""
+    the coefficient), ValueError for a bad option. ``cancel`` is polled while each step runs (raises
+    core.progress.Cancelled, the step's child process stopped); ``progress`` hears the share of the deadline
+    used."""
     if not deadline_seconds > 0:
         raise ValueError(f"deadline_seconds must be a positive number, got {deadline_seconds!r}")
     compiled = equation if isinstance(equation, CompiledEquation) else compile_equation(equation,
@@ -255,7 +281,7 @@ def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mappi
     data_symbols = frozenset(compiled.symbols[k] for k in compiled.data_keys)
     a, b, c = (coefficients[k] for k in "abc")
     notes: list[str] = []
-    budget = _Budget(deadline_seconds)
+    budget = _Budget(deadline_seconds, cancel, progress)
     raw = b ** 2 - 4 * a * c
     factored = budget.run("factoring D", _WEIGHTS["discriminant"], 2 * _WEIGHTS["family"],
                           factor_discriminant, raw, x, y, by_symbol, data_symbols)
@@ -279,6 +305,7 @@ def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mappi
         seek = not with_data
         families, canonical = _characteristics_and_forms(budget, coefficients, factored, kinds, x, y,
                                                          by_symbol, notes=notes, find_invariants=seek)
+    budget.report(done=True)
     return ExactAnalysis(
         variables=tuple(compiled.variables), coefficients=coefficients, parameter_values=values,
         parameters_substituted=substitute_parameters, data_quantities=tuple(compiled.data_keys),

@@ -4,6 +4,7 @@ against a chain rule computed here independently of core.analysis.canonical_form
 
 from __future__ import annotations
 
+import itertools
 import json
 import time
 
@@ -21,6 +22,7 @@ from core.equations.compiled import compile_equation
 from core.equations.equation import Equation
 from core.equations.language import ExpressionError
 from core.equations.parser import parse_expression
+from core.progress import Cancelled
 from core.project.model import demo_project_path
 from core.results.exact_analysis import document
 from tests.core.cli_runner import run as run_cli
@@ -310,9 +312,25 @@ def test_parameters_kept_as_symbols_or_substituted():
 
 
 def test_decimals_become_the_exact_numbers_they_stand_for():
+    # The parser folds constant parts to doubles (1/3 -> 0.333..., sqrt(2) -> 1.414...); each becomes the
+    # simplest exact number with the same double
     analysis = analyze_equation(Equation(a="0.5*y", b="0", c="1/3"))
     assert analysis.discriminant == -sympy.Rational(2, 3) * Y
     assert analysis.coefficients["a"] == Y / 2
+    folded = analyze_equation(Equation(a="sqrt(2)*y", b="pi/4", c="-0.1"), deadline_seconds=1.5)
+    assert folded.coefficients["a"] == sympy.sqrt(2) * Y and folded.coefficients["b"] == sympy.pi / 4
+    assert folded.coefficients["c"] == -sympy.Rational(1, 10)
+
+
+def test_cancel_stops_the_analysis_and_progress_ends_at_one():
+    # The circle equation's invariants would use the whole 30 s deadline: cancel must stop it early instead
+    started = time.monotonic()
+    with pytest.raises(Cancelled):
+        analyze_equation(Equation(a="1", b="-2*x", c="1 - y**2"),
+                         cancel=lambda: time.monotonic() - started > 0.5)
+    seen: list[float] = []
+    analyze_equation(TRICOMI, progress=seen.append)
+    assert seen and seen[-1] == 1.0 and all(0 <= u <= v <= 1 for u, v in itertools.pairwise(seen))
 
 
 def test_data_quantities_are_symbols_of_unknown_value():
