@@ -143,7 +143,7 @@ def _constant_of(solution: sympy.Eq, function, y) -> list[sympy.Expr]:
     if term == constant:
         return [-rest]
     multiplier = sympy.simplify(term / constant)
-    if not multiplier.has(constant) and multiplier.free_symbols.isdisjoint({y}) and multiplier.is_number:
+    if multiplier.is_number and multiplier != 0:
         return [-rest / multiplier]
     try:
         return [value for value in sympy.solve(relation, constant) if not value.has(constant)]

@@ -7,6 +7,7 @@ from __future__ import annotations
 import itertools
 import json
 import time
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -14,6 +15,7 @@ import sympy
 
 from core.analysis.canonical_forms import transform_operator
 from core.analysis.exact import DEFAULT_DEADLINE_SECONDS, analyze_equation
+from core.analysis.first_integrals import first_integral
 from core.analysis.probe import probe_point
 from core.analysis.tracing import trace_characteristics
 from core.cli import registry
@@ -152,6 +154,20 @@ def test_circle_of_type_change_and_the_deadline_on_an_ode_sympy_cannot_solve():
     result = document(analysis)
     assert [family["invariant"] for family in result["characteristics"]] == [None, None]
     assert result["discriminant_factored"] == "4*(x**2 + y**2 - 1)"
+
+
+def test_sympys_ode_solver_is_the_last_resort_and_what_the_language_lacks_is_null(tricomi):
+    # dy/dx = y/x + x y^2 is a Bernoulli equation, none of the quick methods' cases: sympy's dsolve gives the
+    # constant of integration, checked here to be a first integral with sympy's simplify (a reference library)
+    points = [(0.5, 0.3), (1.2, -0.7), (2.0, 0.25)]
+    found = first_integral(sympy.S.One, Y / X + X * Y ** 2, X, Y, points)
+    assert found.method.startswith("dsolve")
+    assert sympy.simplify(found.invariant.diff(X) + (Y / X + X * Y ** 2) * found.invariant.diff(Y)) == 0
+    # An invariant outside the formula language (the exponential integral Ei) is written null, with a note
+    family = replace(tricomi.characteristics[0], invariant=sympy.Ei(sympy.exp(X)) + sympy.exp(sympy.exp(X)) / Y)
+    result = document(replace(tricomi, characteristics=(family, tricomi.characteristics[1])))
+    assert result["characteristics"][0]["invariant"] is None and result["characteristics"][1]["invariant"]
+    assert any("family 1's invariant is not expressible" in note for note in result["notes"])
 
 
 # --- agreement with the probe and the tracer -------------------------------------------------------------------
