@@ -72,9 +72,9 @@ def _write_text(result: dict, analysis: ExactAnalysis, study, out: TextIO) -> No
         out.write(f"{zone['type']} {where}\n")
     for family in result["characteristics"]:
         slope = family["slope"] if family["slope"] is not None else (
-            "vertical (dx = 0)" if family["direction"] is not None else "(not found)")
+            f"vertical (d{x} = 0)" if family["direction"] is not None else "(not found)")
         invariant = family["invariant"] if family["invariant"] is not None else "(not found)"
-        out.write(f"family {family['family']}: dy/dx = {slope}; constant along it: {invariant}\n")
+        out.write(f"family {family['family']}: d{y}/d{x} = {slope}; constant along it: {invariant}\n")
     for form in result["canonical"]:
         first, second = form["names"]
         if form["coordinates"] is None:
