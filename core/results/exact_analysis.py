@@ -72,7 +72,8 @@ def document(analysis: ExactAnalysis) -> dict:
             "direction": None if direction is None or None in direction else direction,
             "method": family.method})
         if family.direction is not None and family.slope is None:
-            writer.notes.append(f"{label} is vertical (dx = 0): its slope dy/dx is infinite")
+            x, y = analysis.variables
+            writer.notes.append(f"{label} is vertical (d{x} = 0): its slope d{y}/d{x} is infinite")
     canonical = []
     for form in analysis.canonical:
         coordinates = None if form.coordinates is None else \
