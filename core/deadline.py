@@ -11,10 +11,15 @@ from __future__ import annotations
 
 import multiprocessing
 import threading
+import time
 from collections.abc import Callable
 from typing import Any
 
-__all__ = ["TimedOut", "run_with_deadline"]
+from core.progress import CancelCheck, Cancelled
+
+__all__ = ["CANCEL_POLL_SECONDS", "TimedOut", "run_with_deadline"]
+
+CANCEL_POLL_SECONDS = 0.05     # how often a waiting run_with_deadline asks ``cancel``
 
 
 class TimedOut(Exception):
@@ -30,9 +35,26 @@ def _child(connection, function: Callable, args: tuple) -> None:
         connection.close()
 
 
-def run_with_deadline(function: Callable, *args: Any, seconds: float) -> Any:
+def _wait(receiver, seconds: float, cancel: CancelCheck | None) -> bool:
+    """Whether a result came within ``seconds``; Cancelled as soon as ``cancel`` says so."""
+    if cancel is None:
+        return receiver.poll(seconds)
+    end = time.monotonic() + seconds
+    while True:
+        if cancel():
+            raise Cancelled()
+        left = end - time.monotonic()
+        if left <= 0:
+            return receiver.poll(0)
+        if receiver.poll(min(left, CANCEL_POLL_SECONDS)):
+            return True
+
+
+def run_with_deadline(function: Callable, *args: Any, seconds: float,
+                      cancel: CancelCheck | None = None) -> Any:
     """``function(*args)`` in a child process, its result returned; TimedOut after ``seconds``. The function
-    and its arguments and result must be picklable (sympy expressions are)."""
+    and its arguments and result must be picklable (sympy expressions are). ``cancel`` is polled every
+    CANCEL_POLL_SECONDS while waiting: when it returns True the child is stopped and Cancelled raised."""
     if not seconds > 0:
         raise ValueError(f"deadline must be a positive number of seconds, got {seconds!r}")
     method = "fork" if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods() \
@@ -43,7 +65,7 @@ def run_with_deadline(function: Callable, *args: Any, seconds: float) -> Any:
     process.start()
     sender.close()
     try:
-        if not receiver.poll(seconds):
+        if not _wait(receiver, seconds, cancel):
             raise TimedOut(f"no result within {seconds:g} s")
         succeeded, value = receiver.recv()
     except EOFError:

@@ -126,8 +126,8 @@ def _value(e: sympy.Basic, env: dict):
         if e.exp.is_Number and float(e.exp).is_integer():
             power = int(float(e.exp))
             if power < 0:
-                return arb(1) / base ** (-power)
-            return base ** power
+                return arb(1) / _integer_power(base, -power)
+            return _integer_power(base, power)
         return base ** exponent
     function = _FUNCTIONS.get(type(e))
     if function is not None:
@@ -150,6 +150,16 @@ def _value(e: sympy.Basic, env: dict):
                 best = arg
         return best
     raise TypeError(f"no arb evaluation for {type(e).__name__}")
+
+
+def _integer_power(base: arb, power: int) -> arb:
+    """base ** power by products (python-flint's arb ** int gives NaN for a ball around 0 such as [+/- 1e-917],
+    which is finite); even powers of |base|, so the ball stays at or above 0."""
+    factor = abs(base) if power % 2 == 0 else base
+    result = arb(1)
+    for _ in range(power):
+        result = result * factor
+    return result
 
 
 def _compared(condition: sympy.Basic) -> list:
