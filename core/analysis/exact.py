@@ -145,8 +145,7 @@ class _Budget:
         try:
             return run_with_deadline(function, *args, seconds=seconds, cancel=self.cancel)
         except TimedOut:
-            self.notes.append(f"{what}: sympy did not finish within its share of the deadline "
-                              f"({seconds:.3g} s)")
+            self.notes.append(f"{what}: sympy did not finish within its share of the deadline")
         except Cancelled:
             raise
         except Exception as error:  # noqa: BLE001 - sympy raises many kinds; the analysis goes on without it

@@ -5,8 +5,8 @@
   as the results document writes them (core.results.document.sweep_document). A sweep never run says so.
 - Critical parameter values (core.analysis.critical): those kept with the sweeps (where a zone of a type
   appears or vanishes as the parameter grows), in the field names of ``mixtype critical --json`` events.
-- The exact symbolic analysis: its section says "Not computed" and why: this Mixtype has no such module
-  (EXACT_MODULE, looked up with importlib.util.find_spec, nothing imported), or the report does not read it yet.
+- The exact symbolic analysis (core.analysis.exact, computed with the report's results within a deadline):
+  the discriminant factored, type-change curves, zones, characteristic slopes and invariants, canonical forms.
 
 Each part has its section in every report; ``extra_sections`` also returns the JSON the results document
 gains (``sweeps``, ``critical_values``).
@@ -14,25 +14,14 @@ gains (``sweeps``, ``critical_values``).
 
 from __future__ import annotations
 
-import importlib.util
-
 from core.analysis.sweep_values import Sweep
 from core.results.document import sweep_document
 from core.results.readable import point_without_noise
-from core.results.report_tables import not_computed, number, paragraph, section
+from core.results.report_tables import not_computed, number, paragraph, section, table
 
-__all__ = ["EXACT_MODULE", "extra_sections", "has_module"]
+__all__ = ["extra_sections"]
 
-EXACT_MODULE = "core.analysis.exact"
 _SHORT = {"elliptic": "ell.", "parabolic": "par.", "hyperbolic": "hyp.", "undefined": "und."}
-
-
-def has_module(name: str) -> bool:
-    """True when this Mixtype has the module ``name`` (e.g. "core.analysis.exact"); nothing is imported."""
-    try:
-        return importlib.util.find_spec(name) is not None
-    except ModuleNotFoundError:       # a missing parent package
-        return False
 
 
 def extra_sections(project, results) -> tuple[list[dict], dict]:
@@ -45,7 +34,7 @@ def extra_sections(project, results) -> tuple[list[dict], dict]:
               "critical_values": [_critical_json(sweep, value, domain) for sweep in saved
                                   for value in (sweep.critical or ())]}
     sections = [_sweeps_section(sweeps, results), _critical_section(saved, fields["critical_values"], results),
-                _exact_section()]
+                _exact_section(results)]
     return sections, fields
 
 
@@ -105,8 +94,6 @@ def _critical_json(sweep, value, domain) -> dict:
 
 def _critical_section(saved, values: list[dict], results) -> dict:
     title = "Critical parameter values"
-    if not has_module("core.analysis.critical"):
-        return not_computed("critical-values", title, "this version of Mixtype does not search for critical values")
     searched = [sweep for sweep in saved if sweep.critical is not None]
     if not searched:
         text = "No sweep of this study has been searched for critical values (the sweep panel's “Find critical " \
@@ -128,9 +115,32 @@ def _critical_section(saved, values: list[dict], results) -> dict:
 
 
 # -- the exact analysis ---------------------------------------------------------------------------------------
-def _exact_section() -> dict:
+def _exact_section(results) -> dict:
+    """The formulas of `mixtype analyze` for the study's equation, as formula text."""
     title = "Exact analysis"
-    if not has_module(EXACT_MODULE):
-        return not_computed("exact", title, "this version of Mixtype has no exact symbolic analysis")
-    return not_computed("exact", title, "this report does not read the exact symbolic analysis yet (mixtype analyze "
-                        "FILE --json gives it)")
+    exact = getattr(results, "exact", None)
+    if exact is None:
+        return not_computed("exact", title, getattr(results, "exact_problem", "") or "not computed for this report")
+    blocks = [paragraph("Over the whole plane, from the equation's formulas (each formula below is written in "
+                        "Mixtype's formula language and can be pasted into a coefficient)."),
+              table(["quantity", "formula"], [
+                  ["D = b² − 4ac", _formula(exact["discriminant"])],
+                  ["D factored", _formula(exact["discriminant_factored"])],
+                  *(["type changes where", f"{_formula(text)} = 0"] for text in exact["type_change"]),
+                  *([f"{zone['type']} where", "everywhere" if zone["everywhere"] else _formula(zone["condition"])]
+                    for zone in exact["zones"])], keyed=True)]
+    if exact["characteristics"]:
+        x, y = results.equation.variables
+        blocks.append(table(["family", f"slope d{y}/d{x}", "invariant (constant along the family)"],
+                            [[str(family["family"]), _formula(family["slope"]), _formula(family["invariant"])]
+                             for family in exact["characteristics"]], caption="Characteristic families"))
+    if exact["canonical"]:
+        blocks.append(table(["type", "coordinates", "canonical form"],
+                            [[form["type"], ", ".join(_formula(c) for c in (form["coordinates"] or [])) or "—",
+                              _formula(form["form"])] for form in exact["canonical"]], caption="Canonical forms"))
+    blocks.extend(paragraph(f"Note: {note}") for note in exact["notes"])
+    return section("exact", title, blocks)
+
+
+def _formula(text: str | None) -> str:
+    return "not found" if text is None else text

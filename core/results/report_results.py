@@ -48,6 +48,7 @@ __all__ = ["ReportResults", "certified_min_cell", "compute_report_results", "pro
 # takes the rest).
 _STEPS = {"map": 0.30, "lines": 0.15, "zones": 0.05, "pockets": 0.10, "pins": 0.05, "seeds": 0.15, "field": 0.20}
 _CERTIFIED_SHARE = 0.5     # of the whole, when the certified map is computed
+EXACT_DEADLINE_SECONDS = 8.0     # the exact analysis in a report: what sympy has not found by then is noted
 
 
 @dataclass(frozen=True, eq=False)
@@ -84,6 +85,8 @@ class ReportResults:
     certified_asked: bool
     certified_settings: CertifiedLayerSettings
     certified: CertifiedMap | None
+    exact: dict | None = None          # `mixtype analyze --json`'s document; None with exact_problem saying why
+    exact_problem: str = ""
 
 
 def certified_min_cell(settings: CertifiedLayerSettings, domain: Domain) -> float:
@@ -181,6 +184,7 @@ def compute_report_results(compiled: CompiledEquation, equation: Equation, domai
                                         min_cell=certified_min_cell(certified, domain),
                                         max_cells=certified.max_cells, sampled=type_map, cancel=cancel,
                                         progress=steps.step("certified"), **options)
+    exact, exact_problem = _exact(compiled, equation, parameters, cancel)
     if progress is not None:
         progress(1.0)
     return ReportResults(
@@ -189,7 +193,21 @@ def compute_report_results(compiled: CompiledEquation, equation: Equation, domai
         pocket_quantity=quantity, pins=tuple(pins), probes=tuple(probes), trades=tuple(trades), traced=tuple(traced),
         bounces=int(bounces), field_settings=field, field_quantity=field_quantity, field=grid, iso_lines=lines,
         field_problem=problem, certified_asked=asked, certified_settings=certified,
-        certified=certified_map if asked else None)
+        certified=certified_map if asked else None, exact=exact, exact_problem=exact_problem)
+
+
+def _exact(compiled: CompiledEquation, equation: Equation, parameters, cancel) -> tuple[dict | None, str]:
+    """The exact analysis' document (core.results.exact_analysis), or None and why, within
+    EXACT_DEADLINE_SECONDS (what sympy does not finish in time is reported as not found, with a note)."""
+    from core.analysis.exact import analyze_equation  # sympy's heavier modules load only for a report
+    from core.results.exact_analysis import document
+
+    try:
+        analysis = analyze_equation(compiled, parameters=parameters, lower_order=dict(equation.lower_order) or None,
+                                    deadline_seconds=EXACT_DEADLINE_SECONDS, cancel=cancel)
+    except (ValueError, ArithmeticError) as error:
+        return None, f"the exact analysis failed: {error}"
+    return document(analysis), ""
 
 
 def _field(compiled, equation, domain, settings: FieldLayerSettings, data, cancel, progress, options):

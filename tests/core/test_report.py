@@ -28,7 +28,6 @@ from core.project.model import demo_project_path
 from core.project.sweeps import CriticalValue, SavedSweep
 from core.results.readouts import peak_quantity
 from core.results.report import CAUTION, REPORT_FORMAT, SECTION_IDS, report_document
-from core.results.report_extras import EXACT_MODULE, has_module
 from core.results.report_html import inline_svg, report_html
 from core.results.report_results import project_report_results
 from tests.core.cli_runner import run_json
@@ -76,12 +75,11 @@ def test_every_section_in_order_with_the_parts_not_computed_saying_so(bump_repor
     assert bump_report["format"] == REPORT_FORMAT and bump_report["created"] == "2026-03-04T05:06:07Z"
     assert [s["id"] for s in bump_report["sections"]] == list(SECTION_IDS)
     computed = {s["id"]: s["computed"] for s in bump_report["sections"]}
-    # the demo's certified layer is off and this Mixtype has no exact analysis: one line each, no more
-    assert [k for k, v in computed.items() if not v] == ["certified", "exact"]
-    for section_id in ("certified", "exact"):
-        blocks = section(bump_report, section_id)["blocks"]
-        assert len(blocks) == 1 and blocks[0]["kind"] == "not_computed"
-        assert blocks[0]["text"].startswith("Not computed: ")
+    # the demo's certified layer is off: one line, no more
+    assert [k for k, v in computed.items() if not v] == ["certified"]
+    blocks = section(bump_report, "certified")["blocks"]
+    assert len(blocks) == 1 and blocks[0]["kind"] == "not_computed"
+    assert blocks[0]["text"].startswith("Not computed: ")
     figures = [b["figure"] for s in bump_report["sections"] for b in s["blocks"] if b["kind"] == "figure"]
     assert figures == ["type_map", "field"]
 
@@ -245,7 +243,13 @@ def test_plain_texts_are_escaped_in_the_page(bump_report):
     assert "<script" not in page
 
 
-def test_a_module_is_looked_up_without_importing_it():
-    assert has_module("core.results.report_html") and has_module(EXACT_MODULE) == (
-        (ROOT / "core" / "analysis" / "exact.py").is_file())
-    assert not has_module("core.no_such_module") and not has_module("no_such_package.module")
+def test_the_exact_analysis_is_mixtype_analyzes():
+    # Tricomi's equation y u_xx + u_yy = 0 changes type on y = 0 (L. Bers, "Mathematical Aspects of Subsonic and
+    # Transonic Gas Dynamics", Wiley 1958); the report shows what `mixtype analyze FILE --json` prints
+    report = report_of(TRICOMI)
+    rows = dict(table_rows(report, "exact"))
+    analyzed = run_json("analyze", str(TRICOMI))
+    assert rows["D = b² − 4ac"] == analyzed["discriminant"] == "-4*y"
+    assert rows["type changes where"] == "y = 0"
+    invariants = [row[2] for row in table_rows(report, "exact", 1)]
+    assert invariants == [family["invariant"] for family in analyzed["characteristics"]]
