@@ -11,10 +11,15 @@ from __future__ import annotations
 
 import multiprocessing
 import threading
+import time
 from collections.abc import Callable
 from typing import Any
 
+from core.progress import CancelCheck, Cancelled
+
 __all__ = ["TimedOut", "run_with_deadline"]
+
+_CANCEL_POLL_S = 0.05       # how often a waiting caller asks whether it was cancelled
 
 
 class TimedOut(Exception):
@@ -30,9 +35,10 @@ def _child(connection, function: Callable, args: tuple) -> None:
         connection.close()
 
 
-def run_with_deadline(function: Callable, *args: Any, seconds: float) -> Any:
+def run_with_deadline(function: Callable, *args: Any, seconds: float, cancel: CancelCheck | None = None) -> Any:
     """``function(*args)`` in a child process, its result returned; TimedOut after ``seconds``. The function
-    and its arguments and result must be picklable (sympy expressions are)."""
+    and its arguments and result must be picklable (sympy expressions are). ``cancel`` is asked every 50 ms
+    while waiting: when it returns True the child is stopped and Cancelled raised."""
     if not seconds > 0:
         raise ValueError(f"deadline must be a positive number of seconds, got {seconds!r}")
     method = "fork" if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods() \
@@ -43,8 +49,7 @@ def run_with_deadline(function: Callable, *args: Any, seconds: float) -> Any:
     process.start()
     sender.close()
     try:
-        if not receiver.poll(seconds):
-            raise TimedOut(f"no result within {seconds:g} s")
+        _wait(receiver, seconds, cancel)
         succeeded, value = receiver.recv()
     except EOFError:
         raise RuntimeError(f"the symbolic work stopped without a result (exit code {process.exitcode})") from None
@@ -56,3 +61,17 @@ def run_with_deadline(function: Callable, *args: Any, seconds: float) -> Any:
     if not succeeded:
         raise value
     return value
+
+
+def _wait(receiver, seconds: float, cancel: CancelCheck | None) -> None:
+    """Until the child's result can be read; TimedOut or Cancelled first."""
+    if cancel is None:
+        if not receiver.poll(seconds):
+            raise TimedOut(f"no result within {seconds:g} s")
+        return
+    deadline = time.monotonic() + seconds
+    while not receiver.poll(max(0.0, min(_CANCEL_POLL_S, deadline - time.monotonic()))):
+        if cancel():
+            raise Cancelled("symbolic work cancelled")
+        if time.monotonic() >= deadline:
+            raise TimedOut(f"no result within {seconds:g} s")
