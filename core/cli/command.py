@@ -20,9 +20,10 @@ from core.results.document import source_document
 __all__ = ["compiled_study", "compiled_with_names", "read_study", "source_fields"]
 
 
-def read_study(args: argparse.Namespace, err: TextIO) -> Study:
-    """The study the options (and FILE) describe; its warnings go to ``err``."""
-    study = build_study(args)
+def read_study(args: argparse.Namespace, err: TextIO, *, domain_required: bool = True) -> Study:
+    """The study the options (and FILE) describe; its warnings go to ``err`` (``domain_required``: see
+    core.cli.study.build_study)."""
+    study = build_study(args, domain_required=domain_required)
     err.writelines(f"mixtype: warning: {line}\n" for line in study.warnings)
     return study
 

@@ -50,7 +50,7 @@ def _build_parser(commands: Sequence[Command]) -> _Parser:
     return parser
 
 
-_EXPRESSION_OPTIONS = frozenset({"--a", "--b", "--c", "--let", "--param"})
+_EXPRESSION_OPTIONS = frozenset({"--a", "--b", "--c", "--d", "--e", "--f", "--let", "--param"})
 
 
 def _glue_expression_values(argv: list[str]) -> list[str]:

@@ -2,8 +2,8 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy: each has ``run(args, out,
-err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
+(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy, analyze: each has ``run(args,
+out, err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
 line, in ``_implemented_in``.
 """
 
@@ -193,6 +193,35 @@ def _add_batch_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print the summary as one JSON document")
 
 
+MAX_DEADLINE_SECONDS = 3600.0     # --deadline: an hour
+# core.analysis.exact.DEFAULT_DEADLINE_SECONDS, written here again so that --help loads no sympy (a test keeps
+# the two equal).
+DEFAULT_DEADLINE_SECONDS = 30.0
+
+
+def deadline_seconds(text: str) -> float:
+    """--deadline SECONDS: a number above 0, at most MAX_DEADLINE_SECONDS."""
+    value = finite(text)
+    if not 0 < value <= MAX_DEADLINE_SECONDS:
+        raise argparse.ArgumentTypeError(f"expected seconds above 0 and at most {MAX_DEADLINE_SECONDS:g}, "
+                                         f"got {text!r}")
+    return value
+
+
+def _add_analyze_arguments(parser: argparse.ArgumentParser) -> None:
+    add_equation_options(parser)
+    group = parser.add_argument_group("exact analysis")
+    group.add_argument("--d", metavar="EXPR", help="coefficient of u_x (default 0)")
+    group.add_argument("--e", metavar="EXPR", help="coefficient of u_y (default 0)")
+    group.add_argument("--f", metavar="EXPR", help="coefficient of u (default 0)")
+    group.add_argument("--substitute-parameters", action="store_true",
+                       help="put the parameters' values into the formulas (default: keep them as symbols, their "
+                            "values only deciding signs where a factor holds them)")
+    group.add_argument("--deadline", type=deadline_seconds, default=DEFAULT_DEADLINE_SECONDS, metavar="SECONDS",
+                       help=f"the most the symbolic work may take in all (default {DEFAULT_DEADLINE_SECONDS:g}); "
+                            "what does not finish in time is reported as not found, with a note")
+
+
 def _add_templates_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON document instead of a table")
 
@@ -238,5 +267,13 @@ BATCH = Command("batch", "many studies in one run: a result per project file or 
                 "summary.json hold a row per job. Exit status 1 when any job failed (its row says why), 2 for "
                 "bad options.")
 
+ANALYZE = Command("analyze", "exact analysis: D factored, type-change curves, zones, invariants, canonical forms",
+                  _add_analyze_arguments, _implemented_in("core.cli.analyze"),
+                  description="Analyse a u_xx + b u_xy + c u_yy + d u_x + e u_y + f u = 0 symbolically over the "
+                  "whole plane: D = b^2 - 4ac factored, the curves where the type changes, the zones and their "
+                  "conditions, each characteristic family's slope and an invariant constant along it, and the "
+                  "canonical form of each type. Every formula is written in Mixtype's formula language. No grid is "
+                  "needed: --domain and --grid are accepted (as by every command) and not used.")
 
-HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, BATCH, CAUCHY)
+HEADLESS_COMMANDS: tuple[Command, ...] = (CLASSIFY, SWEEP, PROBE, TRACE, CRITICAL, CHECK, TEMPLATES, BATCH, CAUCHY,
+                                          ANALYZE)

@@ -27,9 +27,10 @@ if TYPE_CHECKING:
     from core.equations.templates import Template
     from core.project.model import Project
 
-__all__ = ["DataFile", "Study", "build_study", "load_project_or_fail"]
+__all__ = ["PLACEHOLDER_DOMAIN", "DataFile", "Study", "build_study", "load_project_or_fail"]
 
 DEFAULT_GRID = (201, 201)
+PLACEHOLDER_DOMAIN = (-1.0, 1.0, -1.0, 1.0)   # the rectangle of a study whose command needs none
 
 
 @dataclass(frozen=True)
@@ -132,17 +133,20 @@ def _combined(datasets: list[DataSet]) -> DataSources | None:
         raise UsageError(f"--data: {error}") from None
 
 
-def build_study(args: argparse.Namespace, *, project: Project | None = None) -> Study:
+def build_study(args: argparse.Namespace, *, project: Project | None = None,
+                domain_required: bool = True) -> Study:
     """The equation, domain and data of a command; every problem is a UsageError naming the option.
 
     ``project`` is FILE's project when the caller has read it already (``mixtype batch`` passes it without
-    the data source a sweep file stands in for); None reads FILE.
+    the data source a sweep file stands in for); None reads FILE. A command that works on the formulas alone
+    (analyze) passes ``domain_required=False``: without --domain, FILE or a template the study then holds
+    PLACEHOLDER_DOMAIN, which such a command never reads.
     """
     with data_cap_raised(args.data_cap):
-        return _build_study(args, project)
+        return _build_study(args, project, domain_required)
 
 
-def _build_study(args: argparse.Namespace, project: Project | None) -> Study:
+def _build_study(args: argparse.Namespace, project: Project | None, domain_required: bool = True) -> Study:
     if args.file:
         if args.template:
             raise UsageError("--template starts an equation without a project FILE; it cannot be combined with "
@@ -172,7 +176,9 @@ def _build_study(args: argparse.Namespace, project: Project | None) -> Study:
     rectangle = _rectangle(args)
     suggested = template.domain if template is not None else None
     if rectangle is None and suggested is None:
-        raise UsageError("missing --domain XMIN XMAX YMIN YMAX")
+        if domain_required:
+            raise UsageError("missing --domain XMIN XMAX YMIN YMAX")
+        rectangle = list(PLACEHOLDER_DOMAIN)
     if rectangle is None:
         rectangle = [suggested.xmin, suggested.xmax, suggested.ymin, suggested.ymax]
     nx, ny = _grid(args, (suggested.nx, suggested.ny) if suggested is not None else DEFAULT_GRID)

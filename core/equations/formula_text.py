@@ -1,7 +1,8 @@
 """Sympy expressions written back as Mixtype formula text, so a computed formula can be pasted into a coefficient.
 
 The printer covers what the expression language has (core.equations.language): + - * / **, numbers, the
-constants pi and e, the functions of FUNCTIONS, piecewise(cond, value, ..., otherwise) with < <= > >=.
+constants pi and e, the functions of FUNCTIONS, piecewise(cond, value, ..., otherwise) with < <= > >=, and
+conditions joined by ``and`` / ``or`` (a condition alone reads back inside piecewise(), as the language wants).
 Numbers print exactly: integers as integers, rationals as quotients of integers, floats by repr (the shortest
 text that reads back as the same double). Anything outside the language (an integral, the imaginary unit, an
 unknown function) raises NotInLanguage naming it, rather than printing text the parser would refuse.
@@ -29,8 +30,8 @@ class NotInLanguage(ValueError):
 class _FormulaPrinter(StrPrinter):
     """StrPrinter (its precedence and parenthesising) with the language's names and exact numbers."""
 
-    def __init__(self, names: Mapping[sympy.Symbol, str]) -> None:
-        super().__init__({"order": "none"})
+    def __init__(self, names: Mapping[sympy.Symbol, str], order: str | None) -> None:
+        super().__init__({"order": order})
         self._names = names
 
     def _print_Symbol(self, e: sympy.Symbol) -> str:
@@ -94,6 +95,13 @@ class _FormulaPrinter(StrPrinter):
             raise NotInLanguage(f"the comparison {e.rel_op} is not in Mixtype's formula language")
         return f"{self._print(e.lhs)} {e.rel_op} {self._print(e.rhs)}"
 
+    def _print_And(self, e) -> str:
+        return " and ".join(f"({self._print(arg)})" if isinstance(arg, sympy.Or) else self._print(arg)
+                            for arg in e.args)
+
+    def _print_Or(self, e) -> str:
+        return " or ".join(self._print(arg) for arg in e.args)
+
     def _print_Piecewise(self, e) -> str:
         parts = []
         for value, condition in e.args[:-1]:
@@ -115,14 +123,16 @@ class _FormulaPrinter(StrPrinter):
     _print_NaN = emptyPrinter
     _print_Derivative = emptyPrinter
     _print_Subs = emptyPrinter
-    _print_And = emptyPrinter
-    _print_Or = emptyPrinter
 
 
-def formula_text(expression: sympy.Basic, names: Mapping[sympy.Symbol, str] | None = None) -> str:
-    """``expression`` as Mixtype formula text; ``names`` renames symbols (default: their own names)."""
+def formula_text(expression: sympy.Basic, names: Mapping[sympy.Symbol, str] | None = None, *,
+                 order: str | None = "none") -> str:
+    """``expression`` as Mixtype formula text; ``names`` renames symbols (default: their own names).
+
+    ``order`` is sympy's term order: "none" (the default) prints terms as stored, which costs nothing on large
+    expressions; None sorts them as sympy prints them (x**2 + y**2 - 1, not -1 + x**2 + y**2)."""
     if not isinstance(expression, sympy.Basic):
         raise TypeError(f"expected a sympy expression, got {type(expression).__name__}")
     if expression.has(sympy.I):
         raise NotInLanguage("the expression is complex-valued (it holds the imaginary unit)")
-    return _FormulaPrinter(dict(names or {})).doprint(expression)
+    return _FormulaPrinter(dict(names or {}), order).doprint(expression)

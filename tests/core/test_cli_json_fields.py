@@ -50,6 +50,8 @@ CASES = {
     "critical_inline": ("critical", "--a", "1", "--b", "0", "--c", "x**2 + y**2 - p", "--domain", "-1", "1", "-1",
                         "1", "--grid", "9", "--vary", "p", "--between", "-1", "1"),
     "critical_file": ("critical", TRICOMI, "--grid", "9", "--vary", "k", "--between", "0", "1", "--no-certify"),
+    "analyze_inline": ("analyze", "--a", "1 - M**2", "--b", "0", "--c", "1", "--param", "M=1.6", "--d", "1"),
+    "analyze_file": ("analyze", TRICOMI),
 }
 
 CLASSIFY_FIELDS = {
@@ -58,6 +60,18 @@ CLASSIFY_FIELDS = {
     "parabolic_regions", "pockets", "pockets[].area", "pockets[].bounding_box", "pockets[].centroid",
     "pockets[].nodes", "pockets[].peak", "pockets[].touches_boundary", "refined", "tolerance", "variables",
 }
+ANALYZE_FIELDS = {
+    "discriminant", "discriminant_factored", "type_change", "zones", "zones[].type", "zones[].condition",
+    "zones[].everywhere", "characteristics", "characteristics[].family", "characteristics[].slope",
+    "characteristics[].invariant", "characteristics[].direction", "characteristics[].method", "canonical",
+    "canonical[].type", "canonical[].coordinates", "canonical[].form", "canonical[].names", "canonical[].terms",
+    "canonical[].terms[].derivative", "canonical[].terms[].coefficient", "notes", "tangencies", "factors",
+    "factors[].expression", "factors[].multiplicity", "factors[].role", "coefficients", "coefficients.a",
+    "coefficients.b", "coefficients.c", "coefficients.d", "coefficients.e", "coefficients.f", "variables",
+    "parameter_values", "parameters_substituted", "data_quantities", "deadline_seconds",
+}
+STUDY_FIELDS = {"mixtype_version", "equation", "equation.name", "equation.variables", "equation.a", "equation.b",
+                "equation.c", "equation.definitions", "equation.parameters", "parameters"}
 TODAY = {
     "classify_certified": CLASSIFY_FIELDS,
     "classify_inline": {
@@ -138,6 +152,12 @@ TODAY = {
         "domain_of_dependence", "general_solution", "line", "line.normal", "line.origin", "line.parameter",
         "line.tangent", "notes", "solution", "type", "value",
     },
+    # mixtype analyze (exact analysis): the seven fields the issue names (discriminant, discriminant_factored,
+    # type_change, zones, characteristics, canonical, notes), the study's fields as every command prints them,
+    # and what a reader needs besides
+    "analyze_inline": ANALYZE_FIELDS | STUDY_FIELDS | {"parameter_values[].name", "parameter_values[].value"},
+    "analyze_file": ANALYZE_FIELDS | STUDY_FIELDS | {"project_checksum", "source", "source.domain",
+                                                     "source.equation", "source.file"},
 }
 
 # Added by the results document: the Mixtype version, the equation as text and the parameter values used
@@ -167,6 +187,8 @@ ADDED: dict[str, set[str]] = {
     "trace_file": STUDY | {"project_checksum", "curves[].events"},
     "trace_seeds": STUDY | {"project_checksum", "seeds[].curves[].events"},
     "cauchy": set(),
+    "analyze_inline": set(),
+    "analyze_file": set(),
 }
 # mixtype critical (issue: critical parameter values): the first event at the top, every event in "events".
 CRITICAL_EVENT = {"parameter", "value", "bracket", "event", "at", "type"}

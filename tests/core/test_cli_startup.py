@@ -46,7 +46,8 @@ print(json.dumps({{"runs": runs, "heavy": heavy, "core": core}}))
 
 
 def test_help_version_and_every_command_help_load_no_numpy_sympy_or_scipy():
-    commands = ["classify", "sweep", "probe", "trace", "critical", "check", "templates", "batch", "cauchy"]
+    commands = ["classify", "sweep", "probe", "trace", "critical", "check", "templates", "batch", "cauchy",
+                "analyze"]
     report = loaded_after(["--help"], ["--version"], *([name, "--help"] for name in commands))
     assert [status for status, _, _ in report["runs"]] == [0] * (2 + len(commands))
     assert report["heavy"] == []

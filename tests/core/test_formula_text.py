@@ -45,6 +45,22 @@ def test_what_the_language_lacks_is_refused_by_name(expression):
         formula_text(expression)
 
 
+@pytest.mark.parametrize("condition", [sympy.And(Y < 0, sympy.Abs(X - Y) > 0), sympy.Or(Y < 0, sympy.And(X > 1, Y >= 2)),
+                                       sympy.And(sympy.Or(X < 0, Y < 0), X + Y <= 1)], ids=str)
+def test_conditions_joined_by_and_or_read_back_inside_piecewise(condition):
+    text = formula_text(condition)
+    back = parse_expression(f"piecewise({text}, 1, 0)", {"x": X, "y": Y}).value
+    for point in ((0.3, -0.7), (-0.4, 0.2), (1.5, 2.5), (2.0, -0.5), (-1.0, 1.5)):
+        at = {X: point[0], Y: point[1]}
+        assert bool(back.subs(at) == 1) == bool(condition.subs(at))
+
+
+def test_sorted_order_prints_terms_as_sympy_does():
+    circle = X ** 2 + Y ** 2 - 1
+    assert formula_text(circle, order=None) == "x**2 + y**2 - 1"
+    assert formula_text(sympy.Mul(4, circle, evaluate=False), order=None) == "4*(x**2 + y**2 - 1)"
+
+
 def _sleep(seconds: float) -> None:
     import time
 
