@@ -46,7 +46,7 @@ MAX_ENTRIES = 1000
 LOGGED_CHANNELS = {"map": "Type map", "lines": "Type-change lines", "pockets": "Hyperbolic pockets",
                    "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file",
                    "certified": "Certified map", "sweep": "Parameter sweep", "critical": "Critical values",
-                   "cauchy": "Cauchy problem"}
+                   "cauchy": "Cauchy problem", "exact": "Exact analysis"}
 
 
 @dataclass(frozen=True)
@@ -306,6 +306,12 @@ def _result_text(channel: str, result: object, *, dragging: bool) -> str:
         return f"{_plural(len(search.events), 'event')} of {search.type} zones in {search.parameter}{proof}"
     if channel == "characteristics":
         return _plural(sum(len(traced.curves) for traced in result), "curve")
+    if channel == "exact":
+        _inputs, analysis, _texts = result
+        found = sum(family.invariant is not None for family in analysis.characteristics)
+        forms = sum(form.lower is not None for form in analysis.canonical)
+        return (f"{_plural(len(analysis.zones), 'zone')}, {_plural(found, 'invariant')}, "
+                f"{_plural(forms, 'canonical form')}")
     if channel == "cauchy":
         _inputs, _domain, found = result
         solution = getattr(found, "solution", None)

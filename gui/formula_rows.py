@@ -45,32 +45,35 @@ class FormulaRows(QWidget):
         self.copy_buttons = {}
 
     def show_groups(self, groups: Sequence[tuple[str, Sequence[FormulaRow | str]]]) -> None:
-        """Replace what is shown by ``groups``: (title, rows) pairs, a row a FormulaRow or a plain line of text."""
+        """Replace what is shown by ``groups``: (title, rows) pairs, a row a FormulaRow or a plain line of text.
+        One grid holds every group, so the formulas of all groups line up."""
         self.clear()
+        grid = QGridLayout()
+        grid.setHorizontalSpacing(8)
+        grid.setColumnStretch(1, 1)
+        line = 0
         for title, rows in groups:
             heading = QLabel(f"<b>{title}</b>")
             heading.setTextFormat(Qt.TextFormat.RichText)
-            self._layout.addWidget(heading)
-            grid = QGridLayout()
-            grid.setContentsMargins(8, 0, 0, 0)
-            grid.setHorizontalSpacing(8)
-            grid.setColumnStretch(1, 1)
-            for number, row in enumerate(rows):
+            grid.addWidget(heading, line, 0, 1, 3)
+            line += 1
+            for row in rows:
                 if isinstance(row, str):
-                    line = QLabel(row)
-                    line.setWordWrap(True)
-                    line.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-                    grid.addWidget(line, number, 0, 1, 3)
+                    plain = QLabel(row)
+                    plain.setWordWrap(True)
+                    plain.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+                    plain.setContentsMargins(8, 0, 0, 0)
+                    grid.addWidget(plain, line, 0, 1, 3)
+                    line += 1
                     continue
                 label = QLabel(row.label)
+                label.setContentsMargins(8, 0, 0, 0)
                 label.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
                 formula = QLabel(row.html)
                 formula.setTextFormat(Qt.TextFormat.RichText)
                 formula.setWordWrap(True)
                 formula.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
                 formula.setStyleSheet("QLabel { font-size: 11.5pt; }")
-                grid.addWidget(label, number, 0)
-                grid.addWidget(formula, number, 1)
                 button = QPushButton("Copy")
                 button.setToolTip(f"Copy as formula text: {row.text}" if row.text is not None else
                                   (row.why or "This formula has no formula text"))
@@ -78,8 +81,11 @@ class FormulaRows(QWidget):
                 if row.text is not None:
                     button.clicked.connect(lambda checked=False, text=row.text: self.copy(text))
                     self.copy_buttons[f"{title}: {row.label}"] = button
-                grid.addWidget(button, number, 2, Qt.AlignmentFlag.AlignTop)
-            self._layout.addLayout(grid)
+                grid.addWidget(label, line, 0)
+                grid.addWidget(formula, line, 1)
+                grid.addWidget(button, line, 2, Qt.AlignmentFlag.AlignTop)
+                line += 1
+        self._layout.addLayout(grid)
         self._layout.addStretch(1)
 
     def copy(self, text: str) -> None:

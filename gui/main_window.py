@@ -1,5 +1,5 @@
 """Mixtype's main window: the map takes most of it; the study's panels on the left, pins, pockets, the parameter
-sweep and the Cauchy problem below it.
+sweep, the Cauchy problem and the exact analysis below it.
 
 Lays out the widgets and wires the document (edits, undo), the analysis (background results) and the widgets
 together. Its commands live beside it: gui.file_commands (new, open, recent, save, autosave, recovery),
@@ -47,6 +47,7 @@ from gui.panels.cauchy import CauchyPanel
 from gui.panels.data import DataPanel
 from gui.panels.domain import DomainPanel
 from gui.panels.equation import EquationPanel
+from gui.panels.exact import ExactPanel
 from gui.panels.layers import LayersPanel
 from gui.panels.log import LogPanel
 from gui.panels.notes import NotesPanel
@@ -62,7 +63,7 @@ from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
-LAYOUT_VERSION = 4     # saved panel layouts of other versions are not restored (version 4: the Cauchy tab)
+LAYOUT_VERSION = 4     # saved panel layouts of other versions are not restored (4: the Cauchy and exact tabs)
 
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified")
 
@@ -120,6 +121,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.data_panel = DataPanel(self.document)
         self.sweep_panel = SweepPanel(self.document, self.runner)
         self.cauchy_panel = CauchyPanel(self.document, self.runner)
+        self.exact_panel = ExactPanel(self.document, self.runner)
         # One column of the study's panels on the left (the equation above, the rest as tabs below it); pins,
         # pockets and sweep as tabs under the map. Every panel can be closed and reopened from the View menu.
         left, bottom = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.BottomDockWidgetArea
@@ -140,9 +142,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel, bottom, "pocketsDock")
         self.sweep_dock = self._dock("Parameter sweep", self.sweep_panel, bottom, "sweepDock")
         self.cauchy_dock = self._dock("Cauchy problem", self.cauchy_panel, bottom, "cauchyDock")
+        self.exact_dock = self._dock("Exact analysis", self.exact_panel, bottom, "exactDock")
         # Docks beyond the first three under the map wait under the pins until the default layout tabs them:
         # side by side they would widen the window before it is first shown.
-        self._tabbed_later = (self.cauchy_dock,)
+        self._tabbed_later = (self.cauchy_dock, self.exact_dock)
         for dock in self._tabbed_later:
             self.splitDockWidget(self.pins_dock, dock, Qt.Orientation.Vertical)
         self.pins_dock.dockLocationChanged.connect(

@@ -14,7 +14,7 @@ import sympy
 
 from core.equations.parser import tidy_expression
 
-__all__ = ["equation_html", "expression_html", "symbol_html"]
+__all__ = ["equation_html", "expression_html", "symbol_html", "term_html", "terms_html"]
 
 _GREEK = {name: chr(code) for name, code in (
     ("alpha", 0x3B1), ("beta", 0x3B2), ("gamma", 0x3B3), ("delta", 0x3B4), ("epsilon", 0x3B5),
@@ -170,7 +170,7 @@ def expression_html(expr) -> str:
     return html.escape(str(expr))
 
 
-def _term(coefficient: sympy.Expr, derivative: str) -> str | None:
+def term_html(coefficient: sympy.Expr, derivative: str) -> str | None:
     """``coefficient`` times ``derivative`` (rich text) as it reads in a sum; None when the coefficient is 0."""
     if coefficient == 0:
         return None
@@ -184,6 +184,18 @@ def _term(coefficient: sympy.Expr, derivative: str) -> str | None:
     return f"{inner}&#8201;{derivative}"
 
 
+def terms_html(terms) -> str:
+    """A sum of (coefficient, derivative rich text) pairs as it reads (zero terms left out, "+ −" as "−"); "0"
+    when every coefficient is 0."""
+    parts = []
+    for coefficient, derivative in terms:
+        negative = bool(parts) and coefficient != 0 and coefficient.could_extract_minus_sign()
+        text = term_html(-coefficient if negative else coefficient, derivative)
+        if text:
+            parts.append(f"{_MINUS} {text}" if negative else (f"+ {text}" if parts else text))
+    return " ".join(parts).replace(f"+ {_MINUS}", f"{_MINUS} ") if parts else "0"
+
+
 def equation_html(compiled, lower_order: Mapping[str, sympy.Expr] | None = None) -> str:
     """The compiled equation as it reads on paper: the PDE, each definition, and D = b^2 - 4ac.
 
@@ -195,25 +207,15 @@ def equation_html(compiled, lower_order: Mapping[str, sympy.Expr] | None = None)
     symbolic = {name: tidy_expression(value) for name, value in compiled.symbolic.items()}
     x, y = compiled.variables
     second = {"a": (x, x), "b": (x, y), "c": (y, y)}
-    terms = []
-    for which in ("a", "b", "c"):
-        derivative = f"<i>u</i><sub>{html.escape(''.join(second[which]))}</sub>"
-        text = _term(symbolic[which], derivative)
-        if text is not None:
-            terms.append(text)
-    pde = " + ".join(terms).replace(f"+ {_MINUS}", f"{_MINUS} ") if terms else "0"
+    terms = [(symbolic[which], f"<i>u</i><sub>{html.escape(''.join(second[which]))}</sub>")
+             for which in ("a", "b", "c")]
     if lower_order:
         first = {"d": f"<i>u</i><sub>{html.escape(x)}</sub>", "e": f"<i>u</i><sub>{html.escape(y)}</sub>",
                  "f": "<i>u</i>"}
-        lower = [_term(tidy_expression(lower_order[key]), first[key]) for key in ("d", "e", "f")
-                 if key in lower_order]
-        lower = [text for text in lower if text is not None]
-        if lower:
-            stated = " + ".join(lower)
-            pde = stated if pde == "0" else f"{pde} + {stated}"
-        lines = [f"{pde.replace(f'+ {_MINUS}', f'{_MINUS} ')} = 0"]
+        terms += [(tidy_expression(lower_order[key]), first[key]) for key in ("d", "e", "f") if key in lower_order]
+        lines = [f"{terms_html(terms)} = 0"]
     else:
-        lines = [f"{pde} + (lower order) = 0"]
+        lines = [f"{terms_html(terms)} + (lower order) = 0"]
     for name in compiled.definition_order:
         lines.append(f"{symbol_html(name)} = {expression_html(symbolic[name])}")
     a, b, c = (symbolic[k] for k in ("a", "b", "c"))

@@ -52,6 +52,7 @@ from core.equations.equation import Equation
 from core.equations.formula_text import NotInLanguage, formula_text
 from core.equations.language import ExpressionError
 from core.equations.parser import parse_expression, tidy_expression
+from core.progress import CancelCheck, Cancelled
 
 __all__ = ["DEFAULT_DEADLINE_SECONDS", "LOWER_ORDER_NAMES", "CharacteristicFamily", "ExactAnalysis", "Zone",
            "analyze_equation"]
@@ -119,21 +120,26 @@ class ExactAnalysis:
 class _Budget:
     """The analysis' one time budget, shared between steps by weight; notes what ran out."""
 
-    def __init__(self, seconds: float) -> None:
+    def __init__(self, seconds: float, cancel: CancelCheck | None = None) -> None:
         self.end = time.monotonic() + seconds
         self.notes: list[str] = []
+        self.cancel = cancel
 
     def run(self, what: str, weight: float, later: float, function, *args):
         """``function(*args)`` through run_with_deadline with ``weight / (weight + later)`` of the time left,
         but at least _LEAST_STEP (a child process may take a few tenths of a second to start) or what is left;
-        None (and a note) when it runs out, fails or no time is left."""
+        None (and a note) when it runs out, fails or no time is left; Cancelled when ``cancel`` says so."""
+        if self.cancel is not None and self.cancel():
+            raise Cancelled("exact analysis cancelled")
         left = self.end - time.monotonic()
         seconds = min(left, max(left * weight / (weight + later), _LEAST_STEP))
         if seconds < _SHORTEST_STEP:
             self.notes.append(f"{what}: no time left in the deadline")
             return None
         try:
-            return run_with_deadline(function, *args, seconds=seconds)
+            return run_with_deadline(function, *args, seconds=seconds, cancel=self.cancel)
+        except Cancelled:
+            raise
         except TimedOut:
             self.notes.append(f"{what}: sympy did not finish within its share of the deadline "
                               f"({seconds:.3g} s)")
@@ -233,13 +239,14 @@ def _factor_notes(factored: FactoredDiscriminant, checked_at: Mapping[sympy.Symb
 
 def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mapping[str, float] | None = None,
                      substitute_parameters: bool = False, lower_order: Mapping[str, object] | None = None,
-                     data_names: tuple[str, ...] = (), deadline_seconds: float = DEFAULT_DEADLINE_SECONDS
-                     ) -> ExactAnalysis:
+                     data_names: tuple[str, ...] = (), deadline_seconds: float = DEFAULT_DEADLINE_SECONDS,
+                     cancel: CancelCheck | None = None) -> ExactAnalysis:
     """The exact analysis of ``equation`` (module docstring). ``parameters`` override the defaults (values
     where signs are sampled, or substituted with ``substitute_parameters``); ``lower_order`` maps "d", "e",
     "f" to formula text, numbers or sympy expressions; ``data_names`` are the data quantities an Equation's
     text may use (a CompiledEquation already knows them). ExpressionError for bad text (its field names
-    the coefficient), ValueError for a bad option."""
+    the coefficient), ValueError for a bad option. ``cancel`` is asked before each sympy step and while it
+    runs (its child process is stopped): Cancelled when it returns True."""
     if not deadline_seconds > 0:
         raise ValueError(f"deadline_seconds must be a positive number, got {deadline_seconds!r}")
     compiled = equation if isinstance(equation, CompiledEquation) else compile_equation(equation,
@@ -255,7 +262,7 @@ def analyze_equation(equation: CompiledEquation | Equation, *, parameters: Mappi
     data_symbols = frozenset(compiled.symbols[k] for k in compiled.data_keys)
     a, b, c = (coefficients[k] for k in "abc")
     notes: list[str] = []
-    budget = _Budget(deadline_seconds)
+    budget = _Budget(deadline_seconds, cancel)
     raw = b ** 2 - 4 * a * c
     factored = budget.run("factoring D", _WEIGHTS["discriminant"], 2 * _WEIGHTS["family"],
                           factor_discriminant, raw, x, y, by_symbol, data_symbols)
