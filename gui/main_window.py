@@ -257,6 +257,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         a.certified_ready.connect(self.pockets_panel.set_certified)
         self.pockets_panel.pocket_chosen.connect(self._pocket_chosen)
         self.pins_panel.selection_changed.connect(self.cauchy_panel.set_pin)
+        self.exact_dock.visibilityChanged.connect(self.exact_panel.set_seen)
         self.equation_panel.template_requested.connect(self.template_dialog)
         self.data_loader.loaded.connect(self.data_panel.set_loaded)
         self.data_loader.loaded.connect(self._data_loaded)

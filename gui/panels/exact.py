@@ -2,7 +2,8 @@
 
 core.analysis.exact.analyze_equation runs off the GUI thread (gui.jobs, channel "exact"; its sympy steps share
 one deadline and stop when cancelled) a short pause after the equation, its parameters, its lower-order terms or
-the loaded data change; a result for inputs the study no longer has is dropped. The panel shows D and its
+the loaded data change, while the panel can be seen (a hidden tab waits until it is shown); a result for inputs
+the study no longer has is dropped. The panel shows D and its
 factors, the type-change curves and tangencies, the zones with their conditions, each characteristic family's
 slope and invariant, the canonical form of each type and the notes, each formula rendered (gui.math_render)
 with a Copy button for its formula text (core.results.exact_analysis.document: the text that pastes back
@@ -159,7 +160,9 @@ class ExactPanel(QWidget):
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(DEBOUNCE_MS)
-        self._timer.timeout.connect(self.request)
+        self._timer.timeout.connect(self._paused)
+        self._waiting = True            # the study changed while the panel was hidden: analyse once shown
+        self.seen = False               # set by the window from the dock's visibility (set_seen)
         for signal in (document.equation_changed, document.parameters_changed, document.lower_order_changed,
                        document.data_changed, document.project_replaced):
             signal.connect(self._timer.start)
@@ -168,18 +171,34 @@ class ExactPanel(QWidget):
         runner.cancelled.connect(self._cancelled)
         self._timer.start()
 
+    def _paused(self) -> None:
+        """The changes have paused: analyse now if the panel can be seen, else once it is shown (sympy's work
+        can take the whole deadline: a hidden tab spends none)."""
+        if self.seen:
+            self.request()
+        else:
+            self._waiting = True
+
+    def set_seen(self, seen: bool) -> None:
+        """Whether the panel can be seen (its dock's visibilityChanged: a tab behind another cannot); shown
+        with changes waiting, it analyses at once."""
+        self.seen = bool(seen)
+        if self.seen and self._waiting and not self._timer.isActive():
+            self.request()
+
     def current_inputs(self) -> ExactInputs:
         return ExactInputs(replace(self.document.equation, cauchy_data={}), tuple(self.document.data_names),
                            self.substitute.isChecked())
 
     def flush(self) -> None:
-        """Ask now for an analysis that waits for the debounce pause (tests)."""
-        if self._timer.isActive():
+        """Ask now for an analysis that waits for the debounce pause or for the panel to be shown (tests)."""
+        if self._timer.isActive() or self._waiting:
             self.request()
 
     def request(self) -> int:
         """Analyse the shown equation in the background; the job number (0: nothing to analyse)."""
         self._timer.stop()
+        self._waiting = False
         document = self.document
         compiled = document.compiled
         if compiled is None:

@@ -15,16 +15,19 @@ from PySide6.QtWidgets import QApplication
 
 from core.equations.parser import parse_expression
 from gui.computation_log import CANCELLED, DONE
-from gui.panels.exact import CHANNEL
+from gui.panels.exact import CHANNEL, DEBOUNCE_MS
 from tests.ceilings import HANG_CEILING_S
 from tests.gui.conftest import hump_project, tricomi_project
 from tests.gui.test_cauchy_panel import string_project
 
 
 def _analysed(window, qtbot) -> None:
-    """Wait for the panel's analysis of the study as it is now."""
+    """Show the panel and wait for its analysis of the study as it is now (none is made while it is hidden)."""
     panel = window.exact_panel
+    if panel.inputs == panel.current_inputs():
+        return
     with qtbot.waitSignal(panel.shown, timeout=HANG_CEILING_S * 1000):
+        window.exact_dock.raise_()
         panel.flush()
 
 
@@ -54,11 +57,23 @@ def test_tricomi_is_shown_in_mathematics_with_copyable_formula_text(make_window,
     assert entry.outcome == DONE and entry.detail == "3 zones, 2 invariants, 2 canonical forms"
 
 
+def test_a_hidden_panel_waits_until_it_is_shown(make_window, qtbot):
+    window = make_window(tricomi_project(21))
+    panel = window.exact_panel
+    started = []
+    window.runner.started.connect(lambda channel, number, label: started.append(channel))
+    qtbot.wait(2 * DEBOUNCE_MS)                         # the pause after opening ends while the tab is hidden
+    assert not panel.seen and CHANNEL not in started and panel.analysis is None
+    assert panel.visibleRegion().isEmpty()              # a tab behind the pins
+    with qtbot.waitSignal(panel.shown, timeout=HANG_CEILING_S * 1000):
+        window.exact_dock.raise_()                      # brought to the front: analysed at once
+    assert started == [CHANNEL] and panel.inputs == panel.current_inputs()
+
+
 def test_changes_are_debounced_and_stale_results_dropped(make_window, qtbot):
     window = make_window(tricomi_project(21), synchronous=False)
     panel, document = window.exact_panel, window.document
-    assert window.runner.wait_idle(HANG_CEILING_S)
-    panel.flush()                                       # the first analysis, asked when the window opened
+    window.exact_dock.raise_()                          # the first analysis, asked when the tab is shown
     assert window.runner.wait_idle(HANG_CEILING_S)
     started, shown = [], []
     window.runner.started.connect(lambda channel, number, label: started.append(channel))
@@ -91,7 +106,6 @@ def test_cancel_stops_a_long_analysis(make_window, qtbot):
     # the hump's D holds exp(-(x^2 + 4y^2)): sympy's steps run to the analysis' deadline
     window = make_window(hump_project(31, 21), synchronous=False)
     panel = window.exact_panel
-    assert window.runner.wait_idle(HANG_CEILING_S)
     number = panel.request()
     assert number and panel.cancel_button.isEnabled() and panel.progress.isVisibleTo(window)
     panel.cancel_button.click()
