@@ -45,7 +45,8 @@ MAX_ENTRIES = 1000
 # job channel -> what the log calls it
 LOGGED_CHANNELS = {"map": "Type map", "lines": "Type-change lines", "pockets": "Hyperbolic pockets",
                    "characteristics": "Characteristics", "data": "Data files", "data-add": "Data file",
-                   "certified": "Certified map", "sweep": "Parameter sweep", "critical": "Critical values"}
+                   "certified": "Certified map", "sweep": "Parameter sweep", "critical": "Critical values",
+                   "cauchy": "Cauchy problem", "exact": "Exact analysis"}
 
 
 @dataclass(frozen=True)
@@ -224,7 +225,7 @@ class ComputationLog(QObject):
             return _grid_text(self.analysis.type_map.codes.shape)
         if channel == "characteristics":
             return _plural(len(self.document.project.seeds), "seed line")
-        if channel in ("sweep", "critical"):
+        if channel in ("sweep", "critical", "cauchy"):
             domain = self.document.domain
             return _grid_text((domain.ny, domain.nx))
         if channel == "certified":
@@ -305,6 +306,18 @@ def _result_text(channel: str, result: object, *, dragging: bool) -> str:
         return f"{_plural(len(search.events), 'event')} of {search.type} zones in {search.parameter}{proof}"
     if channel == "characteristics":
         return _plural(sum(len(traced.curves) for traced in result), "curve")
+    if channel == "exact":
+        _inputs, analysis, _texts = result
+        found = sum(family.invariant is not None for family in analysis.characteristics)
+        forms = sum(form.lower is not None for form in analysis.canonical)
+        return (f"{_plural(len(analysis.zones), 'zone')}, {_plural(found, 'invariant')}, "
+                f"{_plural(forms, 'canonical form')}")
+    if channel == "cauchy":
+        _inputs, _domain, found = result
+        solution = getattr(found, "solution", None)
+        if solution is None:
+            return f"not solved: {found.message}"
+        return f"{solution.type}, " + ("in closed form" if solution.solution is not None else "with an integral")
     if channel == "data":
         opened, _cache = result
         usable = sum(status.state in (OPENED, CHANGED) for status in opened.statuses)

@@ -15,10 +15,12 @@ from pathlib import Path
 from PySide6.QtCore import QObject, Signal, Slot
 from PySide6.QtGui import QUndoStack
 
+from core.analysis.cauchy_input import CAUCHY_FIELDS
 from core.domain import Domain
 from core.equations.compiled import CompiledEquation
-from core.equations.equation import Equation, Parameter
+from core.equations.equation import LOWER_ORDER_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError
+from core.equations.lower_order import lower_order_problem, stated_lower_order
 from core.project.data_files import compile_with_data
 from core.project.model import Pin, Project, SavedSweep, Seed
 from core.project.names import free_name
@@ -56,6 +58,8 @@ class Document(QObject):
     project_replaced = Signal()        # a different project: everything changed, undo history cleared
     equation_changed = Signal()        # text, definitions, parameter set or the shown equation changed
     parameters_changed = Signal()      # only parameter values of the shown equation changed
+    lower_order_changed = Signal()     # only the lower-order terms d, e, f of the shown equation changed
+    cauchy_data_changed = Signal()     # only the Cauchy data (line, u, du) of the shown equation changed
     equations_listed = Signal()        # the list of equations or domains (names, count) changed
     domain_changed = Signal()
     pins_changed = Signal()
@@ -151,6 +155,10 @@ class Document(QObject):
         self._data_names = names
         self._compiled_for = None
         self.data_changed.emit()
+
+    def check_lower_order(self, which: str, text: str) -> ExpressionError | None:
+        """Why ``text`` cannot be the shown equation's lower-order term ``which``, or None (empty is fine)."""
+        return lower_order_problem(self.equation, which, text, data_names=self._data_names)
 
     def check_equation(self, equation: Equation) -> ExpressionError | None:
         """Why ``equation`` would not compile with the current data names, or None when it compiles."""
@@ -256,6 +264,28 @@ class Document(QObject):
             raise ValueError(f"coefficient must be 'a', 'b' or 'c', got {which!r}")
         equation = replace(self.equation, **{which: text})
         return self.set_equation(equation, f"Edit coefficient {which}", merge_key=merge_key)
+
+    def set_lower_order(self, which: str, text: str, *, merge_key: str = "") -> bool:
+        """State the lower-order term ``which`` ("d", "e" or "f") as ``text``; an empty text states none. It never
+        changes the map: only ``lower_order_changed`` is emitted."""
+        if which not in LOWER_ORDER_NAMES:
+            raise ValueError(f"lower-order term must be one of {', '.join(LOWER_ORDER_NAMES)}, got {which!r}")
+        terms = dict(self.equation.lower_order)
+        terms[which] = text.strip()
+        equation = replace(self.equation, lower_order=stated_lower_order(terms))
+        return self.set_equation(equation, f"Edit lower-order term {which}", merge_key=merge_key)
+
+    def set_cauchy_data(self, which: str, text: str, *, merge_key: str = "") -> bool:
+        """Set one text of the shown equation's Cauchy problem (``which``: "line", "u" or "du"); an empty text
+        removes it. It never changes the map: only ``cauchy_data_changed`` is emitted."""
+        if which not in CAUCHY_FIELDS:
+            raise ValueError(f"Cauchy data are one of {', '.join(CAUCHY_FIELDS)}, got {which!r}")
+        data = {key: value for key, value in self.equation.cauchy_data.items() if key != which}
+        if text.strip():
+            data[which] = text.strip()
+        data = {key: data[key] for key in CAUCHY_FIELDS if key in data}
+        what = {"line": "data line", "u": "u on the data line", "du": "normal derivative on the data line"}[which]
+        return self.set_equation(replace(self.equation, cauchy_data=data), f"Edit Cauchy {what}", merge_key=merge_key)
 
     def set_definitions(self, definitions: dict[str, str], *, merge_key: str = "") -> bool:
         equation = replace(self.equation, definitions=dict(definitions))

@@ -10,6 +10,10 @@ Two things go on top of the map view (gui.map_view) without changing how it draw
   uniform, colour-blind-safe colour map, a colour bar naming the quantity and its unit, iso-lines at the
   chosen values and the value under the mouse (``readout``). Its settings live in the project
   (core.project.model.FieldLayerSettings); it is off by default.
+
+Another panel may lend the field layer a grid computed elsewhere in core (``show_lent``: the Cauchy panel's
+solution u); while lent, it is drawn in place of the study's own field, whose settings stay as they are and
+come back with ``end_lent``.
 """
 
 from __future__ import annotations
@@ -173,6 +177,7 @@ class FieldLayer(FieldDrawing):
         self.readout.setToolTip("The field layer's quantity at the point under the mouse")
         self.problem = ""               # why the field could not be drawn, or ''
         self._requested: FieldLayerSettings | None = None
+        self.lent = None                # (grid, lines, quantity, reader) lent by another panel, or None
 
         for signal in (document.equation_changed, document.parameters_changed, document.domain_changed,
                        document.data_changed):
@@ -218,11 +223,31 @@ class FieldLayer(FieldDrawing):
     def _show_polygons(self, polygons) -> None:
         self.show_polygons(polygons, visible=self.document.project.view.show_type_map)
 
+    # -- a field lent by another panel -----------------------------------------------------------------
+    def show_lent(self, grid, quantity, reader, *, iso_values=(), colour_map: str = "blue_yellow") -> None:
+        """Draw ``grid`` (a core FieldGrid) as the field, titled by ``quantity`` (a core FieldQuantity), with
+        iso-lines at ``iso_values`` and ``reader(x, y)`` giving the value under the mouse, until ``end_lent``."""
+        self.runner.cancel("field")
+        lines = iso_lines(grid, iso_values) if iso_values else ()
+        self.lent = (grid, lines, quantity, reader)
+        self._show_field(grid, lines, quantity, FieldLayerSettings(shown=True, colour_map=colour_map))
+
+    def end_lent(self) -> None:
+        """Back to the study's own field (or none)."""
+        if self.lent is None:
+            return
+        self.lent = None
+        self._show_field(None, (), None)
+        self._requested = None
+        self.refresh()
+
     # -- the field ---------------------------------------------------------------------------------------
     def refresh(self) -> None:
         """Recompute the field when it is shown (else hide it): after any change of the study or its settings."""
         settings = self.settings
         self._requested = settings
+        if self.lent is not None:
+            return
         if not settings.shown:
             self.runner.cancel("field")
             self._show_field(None, (), None)
@@ -258,6 +283,11 @@ class FieldLayer(FieldDrawing):
 
     # -- the value under the mouse ---------------------------------------------------------------------------
     def _hovered(self, x: float, y: float) -> None:
+        if self.lent is not None:
+            quantity, value = self.lent[2], float(self.lent[3](x, y))
+            text = "undefined" if math.isnan(value) else f"{value + 0.0:.5g}"
+            self.readout.setText(f"{quantity.label} = {text}")
+            return
         settings, compiled = self.settings, self.document.compiled
         if not settings.shown or compiled is None or self.quantity is None:
             return
@@ -277,17 +307,17 @@ class FieldLayer(FieldDrawing):
                 self._show_polygons(polygons)
         elif channel == "field":
             grid, lines, quantity, settings = result
-            if settings == self.settings and settings.shown:
+            if settings == self.settings and settings.shown and self.lent is None:
                 self._show_field(grid, lines, quantity, settings)
         elif channel == "field-hover":
             quantity, value = result
-            if self.settings.shown:
+            if self.settings.shown and self.lent is None:
                 text = "undefined" if math.isnan(value) else f"{value + 0.0:.5g}"
                 unit = f" ({quantity.unit})" if quantity.unit else ""
                 self.readout.setText(f"{quantity.label} = {text}{unit}")
 
     def _failed(self, channel: str, number: int, text: str) -> None:
-        if channel == "field":
+        if channel == "field" and self.lent is None:
             self._show_problem(text)
         elif channel == "zones":
             self._show_polygons(None)

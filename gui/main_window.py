@@ -1,4 +1,5 @@
-"""Mixtype's main window: the map takes most of it; the study's panels on the left, pins, pockets and the parameter sweep below it.
+"""Mixtype's main window: the map takes most of it; the study's panels on the left, pins, pockets, the parameter
+sweep, the Cauchy problem and the exact analysis below it.
 
 Lays out the widgets and wires the document (edits, undo), the analysis (background results) and the widgets
 together. Its commands live beside it: gui.file_commands (new, open, recent, save, autosave, recovery),
@@ -31,6 +32,7 @@ from PySide6.QtWidgets import (
 from core.equations.templates import TemplateError, load_template
 from core.project.model import Project, Seed
 from gui.analysis import StudyAnalysis
+from gui.cauchy_overlay import CauchyOverlay
 from gui.certified_layer import CertifiedLayer
 from gui.computation_log import ComputationLog
 from gui.data_loading import DATA_FILTER, DataLoader, problem_text
@@ -41,9 +43,11 @@ from gui.file_commands import FileCommands
 from gui.help import ABOUT_TEXT, CAUTION
 from gui.jobs import JobRunner
 from gui.map_view import MAX_STRETCH, MapView
+from gui.panels.cauchy import CauchyPanel
 from gui.panels.data import DataPanel
 from gui.panels.domain import DomainPanel
 from gui.panels.equation import EquationPanel
+from gui.panels.exact import ExactPanel
 from gui.panels.layers import LayersPanel
 from gui.panels.log import LogPanel
 from gui.panels.notes import NotesPanel
@@ -59,7 +63,7 @@ from gui.window_menus import WindowMenus
 
 __all__ = ["ABOUT_TEXT", "CAUTION", "LAYOUT_VERSION", "MainWindow"]
 
-LAYOUT_VERSION = 3     # saved panel layouts of other versions are not restored (version 3: the sweep tab)
+LAYOUT_VERSION = 4     # saved panel layouts of other versions are not restored (4: the Cauchy and exact tabs)
 
 CHANNEL_NAMES = ("map", "lines", "characteristics", "probes", "pockets", "data", "data-add", "certified",
                  "report")
@@ -117,6 +121,8 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.notes_panel = NotesPanel(self.document)
         self.data_panel = DataPanel(self.document)
         self.sweep_panel = SweepPanel(self.document, self.runner)
+        self.cauchy_panel = CauchyPanel(self.document, self.runner)
+        self.exact_panel = ExactPanel(self.document, self.runner)
         # One column of the study's panels on the left (the equation above, the rest as tabs below it); pins,
         # pockets and sweep as tabs under the map. Every panel can be closed and reopened from the View menu.
         left, bottom = Qt.DockWidgetArea.LeftDockWidgetArea, Qt.DockWidgetArea.BottomDockWidgetArea
@@ -136,6 +142,13 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.pins_dock = self._dock("Pins: readouts at points", self.pins_panel, bottom, "pinsDock")
         self.pockets_dock = self._dock("Hyperbolic pockets of the map", self.pockets_panel, bottom, "pocketsDock")
         self.sweep_dock = self._dock("Parameter sweep", self.sweep_panel, bottom, "sweepDock")
+        self.cauchy_dock = self._dock("Cauchy problem", self.cauchy_panel, bottom, "cauchyDock")
+        self.exact_dock = self._dock("Exact analysis", self.exact_panel, bottom, "exactDock")
+        # Docks beyond the first three under the map wait under the pins until the default layout tabs them:
+        # side by side they would widen the window before it is first shown.
+        self._tabbed_later = (self.cauchy_dock, self.exact_dock)
+        for dock in self._tabbed_later:
+            self.splitDockWidget(self.pins_dock, dock, Qt.Orientation.Vertical)
         self.pins_dock.dockLocationChanged.connect(
             lambda area: self.pins_panel.set_side_by_side(area in (bottom, Qt.DockWidgetArea.TopDockWidgetArea)))
         self.pins_panel.set_side_by_side(True)
@@ -158,6 +171,7 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         self.cancel_button.setVisible(False)
         self.field_layer = FieldLayer(self.map_view, self.document, self.analysis, self.runner, self)
         self.certified_layer = CertifiedLayer(self.map_view, self.analysis, self)
+        self.cauchy_overlay = CauchyOverlay(self.map_view, self.field_layer, self.cauchy_panel, self)
         self.statusBar().addWidget(self.hover_label, 1)
         self.statusBar().addWidget(self.field_layer.readout)
         self.statusBar().addPermanentWidget(self.progress_text)
@@ -210,6 +224,10 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         # Tabified only once the window is shown: tabs made before in the bottom area leave a stray tab bar.
         self.tabifyDockWidget(self.pins_dock, self.pockets_dock)
         self.tabifyDockWidget(self.pockets_dock, self.sweep_dock)
+        previous = self.sweep_dock
+        for dock in self._tabbed_later:
+            self.tabifyDockWidget(previous, dock)
+            previous = dock
         self.pins_dock.raise_()
         width, height = self.width(), self.height()
         scroll_bar = self.style().pixelMetric(QStyle.PixelMetric.PM_ScrollBarExtent)
@@ -239,6 +257,8 @@ class MainWindow(FileCommands, ExportCommands, WindowMenus, QMainWindow):
         a.pockets_ready.connect(self.pockets_panel.set_report)
         a.certified_ready.connect(self.pockets_panel.set_certified)
         self.pockets_panel.pocket_chosen.connect(self._pocket_chosen)
+        self.pins_panel.selection_changed.connect(self.cauchy_panel.set_pin)
+        self.exact_dock.visibilityChanged.connect(self.exact_panel.set_seen)
         self.equation_panel.template_requested.connect(self.template_dialog)
         self.data_loader.loaded.connect(self.data_panel.set_loaded)
         self.data_loader.loaded.connect(self._data_loaded)

@@ -66,16 +66,23 @@ def changed_parts(before: Project, after: Project) -> tuple[str, ...]:
     """Names of the document signals the change from ``before`` to ``after`` calls for, each at most once.
 
     A new shown equation or a change of its structure is ``equation_changed``; a change of parameter values
-    alone is ``parameters_changed``; the view's parabolic tolerance counts as part of the domain, its
-    characteristic bounces with the seeds (the curves change), the other view switches as layers.
+    alone is ``parameters_changed``; a change of the shown equation's lower-order terms or Cauchy data (which
+    never change the map) is ``lower_order_changed`` or ``cauchy_data_changed``, unless ``equation_changed``
+    already says that everything about the equation changed; the view's parabolic tolerance counts as part of
+    the domain, its characteristic bounces with the seeds (the curves change), the other view switches as layers.
     """
     parts: list[str] = []
     (old_equation, old_domain), (new_equation, new_domain) = before.shown(), after.shown()
     if before.shown_equation_index != after.shown_equation_index \
             or equation_structure(old_equation) != equation_structure(new_equation):
         parts.append("equation_changed")
-    elif old_equation.parameters != new_equation.parameters:
-        parts.append("parameters_changed")
+    else:
+        if old_equation.parameters != new_equation.parameters:
+            parts.append("parameters_changed")
+        if old_equation.lower_order != new_equation.lower_order:
+            parts.append("lower_order_changed")
+        if old_equation.cauchy_data != new_equation.cauchy_data:
+            parts.append("cauchy_data_changed")
     if before.equation_names != after.equation_names or before.domain_names != after.domain_names:
         parts.append("equations_listed")
     if old_domain != new_domain or before.view.parabolic_tolerance != after.view.parabolic_tolerance:

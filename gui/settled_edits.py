@@ -32,6 +32,12 @@ UNAPPLIED_WHAT = {
     "parameters": "parameters",
     "domain": "domain",
     "tolerance": "parabolic tolerance",
+    "lower_order.d": "lower-order term d",
+    "lower_order.e": "lower-order term e",
+    "lower_order.f": "lower-order term f",
+    "cauchy.line": "Cauchy data line",
+    "cauchy.u": "Cauchy data u",
+    "cauchy.du": "Cauchy normal derivative",
 }
 
 

@@ -28,8 +28,10 @@ from dataclasses import dataclass
 import sympy
 
 from core.deadline import TimedOut, run_with_deadline
+from core.equations.formula_text import NotInLanguage, formula_text
+from core.progress import CancelCheck, Cancelled
 
-__all__ = ["CauchyError", "CauchySolution", "DataLine", "solve_cauchy"]
+__all__ = ["CauchyError", "CauchySolution", "DataLine", "solution_formula", "solve_cauchy"]
 
 INTEGRATION_SECONDS = 10.0
 
@@ -80,7 +82,9 @@ class CauchySolution:
     ``solution`` is u(x, y) in closed form, None when sympy found no antiderivative of the normal derivative
     within the deadline (``exact`` then holds the unevaluated integral, which ``value_at`` evaluates
     numerically); ``general`` the general solution with arbitrary functions F and G; ``directions`` the
-    characteristic directions (one where parabolic) and ``invariants`` the phi_k.
+    characteristic directions (one where parabolic) and ``invariants`` the phi_k. ``unevaluated`` is u with
+    the integral of the normal derivative left unevaluated (the data and their integral only: what a numerical
+    evaluation on many points needs, core.analysis.cauchy_field); None means ``exact``.
     """
 
     type: str
@@ -93,6 +97,7 @@ class CauchySolution:
     directions: tuple[tuple[sympy.Expr, sympy.Expr], ...]
     invariants: tuple[sympy.Expr, ...]
     notes: tuple[str, ...]
+    unevaluated: sympy.Expr | None = None
 
     def value_at(self, x: float, y: float) -> float:
         """u at (x, y), to double precision (the integral, if any, by mpmath quadrature)."""
@@ -141,10 +146,15 @@ def _crossing(phi: sympy.Expr, line: DataLine, x: sympy.Symbol, y: sympy.Symbol)
 
 
 def _integrate(g: sympy.Expr, s: sympy.Symbol, low: sympy.Expr, high: sympy.Expr,
-               seconds: float) -> tuple[sympy.Expr, bool]:
-    """The integral of g over [low, high] in closed form when sympy finds one in time; else unevaluated."""
+               seconds: float, cancel: CancelCheck | None = None) -> tuple[sympy.Expr, bool]:
+    """The integral of g over [low, high] in closed form when sympy finds one in time; else unevaluated.
+
+    A polynomial in s is integrated here (term by term: it always ends, quickly); anything else in a child
+    process with a deadline (core.deadline)."""
+    if g.is_polynomial(s):
+        return sympy.integrate(g, (s, low, high)), True
     try:
-        value = run_with_deadline(sympy.integrate, g, (s, low, high), seconds=seconds)
+        value = run_with_deadline(sympy.integrate, g, (s, low, high), seconds=seconds, cancel=cancel)
     except TimedOut:
         return sympy.Integral(g, (s, low, high)), False
     return value, not value.has(sympy.Integral)
@@ -152,11 +162,13 @@ def _integrate(g: sympy.Expr, s: sympy.Symbol, low: sympy.Expr, high: sympy.Expr
 
 def solve_cauchy(a, b, c, line: DataLine, u_data: sympy.Expr, du_data: sympy.Expr, s: sympy.Symbol, *,
                  x: sympy.Symbol | None = None, y: sympy.Symbol | None = None,
-                 integration_seconds: float = INTEGRATION_SECONDS) -> CauchySolution:
+                 integration_seconds: float = INTEGRATION_SECONDS,
+                 cancel: CancelCheck | None = None) -> CauchySolution:
     """Solve a u_xx + b u_xy + c u_yy = 0 (a, b, c numbers) with u = ``u_data`` and its derivative along the
     line's unit normal = ``du_data`` on ``line``, both expressions in ``s`` (arc length along the line, see
     the module docstring; data in x and y are restricted to the line first). CauchyError when the equation is
-    elliptic or degenerate or the line is characteristic."""
+    elliptic or degenerate or the line is characteristic. ``cancel`` (raise Cancelled) is asked between the
+    steps and while the integral's child process works."""
     x = sympy.Symbol("x", real=True) if x is None else x
     y = sympy.Symbol("y", real=True) if y is None else y
     a, b, c = (_number(v) for v in (a, b, c))
@@ -182,14 +194,18 @@ def solve_cauchy(a, b, c, line: DataLine, u_data: sympy.Expr, du_data: sympy.Exp
             raise CauchyError(f"the data line runs along {label} (dx, dy) = ({direction[0]}, {direction[1]}), "
                               f"slope dy/dx = {slope}: "
                               "u and its normal derivative cannot be given independently on a characteristic")
+    if cancel is not None and cancel():
+        raise Cancelled("Cauchy problem cancelled")
     notes: list[str] = []
     if len(directions) == 2:
-        exact, closed = _hyperbolic(invariants, along, normal, line, f, g, s, x, y, integration_seconds)
+        exact, closed, unevaluated = _hyperbolic(invariants, along, normal, line, f, g, s, x, y,
+                                                 integration_seconds, cancel)
         F, G = sympy.Function("F"), sympy.Function("G")
         general = F(invariants[0]) + G(invariants[1])
         kind = "hyperbolic"
     else:
         exact, closed = _parabolic(invariants[0], directions[0], along[0], line, f, g, s, x, y), True
+        unevaluated = exact
         F, G = sympy.Function("F"), sympy.Function("G")
         r = directions[0]
         size = sympy.sqrt(r[0] ** 2 + r[1] ** 2)
@@ -202,18 +218,32 @@ def solve_cauchy(a, b, c, line: DataLine, u_data: sympy.Expr, du_data: sympy.Exp
                      f"out of its {integration_seconds:g} s): the solution holds an integral, evaluated numerically "
                      "at a point")
     return CauchySolution(type=kind, x=x, y=y, line=line, exact=exact, solution=exact if closed else None,
-                          general=general, directions=directions, invariants=invariants, notes=tuple(notes))
+                          general=general, directions=directions, invariants=invariants, notes=tuple(notes),
+                          unevaluated=unevaluated)
+
+
+def solution_formula(solution: CauchySolution, names: dict[sympy.Symbol, str] | None = None
+                     ) -> tuple[str | None, str | None]:
+    """(formula text of the closed-form solution, None), or (None, why there is none): no closed form, or one
+    the formula language cannot say (core.equations.formula_text)."""
+    if solution.solution is None:
+        return None, None
+    try:
+        return formula_text(solution.solution, names), None
+    except NotInLanguage as error:
+        return None, f"the closed form is not expressible in the formula language ({error})"
 
 
 def _hyperbolic(invariants, along, normal, line: DataLine, f, g, s, x, y,
-                seconds: float) -> tuple[sympy.Expr, bool]:
+                seconds: float, cancel: CancelCheck | None = None) -> tuple[sympy.Expr, bool, sympy.Expr]:
     across = [sympy.diff(phi, x) * normal[0] + sympy.diff(phi, y) * normal[1] for phi in invariants]
     (m1, m2), (n1, n2) = along, across
     det = sympy.radsimp(sympy.expand(m1 * n2 - m2 * n1))
     s1, s2 = (sympy.expand(sympy.radsimp(_crossing(phi, line, x, y))) for phi in invariants)
-    integral, closed = _integrate(g, s, s1, s2, seconds)
+    integral, closed = _integrate(g, s, s1, s2, seconds, cancel)
     weights = [sympy.radsimp(sympy.expand(w / det)) for w in (m1 * n2, -m2 * n1, m1 * m2)]
-    return weights[0] * f.subs(s, s1) + weights[1] * f.subs(s, s2) + weights[2] * integral, closed
+    values = weights[0] * f.subs(s, s1) + weights[1] * f.subs(s, s2)
+    return values + weights[2] * integral, closed, values + weights[2] * sympy.Integral(g, (s, s1, s2))
 
 
 def _parabolic(phi, direction, m, line: DataLine, f, g, s, x, y) -> sympy.Expr:

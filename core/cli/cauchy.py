@@ -10,82 +10,39 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 from typing import TextIO
 
 import sympy
 
-from core.analysis.cauchy import CauchyError, CauchySolution, DataLine, solve_cauchy
+from core.analysis.cauchy import CauchyError, CauchySolution, solution_formula, solve_cauchy
+from core.analysis.cauchy_input import (
+    LINE_PARAMETER,
+    CauchyInputError,
+    parse_constant,
+    parse_data_line,
+    parse_line_data,
+)
 from core.cli.options import EXIT_OK, UsageError
 from core.equations.formula_text import NotInLanguage, formula_text
 from core.equations.language import ExpressionError, check_name
-from core.equations.parser import parse_expression, tidy_expression
 from core.results.document import json_number
 
-__all__ = ["LINE_PARAMETER", "parse_constant", "parse_data_line", "run"]
-
-LINE_PARAMETER = "s"
+__all__ = ["LINE_PARAMETER", "document", "run"]
 
 
-def parse_constant(text: str, option: str) -> sympy.Expr:
-    """A coefficient typed as a constant formula (2, -1/3, sqrt(5)): an exact real number."""
-    try:
-        value = tidy_expression(parse_expression(text, {}).value)
-    except ExpressionError as error:
-        raise UsageError(f"{option}: {error.message}") from None
-    if not value.is_number or not value.is_real or not math.isfinite(float(value)):
-        raise UsageError(f"{option}: expected a finite real number, got {text!r}")
-    return sympy.nsimplify(value, rational=True) if value.has(sympy.Float) else value
+def _option(error: CauchyInputError) -> UsageError:
+    """A typed part of the problem as a usage error naming its option (--a, --line, --u, --du)."""
+    return UsageError(f"--{error.field}: {error.message}")
 
 
-def parse_data_line(text: str, symbols: dict[str, sympy.Symbol]) -> DataLine:
-    """'ALPHA*x + BETA*y = GAMMA' (either side may hold any linear terms) as a DataLine."""
-    left, equals, right = text.partition("=")
-    if not equals or "=" in right or left.endswith(("<", ">")) or right.startswith("="):
-        raise UsageError(f"--line: expected one '=' as in \"2*x + y = 1\", got {text!r}")
-    try:
-        sides = [tidy_expression(parse_expression(side, symbols).value) for side in (left, right)]
-    except ExpressionError as error:
-        raise UsageError(f"--line: {error.message}") from None
-    x, y = symbols.values()
-    difference = sympy.expand(sides[0] - sides[1])
-    if difference.has(sympy.Float):
-        difference = sympy.nsimplify(difference, rational=True)
-    try:
-        polynomial = sympy.Poly(difference, x, y)
-    except sympy.PolynomialError:
-        polynomial = None
-    if polynomial is None or polynomial.total_degree() > 1 or not all(
-            coefficient.is_number for coefficient in polynomial.coeffs()):
-        raise UsageError(f"--line: {text!r} is not a straight line (expected ALPHA*{x} + BETA*{y} = GAMMA with "
-                         "numbers ALPHA, BETA, GAMMA)")
-    alpha, beta = polynomial.coeff_monomial(x), polynomial.coeff_monomial(y)
-    if alpha == 0 and beta == 0:
-        raise UsageError(f"--line: {text!r} has no {x} or {y} term")
-    return DataLine(alpha, beta, -polynomial.coeff_monomial(1))
-
-
-def _data(text: str, option: str, symbols: dict[str, sympy.Symbol], s: sympy.Symbol) -> sympy.Expr:
-    try:
-        parsed = parse_expression(text, {**symbols, LINE_PARAMETER: s})
-    except ExpressionError as error:
-        raise UsageError(f"{option}: {error.message}" + (f" (column {error.column})" if error.column else "")) \
-            from None
-    if LINE_PARAMETER in parsed.names and parsed.names & set(symbols):
-        raise UsageError(f"{option}: use either {LINE_PARAMETER} (along the line) or {' and '.join(symbols)}, "
-                         "not both")
-    value = tidy_expression(parsed.value)
-    return sympy.nsimplify(value, rational=True) if value.has(sympy.Float) else value
-
-
-def _text(expression: sympy.Expr | None, names: dict[sympy.Symbol, str]) -> tuple[str | None, str | None]:
-    """(formula text, None) or (None, why it cannot be written in the language)."""
+def _text(expression: sympy.Expr | None, names: dict[sympy.Symbol, str]) -> str | None:
+    """Formula text, or None where the language cannot say it."""
     if expression is None:
-        return None, None
+        return None
     try:
-        return formula_text(expression, names), None
-    except NotInLanguage as error:
-        return None, f"the closed form is not expressible in the formula language ({error})"
+        return formula_text(expression, names)
+    except NotInLanguage:
+        return None
 
 
 def _point(value: tuple) -> list[float | None]:
@@ -95,7 +52,7 @@ def _point(value: tuple) -> list[float | None]:
 def document(solution: CauchySolution, names: dict[sympy.Symbol, str], at: tuple[float, float] | None,
              coefficients: tuple[sympy.Expr, sympy.Expr, sympy.Expr]) -> dict:
     """The JSON document of one solved problem (the fields the command prints)."""
-    text, why = _text(solution.solution, names)
+    text, why = solution_formula(solution, names)
     notes = list(solution.notes) + ([why] if why else [])
     value = dependence = None
     if at is not None:
@@ -110,7 +67,7 @@ def document(solution: CauchySolution, names: dict[sympy.Symbol, str], at: tuple
         "at": None if at is None else list(at),
         "general_solution": general,
         "characteristics": [
-            {"family": family, "direction": _point(direction), "invariant": _text(invariant, names)[0]}
+            {"family": family, "direction": _point(direction), "invariant": _text(invariant, names)}
             for family, (direction, invariant) in enumerate(zip(solution.directions, solution.invariants,
                                                                 strict=True), 1)],
         "line": {"normal": _point(solution.line.normal), "tangent": _point(solution.line.tangent),
@@ -133,9 +90,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     x, y, s = sympy.Symbol(names[0], real=True), sympy.Symbol(names[1], real=True), sympy.Symbol(LINE_PARAMETER,
                                                                                                   real=True)
     symbols = {names[0]: x, names[1]: y}
-    coefficients = tuple(parse_constant(getattr(args, key), f"--{key}") for key in "abc")
-    line = parse_data_line(args.line, symbols)
-    u_data, du_data = _data(args.u, "--u", symbols, s), _data(args.du, "--du", symbols, s)
+    try:
+        coefficients = tuple(parse_constant(getattr(args, key), key) for key in "abc")
+        line = parse_data_line(args.line, symbols)
+        u_data, du_data = (parse_line_data(text, key, symbols, s) for key, text in (("u", args.u), ("du", args.du)))
+    except CauchyInputError as error:
+        raise _option(error) from None
     try:
         solution = solve_cauchy(*coefficients, line, u_data, du_data, s, x=x, y=y)
     except CauchyError as error:

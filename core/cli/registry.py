@@ -2,8 +2,8 @@
 
 Building the parser needs only this module and core.cli.options (the standard library), so ``mixtype
 --help`` and a command's ``--help`` start in the time of Python itself. A command's implementation module
-(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy: each has ``run(args, out,
-err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
+(core.cli.classify, sweep, probe, trace, critical, check, templates, batch, cauchy, analyze: each has ``run(args,
+out, err) -> exit status``) is imported only when that command runs; that is the one lazy import of the command
 line, in ``_implemented_in``.
 """
 

@@ -43,6 +43,9 @@ class Equation:
     and from which names; ``peak_quantity`` names the definition whose maximum is reported per pocket.
     ``lower_order`` maps "d", "e", "f" to the text of the coefficients of u_x, u_y and u where the study states
     them (empty: not stated); they never change the type, only the canonical forms of the exact analysis.
+    ``cauchy_data`` maps "line", "u", "du" to the texts of a Cauchy problem stated for the equation (the data
+    line ALPHA*x + BETA*y = GAMMA, u and its normal derivative on it, in s or the variables:
+    core.analysis.cauchy_input); empty: none. Neither changes the type or the map.
     """
 
     a: str
@@ -56,6 +59,7 @@ class Equation:
     trade: Mapping[str, Mapping[str, str]] = field(default_factory=dict)
     peak_quantity: str = ""
     lower_order: Mapping[str, str] = field(default_factory=dict)
+    cauchy_data: Mapping[str, str] = field(default_factory=dict)
 
     def coefficient_text(self, which: str) -> str:
         return {"a": self.a, "b": self.b, "c": self.c}[which]

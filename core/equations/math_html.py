@@ -10,12 +10,13 @@ a data derivative ``diff(q,x)`` as a partial derivative. It needs no LaTeX and n
 from __future__ import annotations
 
 import html
+from collections.abc import Mapping
 
 import sympy
 
 from core.equations.parser import tidy_expression
 
-__all__ = ["equation_html", "expression_html", "symbol_html"]
+__all__ = ["equation_html", "expression_html", "symbol_html", "term_html", "terms_html"]
 
 _GREEK = {name: chr(code) for name, code in (
     ("alpha", 0x3B1), ("beta", 0x3B2), ("gamma", 0x3B3), ("delta", 0x3B4), ("epsilon", 0x3B5),
@@ -59,7 +60,7 @@ def _number(value: sympy.Expr) -> str:
 
 
 def _needs_brackets_in_product(expr: sympy.Expr) -> bool:
-    return isinstance(expr, sympy.Add | sympy.Piecewise) or (expr.is_Number and expr.is_negative)
+    return isinstance(expr, sympy.Add | sympy.Piecewise | sympy.Integral) or (expr.is_Number and expr.is_negative)
 
 
 def _power(base: sympy.Expr, exponent: sympy.Expr) -> str:
@@ -157,6 +158,13 @@ def expression_html(expr) -> str:
     if isinstance(expr, sympy.And | sympy.Or):
         word = " and " if isinstance(expr, sympy.And) else " or "
         return word.join(f"({expression_html(a)})" for a in expr.args)
+    if isinstance(expr, sympy.Integral) and len(expr.limits) == 1 and len(expr.limits[0]) == 3:
+        variable, low, high = expr.limits[0]
+        body = expression_html(expr.function)
+        if isinstance(expr.function, sympy.Add):
+            body = f"({body})"
+        return (f"&int;<sub>{expression_html(low)}</sub><sup>{expression_html(high)}</sup> {body}&#8201;"
+                f"d{symbol_html(variable.name)}")
     if isinstance(expr, sympy.Function):
         name = type(expr).__name__
         name = _FUNCTION_NAMES.get(name, name)
@@ -164,34 +172,52 @@ def expression_html(expr) -> str:
     return html.escape(str(expr))
 
 
-def equation_html(compiled) -> str:
+def term_html(coefficient: sympy.Expr, derivative: str) -> str | None:
+    """``coefficient`` times ``derivative`` (rich text) as it reads in a sum; None when the coefficient is 0."""
+    if coefficient == 0:
+        return None
+    if coefficient == 1:
+        return derivative
+    if coefficient == -1:
+        return f"{_MINUS}{derivative}"
+    inner = expression_html(coefficient)
+    if isinstance(coefficient, sympy.Add) or inner.startswith(_MINUS) or sympy.fraction(coefficient)[1] != 1:
+        inner = f"({inner})"
+    return f"{inner}&#8201;{derivative}"
+
+
+def terms_html(terms) -> str:
+    """A sum of (coefficient, derivative rich text) pairs as it reads (zero terms left out, "+ −" as "−"); "0"
+    when every coefficient is 0."""
+    parts = []
+    for coefficient, derivative in terms:
+        negative = bool(parts) and coefficient != 0 and coefficient.could_extract_minus_sign()
+        text = term_html(-coefficient if negative else coefficient, derivative)
+        if text:
+            parts.append(f"{_MINUS} {text}" if negative else (f"+ {text}" if parts else text))
+    return " ".join(parts).replace(f"+ {_MINUS}", f"{_MINUS} ") if parts else "0"
+
+
+def equation_html(compiled, lower_order: Mapping[str, sympy.Expr] | None = None) -> str:
     """The compiled equation as it reads on paper: the PDE, each definition, and D = b^2 - 4ac.
 
     Uses the coefficients as typed (definitions kept as names) so the display matches the editor, tidied by
     sympy (x - -y reads x + y; x/x reads 1 although the typed x/x is undefined at x = 0, as the map shows).
+    ``lower_order`` holds the stated terms d, e, f (core.equations.lower_order.lower_order_terms): they
+    replace "(lower order)", which stays when none is stated.
     """
     symbolic = {name: tidy_expression(value) for name, value in compiled.symbolic.items()}
     x, y = compiled.variables
     second = {"a": (x, x), "b": (x, y), "c": (y, y)}
-    terms = []
-    for which in ("a", "b", "c"):
-        coefficient = symbolic[which]
-        if coefficient == 0:
-            continue
-        derivative = f"<i>u</i><sub>{html.escape(''.join(second[which]))}</sub>"
-        if coefficient == 1:
-            text = derivative
-        elif coefficient == -1:
-            text = f"{_MINUS}{derivative}"
-        else:
-            inner = expression_html(coefficient)
-            if isinstance(coefficient, sympy.Add) or inner.startswith(_MINUS) \
-                    or sympy.fraction(coefficient)[1] != 1:
-                inner = f"({inner})"
-            text = f"{inner}&#8201;{derivative}"
-        terms.append(text)
-    pde = " + ".join(terms).replace(f"+ {_MINUS}", f"{_MINUS} ") if terms else "0"
-    lines = [f"{pde} + (lower order) = 0"]
+    terms = [(symbolic[which], f"<i>u</i><sub>{html.escape(''.join(second[which]))}</sub>")
+             for which in ("a", "b", "c")]
+    if lower_order:
+        first = {"d": f"<i>u</i><sub>{html.escape(x)}</sub>", "e": f"<i>u</i><sub>{html.escape(y)}</sub>",
+                 "f": "<i>u</i>"}
+        terms += [(tidy_expression(lower_order[key]), first[key]) for key in ("d", "e", "f") if key in lower_order]
+        lines = [f"{terms_html(terms)} = 0"]
+    else:
+        lines = [f"{terms_html(terms)} + (lower order) = 0"]
     for name in compiled.definition_order:
         lines.append(f"{symbol_html(name)} = {expression_html(symbolic[name])}")
     a, b, c = (symbolic[k] for k in ("a", "b", "c"))

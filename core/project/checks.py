@@ -14,6 +14,7 @@ from datetime import datetime
 
 import sympy
 
+from core.analysis.cauchy_input import LINE_PARAMETER, CauchyInputError, parse_data_line, parse_line_data
 from core.equations.compiled import compile_equation
 from core.equations.equation import COEFFICIENT_NAMES, Equation, Parameter
 from core.equations.language import ExpressionError, check_name
@@ -30,7 +31,8 @@ def _equation_path(index: int, field: str) -> str:
     base = ["equations", index]
     if field in COEFFICIENT_NAMES:
         return json_path([*base, "coefficients", field])
-    if field.startswith(("trade.", "lower_order.")) or field in ("trade", "peak_quantity"):
+    if field.startswith(("trade.", "lower_order.", "cauchy_data.")) or field in ("trade", "peak_quantity",
+                                                                                "cauchy_data"):
         return json_path([*base, *field.split(".")[:3]])
     group, _, name = field.partition(".")
     if group in ("definitions", "parameters") and name:
@@ -111,7 +113,32 @@ def _parameter_problems(index: int, parameters: Mapping) -> list[tuple[str, str]
 
 def _equation_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
     return _coefficient_problems(index, raw, has_data=has_data) + _lower_order_problems(index, raw,
-                                                                                         has_data=has_data)
+                                                                                         has_data=has_data) \
+        + _cauchy_problems(index, raw)
+
+
+def _cauchy_problems(index: int, raw: Mapping) -> list[tuple[str, str]]:
+    """Cauchy data that do not read: a line that is not straight, data that use other names than s or the
+    variables (core.analysis.cauchy_input, as the window and `mixtype cauchy` read them)."""
+    texts = raw.get("cauchy_data", {})
+    if not texts:
+        return []
+    variables = raw["variables"]
+    where = _equation_path(index, "cauchy_data")
+    if LINE_PARAMETER in variables:
+        return [(where, f"a variable is called {LINE_PARAMETER}, the name of the arc length along the data line")]
+    symbols = {name: sympy.Symbol(name, real=True) for name in variables}
+    s = sympy.Symbol(LINE_PARAMETER, real=True)
+    problems = []
+    for key, text in texts.items():
+        try:
+            if key == "line":
+                parse_data_line(text, symbols)
+            else:
+                parse_line_data(text, key, symbols, s)
+        except CauchyInputError as error:
+            problems.append((_equation_path(index, f"cauchy_data.{key}"), error.message))
+    return problems
 
 
 def _lower_order_problems(index: int, raw: Mapping, *, has_data: bool) -> list[tuple[str, str]]:
@@ -348,4 +375,5 @@ def equation_from_dict(raw: Mapping) -> Equation:
                     variables=tuple(raw["variables"]), definitions=dict(raw["definitions"]),
                     parameters=parameters, name=raw["name"], description=raw["description"],
                     trade={kind: dict(inputs) for kind, inputs in raw.get("trade", {}).items()},
-                    peak_quantity=raw.get("peak_quantity", ""), lower_order=dict(raw.get("lower_order", {})))
+                    peak_quantity=raw.get("peak_quantity", ""), lower_order=dict(raw.get("lower_order", {})),
+                    cauchy_data=dict(raw.get("cauchy_data", {})))

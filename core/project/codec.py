@@ -80,6 +80,8 @@ def _equation_to_dict(e) -> dict:
         result["peak_quantity"] = e.peak_quantity
     if e.lower_order:
         result["lower_order"] = dict(e.lower_order)
+    if e.cauchy_data:
+        result["cauchy_data"] = dict(e.cauchy_data)
     return result
 
 

@@ -152,6 +152,13 @@ def _equation_schema() -> dict:
             "f": _expression("coefficient of u"),
         }, required=[], description="the lower-order part d u_x + e u_y + f u where the study states it "
                                     "(optional, format 6): it never changes the type, only the canonical forms"),
+        "cauchy_data": _object({
+            "line": _expression("the data line, ALPHA*x + BETA*y = GAMMA in the equation's variables"),
+            "u": _expression("u on the data line, in s (arc length along it) or in the variables"),
+            "du": _expression("the derivative of u along the line's unit normal (ALPHA, BETA)/|(ALPHA, BETA)|, "
+                              "in s or in the variables"),
+        }, required=[], description="a Cauchy problem stated for the equation, solved in closed form where a, b, "
+                                    "c are constant (optional, format 6; a field not typed yet is left out)"),
     }, required=["name", "description", "variables", "coefficients", "definitions", "parameters"],
         description="a second-order equation in two independent variables")
 

@@ -1,9 +1,10 @@
 """The equation editor: which equation of the study is shown, its mathematical form, and its parts to edit.
 
 The panel stacks the chooser, the rendered form (equation, definitions and discriminant as typeset text) and
-three editors: the coefficients a, b, c (gui.panels.coefficient_fields), the definitions and the parameters with
-their sliders (gui.panels.equation_tables, gui.panels.parameter_sliders). Each editor checks what is typed through core
-and edits the document only with an equation that compiles.
+four editors: the coefficients a, b, c (gui.panels.coefficient_fields), the optional lower-order terms d, e, f
+(gui.panels.lower_order_fields), the definitions and the parameters with their sliders (gui.panels.equation_tables,
+gui.panels.parameter_sliders). Each editor checks what is typed through core and edits the document only with
+text that compiles (the lower-order terms: that parses; they never change the map).
 """
 
 from __future__ import annotations
@@ -12,10 +13,13 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import QFrame, QLabel, QVBoxLayout, QWidget
 
 from core.equations.equation import Equation
+from core.equations.language import ExpressionError
+from core.equations.lower_order import lower_order_terms
 from gui.document import Document
 from gui.math_render import equation_html
 from gui.panels.coefficient_fields import CoefficientFields
 from gui.panels.equation_tables import DefinitionTable, ParameterTable
+from gui.panels.lower_order_fields import LowerOrderFields
 from gui.panels.parameter_sliders import SLIDER_STEPS
 from gui.widgets import ERROR_STYLE, SteadyComboBox, chooser_row, purpose_label, push_button, show_choices
 
@@ -32,7 +36,8 @@ class EquationPanel(QWidget):
     def __init__(self, document: Document, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.document = document
-        intro = purpose_label("Coefficients of  a u<sub>xx</sub> + b u<sub>xy</sub> + c u<sub>yy</sub> + ... = 0. "
+        intro = purpose_label("Coefficients of  a u<sub>xx</sub> + b u<sub>xy</sub> + c u<sub>yy</sub> + "
+                              "d u<sub>x</sub> + e u<sub>y</sub> + f u = 0 (d, e, f optional). "
                               "Functions: sin, cos, exp, log, sqrt, abs, min, max, "
                               "piecewise(cond, value, ..., else).")
 
@@ -55,6 +60,7 @@ class EquationPanel(QWidget):
         self.rendered.setToolTip("The equation as typed, in mathematical form, and its discriminant D")
 
         self.coefficient_box = CoefficientFields(document)
+        self.lower_order_box = LowerOrderFields(document)
         self.definition_box = DefinitionTable(document)
         self.parameter_box = ParameterTable(document)
         self.parameter_box.slider_area.drag_started.connect(self.drag_started)
@@ -62,6 +68,8 @@ class EquationPanel(QWidget):
         # The editors' widgets by the names the window and its tests use.
         self.coefficient_edits = self.coefficient_box.edits
         self.coefficient_errors = self.coefficient_box.errors
+        self.lower_order_edits = self.lower_order_box.edits
+        self.lower_order_errors = self.lower_order_box.errors
         self.definitions = self.definition_box.table
         self.definition_error = self.definition_box.error
         self.parameters = self.parameter_box.table
@@ -75,12 +83,14 @@ class EquationPanel(QWidget):
         main.addLayout(chooser)
         main.addWidget(self.rendered)
         main.addWidget(self.coefficient_box)
+        main.addWidget(self.lower_order_box)
         main.addWidget(self.definition_box)
         main.addWidget(self.parameter_box)
         main.addStretch(1)
 
         document.project_replaced.connect(self._forget_drafts)
         document.equation_changed.connect(self.refresh)
+        document.lower_order_changed.connect(self._lower_order_shown)
         document.parameters_changed.connect(lambda: self.parameter_box.show_values(self.document.equation))
         document.equations_listed.connect(self._refresh_choice)
         document.data_changed.connect(lambda: self._render(self.document.equation))
@@ -91,13 +101,14 @@ class EquationPanel(QWidget):
         """Show the document's equation (texts, tables, sliders, rendered form); clears stale errors."""
         equation = self.document.equation
         self.coefficient_box.refresh(equation)
+        self.lower_order_box.refresh(equation)
         self.definition_box.refresh(equation)
         self.parameter_box.refresh(equation)
         self._render(equation)
         self.equation_choice.setCurrentIndex(self.document.project.shown_equation_index)
 
     def _forget_drafts(self) -> None:
-        for editor in (self.coefficient_box, self.definition_box, self.parameter_box):
+        for editor in (self.coefficient_box, self.lower_order_box, self.definition_box, self.parameter_box):
             editor.forget_drafts()
 
     def _refresh_choice(self) -> None:
@@ -111,4 +122,14 @@ class EquationPanel(QWidget):
         elif compiled is None:
             self.rendered.setText(f"<span style='{ERROR_STYLE}'>{self.document.compile_error}</span>")
         else:
-            self.rendered.setText(equation_html(compiled))
+            try:
+                lower = lower_order_terms(equation, data_names=self.document.data_names)
+            except ExpressionError as error:      # a study whose data are not loaded: its terms may not read
+                self.rendered.setText(equation_html(compiled) + f"<br><span style='{ERROR_STYLE}'>{error}</span>")
+                return
+            self.rendered.setText(equation_html(compiled, lower))
+
+    def _lower_order_shown(self) -> None:
+        equation = self.document.equation
+        self.lower_order_box.refresh(equation)
+        self._render(equation)

@@ -37,6 +37,8 @@ def test_the_version_6_sample_reads_as_written():
     assert project.sweeps_of("sample: all fields", "main") == (first, log)
     assert project.equations[0].lower_order == {"d": "k*u", "e": "0", "f": "-1/(1 + x**2)"}
     assert project.equations[1].lower_order == {}
+    assert project.equations[0].cauchy_data == {"line": "x + 2*y = 1/2", "u": "sin(s)", "du": "x**2 - 1"}
+    assert project.equations[1].cauchy_data == {}
     assert dumps_project(project) == V6.read_text(encoding="utf-8")
 
 
@@ -49,6 +51,22 @@ def test_bad_lower_order_terms_are_refused_with_their_place(lower_order, expecte
     data = json.loads(V6.read_text(encoding="utf-8"))
     data["equations"][1]["lower_order"] = lower_order
     data["data_sources"] = []      # names nowhere defined are then errors, not data quantities
+    with pytest.raises(ProjectError) as raised:
+        project_from_dict(data)
+    assert any(expected in str(problem) for problem in raised.value.problems), raised.value.problems
+
+
+@pytest.mark.parametrize(("index", "cauchy_data", "expected"), [
+    (0, {"line": "x**2 + y = 1"}, "$.equations[0].cauchy_data.line: 'x**2 + y = 1' is not a straight line"),
+    (0, {"line": "x + y"}, "$.equations[0].cauchy_data.line: expected one '='"),
+    (0, {"u": "sin(s) + k"}, "$.equations[0].cauchy_data.u: unknown name 'k' (column 10)"),
+    (0, {"du": "s*x"}, "$.equations[0].cauchy_data.du: use either s (along the line) or x and y, not both"),
+    (0, {"w": "1"}, "$.equations[0].cauchy_data: unknown field 'w'"),
+    (1, {"u": "t"}, "$.equations[1].cauchy_data: a variable is called s"),
+])
+def test_bad_cauchy_data_are_refused_with_their_place(index, cauchy_data, expected):
+    data = json.loads(V6.read_text(encoding="utf-8"))
+    data["equations"][index]["cauchy_data"] = cauchy_data
     with pytest.raises(ProjectError) as raised:
         project_from_dict(data)
     assert any(expected in str(problem) for problem in raised.value.problems), raised.value.problems
