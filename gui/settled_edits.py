@@ -14,11 +14,20 @@ from __future__ import annotations
 from collections.abc import Mapping
 
 from PySide6.QtCore import QModelIndex, QObject, QTimer, Signal
-from PySide6.QtWidgets import QLabel, QLineEdit, QStyledItemDelegate, QStyleOptionViewItem, QWidget
+from PySide6.QtWidgets import (
+    QFormLayout,
+    QLabel,
+    QLineEdit,
+    QStyledItemDelegate,
+    QStyleOptionViewItem,
+    QVBoxLayout,
+    QWidget,
+)
 
 from gui.document import Document
+from gui.widgets import error_label
 
-__all__ = ["SETTLE_MS", "UNAPPLIED_WHAT", "SettledText", "SettlingDelegate", "UnappliedNote",
+__all__ = ["SETTLE_MS", "UNAPPLIED_WHAT", "SettledText", "SettlingDelegate", "UnappliedNote", "checked_row",
            "settle_timer", "unapplied_text"]
 
 SETTLE_MS = 600
@@ -47,6 +56,27 @@ def settle_timer(parent: QObject, interval_ms: int = SETTLE_MS) -> QTimer:
     timer.setSingleShot(True)
     timer.setInterval(interval_ms)
     return timer
+
+
+def checked_row(form: QFormLayout, label: str, name: str, tip: str, owner, which: str
+                ) -> tuple[QLineEdit, QLabel, SettledText]:
+    """A formula field with its error line below it, added to ``form``: typing calls ``owner._typed(which,
+    text)``, a settled text ``owner._settled(which, text)``, and the end of an edit drops ``which`` from
+    ``owner._merge_keys`` (the coefficient, lower-order and Cauchy fields all work this way)."""
+    edit = QLineEdit()
+    edit.setObjectName(name)
+    edit.setToolTip(tip)
+    settling = SettledText(edit)
+    settling.typed.connect(lambda text: owner._typed(which, text))
+    settling.settled.connect(lambda text: owner._settled(which, text))
+    settling.finished.connect(lambda: owner._merge_keys.pop(which, None))
+    error = error_label()
+    column = QVBoxLayout()
+    column.setSpacing(1)
+    column.addWidget(edit)
+    column.addWidget(error)
+    form.addRow(label, column)
+    return edit, error, settling
 
 
 class SettledText(QObject):

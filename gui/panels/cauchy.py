@@ -47,8 +47,8 @@ from gui.cauchy_runs import CHANNEL, FIELD_CHANNEL, CauchyRuns
 from gui.document import Document
 from gui.jobs import JobRunner
 from gui.math_render import expression_html
-from gui.settled_edits import SettledText
-from gui.widgets import error_label, push_button, show_error
+from gui.settled_edits import SettledText, checked_row
+from gui.widgets import push_button, show_error
 
 __all__ = ["CHANNEL", "FIELD_CHANNEL", "CauchyPanel"]
 
@@ -93,20 +93,8 @@ class CauchyPanel(QWidget):
         form = QFormLayout()
         form.setContentsMargins(0, 0, 0, 0)
         for which in CAUCHY_FIELDS:
-            edit = QLineEdit()
-            edit.setObjectName(f"cauchy_{which}")
-            edit.setToolTip(_TIPS[which])
-            settling = SettledText(edit)
-            settling.typed.connect(lambda text, which=which: self._typed(which, text))
-            settling.settled.connect(lambda text, which=which: self._settled(which, text))
-            settling.finished.connect(lambda which=which: self._merge_keys.pop(which, None))
-            error = error_label()
-            column = QVBoxLayout()
-            column.setSpacing(1)
-            column.addWidget(edit)
-            column.addWidget(error)
-            form.addRow(_LABELS[which], column)
-            self.edits[which], self.errors[which], self.settling[which] = edit, error, settling
+            self.edits[which], self.errors[which], self.settling[which] = checked_row(
+                form, _LABELS[which], f"cauchy_{which}", _TIPS[which], self, which)
         self.solve_button = push_button("Solve", "Solve the problem again in the background (it is solved by "
                                         "itself whenever the equation or the data change)", self.solve)
         self.solve_button.setObjectName("cauchySolve")

@@ -11,12 +11,12 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit, QVBoxLayout
+from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit
 
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from gui.document import Document
-from gui.settled_edits import SettledText
-from gui.widgets import error_label, show_error
+from gui.settled_edits import SettledText, checked_row
+from gui.widgets import show_error
 
 __all__ = ["CoefficientFields"]
 
@@ -37,23 +37,10 @@ class CoefficientFields(QGroupBox):
         self.settling: dict[str, SettledText] = {}
         form = QFormLayout(self)
         for which in COEFFICIENT_NAMES:
-            edit = QLineEdit()
-            edit.setObjectName(f"coefficient_{which}")
-            edit.setToolTip(f"Coefficient {which}: {_MULTIPLIES[which]}; an expression in the variables, "
-                            "parameters and definitions")
-            settling = SettledText(edit)
-            settling.typed.connect(lambda text, which=which: self._typed(which, text))
-            settling.settled.connect(lambda text, which=which: self._settled(which, text))
-            settling.finished.connect(lambda which=which: self._merge_keys.pop(which, None))
-            error = error_label()
-            column = QVBoxLayout()
-            column.setSpacing(1)
-            column.addWidget(edit)
-            column.addWidget(error)
-            form.addRow(f"{which} =", column)
-            self.edits[which] = edit
-            self.errors[which] = error
-            self.settling[which] = settling
+            tip = (f"Coefficient {which}: {_MULTIPLIES[which]}; an expression in the variables, parameters and "
+                   "definitions")
+            self.edits[which], self.errors[which], self.settling[which] = checked_row(
+                form, f"{which} =", f"coefficient_{which}", tip, self, which)
 
     def refresh(self, equation: Equation) -> None:
         """Show the coefficients of ``equation`` (a field already showing its text keeps its cursor; one holding

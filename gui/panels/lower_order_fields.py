@@ -9,12 +9,12 @@ nothing on the map (the document emits only ``lower_order_changed``).
 
 from __future__ import annotations
 
-from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit, QVBoxLayout
+from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit
 
 from core.equations.equation import LOWER_ORDER_NAMES, Equation
 from gui.document import Document
-from gui.settled_edits import SettledText
-from gui.widgets import error_label, show_error
+from gui.settled_edits import SettledText, checked_row
+from gui.widgets import show_error
 
 __all__ = ["LowerOrderFields"]
 
@@ -36,23 +36,9 @@ class LowerOrderFields(QGroupBox):
         self.settling: dict[str, SettledText] = {}
         form = QFormLayout(self)
         for which in LOWER_ORDER_NAMES:
-            edit = QLineEdit()
-            edit.setObjectName(f"lower_order_{which}")
-            edit.setPlaceholderText("not stated")
-            edit.setToolTip(self._tip(which, ("x", "y")))
-            settling = SettledText(edit)
-            settling.typed.connect(lambda text, which=which: self._typed(which, text))
-            settling.settled.connect(lambda text, which=which: self._settled(which, text))
-            settling.finished.connect(lambda which=which: self._merge_keys.pop(which, None))
-            error = error_label()
-            column = QVBoxLayout()
-            column.setSpacing(1)
-            column.addWidget(edit)
-            column.addWidget(error)
-            form.addRow(f"{which} =", column)
-            self.edits[which] = edit
-            self.errors[which] = error
-            self.settling[which] = settling
+            self.edits[which], self.errors[which], self.settling[which] = checked_row(
+                form, f"{which} =", f"lower_order_{which}", self._tip(which, ("x", "y")), self, which)
+            self.edits[which].setPlaceholderText("not stated")
 
     @staticmethod
     def _tip(which: str, variables: tuple[str, str]) -> str:
