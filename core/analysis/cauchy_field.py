@@ -25,9 +25,9 @@ import sympy
 from scipy.interpolate import CubicHermiteSpline
 
 from core.analysis.cauchy import CauchySolution, DataLine
-from core.analysis.field_values import MAX_FIELD_NODES, FieldGrid, display_grid
+from core.analysis.field_values import MAX_FIELD_NODES, FieldGrid, grid_of
 from core.domain import Domain
-from core.progress import CancelCheck, Cancelled, ProgressReport
+from core.progress import CancelCheck, ProgressReport
 
 __all__ = ["PANELS", "DependenceSketch", "SolutionEvaluator", "dependence_sketch", "line_in_box",
            "solution_evaluator", "solution_on_grid"]
@@ -35,7 +35,6 @@ __all__ = ["PANELS", "DependenceSketch", "SolutionEvaluator", "dependence_sketch
 PANELS = 4096
 _GAUSS_POINTS = 8
 _MODULES = ["scipy", "numpy"]
-_BLOCK_NODES = 1 << 16
 
 Box = tuple[float, float, float, float]        # xmin, xmax, ymin, ymax
 
@@ -130,23 +129,7 @@ def solution_on_grid(evaluator: SolutionEvaluator, domain: Domain, *, max_nodes:
                      cancel: CancelCheck | None = None, progress: ProgressReport | None = None) -> FieldGrid:
     """u on the domain's grid (or a coarser one of at most ``max_nodes``, core.analysis.field_values.display_grid)
     as the field layer's FieldGrid (kind "cauchy", name "u"), a block of rows at a time."""
-    x, y = display_grid(domain, max_nodes)
-    values = np.empty((y.size, x.size))
-    rows = max(1, _BLOCK_NODES // x.size)
-    for start in range(0, y.size, rows):
-        if cancel is not None and cancel():
-            raise Cancelled("Cauchy solution on the grid cancelled")
-        stop = min(y.size, start + rows)
-        xx, yy = np.meshgrid(x, y[start:stop])
-        values[start:stop] = evaluator(xx, yy)
-        if progress is not None:
-            progress(stop / y.size)
-    finite = values[np.isfinite(values)]
-    low, high = (float(finite.min()), float(finite.max())) if finite.size else (math.nan, math.nan)
-    for array in (x, y, values):
-        array.flags.writeable = False
-    return FieldGrid(kind="cauchy", name="u", domain=domain, x=x, y=y, values=values, low=low, high=high,
-                     coarsened=(x.size, y.size) != (domain.nx, domain.ny))
+    return grid_of(domain, "cauchy", "u", evaluator, max_nodes=max_nodes, cancel=cancel, progress=progress)
 
 
 def line_in_box(line: DataLine, box: Box) -> tuple[tuple[float, float], tuple[float, float]] | None:

@@ -37,6 +37,7 @@ __all__ = [
     "field_on_grid",
     "field_quantities",
     "field_values",
+    "grid_of",
     "iso_lines",
 ]
 
@@ -204,16 +205,25 @@ def field_on_grid(compiled: CompiledEquation, domain: Domain, kind: str, name: s
                   trade: Mapping[str, Mapping[str, str]] | None = None, max_nodes: int = MAX_FIELD_NODES,
                   cancel: CancelCheck | None = None, progress: ProgressReport | None = None) -> FieldGrid:
     """The quantity on the domain's grid (or a coarser one, see ``display_grid``), a block of rows at a time."""
+    return grid_of(domain, kind, name, lambda xx, yy: field_values(compiled, kind, name, xx, yy,
+                                                                   parameters=parameters, data=data, trade=trade),
+                   max_nodes=max_nodes, cancel=cancel, progress=progress)
+
+
+def grid_of(domain: Domain, kind: str, name: str, function, *, max_nodes: int = MAX_FIELD_NODES,
+            cancel: CancelCheck | None = None, progress: ProgressReport | None = None) -> FieldGrid:
+    """``function(x, y)`` (arrays of one shape -> values) on the domain's display grid (``display_grid``) as
+    a FieldGrid of ``kind`` and ``name``, a block of rows at a time (any field a layer can draw: a quantity
+    of the study, a Cauchy solution)."""
     x, y = display_grid(domain, max_nodes)
     values = np.empty((y.size, x.size))
     rows = max(1, _BLOCK_NODES // x.size)
     for start in range(0, y.size, rows):
         if cancel is not None and cancel():
-            raise Cancelled("field cancelled")
+            raise Cancelled(f"{name} on the grid cancelled")
         stop = min(y.size, start + rows)
         xx, yy = np.meshgrid(x, y[start:stop])
-        values[start:stop] = field_values(compiled, kind, name, xx, yy, parameters=parameters, data=data,
-                                          trade=trade)
+        values[start:stop] = function(xx, yy)
         if progress is not None:
             progress(stop / y.size)
     finite = values[np.isfinite(values)]
