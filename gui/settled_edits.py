@@ -25,10 +25,19 @@ from PySide6.QtWidgets import (
 )
 
 from gui.document import Document
-from gui.widgets import error_label
+from gui.widgets import error_label, show_error
 
-__all__ = ["SETTLE_MS", "UNAPPLIED_WHAT", "SettledText", "SettlingDelegate", "UnappliedNote", "checked_row",
-           "settle_timer", "unapplied_text"]
+__all__ = [
+    "SETTLE_MS",
+    "UNAPPLIED_WHAT",
+    "CheckedFields",
+    "SettledText",
+    "SettlingDelegate",
+    "UnappliedNote",
+    "checked_row",
+    "settle_timer",
+    "unapplied_text",
+]
 
 SETTLE_MS = 600
 
@@ -56,6 +65,28 @@ def settle_timer(parent: QObject, interval_ms: int = SETTLE_MS) -> QTimer:
     timer.setSingleShot(True)
     timer.setInterval(interval_ms)
     return timer
+
+
+class CheckedFields:
+    """What the panels of formula fields built by ``checked_row`` share (a mixin): ``edits``, ``errors`` and
+    ``settling`` keyed by field, and ``_problem(which, text)`` saying what is wrong ('' when nothing)."""
+
+    BAD_FIELD = "QLineEdit { border: 2px solid #B00020; }"
+    edits: dict[str, QLineEdit]
+    errors: dict[str, QLabel]
+    settling: dict[str, SettledText]
+
+    def forget_drafts(self) -> None:
+        """The next refresh shows the document's texts whatever was typed (another study or equation)."""
+        for settling in self.settling.values():
+            settling.forget_draft()
+
+    def _show_error(self, which: str, text: str) -> None:
+        show_error(self.errors[which], text)
+        self.edits[which].setStyleSheet(self.BAD_FIELD if text else "")
+
+    def _typed(self, which: str, text: str) -> None:
+        self._show_error(which, self._problem(which, text))
 
 
 def checked_row(form: QFormLayout, label: str, name: str, tip: str, owner, which: str

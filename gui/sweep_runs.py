@@ -59,15 +59,23 @@ class SweepRuns(QObject):
             return None
         return compiled
 
-    def run(self, sweep: SavedSweep) -> int:
-        """Start ``sweep`` in the background; returns the job number (0: not started)."""
+    def _study(self):
+        """(compiled, domain, data, tolerance, parameter values) of the shown study, snapshotted on the GUI
+        thread for a job; None (the reason said) when nothing can run now."""
         compiled = self._ready()
         if compiled is None:
-            return 0
+            return None
         document = self.document
-        domain, data, tolerance = document.domain, document.data, document.tolerance
-        parameters = document.equation.parameter_values()
-        quantity = peak_quantity(document.equation, compiled, document.data_names)
+        return (compiled, document.domain, document.data, document.tolerance,
+                document.equation.parameter_values())
+
+    def run(self, sweep: SavedSweep) -> int:
+        """Start ``sweep`` in the background; returns the job number (0: not started)."""
+        study = self._study()
+        if study is None:
+            return 0
+        compiled, domain, data, tolerance, parameters = study
+        quantity = peak_quantity(self.document.equation, compiled, self.document.data_names)
         values = sweep.values()
 
         def work(cancel, progress):
@@ -79,12 +87,10 @@ class SweepRuns(QObject):
 
     def find_critical(self, sweep: SavedSweep) -> int:
         """Search ``sweep``'s range for critical values in the background; returns the job number (0: none)."""
-        compiled = self._ready()
-        if compiled is None:
+        study = self._study()
+        if study is None:
             return 0
-        document = self.document
-        domain, data, tolerance = document.domain, document.data, document.tolerance
-        parameters = document.equation.parameter_values()
+        compiled, domain, data, tolerance, parameters = study
 
         def work(cancel, progress):
             return sweep, find_critical_values(compiled, domain, sweep.parameter, (sweep.low, sweep.high),

@@ -47,12 +47,11 @@ from gui.cauchy_runs import CHANNEL, FIELD_CHANNEL, CauchyRuns
 from gui.document import Document
 from gui.jobs import JobRunner
 from gui.math_render import expression_html
-from gui.settled_edits import SettledText, checked_row
-from gui.widgets import push_button, show_error
+from gui.settled_edits import CheckedFields, SettledText, checked_row
+from gui.widgets import push_button
 
 __all__ = ["CHANNEL", "FIELD_CHANNEL", "CauchyPanel"]
 
-_BAD_FIELD = "QLineEdit { border: 2px solid #B00020; }"
 _NOTICE_STYLE = "QLabel { color: #5C3B00; background: #FFF1CC; border: 1px solid #E0B85C; padding: 3px 6px; }"
 _REFUSAL_STYLE = "QLabel { color: #8A0016; background: #FDECEE; border: 1px solid #E8A0AA; padding: 4px 6px; }"
 _LABELS = {"line": "data line", "u": "u on the line", "du": "∂u/∂n on the line"}
@@ -69,7 +68,7 @@ def _point(point) -> str:
     return f"({point[0]:.6g}, {point[1]:.6g})"
 
 
-class CauchyPanel(QWidget):
+class CauchyPanel(CheckedFields, QWidget):
     """Edits, solves and shows the shown study's Cauchy problem; ``map_changed`` when the map should change."""
 
     map_changed = Signal()
@@ -186,7 +185,7 @@ class CauchyPanel(QWidget):
         for signal in (document.equation_changed, document.parameters_changed, document.cauchy_data_changed,
                        document.data_changed, document.project_replaced):
             signal.connect(self._timer.start)
-        document.project_replaced.connect(self._forget_drafts)
+        document.project_replaced.connect(self.forget_drafts)
         document.domain_changed.connect(self._domain_changed)
         document.pins_changed.connect(self._show_pin)
         self.runs.solved.connect(self._solved)
@@ -203,10 +202,6 @@ class CauchyPanel(QWidget):
         if self._timer.isActive():
             self._timer.stop()
             self._study_changed()
-
-    def _forget_drafts(self) -> None:
-        for settling in self.settling.values():
-            settling.forget_draft()
 
     def _symbols(self) -> dict[str, sympy.Symbol]:
         return {name: sympy.Symbol(name, real=True) for name in self.document.equation.variables}
@@ -237,7 +232,7 @@ class CauchyPanel(QWidget):
         self._timer.stop()
         equation = self.document.equation
         if equation.name != self._equation_name:
-            self._forget_drafts()
+            self.forget_drafts()
             self._equation_name = equation.name
         self.available, status = self._availability()
         self.status.setText(status)
@@ -271,10 +266,6 @@ class CauchyPanel(QWidget):
             self.runs.evaluate_on(self.document.domain)
 
     # -- typed data -----------------------------------------------------------------------------------------
-    def _show_error(self, which: str, text: str) -> None:
-        show_error(self.errors[which], text)
-        self.edits[which].setStyleSheet(_BAD_FIELD if text else "")
-
     def _problem(self, which: str, text: str) -> str:
         """What is wrong with ``text`` as the field ``which``; empty when it reads (or is empty)."""
         if not text.strip():
@@ -288,9 +279,6 @@ class CauchyPanel(QWidget):
         except CauchyInputError as error:
             return error.message
         return ""
-
-    def _typed(self, which: str, text: str) -> None:
-        self._show_error(which, self._problem(which, text))
 
     def _settled(self, which: str, text: str) -> None:
         problem = self._problem(which, text)

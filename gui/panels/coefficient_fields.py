@@ -15,16 +15,14 @@ from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit
 
 from core.equations.equation import COEFFICIENT_NAMES, Equation
 from gui.document import Document
-from gui.settled_edits import SettledText, checked_row
-from gui.widgets import show_error
+from gui.settled_edits import CheckedFields, SettledText, checked_row
 
 __all__ = ["CoefficientFields"]
 
-_BAD_FIELD = "QLineEdit { border: 2px solid #B00020; }"
 _MULTIPLIES = {"a": "multiplies u_xx", "b": "multiplies u_xy", "c": "multiplies u_yy"}
 
 
-class CoefficientFields(QGroupBox):
+class CoefficientFields(CheckedFields, QGroupBox):
     """One line edit per coefficient (``edits``) with an error line under each (``errors``), by name."""
 
     def __init__(self, document: Document) -> None:
@@ -56,15 +54,6 @@ class CoefficientFields(QGroupBox):
             else:
                 self._typed(which, self.edits[which].text())
 
-    def forget_drafts(self) -> None:
-        """The next refresh shows the document's texts whatever was typed (another study or equation)."""
-        for settling in self.settling.values():
-            settling.forget_draft()
-
-    def _show_error(self, which: str, text: str) -> None:
-        show_error(self.errors[which], text)
-        self.edits[which].setStyleSheet(_BAD_FIELD if text else "")
-
     def _problem(self, which: str, text: str) -> str:
         """What is wrong with the equation if coefficient ``which`` read ``text``; empty when it compiles."""
         error = self.document.check_equation(replace(self.document.equation, **{which: text}))
@@ -74,9 +63,6 @@ class CoefficientFields(QGroupBox):
         if error.field in self.errors and error.field != which:
             where = f"{error.field}, " + where
         return f"{where}{error.message}"
-
-    def _typed(self, which: str, text: str) -> None:
-        self._show_error(which, self._problem(which, text))
 
     def _settled(self, which: str, text: str) -> None:
         problem = self._problem(which, text)

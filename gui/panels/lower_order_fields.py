@@ -13,15 +13,13 @@ from PySide6.QtWidgets import QFormLayout, QGroupBox, QLabel, QLineEdit
 
 from core.equations.equation import LOWER_ORDER_NAMES, Equation
 from gui.document import Document
-from gui.settled_edits import SettledText, checked_row
-from gui.widgets import show_error
+from gui.settled_edits import CheckedFields, SettledText, checked_row
 
 __all__ = ["LowerOrderFields"]
 
-_BAD_FIELD = "QLineEdit { border: 2px solid #B00020; }"
 
 
-class LowerOrderFields(QGroupBox):
+class LowerOrderFields(CheckedFields, QGroupBox):
     """One line edit per term (``edits``: "d", "e", "f") with an error line under each (``errors``)."""
 
     def __init__(self, document: Document) -> None:
@@ -59,22 +57,11 @@ class LowerOrderFields(QGroupBox):
             else:
                 self._typed(which, self.edits[which].text())
 
-    def forget_drafts(self) -> None:
-        for settling in self.settling.values():
-            settling.forget_draft()
-
-    def _show_error(self, which: str, text: str) -> None:
-        show_error(self.errors[which], text)
-        self.edits[which].setStyleSheet(_BAD_FIELD if text else "")
-
     def _problem(self, which: str, text: str) -> str:
         error = self.document.check_lower_order(which, text)
         if error is None:
             return ""
         return (f"column {error.column}: " if error.column is not None else "") + error.message
-
-    def _typed(self, which: str, text: str) -> None:
-        self._show_error(which, self._problem(which, text))
 
     def _settled(self, which: str, text: str) -> None:
         problem = self._problem(which, text)
